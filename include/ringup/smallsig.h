@@ -1,0 +1,77 @@
+/* ringup/smallsig.h: the small-signal engine: operating point, poles, loop gain
+ * and network response of a compiled system.
+ *
+ * Operating point: damped Newton on r(x) = 0 with every source at its final DC
+ * value, junction-voltage limiting inside the laws, and source stepping (scale the
+ * sources from 0 to 1) when plain Newton fails. Poles: eigenvalues of
+ * J = M^{-1} dr/dx at the operating point (LAPACKE dgeev). Loop gain: the return
+ * ratio of one amplifier, L(jw) = g^T (jw M - A0)^{-1} b (ru_system_loop_split):
+ * the amplifier's dependence on its control voltage is broken, every load kept;
+ * L = 1 at 0 degrees is the Barkhausen condition. Network response: node `in`
+ * driven by an ideal 1 V source (its row replaced by v_in = 1), read node `out`. */
+#ifndef RINGUP_SMALLSIG_H
+#define RINGUP_SMALLSIG_H
+
+#include "ringup/status.h"
+#include "ringup/system.h"
+
+#include <stddef.h>
+
+#ifdef __cplusplus
+extern "C" {
+#endif
+
+typedef struct ru_oppoint_stats {
+    int iterations;     /* Newton iterations in all */
+    int source_steps;   /* 0 when plain Newton converged */
+    double residual;    /* final max |r| (A) */
+} ru_oppoint_stats;
+
+/* Operating point into x (n entries). x may hold a starting guess when
+ * use_guess is 1; otherwise zeros are used. RU_ENOCONVERGE with a clear message
+ * (which node's residual is largest) when it fails. */
+ru_status ru_oppoint_solve(const ru_system *s, double *x, int use_guess,
+                           ru_oppoint_stats *stats, ru_error *err);
+
+typedef struct ru_pole {
+    double re_per_s;      /* real part (1/s): growth rate when positive */
+    double im_rad_per_s;  /* imaginary part (rad/s) */
+} ru_pole;
+
+/* All n eigenvalues of the linearisation at x, sorted by real part, largest first
+ * (ties: larger |im| first). poles must hold ru_system_size entries. */
+ru_status ru_poles_compute(const ru_system *s, const double *x, ru_pole *poles,
+                           ru_error *err);
+
+/* Index of the dominant complex pair (largest real part among poles with
+ * im > 0; the one with im > 0 is returned) or -1 when there is no complex pole. */
+int ru_poles_dominant(const ru_pole *poles, size_t n);
+
+/* Return ratio of amplifier `part` at frequency f_hz (state x is the operating
+ * point): L = re + j im. */
+ru_status ru_loopgain_at(const ru_system *s, int part, const double *x, double f_hz,
+                         double *re, double *im, ru_error *err);
+
+typedef struct ru_loop_summary {
+    int found;              /* 1 when the phase crosses 0 deg (mod 360) in range */
+    double crossover_hz;    /* frequency of the zero-phase crossing with the largest gain */
+    double gain;            /* |L| there */
+    double margin_db;       /* 20 log10 |L| there: > 0 means the loop starts */
+} ru_loop_summary;
+
+/* Sweeps L over npts log-spaced frequencies from fmin to fmax (mag, phase_deg may
+ * be NULL) and finds the zero-phase crossings (refined by bisection). */
+ru_status ru_loopgain_sweep(const ru_system *s, int part, const double *x,
+                            double fmin_hz, double fmax_hz, size_t npts, double *f_hz,
+                            double *mag, double *phase_deg, ru_loop_summary *sum,
+                            ru_error *err);
+
+/* Transfer v(out)/v(in) with node `in` driven by an ideal source, at f_hz. */
+ru_status ru_response_at(const ru_system *s, const double *x, int node_in,
+                         int node_out, double f_hz, double *mag, double *phase_deg,
+                         ru_error *err);
+
+#ifdef __cplusplus
+}
+#endif
+#endif

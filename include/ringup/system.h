@@ -1,0 +1,117 @@
+/* ringup/system.h: a circuit compiled to the ODE  x' = f(t, x)  with its Jacobian.
+ *
+ * States, in this order: the voltages of the free nodes (every node that no supply
+ * drives), then the inductor currents (i(L) flows from the inductor's first node to
+ * its second), then internal states that some amplifier laws may add. Nodes tied to
+ * ground by a chain of supplies are "driven": their voltage is the supplies' sum,
+ * known at every t, and they are not states.
+ *
+ * Form. Let r(t, x) be the net current into each free node from every part except
+ * capacitors (plus C * dv_driven/dt for each capacitor to a driven node), and for
+ * the other rows their time derivative directly (inductor: (v_a - v_b - R i)/L).
+ * Then   M x' = r(t, x),   M = blockdiag(C, I),
+ * where C is the constant capacitance matrix of the free nodes (capacitors plus the
+ * stray capacitance from every free node to ground, so C is positive definite).
+ * The system factors C once; f = M^{-1} r and J = M^{-1} dr/dx.
+ *
+ * Discontinuities. Step and pulse edges of zero width and a supply with rise 0 are
+ * jumps; ru_system_breakpoints lists their times, and ru_system_apply_jump moves
+ * the free node voltages by the charge-conserving share C^{-1} C_fd dv_d of the
+ * driven nodes' jump (a capacitor to a supply that steps carries the step).
+ *
+ * A system is read-only after creation: calls take it as const and may run from
+ * many threads at once, each with its own x and output arrays. */
+#ifndef RINGUP_SYSTEM_H
+#define RINGUP_SYSTEM_H
+
+#include "ringup/circuit.h"
+#include "ringup/status.h"
+
+#include <stddef.h>
+
+#ifdef __cplusplus
+extern "C" {
+#endif
+
+typedef struct ru_system ru_system;
+
+/* Constructor. Fails with RU_EINPUT (err names the part) when a supply has neither
+ * terminal on ground or on a driven node, or two supplies fix the same node. The
+ * circuit must outlive the system. */
+ru_status ru_system_create(const ru_circuit *c, ru_system **out, ru_error *err);
+
+/* Destructor; NULL is harmless. */
+void ru_system_destroy(ru_system *s);
+
+const ru_circuit *ru_system_circuit(const ru_system *s);
+
+size_t ru_system_size(const ru_system *s);       /* number of states n */
+size_t ru_system_free_nodes(const ru_system *s); /* states 0..free_nodes-1 are voltages */
+
+/* Name of state i: the node name, "i(L1)" for an inductor current, or
+ * "PART.name" for an internal state. */
+const char *ru_system_state_name(const ru_system *s, size_t i);
+
+/* State index of a node's voltage; -1 for ground, -2 for a driven node, -3 when
+ * the node index is out of range. */
+int ru_system_node_state(const ru_system *s, int node);
+
+/* State index of an inductor's current, or -1 when the part is not an inductor. */
+int ru_system_inductor_state(const ru_system *s, int part);
+
+/* Voltage of any node (ground, driven or free) at time t for state x. */
+double ru_system_node_voltage(const ru_system *s, int node, double t, const double *x);
+
+/* The initial state for the circuit's kick (power-on: all zero, then the jump of
+ * supplies that are at value at t = 0; preset: the preset voltages on top). */
+ru_status ru_system_initial_state(const ru_system *s, double *x0, ru_error *err);
+
+/* f(t, x) = M^{-1} r(t, x). */
+ru_status ru_system_rhs(const ru_system *s, double t, const double *x, double *f);
+
+/* J = df/dx (n*n, row-major: J[i*n + j] = df_i/dx_j). */
+ru_status ru_system_jacobian(const ru_system *s, double t, const double *x, double *J);
+
+/* How sources are evaluated for the DC and small-signal engines. */
+typedef struct ru_eval_point {
+    double t_s;          /* time; ignored when dc is set */
+    int dc;              /* 1: every source at its final (DC) value, derivatives 0 */
+    double source_scale; /* multiplies every source value (1 normally; source stepping) */
+} ru_eval_point;
+
+/* r(x) and dr/dx (either may be NULL) at an evaluation point, unscaled by M:
+ * the right form for Newton (r = 0 at an operating point) and for frequency
+ * response ((j w M - dr/dx) dx = b). dr is n*n row-major. */
+ru_status ru_system_residual(const ru_system *s, const ru_eval_point *ep,
+                             const double *x, double *r, double *dr);
+
+/* The mass matrix M = blockdiag(C, I), n*n row-major. */
+void ru_system_mass(const ru_system *s, double *M);
+
+/* Loop breaking for the return ratio of one amplifier part (index into the
+ * circuit's parts). At state x (DC evaluation), splits dr/dx = A0 + b g^T where
+ * g^T x is the amplifier's control voltage (v_in - v_ref) and b holds the
+ * derivatives of every quantity the amplifier controls (its output, not its input
+ * loading) with respect to that voltage. A0 is n*n, b and g have n entries. */
+ru_status ru_system_loop_split(const ru_system *s, int part, const double *x,
+                               double *A0, double *b, double *g, ru_error *err);
+
+/* Times of jumps in (0, t_stop] (edges of zero width), sorted, at most max of
+ * them; returns how many there are (may exceed max). t = 0 is handled by
+ * ru_system_initial_state. Times of slope changes (ramp ends, edge ends) are
+ * listed too, so an integrator can stop on them. */
+size_t ru_system_breakpoints(const ru_system *s, double t_stop, double *bp, size_t max);
+
+/* At a breakpoint t: adds to the free node voltages the charge-conserving share of
+ * the driven nodes' jump from t- to t+. Does nothing when nothing jumps at t. */
+void ru_system_apply_jump(const ru_system *s, double t, double *x);
+
+/* Typical magnitude of each state (volts for nodes, amperes for inductors) for
+ * absolute tolerances: from the supplies, sources and presets. scale has n entries. */
+void ru_system_state_scale(const ru_system *s, double *scale);
+
+
+#ifdef __cplusplus
+}
+#endif
+#endif

@@ -1,0 +1,64 @@
+/* ringup/transient.h: the time-domain engine (SUNDIALS CVODE, BDF, dense direct
+ * linear solver, analytic Jacobian, stability-limit detection).
+ *
+ * Output goes to a caller's callback at uniform sample times t_k = k * sample_s
+ * (k = 0, 1, ... while t_k <= stop_s), interpolated with CVODE's dense output
+ * inside each internal step; the integrator is never restarted per sample, only
+ * at the system's breakpoints (jumps). Nothing is stored: memory does not grow
+ * with run length. On a numerical failure the run stops with RU_ENUMERIC, the
+ * samples already delivered stay delivered and stats->t_reached_s says how far
+ * it got. */
+#ifndef RINGUP_TRANSIENT_H
+#define RINGUP_TRANSIENT_H
+
+#include "ringup/circuit.h"
+#include "ringup/status.h"
+#include "ringup/system.h"
+
+#include <stddef.h>
+
+#ifdef __cplusplus
+extern "C" {
+#endif
+
+/* Called for each output sample, in time order; x holds the n states. A return
+ * other than RU_OK stops the run with that status (e.g. a disk error). */
+typedef ru_status (*ru_sample_fn)(void *user, double t_s, const double *x, size_t n);
+
+typedef struct ru_transient_opts {
+    double stop_s;      /* end time (s, > 0) */
+    double sample_s;    /* output spacing (s, > 0) */
+    double rtol;        /* relative tolerance */
+    double atol_rel;    /* absolute tolerance of state i = atol_rel * scale_i, where
+                           scale_i comes from ru_system_state_scale */
+    long max_steps;     /* internal steps allowed in all (0: no limit) */
+} ru_transient_opts;
+
+/* Tolerances of an accuracy setting (documented in README with the measurement
+ * that justifies them). */
+void ru_transient_opts_for(ru_accuracy acc, ru_transient_opts *o);
+
+typedef struct ru_solver_stats {
+    long steps;          /* internal steps */
+    long rhs_evals;      /* right-hand-side evaluations */
+    long jac_evals;      /* Jacobian evaluations */
+    long err_fails;      /* local error test failures */
+    long newton_fails;   /* nonlinear solver convergence failures */
+    long samples;        /* samples delivered */
+    double rtol;         /* relative tolerance used */
+    double t_reached_s;  /* last time the solution reached */
+    double h_last_s;     /* last internal step size */
+    int order_last;      /* last BDF order */
+    double wall_s;       /* wall-clock time of the run */
+} ru_solver_stats;
+
+/* Runs from t = 0 with initial state x0 (n = ru_system_size entries). stats and
+ * err may be NULL. */
+ru_status ru_transient_run(const ru_system *s, const ru_transient_opts *o,
+                           const double *x0, ru_sample_fn fn, void *user,
+                           ru_solver_stats *stats, ru_error *err);
+
+#ifdef __cplusplus
+}
+#endif
+#endif

@@ -1,0 +1,35 @@
+/* ringup/wavefile.h: the CSV waveform writer, a sink for ru_transient_run.
+ *
+ * Writes DIR/wave.csv: a header `time_s` then one column per free or driven node
+ * voltage (named by the node) and per inductor current (`i(L1)`), one row per
+ * sample, streamed to disk. The file is written as a temporary name in the same
+ * folder and renamed into place by ru_csv_close(..., keep = 1), so a failed run
+ * never leaves a half file under the final name. */
+#ifndef RINGUP_WAVEFILE_H
+#define RINGUP_WAVEFILE_H
+
+#include "ringup/status.h"
+#include "ringup/system.h"
+
+#ifdef __cplusplus
+extern "C" {
+#endif
+
+typedef struct ru_csv ru_csv;
+
+/* Constructor: opens the temporary file next to path. */
+ru_status ru_csv_open(const ru_system *s, const char *path, ru_csv **out, ru_error *err);
+
+/* ru_sample_fn-compatible: writes one row. user is the ru_csv. */
+ru_status ru_csv_sample(void *user, double t_s, const double *x, size_t n);
+
+/* Destructor: flushes and, when keep is 1 and all writes succeeded, renames the
+ * temporary file to the final name; otherwise removes it (keep = 2 keeps a partial
+ * file under the final name, for a run that failed numerically: its rows are
+ * valid up to the time reached). NULL is harmless. */
+ru_status ru_csv_close(ru_csv *w, int keep, ru_error *err);
+
+#ifdef __cplusplus
+}
+#endif
+#endif
