@@ -1,0 +1,31 @@
+/* wave.h: evaluation of source waveforms (ru_wave, private).
+ *
+ * Conventions: every wave is 0 before t = 0 (power-on); from t = 0 on it follows
+ * its kind (circuit.h). Value and slope are right-continuous: at an edge time the
+ * value after the edge is returned, and at a kink the slope on the right side, so
+ * an integrator restarted at a breakpoint sees the new segment. Jumps at t = 0
+ * (a dc wave with rise 0, a step at 0 with no edge, v0 of a step or pulse, a sine
+ * offset) are the initial state's business; ru_wave_jump covers t > 0 only. */
+#ifndef RINGUP_WAVE_H
+#define RINGUP_WAVE_H
+
+#include "ringup/circuit.h"
+
+double ru_wave_value(const ru_wave *w, double t_s);
+double ru_wave_slope(const ru_wave *w, double t_s); /* d value / dt (unit/s) */
+
+/* The value the wave settles at for the DC analysis: dc -> value, step -> v1,
+ * sine -> offset, pulse -> v0 (its base). */
+double ru_wave_final(const ru_wave *w);
+
+/* Largest |value| the wave takes (for tolerance scales). */
+double ru_wave_peak(const ru_wave *w);
+
+/* v(t+) - v(t-) when a zero-width edge falls on t > 0 (within 1e-12 relative),
+ * else 0. */
+double ru_wave_jump(const ru_wave *w, double t_s);
+
+/* Smallest breakpoint (jump or slope change) strictly after t_s, or INFINITY. */
+double ru_wave_next_breakpoint(const ru_wave *w, double t_s);
+
+#endif
