@@ -1,0 +1,725 @@
+/* loader.c: reads a circuit file (our YAML format, see README "Circuit file")
+ * into an ru_circuit: YAML handling with libfyaml, the top level, `run:` and
+ * `measure:`. Parts and presets are in loader_parts.c.
+ *
+ * Invariants: the document is built unresolved and every anchor, alias and tag is
+ * refused before any value is read, so expansion attacks cost one linear walk;
+ * libfyaml's diagnostics are collected (never printed) and returned with their
+ * place; every error is RU_EINPUT with a 1-based FILE:LINE:COL, except an
+ * unreadable file (RU_EIO) and out of memory (RU_ENOMEM). Sections are read in a
+ * fixed order (title, stray, parts, run, measure) whatever their order in the
+ * file, so run and measure can check node and part names. */
+#include "loader_impl.h"
+
+#include <errno.h>
+#include <stdarg.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#ifndef RU_MODELS_DIR
+#define RU_MODELS_DIR "models"
+#endif
+
+const char *ru_loader_default_models_dir(void)
+{
+    const char *env = getenv("RINGUP_MODELS");
+    return (env && env[0]) ? env : RU_MODELS_DIR;
+}
+
+ru_status ru_ld_read_file(const char *path, char **text, size_t *len, ru_error *err)
+{
+    *text = NULL;
+    *len = 0;
+    FILE *f = fopen(path, "rb");
+    if (!f)
+        return ru_error_set(err, RU_EIO, path, 0, 0, "cannot open: %s", strerror(errno));
+    size_t cap = 4096, n = 0;
+    char *buf = malloc(cap);
+    ru_status s = buf ? RU_OK : RU_ENOMEM;
+    while (s == RU_OK) {
+        if (n + 1 >= cap) {
+            char *b = realloc(buf, cap * 2);
+            if (!b) {
+                s = RU_ENOMEM;
+                break;
+            }
+            buf = b;
+            cap *= 2;
+        }
+        size_t got = fread(buf + n, 1, cap - n - 1, f);
+        n += got;
+        if (got == 0) {
+            if (ferror(f))
+                s = ru_error_set(err, RU_EIO, path, 0, 0, "cannot read: %s",
+                                 strerror(errno));
+            break;
+        }
+    }
+    fclose(f);
+    if (s == RU_ENOMEM)
+        ru_error_set(err, RU_ENOMEM, path, 0, 0, "out of memory reading the file");
+    if (s != RU_OK) {
+        free(buf);
+        return s;
+    }
+    buf[n] = '\0';
+    *text = buf;
+    *len = n;
+    return RU_OK;
+}
+
+/* The last diagnostic libfyaml collected, or NULL. */
+static struct fy_diag_error *last_diag(struct fy_diag *diag)
+{
+    void *it = NULL;
+    struct fy_diag_error *e, *last = NULL;
+    while ((e = fy_diag_errors_iterate(diag, &it)) != NULL)
+        last = e;
+    return last;
+}
+
+void ru_ld_place(ld_doc *d, struct fy_node *n, int *line, int *col)
+{
+    *line = *col = 0;
+    if (!n)
+        return;
+    struct fy_token *t = fy_node_get_scalar_token(n);
+    const struct fy_mark *m = t ? fy_token_start_mark(t) : NULL;
+    if (m) {
+        *line = m->line + 1;
+        *col = m->column + 1;
+        if (fy_node_is_alias(n) && *col > 1)
+            (*col)--; /* the token starts after the '*' */
+        return;
+    }
+    /* Collections have no public start mark in libfyaml 0.7.12: a report to the
+     * collecting diag records the node's place, which we read back. */
+    fy_node_report(n, FYET_ERROR, "place");
+    struct fy_diag_error *e = last_diag(d->diag);
+    if (e) {
+        *line = e->line;
+        *col = e->column;
+    }
+}
+
+ru_status ru_ld_fail(ld_doc *d, struct fy_node *n, ru_error *err, const char *fmt, ...)
+{
+    int line, col;
+    ru_ld_place(d, n, &line, &col);
+    char msg[RU_ERROR_TEXT];
+    va_list ap;
+    va_start(ap, fmt);
+    vsnprintf(msg, sizeof msg, fmt, ap);
+    va_end(ap);
+    return ru_error_set(err, RU_EINPUT, d->file, line, col, "%s", msg);
+}
+
+const char *ru_ld_key(struct fy_node_pair *p)
+{
+    struct fy_node *k = fy_node_pair_key(p);
+    if (!k || fy_node_get_type(k) != FYNT_SCALAR)
+        return "";
+    const char *s = fy_node_get_scalar0(k);
+    return s ? s : "";
+}
+
+struct fy_node_pair *ru_ld_find(struct fy_node *map, const char *key)
+{
+    void *it = NULL;
+    struct fy_node_pair *p;
+    while ((p = fy_node_mapping_iterate(map, &it)) != NULL)
+        if (strcmp(ru_ld_key(p), key) == 0)
+            return p;
+    return NULL;
+}
+
+/* "part R1: " or "" as a message prefix. */
+static const char *sep(const char *who) { return who && who[0] ? ": " : ""; }
+
+ru_status ru_ld_scalar(ld_doc *d, struct fy_node_pair *p, const char *who,
+                       ru_error *err, const char **text)
+{
+    struct fy_node *v = fy_node_pair_value(p);
+    if (!v)
+        return ru_ld_fail(d, fy_node_pair_key(p), err, "%s%skey %s has no value", who,
+                          sep(who), ru_ld_key(p));
+    if (fy_node_get_type(v) != FYNT_SCALAR)
+        return ru_ld_fail(d, v, err, "%s%skey %s needs a single value, not a %s", who,
+                          sep(who), ru_ld_key(p),
+                          fy_node_get_type(v) == FYNT_MAPPING ? "mapping" : "list");
+    const char *s = fy_node_get_scalar0(v);
+    *text = s ? s : "";
+    return RU_OK;
+}
+
+ru_status ru_ld_value(ld_doc *d, struct fy_node_pair *p, const char *who,
+                      const char *unit, ru_error *err, double *out)
+{
+    const char *text;
+    ru_status s = ru_ld_scalar(d, p, who, err, &text);
+    if (s != RU_OK)
+        return s;
+    char why[160];
+    if (ru_value_parse(text, unit, out, why, sizeof why) != RU_OK)
+        return ru_ld_fail(d, fy_node_pair_value(p), err, "%s%skey %s: %s", who, sep(who),
+                          ru_ld_key(p), why);
+    return RU_OK;
+}
+
+int ru_ld_valid_name(const char *s)
+{
+    size_t n = strlen(s);
+    if (n == 0 || n >= RU_NAME_MAX)
+        return 0;
+    for (size_t i = 0; i < n; i++) {
+        char ch = s[i];
+        int ok = (ch >= 'a' && ch <= 'z') || (ch >= 'A' && ch <= 'Z') ||
+                 (ch >= '0' && ch <= '9') || ch == '_' || ch == '.';
+        if (!ok)
+            return 0;
+    }
+    return 1;
+}
+
+/* First alias, anchor and tag found in a walk of the unresolved tree. */
+typedef struct ref_find {
+    struct fy_node *alias, *anchor, *tag;
+} ref_find;
+
+static void find_refs(struct fy_node *n, ref_find *r)
+{
+    if (!n || r->alias)
+        return;
+    if (fy_node_is_alias(n)) {
+        r->alias = n;
+        return;
+    }
+    if (!r->anchor && fy_node_get_anchor(n))
+        r->anchor = n;
+    if (!r->tag && fy_node_get_tag_token(n))
+        r->tag = n;
+    void *it = NULL;
+    if (fy_node_get_type(n) == FYNT_MAPPING) {
+        struct fy_node_pair *p;
+        while (!r->alias && (p = fy_node_mapping_iterate(n, &it)) != NULL) {
+            find_refs(fy_node_pair_key(p), r);
+            find_refs(fy_node_pair_value(p), r);
+        }
+    } else if (fy_node_get_type(n) == FYNT_SEQUENCE) {
+        struct fy_node *c;
+        while (!r->alias && (c = fy_node_sequence_iterate(n, &it)) != NULL)
+            find_refs(c, r);
+    }
+}
+
+/* Refuses aliases (named first), anchors and tags, before anything resolves. */
+static ru_status refuse_refs(ld_doc *d, struct fy_node *root, ru_error *err)
+{
+    ref_find r = {NULL, NULL, NULL};
+    find_refs(root, &r);
+    if (r.alias)
+        return ru_ld_fail(d, r.alias, err,
+                          "alias *%s is not allowed (the circuit format has no anchors "
+                          "or aliases; write the value out)",
+                          fy_node_get_scalar0(r.alias));
+    if (r.anchor) {
+        size_t len = 0;
+        const char *a = fy_anchor_get_text(fy_node_get_anchor(r.anchor), &len);
+        return ru_ld_fail(d, r.anchor, err,
+                          "anchor &%.*s is not allowed (the circuit format has no "
+                          "anchors or aliases)",
+                          (int)(len < 64 ? len : 64), a ? a : "");
+    }
+    if (r.tag) {
+        struct fy_token *t = fy_node_get_tag_token(r.tag);
+        const struct fy_mark *m = fy_token_start_mark(t);
+        size_t len = 0;
+        const char *tag = fy_node_get_tag(r.tag, &len);
+        return ru_error_set(err, RU_EINPUT, d->file, m ? m->line + 1 : 0,
+                            m ? m->column + 1 : 0,
+                            "tag %.*s is not allowed (the circuit format uses no YAML "
+                            "tags)",
+                            (int)(len < 64 ? len : 64), tag ? tag : "");
+    }
+    return RU_OK;
+}
+
+/* libfyaml's collected diagnostics as one error at the first one's place. */
+static ru_status yaml_errors(ld_doc *d, ru_error *err)
+{
+    void *it = NULL;
+    struct fy_diag_error *e;
+    char msg[RU_ERROR_TEXT] = "";
+    int line = 0, col = 0;
+    size_t used = 0;
+    while ((e = fy_diag_errors_iterate(d->diag, &it)) != NULL && used + 8 < sizeof msg) {
+        if (e->type < FYET_ERROR)
+            continue;
+        int w;
+        if (!line) {
+            line = e->line;
+            col = e->column;
+            w = snprintf(msg, sizeof msg, "YAML: %s", e->msg ? e->msg : "syntax error");
+        } else {
+            w = snprintf(msg + used, sizeof msg - used, "; then at %d:%d: %s", e->line,
+                         e->column, e->msg ? e->msg : "?");
+        }
+        if (w < 0)
+            break;
+        used += (size_t)w;
+        if (used >= sizeof msg)
+            used = sizeof msg - 1;
+    }
+    if (!line)
+        snprintf(msg, sizeof msg, "YAML: the text could not be parsed");
+    return ru_error_set(err, RU_EINPUT, d->file, line, col, "%s", msg);
+}
+
+static struct fy_diag *quiet_diag(void)
+{
+    struct fy_diag_cfg dc;
+    fy_diag_cfg_default(&dc);
+    dc.fp = NULL;
+    dc.output_fn = NULL;
+    dc.colorize = false;
+    struct fy_diag *diag = fy_diag_create(&dc);
+    if (diag)
+        fy_diag_set_collect_errors(diag, true);
+    return diag;
+}
+
+ru_status ru_ld_open(ld_doc *d, const char *text, size_t len, const char *name,
+                     ru_error *err)
+{
+    memset(d, 0, sizeof *d);
+    snprintf(d->file, sizeof d->file, "%s", name ? name : "");
+    d->diag = quiet_diag();
+    struct fy_parse_cfg cfg = {.flags = FYPCF_QUIET, .diag = d->diag};
+    d->parser = d->diag ? fy_parser_create(&cfg) : NULL;
+    if (!d->parser || fy_parser_set_string(d->parser, text, len) != 0)
+        return ru_error_set(err, RU_ENOMEM, d->file, 0, 0, "cannot start the YAML parser");
+    d->doc = fy_parse_load_document(d->parser);
+    if (!d->doc || fy_diag_got_error(d->diag)) {
+        if (fy_diag_got_error(d->diag))
+            return yaml_errors(d, err);
+        return ru_error_set(err, RU_EINPUT, d->file, 1, 1,
+                            "the file is empty: expected a mapping with a parts: section");
+    }
+    d->root = fy_document_root(d->doc);
+    ru_status s = refuse_refs(d, d->root, err);
+    if (s != RU_OK)
+        return s;
+    struct fy_document *more = fy_parse_load_document(d->parser);
+    if (more || fy_diag_got_error(d->diag)) {
+        if (more) {
+            struct fy_node *r2 = fy_document_root(more);
+            ru_status s2 = r2 ? ru_ld_fail(d, r2, err,
+                                           "the file holds more than one YAML document")
+                              : ru_error_set(err, RU_EINPUT, d->file, 0, 0,
+                                             "the file holds more than one YAML document");
+            fy_parse_document_destroy(d->parser, more);
+            return s2;
+        }
+        return yaml_errors(d, err);
+    }
+    if (!d->root)
+        return ru_error_set(err, RU_EINPUT, d->file, 1, 1,
+                            "the file is empty: expected a mapping with a parts: section");
+    if (fy_node_get_type(d->root) != FYNT_MAPPING)
+        return ru_ld_fail(d, d->root, err,
+                          "the file must be a mapping (title:, stray:, parts:, run:, "
+                          "measure:), not a %s",
+                          fy_node_get_type(d->root) == FYNT_SEQUENCE ? "list" : "scalar");
+    return RU_OK;
+}
+
+void ru_ld_close(ld_doc *d)
+{
+    if (d->doc)
+        fy_parse_document_destroy(d->parser, d->doc);
+    if (d->parser)
+        fy_parser_destroy(d->parser);
+    if (d->diag)
+        fy_diag_unref(d->diag);
+    memset(d, 0, sizeof *d);
+}
+
+/* Every key of map must be in allowed (NULL-terminated). */
+static ru_status only_keys(ld_doc *d, struct fy_node *map, const char *who,
+                           const char *const *allowed, ru_error *err)
+{
+    void *it = NULL;
+    struct fy_node_pair *p;
+    while ((p = fy_node_mapping_iterate(map, &it)) != NULL) {
+        struct fy_node *k = fy_node_pair_key(p);
+        if (!k || fy_node_get_type(k) != FYNT_SCALAR)
+            return ru_ld_fail(d, k, err, "%s%skeys must be plain names", who, sep(who));
+        int ok = 0;
+        for (size_t i = 0; allowed[i] && !ok; i++)
+            ok = strcmp(ru_ld_key(p), allowed[i]) == 0;
+        if (!ok)
+            return ru_ld_fail(d, k, err, "%s%sunknown key %s", who, sep(who),
+                              ru_ld_key(p));
+    }
+    return RU_OK;
+}
+
+/* The value of pair p as a mapping, or an error. */
+static ru_status need_mapping(ld_doc *d, struct fy_node_pair *p, const char *who,
+                              ru_error *err, struct fy_node **map)
+{
+    struct fy_node *v = fy_node_pair_value(p);
+    if (!v || fy_node_get_type(v) != FYNT_MAPPING)
+        return ru_ld_fail(d, v ? v : fy_node_pair_key(p), err,
+                          "%s%skey %s needs a mapping of keys and values", who, sep(who),
+                          ru_ld_key(p));
+    *map = v;
+    return RU_OK;
+}
+
+/* One of names (NULL-terminated) for the scalar value of p, as an index. */
+static ru_status pick(ld_doc *d, struct fy_node_pair *p, const char *who,
+                      const char *const *names, const char *choices, ru_error *err,
+                      int *index)
+{
+    const char *text;
+    ru_status s = ru_ld_scalar(d, p, who, err, &text);
+    if (s != RU_OK)
+        return s;
+    for (int i = 0; names[i]; i++)
+        if (strcmp(text, names[i]) == 0) {
+            *index = i;
+            return RU_OK;
+        }
+    return ru_ld_fail(d, fy_node_pair_value(p), err, "%s%skey %s: '%s' is not one of %s",
+                      who, sep(who), ru_ld_key(p), text, choices);
+}
+
+/* kick: {preset: {node: voltage, ...}} */
+static ru_status read_preset_kick(ld_doc *d, ru_circuit *c, struct fy_node *kmap,
+                                  ru_error *err)
+{
+    static const char *const keys[] = {"preset", NULL};
+    struct fy_node *nodes;
+    ru_status s = only_keys(d, kmap, "run: kick", keys, err);
+    struct fy_node_pair *pp = ru_ld_find(kmap, "preset");
+    if (s == RU_OK && !pp)
+        s = ru_ld_fail(d, kmap, err, "run: kick needs power-on, noise or {preset: {...}}");
+    if (s == RU_OK)
+        s = need_mapping(d, pp, "run: kick", err, &nodes);
+    if (s != RU_OK)
+        return s;
+    ru_run_opts *run = ru_circuit_run_opts(c);
+    run->npreset = 0;
+    void *it = NULL;
+    struct fy_node_pair *p;
+    while ((p = fy_node_mapping_iterate(nodes, &it)) != NULL) {
+        const char *name = ru_ld_key(p);
+        int k = ru_circuit_find_node(c, name);
+        if (k < 0)
+            return ru_ld_fail(d, fy_node_pair_key(p), err,
+                              "run: kick preset: node %s does not exist", name);
+        if (k == 0)
+            return ru_ld_fail(d, fy_node_pair_key(p), err,
+                              "run: kick preset: ground cannot be preset");
+        if (run->npreset == RU_PRESET_MAX)
+            return ru_ld_fail(d, fy_node_pair_key(p), err,
+                              "run: kick preset: at most %d nodes", RU_PRESET_MAX);
+        double v;
+        s = ru_ld_value(d, p, "run: kick preset", "V", err, &v);
+        if (s != RU_OK)
+            return s;
+        run->preset_node[run->npreset] = k;
+        run->preset_v[run->npreset++] = v;
+    }
+    if (run->npreset == 0)
+        return ru_ld_fail(d, nodes, err, "run: kick preset names no node");
+    run->kick = RU_KICK_PRESET;
+    return RU_OK;
+}
+
+static ru_status read_kick(ld_doc *d, ru_circuit *c, struct fy_node_pair *p,
+                           ru_error *err)
+{
+    static const char *const names[] = {"power-on", "noise", NULL};
+    struct fy_node *v = fy_node_pair_value(p);
+    if (v && fy_node_get_type(v) == FYNT_MAPPING)
+        return read_preset_kick(d, c, v, err);
+    int k = 0;
+    ru_status s = pick(d, p, "run", names, "power-on, noise or {preset: {...}}", err, &k);
+    if (s == RU_OK)
+        ru_circuit_run_opts(c)->kick = k == 0 ? RU_KICK_POWER_ON : RU_KICK_NOISE;
+    return s;
+}
+
+static ru_status read_seed(ld_doc *d, struct fy_node_pair *p, ru_error *err,
+                           unsigned long *seed)
+{
+    const char *text;
+    ru_status s = ru_ld_scalar(d, p, "run", err, &text);
+    if (s != RU_OK)
+        return s;
+    int ok = text[0] != '\0' && strlen(text) < 20;
+    for (const char *q = text; ok && *q; q++)
+        ok = *q >= '0' && *q <= '9';
+    if (!ok)
+        return ru_ld_fail(d, fy_node_pair_value(p), err,
+                          "run: key seed: '%s' is not a whole number from 0 up", text);
+    *seed = strtoul(text, NULL, 10);
+    return RU_OK;
+}
+
+/* A positive time for key p of `run`. */
+static ru_status positive_time(ld_doc *d, struct fy_node_pair *p, ru_error *err,
+                               double *out)
+{
+    ru_status s = ru_ld_value(d, p, "run", "s", err, out);
+    if (s == RU_OK && !(*out > 0))
+        s = ru_ld_fail(d, fy_node_pair_value(p), err, "run: key %s must be positive",
+                       ru_ld_key(p));
+    return s;
+}
+
+static ru_status read_run(ld_doc *d, ru_circuit *c, struct fy_node_pair *rp,
+                          ru_error *err)
+{
+    static const char *const keys[] = {"stop", "sample", "kick", "accuracy", "seed", NULL};
+    static const char *const acc[] = {"draft", "normal", "precise", NULL};
+    struct fy_node *map;
+    ru_status s = need_mapping(d, rp, "", err, &map);
+    if (s == RU_OK)
+        s = only_keys(d, map, "run", keys, err);
+    ru_run_opts *run = ru_circuit_run_opts(c);
+    struct fy_node_pair *p;
+    if (s == RU_OK && (p = ru_ld_find(map, "stop")) != NULL)
+        s = positive_time(d, p, err, &run->stop_s);
+    if (s == RU_OK && (p = ru_ld_find(map, "sample")) != NULL) {
+        const char *text;
+        s = ru_ld_scalar(d, p, "run", err, &text);
+        if (s == RU_OK && strcmp(text, "auto") == 0)
+            run->sample_s = 0;
+        else if (s == RU_OK)
+            s = positive_time(d, p, err, &run->sample_s);
+    }
+    if (s == RU_OK && (p = ru_ld_find(map, "kick")) != NULL)
+        s = read_kick(d, c, p, err);
+    int a = 0;
+    if (s == RU_OK && (p = ru_ld_find(map, "accuracy")) != NULL &&
+        (s = pick(d, p, "run", acc, "draft, normal, precise", err, &a)) == RU_OK)
+        run->accuracy = (ru_accuracy)a;
+    if (s == RU_OK && (p = ru_ld_find(map, "seed")) != NULL)
+        s = read_seed(d, p, err, &run->seed);
+    return s;
+}
+
+/* One probe node name (an existing node other than ground). */
+static ru_status probe_node(ld_doc *d, ru_circuit *c, struct fy_node *v,
+                            const char *name, int allow_gnd, ru_error *err, int *node)
+{
+    *node = ru_circuit_find_node(c, name);
+    if (*node < 0)
+        return ru_ld_fail(d, v, err, "measure: key probe: node %s does not exist",
+                          name[0] ? name : "(empty)");
+    if (*node == 0 && !allow_gnd)
+        return ru_ld_fail(d, v, err, "measure: key probe: ground is always 0 V; probe "
+                                     "another node");
+    return RU_OK;
+}
+
+static ru_status read_probe(ld_doc *d, ru_circuit *c, struct fy_node_pair *p,
+                            ru_error *err)
+{
+    const char *text;
+    ru_status s = ru_ld_scalar(d, p, "measure", err, &text);
+    if (s != RU_OK)
+        return s;
+    char pos[RU_NAME_MAX * 2 + 2];
+    snprintf(pos, sizeof pos, "%s", text);
+    char *minus = strchr(pos, '-');
+    if (minus)
+        *minus = '\0';
+    struct fy_node *v = fy_node_pair_value(p);
+    ru_measure_opts *m = ru_circuit_measure_opts(c);
+    s = probe_node(d, c, v, pos, 0, err, &m->probe_pos);
+    m->probe_neg = 0;
+    if (s == RU_OK && minus)
+        s = probe_node(d, c, v, minus + 1, 1, err, &m->probe_neg);
+    if (s == RU_OK && m->probe_pos == m->probe_neg)
+        s = ru_ld_fail(d, v, err, "measure: key probe: the two nodes are the same");
+    return s;
+}
+
+static ru_status read_loop(ld_doc *d, ru_circuit *c, struct fy_node_pair *p,
+                           ru_error *err)
+{
+    const char *text;
+    ru_status s = ru_ld_scalar(d, p, "measure", err, &text);
+    if (s != RU_OK)
+        return s;
+    int k = ru_circuit_find_part(c, text);
+    if (k < 0)
+        return ru_ld_fail(d, fy_node_pair_value(p), err,
+                          "measure: key loop: there is no part %s", text);
+    if (ru_circuit_part(c, (size_t)k)->type != RU_PART_AMPLIFIER)
+        return ru_ld_fail(d, fy_node_pair_value(p), err,
+                          "measure: key loop: part %s is not an amplifier", text);
+    snprintf(ru_circuit_measure_opts(c)->loop, RU_NAME_MAX, "%s", text);
+    return RU_OK;
+}
+
+/* A fraction in (0, 1) written as a percentage or a plain number. */
+static ru_status fraction(ld_doc *d, struct fy_node *v, const char *what, ru_error *err,
+                          double *out)
+{
+    char why[160];
+    const char *text = (v && fy_node_get_type(v) == FYNT_SCALAR) ? fy_node_get_scalar0(v)
+                                                                  : NULL;
+    if (!text)
+        return ru_ld_fail(d, v, err, "measure: %s needs a single value", what);
+    if (ru_value_parse(text, "%", out, why, sizeof why) != RU_OK)
+        return ru_ld_fail(d, v, err, "measure: %s: %s", what, why);
+    if (!(*out > 0 && *out < 1))
+        return ru_ld_fail(d, v, err,
+                          "measure: %s must lie between 0 and 100%% (0 and 1), got %s",
+                          what, text);
+    return RU_OK;
+}
+
+static ru_status read_window(ld_doc *d, ru_circuit *c, struct fy_node_pair *p,
+                             ru_error *err)
+{
+    struct fy_node *v = fy_node_pair_value(p);
+    if (!v || fy_node_get_type(v) != FYNT_SEQUENCE || fy_node_sequence_item_count(v) != 2)
+        return ru_ld_fail(d, v ? v : fy_node_pair_key(p), err,
+                          "measure: key growth-window needs a list of two levels [lo, hi]");
+    double lo, hi;
+    ru_status s = fraction(d, fy_node_sequence_get_by_index(v, 0),
+                           "key growth-window", err, &lo);
+    if (s == RU_OK)
+        s = fraction(d, fy_node_sequence_get_by_index(v, 1), "key growth-window", err, &hi);
+    if (s == RU_OK && !(lo < hi))
+        s = ru_ld_fail(d, v, err, "measure: key growth-window: lo must be below hi");
+    if (s == RU_OK) {
+        ru_circuit_measure_opts(c)->growth_lo = lo;
+        ru_circuit_measure_opts(c)->growth_hi = hi;
+    }
+    return s;
+}
+
+static ru_status read_measure(ld_doc *d, ru_circuit *c, struct fy_node_pair *mp,
+                              ru_error *err)
+{
+    static const char *const keys[] = {"probe", "loop", "startup-level", "growth-window",
+                                       NULL};
+    struct fy_node *map;
+    ru_status s = need_mapping(d, mp, "", err, &map);
+    if (s == RU_OK)
+        s = only_keys(d, map, "measure", keys, err);
+    struct fy_node_pair *p;
+    if (s == RU_OK && (p = ru_ld_find(map, "probe")) != NULL)
+        s = read_probe(d, c, p, err);
+    if (s == RU_OK && (p = ru_ld_find(map, "loop")) != NULL)
+        s = read_loop(d, c, p, err);
+    if (s == RU_OK && (p = ru_ld_find(map, "startup-level")) != NULL)
+        s = fraction(d, fy_node_pair_value(p), "key startup-level", err,
+                     &ru_circuit_measure_opts(c)->startup_level);
+    if (s == RU_OK && (p = ru_ld_find(map, "growth-window")) != NULL)
+        s = read_window(d, c, p, err);
+    return s;
+}
+
+/* Warns about the first node with no DC path to ground, at its first mention. */
+static ru_status warn_floating(ru_circuit *c, const char *file)
+{
+    int node;
+    if (!ru_circuit_find_floating_node(c, &node))
+        return RU_OK;
+    int line, col;
+    ru_circuit_node_place(c, node, &line, &col);
+    char text[RU_ERROR_TEXT + RU_ERROR_FILE];
+    snprintf(text, sizeof text,
+             "%s:%d:%d: warning: node %s has no DC path to ground (only capacitors or "
+             "current sources reach it, so its DC level is undefined)",
+             file, line, col, ru_circuit_node_name(c, node));
+    return ru_circuit_add_warning(c, text);
+}
+
+static ru_status read_top(ld_doc *d, const char *models_dir, ru_circuit **out,
+                          ru_error *err)
+{
+    static const char *const keys[] = {"title", "stray", "parts", "run", "measure", NULL};
+    ru_status s = only_keys(d, d->root, "", keys, err);
+    const char *title = "";
+    struct fy_node_pair *p = ru_ld_find(d->root, "title");
+    if (s == RU_OK && p)
+        s = ru_ld_scalar(d, p, "", err, &title);
+    ru_circuit *c = NULL;
+    if (s == RU_OK && (s = ru_circuit_create(title, &c)) != RU_OK)
+        ru_error_set(err, s, d->file, 0, 0, "out of memory creating the circuit");
+    if (s == RU_OK)
+        ru_circuit_set_file(c, d->file);
+    double stray;
+    if (s == RU_OK && (p = ru_ld_find(d->root, "stray")) != NULL &&
+        (s = ru_ld_value(d, p, "", "F", err, &stray)) == RU_OK &&
+        ru_circuit_set_stray_f(c, stray) != RU_OK)
+        s = ru_ld_fail(d, fy_node_pair_value(p), err, "key stray must be positive");
+    if (s == RU_OK && (p = ru_ld_find(d->root, "parts")) == NULL)
+        s = ru_ld_fail(d, d->root, err, "missing required key parts");
+    ld_ctx ctx = {d, c, models_dir, err};
+    if (s == RU_OK)
+        s = ru_ld_parts(&ctx, p);
+    if (s == RU_OK && (s = warn_floating(c, d->file)) != RU_OK)
+        ru_error_set(err, s, d->file, 0, 0, "out of memory adding a warning");
+    if (s == RU_OK && (p = ru_ld_find(d->root, "run")) != NULL)
+        s = read_run(d, c, p, err);
+    if (s == RU_OK && (p = ru_ld_find(d->root, "measure")) != NULL)
+        s = read_measure(d, c, p, err);
+    if (s != RU_OK) {
+        ru_circuit_destroy(c);
+        c = NULL;
+    }
+    *out = c;
+    return s;
+}
+
+/* Loads text (len bytes) named name; the common path of both constructors. */
+static ru_status load_text(const char *text, size_t len, const char *name,
+                           const char *models_dir, ru_circuit **out, ru_error *err)
+{
+    if (!models_dir)
+        models_dir = ru_loader_default_models_dir();
+    ld_doc d;
+    ru_status s = ru_ld_open(&d, text, len, name, err);
+    if (s == RU_OK)
+        s = read_top(&d, models_dir, out, err);
+    ru_ld_close(&d);
+    return s;
+}
+
+ru_status ru_circuit_load_string(const char *text, const char *name,
+                                 const char *models_dir, ru_circuit **out,
+                                 ru_error *err)
+{
+    *out = NULL;
+    ru_error_clear(err);
+    if (!name)
+        name = "<string>";
+    if (!text)
+        return ru_error_set(err, RU_EINPUT, name, 0, 0, "no text to load");
+    return load_text(text, strlen(text), name, models_dir, out, err);
+}
+
+ru_status ru_circuit_load(const char *path, const char *models_dir, ru_circuit **out,
+                          ru_error *err)
+{
+    *out = NULL;
+    ru_error_clear(err);
+    char *text;
+    size_t len;
+    ru_status s = ru_ld_read_file(path, &text, &len, err);
+    if (s == RU_OK)
+        s = load_text(text, len, path, models_dir, out, err);
+    free(text);
+    return s;
+}

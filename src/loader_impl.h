@@ -1,0 +1,73 @@
+/* loader_impl.h: private helpers shared by the circuit-file loader's sources
+ * (loader.c: YAML handling, top level, run and measure; loader_parts.c: parts,
+ * waveforms, amplifiers and preset files).
+ *
+ * Invariants: an ld_doc holds one parsed YAML file whose anchors, aliases and
+ * tags have been refused before anything reads a value; every error goes through
+ * ru_ld_fail, which fills err with RU_EINPUT and the node's 1-based place. */
+#ifndef RU_LOADER_IMPL_H
+#define RU_LOADER_IMPL_H
+
+#include "ringup/circuit.h"
+#include "ringup/loader.h"
+#include "ringup/status.h"
+
+#include <libfyaml.h>
+
+/* One parsed YAML file. */
+typedef struct ld_doc {
+    char file[RU_ERROR_FILE];   /* name used in messages */
+    struct fy_diag *diag;       /* collects libfyaml's diagnostics (never prints) */
+    struct fy_parser *parser;   /* owns the input */
+    struct fy_document *doc;    /* unresolved document */
+    struct fy_node *root;       /* root mapping */
+} ld_doc;
+
+/* A part being read: the file, the circuit, and where presets live. */
+typedef struct ld_ctx {
+    ld_doc *d;                  /* the circuit file */
+    ru_circuit *c;              /* circuit being filled */
+    const char *models_dir;     /* folder of models/NAME.yaml presets */
+    ru_error *err;              /* caller's error record */
+} ld_ctx;
+
+/* Reads a whole file (RU_EIO with the OS reason on failure). *text is malloc'd. */
+ru_status ru_ld_read_file(const char *path, char **text, size_t *len, ru_error *err);
+
+/* Parses text into d (root must be a mapping; no anchors, aliases or tags).
+ * Call ru_ld_close(d) afterwards in every case. */
+ru_status ru_ld_open(ld_doc *d, const char *text, size_t len, const char *name,
+                     ru_error *err);
+void ru_ld_close(ld_doc *d);
+
+/* 1-based place of a node (0,0 when unknown). */
+void ru_ld_place(ld_doc *d, struct fy_node *n, int *line, int *col);
+
+/* Fills err with RU_EINPUT at node n and returns RU_EINPUT. */
+ru_status ru_ld_fail(ld_doc *d, struct fy_node *n, ru_error *err, const char *fmt, ...)
+#if defined(__GNUC__)
+    __attribute__((format(printf, 4, 5)))
+#endif
+    ;
+
+/* The scalar text of a key node ("" for a non-scalar). */
+const char *ru_ld_key(struct fy_node_pair *p);
+
+/* The pair with key `key` in mapping map, or NULL. */
+struct fy_node_pair *ru_ld_find(struct fy_node *map, const char *key);
+
+/* Scalar text of pair p's value, or an error naming who and the key. */
+ru_status ru_ld_scalar(ld_doc *d, struct fy_node_pair *p, const char *who,
+                       ru_error *err, const char **text);
+
+/* Pair p's value parsed by ru_value_parse with unit (NULL: plain number). */
+ru_status ru_ld_value(ld_doc *d, struct fy_node_pair *p, const char *who,
+                      const char *unit, ru_error *err, double *out);
+
+/* Whether s is a valid part or node name (letters, digits, _ and .). */
+int ru_ld_valid_name(const char *s);
+
+/* Reads the `parts:` mapping into ctx->c. */
+ru_status ru_ld_parts(ld_ctx *ctx, struct fy_node_pair *parts);
+
+#endif

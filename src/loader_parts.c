@@ -1,0 +1,472 @@
+/* loader_parts.c: reads the `parts:` section of a circuit file, and amplifier
+ * presets (models/NAME.yaml), into ru_part records.
+ *
+ * Invariants: a part's keys are checked against its type (and wave or law) before
+ * any value is read, so a misplaced key is named, not ignored; amplifier values
+ * are layered defaults(law) < preset < the part's own keys; every part is added
+ * through ru_circuit_add_part with line/col at its name, so the builder's value
+ * checks carry the place. Nodes are created in order of first mention. */
+#include "loader_impl.h"
+
+#include <stddef.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+/* Every key a part may carry under some type, wave or law. */
+static const char *const all_part_keys[] = {
+    "type", "nodes", "value", "tol",   "series", "coeffs", "wave",   "rise", "from",
+    "to",   "at",    "edge",  "width", "period", "offset", "amplitude", "freq", "phase",
+    "in",   "out",   "ref",   "model", "law",    "gain",   "swing",  "center", "rout",
+    "is",   "n",     "beta",  "vsat",  "temp",   NULL};
+
+#define MAX_KEYS 16
+
+/* A value key read into a double at a byte offset of a struct. */
+typedef struct key_rec {
+    const char *key;  /* spelling in the file */
+    const char *unit; /* expected unit; "sig": V for a supply, A for a current */
+    size_t offset;    /* offset of the double in ru_wave or ru_amp */
+    int required;     /* 1: the key must be given */
+} key_rec;
+
+#define W(f) offsetof(ru_wave, f)
+static const key_rec wave_dc[] = {{"value", "sig", W(value), 1},
+                                  {"rise", "s", W(rise_s), 0},
+                                  {NULL, NULL, 0, 0}};
+static const key_rec wave_step[] = {{"from", "sig", W(v0), 0}, {"to", "sig", W(v1), 1},
+                                    {"at", "s", W(at_s), 0},   {"edge", "s", W(edge_s), 0},
+                                    {NULL, NULL, 0, 0}};
+static const key_rec wave_sine[] = {
+    {"offset", "sig", W(offset), 0}, {"amplitude", "sig", W(amplitude), 1},
+    {"freq", "Hz", W(freq_hz), 1},   {"phase", NULL, W(phase_deg), 0},
+    {"at", "s", W(at_s), 0},         {NULL, NULL, 0, 0}};
+static const key_rec wave_pulse[] = {
+    {"from", "sig", W(v0), 0},      {"to", "sig", W(v1), 1},
+    {"at", "s", W(at_s), 0},        {"width", "s", W(width_s), 1},
+    {"period", "s", W(period_s), 0}, {"edge", "s", W(edge_s), 0},
+    {NULL, NULL, 0, 0}};
+#undef W
+static const char *const wave_names[] = {"dc", "step", "sine", "pulse", NULL};
+static const key_rec *const wave_keys[] = {wave_dc, wave_step, wave_sine, wave_pulse};
+
+#define A(f) offsetof(ru_amp, f)
+static const key_rec law_follower[] = {{"gain", NULL, A(gain), 0},
+                                       {"swing", "V", A(swing_v), 0},
+                                       {"center", "V", A(center_v), 0},
+                                       {"rout", "ohm", A(rout_ohm), 0},
+                                       {NULL, NULL, 0, 0}};
+static const key_rec law_exp[] = {{"is", "A", A(is_a), 0},     {"n", NULL, A(n), 0},
+                                  {"beta", NULL, A(beta), 0},  {"vsat", "V", A(vsat_v), 0},
+                                  {"temp", "C", A(temp_c), 0}, {NULL, NULL, 0, 0}};
+#undef A
+static const key_rec *const law_keys[RU_LAW_COUNT] = {law_follower, law_exp};
+
+/* Appends the keys of recs to list (NULL-terminated, at most MAX_KEYS). */
+static void add_keys(const char **list, const key_rec *recs)
+{
+    size_t n = 0;
+    while (list[n])
+        n++;
+    for (size_t i = 0; recs[i].key && n + 1 < MAX_KEYS; i++)
+        list[n++] = recs[i].key;
+    list[n] = NULL;
+}
+
+static int in_list(const char *const *list, const char *s)
+{
+    for (size_t i = 0; list[i]; i++)
+        if (strcmp(list[i], s) == 0)
+            return 1;
+    return 0;
+}
+
+/* Every key of map must be in allowed; a key of another type/wave/law "does not
+ * apply to `what`", anything else is unknown. */
+static ru_status check_keys(ld_doc *d, struct fy_node *map, const char *who,
+                            const char *const *allowed, const char *what, ru_error *err)
+{
+    void *it = NULL;
+    struct fy_node_pair *p;
+    while ((p = fy_node_mapping_iterate(map, &it)) != NULL) {
+        struct fy_node *k = fy_node_pair_key(p);
+        const char *key = ru_ld_key(p);
+        if (!k || fy_node_get_type(k) != FYNT_SCALAR)
+            return ru_ld_fail(d, k, err, "%s: keys must be plain names", who);
+        if (in_list(allowed, key))
+            continue;
+        if (in_list(all_part_keys, key) || strcmp(key, "description") == 0)
+            return ru_ld_fail(d, k, err, "%s: key %s does not apply to %s", who, key,
+                              what);
+        return ru_ld_fail(d, k, err, "%s: unknown key %s", who, key);
+    }
+    return RU_OK;
+}
+
+/* Reads the keys of recs present in map into the struct at base. */
+static ru_status read_keys(ld_doc *d, struct fy_node *map, struct fy_node *place,
+                           const char *who, const key_rec *recs, const char *sig,
+                           void *base, ru_error *err)
+{
+    for (size_t i = 0; recs[i].key; i++) {
+        struct fy_node_pair *p = ru_ld_find(map, recs[i].key);
+        if (!p) {
+            if (recs[i].required)
+                return ru_ld_fail(d, place, err, "%s: missing required key %s", who,
+                                  recs[i].key);
+            continue;
+        }
+        const char *unit = recs[i].unit;
+        if (unit && strcmp(unit, "sig") == 0)
+            unit = sig;
+        double *dst = (double *)((char *)base + recs[i].offset);
+        ru_status s = ru_ld_value(d, p, who, unit, err, dst);
+        if (s != RU_OK)
+            return s;
+    }
+    return RU_OK;
+}
+
+/* A node name from a scalar, added to the circuit at its place. */
+static ru_status node_of(ld_ctx *x, struct fy_node *v, const char *who, const char *key,
+                         int *node)
+{
+    if (!v || fy_node_get_type(v) != FYNT_SCALAR)
+        return ru_ld_fail(x->d, v, x->err, "%s: key %s needs a node name", who, key);
+    const char *name = fy_node_get_scalar0(v);
+    if (!name || !ru_ld_valid_name(name))
+        return ru_ld_fail(x->d, v, x->err,
+                          "%s: key %s: '%s' is not a node name (letters, digits, _ and ., "
+                          "up to %d characters)",
+                          who, key, name ? name : "", RU_NAME_MAX - 1);
+    int line, col;
+    ru_ld_place(x->d, v, &line, &col);
+    *node = ru_circuit_node(x->c, name, line, col);
+    if (*node < 0)
+        return ru_error_set(x->err, RU_ENOMEM, x->d->file, line, col,
+                            "%s: out of memory adding node %s", who, name);
+    return RU_OK;
+}
+
+/* nodes: [a, b] of a two-terminal part. */
+static ru_status read_nodes(ld_ctx *x, struct fy_node *map, struct fy_node *place,
+                            const char *who, ru_part *part)
+{
+    struct fy_node_pair *p = ru_ld_find(map, "nodes");
+    if (!p)
+        return ru_ld_fail(x->d, place, x->err, "%s: missing required key nodes", who);
+    struct fy_node *v = fy_node_pair_value(p);
+    if (!v || fy_node_get_type(v) != FYNT_SEQUENCE)
+        return ru_ld_fail(x->d, v ? v : fy_node_pair_key(p), x->err,
+                          "%s: key nodes needs a list of 2 nodes, e.g. [a, gnd]", who);
+    int n = fy_node_sequence_item_count(v);
+    if (n != 2)
+        return ru_ld_fail(x->d, v, x->err, "%s: key nodes needs 2 nodes, got %d", who, n);
+    ru_status s = RU_OK;
+    for (int i = 0; i < 2 && s == RU_OK; i++)
+        s = node_of(x, fy_node_sequence_get_by_index(v, i), who, "nodes", &part->node[i]);
+    return s;
+}
+
+/* An optional plain or percentage tolerance. */
+static ru_status read_tol(ld_ctx *x, struct fy_node *map, const char *who, ru_part *part)
+{
+    struct fy_node_pair *p = ru_ld_find(map, "tol");
+    return p ? ru_ld_value(x->d, p, who, "%", x->err, &part->tol) : RU_OK;
+}
+
+static ru_status read_rlc(ld_ctx *x, struct fy_node *map, struct fy_node *place,
+                          const char *who, ru_part *part)
+{
+    static const char *const units[] = {"ohm", "F", "H"};
+    const char *allowed[] = {"type", "nodes", "value", "tol",
+                             part->type == RU_PART_INDUCTOR ? "series" : NULL, NULL};
+    char what[48];
+    snprintf(what, sizeof what, "type %s", ru_part_type_name(part->type));
+    ru_status s = check_keys(x->d, map, who, allowed, what, x->err);
+    if (s == RU_OK)
+        s = read_nodes(x, map, place, who, part);
+    struct fy_node_pair *p = ru_ld_find(map, "value");
+    if (s == RU_OK && !p)
+        s = ru_ld_fail(x->d, place, x->err, "%s: missing required key value", who);
+    if (s == RU_OK)
+        s = ru_ld_value(x->d, p, who, units[part->type], x->err, &part->value);
+    if (s == RU_OK)
+        s = read_tol(x, map, who, part);
+    if (s == RU_OK && (p = ru_ld_find(map, "series")) != NULL)
+        s = ru_ld_value(x->d, p, who, "ohm", x->err, &part->series_ohm);
+    return s;
+}
+
+static ru_status read_poly(ld_ctx *x, struct fy_node *map, struct fy_node *place,
+                           const char *who, ru_part *part)
+{
+    static const char *const allowed[] = {"type", "nodes", "coeffs", NULL};
+    ru_status s = check_keys(x->d, map, who, allowed, "type poly-conductance", x->err);
+    if (s == RU_OK)
+        s = read_nodes(x, map, place, who, part);
+    if (s != RU_OK)
+        return s;
+    struct fy_node_pair *p = ru_ld_find(map, "coeffs");
+    if (!p)
+        return ru_ld_fail(x->d, place, x->err, "%s: missing required key coeffs", who);
+    struct fy_node *v = fy_node_pair_value(p);
+    int n = v && fy_node_get_type(v) == FYNT_SEQUENCE ? fy_node_sequence_item_count(v) : 0;
+    if (n < 1 || n > RU_POLY_MAX)
+        return ru_ld_fail(x->d, v ? v : fy_node_pair_key(p), x->err,
+                          "%s: key coeffs needs a list of 1 to %d numbers (c0 first)", who,
+                          RU_POLY_MAX);
+    for (int i = 0; i < n; i++) {
+        struct fy_node *item = fy_node_sequence_get_by_index(v, i);
+        const char *text = fy_node_get_type(item) == FYNT_SCALAR
+                               ? fy_node_get_scalar0(item) : NULL;
+        char why[160];
+        if (!text || ru_value_parse(text, NULL, &part->coeffs[i], why, sizeof why) != RU_OK)
+            return ru_ld_fail(x->d, item, x->err, "%s: key coeffs, item %d: %s", who, i + 1,
+                              text ? why : "needs a number");
+    }
+    part->ncoeffs = n;
+    return RU_OK;
+}
+
+/* supply or current: wave kind, its keys, nodes. */
+static ru_status read_source(ld_ctx *x, struct fy_node *map, struct fy_node *place,
+                             const char *who, ru_part *part)
+{
+    int kind = RU_WAVE_DC;
+    struct fy_node_pair *p = ru_ld_find(map, "wave");
+    const char *text = "dc";
+    ru_status s = p ? ru_ld_scalar(x->d, p, who, x->err, &text) : RU_OK;
+    if (s != RU_OK)
+        return s;
+    for (kind = 0; wave_names[kind] && strcmp(wave_names[kind], text) != 0; kind++)
+        ;
+    if (!wave_names[kind])
+        return ru_ld_fail(x->d, fy_node_pair_value(p), x->err,
+                          "%s: key wave: '%s' is not one of dc, step, sine, pulse", who,
+                          text);
+    const char *allowed[MAX_KEYS] = {"type", "nodes", "wave", NULL};
+    add_keys(allowed, wave_keys[kind]);
+    char what[32];
+    snprintf(what, sizeof what, "wave %s", wave_names[kind]);
+    s = check_keys(x->d, map, who, allowed, what, x->err);
+    if (s == RU_OK)
+        s = read_nodes(x, map, place, who, part);
+    part->wave.kind = (ru_wave_kind)kind;
+    const char *sig = part->type == RU_PART_SUPPLY ? "V" : "A";
+    if (s == RU_OK)
+        s = read_keys(x->d, map, place, who, wave_keys[kind], sig, &part->wave, x->err);
+    return s;
+}
+
+/* law: follower-tanh | exp-stage, from pair p. */
+static ru_status read_law(ld_doc *d, struct fy_node_pair *p, const char *who,
+                          ru_error *err, ru_law *law)
+{
+    const char *text;
+    ru_status s = ru_ld_scalar(d, p, who, err, &text);
+    if (s != RU_OK)
+        return s;
+    for (int i = 0; i < RU_LAW_COUNT; i++)
+        if (strcmp(text, ru_law_name((ru_law)i)) == 0) {
+            *law = (ru_law)i;
+            return RU_OK;
+        }
+    return ru_ld_fail(d, fy_node_pair_value(p), err,
+                      "%s: key law: '%s' is not one of follower-tanh, exp-stage", who, text);
+}
+
+/* Reads preset file models_dir/NAME.yaml into amp (defaults of its law first). */
+static ru_status read_preset_doc(ld_doc *pd, const char *name, const char *part,
+                                 ru_amp *amp, ru_error *err)
+{
+    char who[RU_NAME_MAX * 2 + 40];
+    snprintf(who, sizeof who, "preset %s (used by part %s)", name, part);
+    struct fy_node_pair *p = ru_ld_find(pd->root, "law");
+    if (!p)
+        return ru_ld_fail(pd, pd->root, err, "%s: missing required key law", who);
+    ru_law law;
+    ru_status s = read_law(pd, p, who, err, &law);
+    if (s != RU_OK)
+        return s;
+    const char *allowed[MAX_KEYS] = {"law", "description", NULL};
+    add_keys(allowed, law_keys[law]);
+    char what[32];
+    snprintf(what, sizeof what, "law %s", ru_law_name(law));
+    s = check_keys(pd, pd->root, who, allowed, what, err);
+    const char *text;
+    if (s == RU_OK && (p = ru_ld_find(pd->root, "description")) != NULL)
+        s = ru_ld_scalar(pd, p, who, err, &text);
+    ru_amp_defaults(amp, law);
+    if (s == RU_OK)
+        s = read_keys(pd, pd->root, pd->root, who, law_keys[law], NULL, amp, err);
+    return s;
+}
+
+/* model: NAME on part `who`: loads the preset, or says why it cannot. */
+static ru_status read_model(ld_ctx *x, struct fy_node_pair *p, const char *who,
+                            ru_part *part)
+{
+    const char *name;
+    ru_status s = ru_ld_scalar(x->d, p, who, x->err, &name);
+    if (s != RU_OK)
+        return s;
+    struct fy_node *v = fy_node_pair_value(p);
+    int ok = name[0] != '.' && strlen(name) < RU_NAME_MAX;
+    for (const char *q = name; ok && *q; q++)
+        ok = ru_ld_valid_name((char[]){*q, '\0'}) || *q == '-';
+    if (!ok || !name[0])
+        return ru_ld_fail(x->d, v, x->err,
+                          "%s: key model: '%s' is not a preset name (letters, digits, -, "
+                          "_ and .)",
+                          who, name);
+    char path[RU_ERROR_FILE];
+    snprintf(path, sizeof path, "%s/%s.yaml", x->models_dir, name);
+    char *text = NULL;
+    size_t len = 0;
+    ru_error io;
+    s = ru_ld_read_file(path, &text, &len, &io);
+    if (s == RU_EIO)
+        s = ru_ld_fail(x->d, v, x->err, "%s: key model: no preset %s (%s: %s)", who, name,
+                       path, io.msg);
+    else if (s != RU_OK)
+        ru_error_set(x->err, s, x->d->file, 0, 0, "%s: %s", who, io.msg);
+    ld_doc pd;
+    memset(&pd, 0, sizeof pd);
+    if (s == RU_OK)
+        s = ru_ld_open(&pd, text, len, path, x->err);
+    if (s == RU_OK)
+        s = read_preset_doc(&pd, name, part->name, &part->amp, x->err);
+    if (s == RU_OK)
+        snprintf(part->amp.model, sizeof part->amp.model, "%s", name);
+    ru_ld_close(&pd);
+    free(text);
+    return s;
+}
+
+/* in, out and ref (default gnd) of an amplifier. */
+static ru_status read_amp_nodes(ld_ctx *x, struct fy_node *map, struct fy_node *place,
+                                const char *who, ru_part *part)
+{
+    static const char *const keys[] = {"in", "out", "ref"};
+    part->node[2] = 0;
+    for (int i = 0; i < 3; i++) {
+        struct fy_node_pair *p = ru_ld_find(map, keys[i]);
+        if (!p && i < 2)
+            return ru_ld_fail(x->d, place, x->err, "%s: missing required key %s", who,
+                              keys[i]);
+        ru_status s = p ? node_of(x, fy_node_pair_value(p), who, keys[i], &part->node[i])
+                        : RU_OK;
+        if (s != RU_OK)
+            return s;
+    }
+    return RU_OK;
+}
+
+static ru_status read_amp(ld_ctx *x, struct fy_node *map, struct fy_node *place,
+                          const char *who, ru_part *part)
+{
+    struct fy_node_pair *pm = ru_ld_find(map, "model"), *pl = ru_ld_find(map, "law");
+    if (pm && pl)
+        return ru_ld_fail(x->d, fy_node_pair_key(pl), x->err,
+                          "%s: give either model or law, not both", who);
+    if (!pm && !pl)
+        return ru_ld_fail(x->d, place, x->err,
+                          "%s: missing required key model or law (an amplifier needs one)",
+                          who);
+    ru_law law = RU_LAW_FOLLOWER_TANH;
+    ru_status s = pl ? read_law(x->d, pl, who, x->err, &law) : RU_OK;
+    if (s == RU_OK && pl)
+        ru_amp_defaults(&part->amp, law);
+    if (s == RU_OK && pm)
+        s = read_model(x, pm, who, part);
+    if (s != RU_OK)
+        return s;
+    law = part->amp.law;
+    const char *allowed[MAX_KEYS] = {"type", "in", "out", "ref", "model", "law", NULL};
+    add_keys(allowed, law_keys[law]);
+    char what[32];
+    snprintf(what, sizeof what, "law %s", ru_law_name(law));
+    s = check_keys(x->d, map, who, allowed, what, x->err);
+    if (s == RU_OK)
+        s = read_amp_nodes(x, map, place, who, part);
+    if (s == RU_OK)
+        s = read_keys(x->d, map, place, who, law_keys[law], NULL, &part->amp, x->err);
+    return s;
+}
+
+/* The part type named by key `type`. */
+static ru_status read_type(ld_ctx *x, struct fy_node *map, struct fy_node *place,
+                           const char *who, ru_part_type *type)
+{
+    struct fy_node_pair *p = ru_ld_find(map, "type");
+    if (!p)
+        return ru_ld_fail(x->d, place, x->err, "%s: missing required key type", who);
+    const char *text;
+    ru_status s = ru_ld_scalar(x->d, p, who, x->err, &text);
+    if (s != RU_OK)
+        return s;
+    for (int t = 0; t < RU_PART_TYPE_COUNT; t++)
+        if (strcmp(text, ru_part_type_name((ru_part_type)t)) == 0) {
+            *type = (ru_part_type)t;
+            return RU_OK;
+        }
+    return ru_ld_fail(x->d, fy_node_pair_value(p), x->err,
+                      "%s: unknown type '%s' (resistor, capacitor, inductor, supply, "
+                      "current, poly-conductance or amplifier)",
+                      who, text);
+}
+
+static ru_status read_part(ld_ctx *x, struct fy_node_pair *pair)
+{
+    struct fy_node *key = fy_node_pair_key(pair), *map = fy_node_pair_value(pair);
+    const char *name = ru_ld_key(pair);
+    if (!ru_ld_valid_name(name))
+        return ru_ld_fail(x->d, key, x->err,
+                          "part name '%s' is not valid (letters, digits, _ and ., up to %d "
+                          "characters)",
+                          name, RU_NAME_MAX - 1);
+    char who[RU_NAME_MAX + 8];
+    snprintf(who, sizeof who, "part %s", name);
+    if (!map || fy_node_get_type(map) != FYNT_MAPPING)
+        return ru_ld_fail(x->d, map ? map : key, x->err,
+                          "%s needs a mapping such as {type: resistor, nodes: [a, b], "
+                          "value: 1k}",
+                          who);
+    ru_part part;
+    ru_part_type type = RU_PART_RESISTOR;
+    ru_status s = read_type(x, map, key, who, &type);
+    if (s != RU_OK)
+        return s;
+    ru_part_init(&part, type, name);
+    ru_ld_place(x->d, key, &part.line, &part.col);
+    if (type <= RU_PART_INDUCTOR)
+        s = read_rlc(x, map, key, who, &part);
+    else if (type == RU_PART_SUPPLY || type == RU_PART_CURRENT)
+        s = read_source(x, map, key, who, &part);
+    else if (type == RU_PART_POLY)
+        s = read_poly(x, map, key, who, &part);
+    else
+        s = read_amp(x, map, key, who, &part);
+    if (s == RU_OK)
+        s = ru_circuit_add_part(x->c, &part, x->err);
+    return s;
+}
+
+ru_status ru_ld_parts(ld_ctx *x, struct fy_node_pair *parts)
+{
+    struct fy_node *map = fy_node_pair_value(parts);
+    if (!map || fy_node_get_type(map) != FYNT_MAPPING || fy_node_mapping_item_count(map) < 1)
+        return ru_ld_fail(x->d, map ? map : fy_node_pair_key(parts), x->err,
+                          "key parts needs a mapping of part names to parts");
+    void *it = NULL;
+    struct fy_node_pair *p;
+    ru_status s = RU_OK;
+    while (s == RU_OK && (p = fy_node_mapping_iterate(map, &it)) != NULL) {
+        if (!fy_node_pair_key(p) || fy_node_get_type(fy_node_pair_key(p)) != FYNT_SCALAR)
+            s = ru_ld_fail(x->d, fy_node_pair_key(p), x->err, "part names must be plain names");
+        else
+            s = read_part(x, p);
+    }
+    return s;
+}
