@@ -1,0 +1,500 @@
+/* transient.c: the time-domain engine (CVODE BDF, dense direct solver, analytic
+ * Jacobian, stability-limit detection) with uniform-rate output by dense output.
+ *
+ * Invariants:
+ * - One SUNContext and one CVODE object per run, owned by a tr_run on the stack of
+ *   ru_transient_run: no global state, so runs may go in parallel threads.
+ * - Samples t_k = k * sample_s are delivered in order, each once, from CVodeGetDky
+ *   inside the last internal step [tcur - hlast, tcur]; CVODE is re-initialised only
+ *   at the system's breakpoints (after ru_system_apply_jump), never per sample.
+ * - A sample that falls on a breakpoint shows the state after the jump.
+ * - Everything is allocated in setup (vectors, matrix, Jacobian scratch, breakpoint
+ *   list); the step loop allocates nothing, so memory does not grow with run length
+ *   (the sink receives a pointer into a preallocated N_Vector).
+ * - CVODE messages go to an error handler that copies them into the run; the
+ *   library prints nothing. */
+#define _POSIX_C_SOURCE 200809L
+
+#include "ringup/transient.h"
+
+#include <cvode/cvode.h>
+#include <nvector/nvector_serial.h>
+#include <sundials/sundials_context.h>
+#include <sunlinsol/sunlinsol_dense.h>
+#include <sunmatrix/sunmatrix_dense.h>
+
+#include <float.h>
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <time.h>
+
+/* Tolerances per accuracy setting (rtol, and atol_rel times each state's scale).
+ * PROVISIONAL: the figures that justify them are being measured by
+ * tests/test_transient.c (test_growth_rate, test_lc_tank); see the comment that
+ * will replace this one. */
+#define RU_TR_DRAFT_RTOL 1e-5
+#define RU_TR_DRAFT_ATOL 1e-5
+#define RU_TR_NORMAL_RTOL 1e-8
+#define RU_TR_NORMAL_ATOL 1e-8
+#define RU_TR_PRECISE_RTOL 1e-10
+#define RU_TR_PRECISE_ATOL 1e-10
+
+#define RU_TR_BP_LOCAL 64      /* breakpoints held without a heap list */
+#define RU_TR_STALL_STEPS 1000 /* steps without progress in t before giving up */
+
+typedef struct tr_run {
+    const ru_system *sys;      /* the ODE */
+    const ru_transient_opts *o;
+    size_t n;                  /* number of states */
+    SUNContext ctx;            /* per-run SUNDIALS context */
+    void *cv;                  /* CVODE memory */
+    N_Vector y;                /* solution at the integrator's return time */
+    N_Vector ys;               /* interpolated sample */
+    N_Vector atol;             /* absolute tolerances (state units) */
+    SUNMatrix A;               /* dense Newton matrix */
+    SUNLinearSolver LS;        /* dense LU */
+    double *jrow;              /* n*n row-major Jacobian scratch */
+    double *bp;                /* breakpoints in (0, t_final], sorted */
+    size_t nbp;
+    double bp_local[RU_TR_BP_LOCAL];
+    long k, k_last;            /* next sample index, last sample index */
+    double t_final;            /* integration end: max(stop_s, k_last*sample_s) */
+    double eps_t;              /* time resolution for "same instant" (s) */
+    long rhs_evals, jac_evals; /* counted in the callbacks (survive re-inits) */
+    long seg_steps, seg_errf, seg_nlf; /* counters of finished segments */
+    long samples;              /* samples delivered */
+    ru_status sys_status;      /* first failure reported by the system, RU_OK */
+    char cvmsg[RU_ERROR_TEXT]; /* last CVODE error message, "" when none */
+} tr_run;
+
+void ru_transient_opts_for(ru_accuracy acc, ru_transient_opts *o)
+{
+    memset(o, 0, sizeof *o);
+    o->stop_s = 10e-3;
+    o->sample_s = 10e-6;
+    switch (acc) {
+    case RU_ACCURACY_DRAFT:
+        o->rtol = RU_TR_DRAFT_RTOL;
+        o->atol_rel = RU_TR_DRAFT_ATOL;
+        break;
+    case RU_ACCURACY_PRECISE:
+        o->rtol = RU_TR_PRECISE_RTOL;
+        o->atol_rel = RU_TR_PRECISE_ATOL;
+        break;
+    case RU_ACCURACY_NORMAL:
+    default:
+        o->rtol = RU_TR_NORMAL_RTOL;
+        o->atol_rel = RU_TR_NORMAL_ATOL;
+        break;
+    }
+    o->max_steps = 0;
+}
+
+/* Writes t with an SI prefix ("1.234 ms"). */
+static void fmt_time(double t, char *buf, size_t size)
+{
+    double a = fabs(t);
+    if (a >= 1.0 || a == 0.0 || !isfinite(a))
+        snprintf(buf, size, "%.6g s", t);
+    else if (a >= 1e-3)
+        snprintf(buf, size, "%.6g ms", t * 1e3);
+    else if (a >= 1e-6)
+        snprintf(buf, size, "%.6g us", t * 1e6);
+    else
+        snprintf(buf, size, "%.6g ns", t * 1e9);
+}
+
+static int tr_rhs(realtype t, N_Vector y, N_Vector ydot, void *user)
+{
+    tr_run *r = user;
+    r->rhs_evals++;
+    const double *x = N_VGetArrayPointer(y);
+    double *f = N_VGetArrayPointer(ydot);
+    ru_status st = ru_system_rhs(r->sys, t, x, f);
+    if (st != RU_OK) {
+        if (r->sys_status == RU_OK)
+            r->sys_status = st;
+        return st == RU_ENUMERIC ? 1 : -1; /* overflow: let CVODE cut the step */
+    }
+    for (size_t i = 0; i < r->n; i++)
+        if (!isfinite(f[i]))
+            return 1; /* recoverable: CVODE retries with a smaller step */
+    return 0;
+}
+
+static int tr_jac(realtype t, N_Vector y, N_Vector fy, SUNMatrix J, void *user,
+                  N_Vector t1, N_Vector t2, N_Vector t3)
+{
+    (void)fy, (void)t1, (void)t2, (void)t3;
+    tr_run *r = user;
+    r->jac_evals++;
+    ru_status st = ru_system_jacobian(r->sys, t, N_VGetArrayPointer(y), r->jrow);
+    if (st != RU_OK) {
+        if (r->sys_status == RU_OK)
+            r->sys_status = st;
+        return st == RU_ENUMERIC ? 1 : -1;
+    }
+    size_t n = r->n;
+    for (size_t j = 0; j < n; j++) {
+        double *col = SM_COLUMN_D(J, (sunindextype)j); /* column-major storage */
+        for (size_t i = 0; i < n; i++) {
+            col[i] = r->jrow[i * n + j];
+            if (!isfinite(col[i]))
+                return 1;
+        }
+    }
+    return 0;
+}
+
+/* Keeps CVODE's error text (warnings are dropped: nothing is printed). */
+static void tr_errh(int code, const char *module, const char *func, char *msg,
+                    void *user)
+{
+    (void)module, (void)func;
+    tr_run *r = user;
+    if (code < 0)
+        snprintf(r->cvmsg, sizeof r->cvmsg, "%s", msg ? msg : "");
+}
+
+static ru_status check_opts(const ru_system *s, const ru_transient_opts *o,
+                            const double *x0, ru_sample_fn fn, ru_error *err)
+{
+    if (!s || !o || !fn || (!x0 && ru_system_size(s) > 0))
+        return ru_error_set(err, RU_ERANGE, NULL, 0, 0,
+                            "transient: missing system, options, state or sink");
+    if (!(isfinite(o->stop_s) && o->stop_s > 0))
+        return ru_error_set(err, RU_ERANGE, NULL, 0, 0,
+                            "transient: stop time must be finite and > 0 (got %g s)",
+                            o->stop_s);
+    if (!(isfinite(o->sample_s) && o->sample_s > 0 && o->stop_s / o->sample_s < 1e15))
+        return ru_error_set(err, RU_ERANGE, NULL, 0, 0,
+                            "transient: sample spacing must be > 0 and at most 1e15 "
+                            "samples per run (got %g s for stop %g s)",
+                            o->sample_s, o->stop_s);
+    if (!(isfinite(o->rtol) && o->rtol > 0 && o->rtol < 1) ||
+        !(isfinite(o->atol_rel) && o->atol_rel > 0) || o->max_steps < 0)
+        return ru_error_set(err, RU_ERANGE, NULL, 0, 0,
+                            "transient: tolerances must be in (0, 1) and max_steps "
+                            ">= 0 (rtol %g, atol_rel %g, max_steps %ld)",
+                            o->rtol, o->atol_rel, o->max_steps);
+    for (size_t i = 0; i < ru_system_size(s); i++)
+        if (!isfinite(x0[i]))
+            return ru_error_set(err, RU_ERANGE, NULL, 0, 0,
+                                "transient: initial state %s is not finite",
+                                ru_system_state_name(s, i));
+    return RU_OK;
+}
+
+/* Sample grid and breakpoint list (sorted, merged within eps_t, in (eps_t, t_final]). */
+static ru_status setup_times(tr_run *r, ru_error *err)
+{
+    const ru_transient_opts *o = r->o;
+    r->k_last = (long)floor(o->stop_s * (1.0 + 1e-12) / o->sample_s);
+    r->t_final = fmax(o->stop_s, (double)r->k_last * o->sample_s);
+    r->eps_t = 1e-9 * o->sample_s + 8.0 * DBL_EPSILON * r->t_final;
+    size_t cnt = ru_system_breakpoints(r->sys, r->t_final, r->bp_local, RU_TR_BP_LOCAL);
+    r->bp = r->bp_local;
+    if (cnt > RU_TR_BP_LOCAL) {
+        r->bp = malloc(cnt * sizeof *r->bp);
+        if (!r->bp)
+            return ru_error_set(err, RU_ENOMEM, NULL, 0, 0,
+                                "transient: no memory for %zu breakpoints", cnt);
+        cnt = ru_system_breakpoints(r->sys, r->t_final, r->bp, cnt);
+    }
+    size_t m = 0;
+    for (size_t i = 0; i < cnt; i++) {
+        double b = r->bp[i];
+        if (!isfinite(b) || b <= r->eps_t || b > r->t_final + r->eps_t)
+            continue;
+        if (m > 0 && b <= r->bp[m - 1] + r->eps_t)
+            continue;
+        r->bp[m++] = b;
+    }
+    r->nbp = m;
+    return RU_OK;
+}
+
+/* SUNDIALS objects, tolerances, callbacks. */
+static ru_status setup_solver(tr_run *r, const double *x0, ru_error *err)
+{
+    sunindextype n = (sunindextype)r->n;
+    if (SUNContext_Create(NULL, &r->ctx) != 0)
+        return ru_error_set(err, RU_ENOMEM, NULL, 0, 0, "transient: no SUNDIALS context");
+    r->y = N_VNew_Serial(n, r->ctx);
+    r->ys = N_VNew_Serial(n, r->ctx);
+    r->atol = N_VNew_Serial(n, r->ctx);
+    r->A = SUNDenseMatrix(n, n, r->ctx);
+    r->jrow = malloc(r->n * r->n * sizeof *r->jrow);
+    r->cv = CVodeCreate(CV_BDF, r->ctx);
+    if (!r->y || !r->ys || !r->atol || !r->A || !r->jrow || !r->cv)
+        return ru_error_set(err, RU_ENOMEM, NULL, 0, 0, "transient: out of memory");
+    r->LS = SUNLinSol_Dense(r->y, r->A, r->ctx);
+    if (!r->LS)
+        return ru_error_set(err, RU_ENOMEM, NULL, 0, 0, "transient: out of memory");
+    double *y = N_VGetArrayPointer(r->y), *at = N_VGetArrayPointer(r->atol);
+    memcpy(y, x0, r->n * sizeof *y);
+    ru_system_state_scale(r->sys, at); /* typical size of each state */
+    for (size_t i = 0; i < r->n; i++)
+        at[i] = r->o->atol_rel * ((isfinite(at[i]) && at[i] > 0) ? at[i] : 1.0);
+    int f = CVodeSetErrHandlerFn(r->cv, tr_errh, r);
+    if (!f) f = CVodeInit(r->cv, tr_rhs, 0.0, r->y);
+    if (!f) f = CVodeSVtolerances(r->cv, r->o->rtol, r->atol);
+    if (!f) f = CVodeSetUserData(r->cv, r);
+    if (!f) f = CVodeSetLinearSolver(r->cv, r->LS, r->A);
+    if (!f) f = CVodeSetJacFn(r->cv, tr_jac);
+    if (!f) f = CVodeSetStabLimDet(r->cv, SUNTRUE);
+    if (!f) f = CVodeSetMaxNumSteps(r->cv, -1); /* one step per call; limit is ours */
+    if (!f) f = CVodeSetMaxHnilWarns(r->cv, -1);
+    if (f)
+        return ru_error_set(err, RU_ENUMERIC, NULL, 0, 0,
+                            "transient: solver setup failed: %s", r->cvmsg);
+    return RU_OK;
+}
+
+static void run_free(tr_run *r)
+{
+    if (r->cv)
+        CVodeFree(&r->cv);
+    if (r->LS)
+        SUNLinSolFree(r->LS);
+    if (r->A)
+        SUNMatDestroy(r->A);
+    if (r->y)
+        N_VDestroy(r->y);
+    if (r->ys)
+        N_VDestroy(r->ys);
+    if (r->atol)
+        N_VDestroy(r->atol);
+    if (r->ctx)
+        SUNContext_Free(&r->ctx);
+    free(r->jrow);
+    if (r->bp != r->bp_local)
+        free(r->bp);
+}
+
+/* Hands one sample to the sink. */
+static ru_status emit(tr_run *r, ru_sample_fn fn, void *user, double t,
+                      const double *x, ru_error *err)
+{
+    ru_status st = fn(user, t, x, r->n);
+    if (st != RU_OK) {
+        char tb[48];
+        fmt_time(t, tb, sizeof tb);
+        return ru_error_set(err, st, NULL, 0, 0,
+                            "output stopped the run at t = %s: %s", tb,
+                            ru_status_str(st));
+    }
+    r->samples++;
+    r->k++;
+    return RU_OK;
+}
+
+/* Delivers samples with t_k < tlim (strict) or <= tlim (incl), interpolated inside
+ * the last internal step (times clamped into it against round-off). */
+static ru_status emit_dense(tr_run *r, double tlim, int incl, ru_sample_fn fn,
+                            void *user, ru_error *err)
+{
+    double tcur = 0, hlast = 0;
+    CVodeGetCurrentTime(r->cv, &tcur);
+    CVodeGetLastStep(r->cv, &hlast);
+    while (r->k <= r->k_last) {
+        double t = (double)r->k * r->o->sample_s;
+        if (incl ? t > tlim : t >= tlim)
+            break;
+        double tq = fmin(fmax(t, tcur - hlast), tcur);
+        int f = CVodeGetDky(r->cv, tq, 0, r->ys);
+        if (f < 0)
+            return ru_error_set(err, RU_ENUMERIC, NULL, 0, 0,
+                                "transient: dense output failed at t = %g s: %s", t,
+                                r->cvmsg);
+        ru_status st = emit(r, fn, user, t, N_VGetArrayPointer(r->ys), err);
+        if (st != RU_OK)
+            return st;
+    }
+    return RU_OK;
+}
+
+/* Delivers samples with t_k <= tlim straight from state x (after a jump). */
+static ru_status emit_state(tr_run *r, double tlim, const double *x, ru_sample_fn fn,
+                            void *user, ru_error *err)
+{
+    while (r->k <= r->k_last && (double)r->k * r->o->sample_s <= tlim) {
+        ru_status st = emit(r, fn, user, (double)r->k * r->o->sample_s, x, err);
+        if (st != RU_OK)
+            return st;
+    }
+    return RU_OK;
+}
+
+static ru_status fail_numeric(tr_run *r, int flag, const char *why, ru_error *err)
+{
+    double t = 0;
+    CVodeGetCurrentTime(r->cv, &t);
+    char tb[48];
+    fmt_time(t, tb, sizeof tb);
+    if (why)
+        return ru_error_set(err, RU_ENUMERIC, NULL, 0, 0, "solver failed at t = %s: %s",
+                            tb, why);
+    char *name = CVodeGetReturnFlagName(flag);
+    ru_error_set(err, RU_ENUMERIC, NULL, 0, 0, "solver failed at t = %s: %s", tb,
+                 r->cvmsg[0] ? r->cvmsg : (name ? name : "unknown CVODE failure"));
+    free(name);
+    return RU_ENUMERIC;
+}
+
+/* Adds the counters of the current segment (CVodeReInit resets them). */
+static void close_segment(tr_run *r)
+{
+    long v = 0;
+    if (CVodeGetNumSteps(r->cv, &v) == CV_SUCCESS)
+        r->seg_steps += v;
+    if (CVodeGetNumErrTestFails(r->cv, &v) == CV_SUCCESS)
+        r->seg_errf += v;
+    if (CVodeGetNumNonlinSolvConvFails(r->cv, &v) == CV_SUCCESS)
+        r->seg_nlf += v;
+}
+
+static long total_steps(tr_run *r)
+{
+    long v = 0;
+    CVodeGetNumSteps(r->cv, &v);
+    return r->seg_steps + v;
+}
+
+/* At a breakpoint reached as a stop time: samples before it, the jump, samples on it,
+ * then a restart with the next stop time. *done is set when it was the last one. */
+static ru_status cross_breakpoint(tr_run *r, size_t *ibp, ru_sample_fn fn, void *user,
+                                  int *done, ru_error *err)
+{
+    double b = r->bp[*ibp];
+    ru_status st = emit_dense(r, b - r->eps_t, 0, fn, user, err);
+    if (st != RU_OK)
+        return st;
+    double *y = N_VGetArrayPointer(r->y); /* CVODE's solution at exactly b */
+    ru_system_apply_jump(r->sys, b, y);
+    st = emit_state(r, b + r->eps_t, y, fn, user, err);
+    if (st != RU_OK)
+        return st;
+    (*ibp)++;
+    if (b >= r->t_final - r->eps_t) {
+        *done = 1;
+        return RU_OK;
+    }
+    close_segment(r);
+    double next = *ibp < r->nbp ? r->bp[*ibp] : r->t_final;
+    int f = CVodeReInit(r->cv, b, r->y);
+    if (!f)
+        f = CVodeSetStopTime(r->cv, next);
+    return f ? fail_numeric(r, f, NULL, err) : RU_OK;
+}
+
+/* The step loop: one internal step per call, samples from each step's interpolant. */
+static ru_status step_loop(tr_run *r, ru_sample_fn fn, void *user, ru_error *err)
+{
+    size_t ibp = 0;
+    double next = r->nbp ? r->bp[0] : r->t_final, tprev = 0.0, tret = 0.0;
+    long stall = 0;
+    int f = CVodeSetStopTime(r->cv, next);
+    if (f)
+        return fail_numeric(r, f, NULL, err);
+    for (int done = 0; !done;) {
+        next = ibp < r->nbp ? r->bp[ibp] : r->t_final;
+        f = CVode(r->cv, next, r->y, &tret, CV_ONE_STEP);
+        if (f < 0)
+            return fail_numeric(r, f, NULL, err);
+        ru_status st;
+        if (f == CV_TSTOP_RETURN && ibp < r->nbp)
+            st = cross_breakpoint(r, &ibp, fn, user, &done, err);
+        else if (f == CV_TSTOP_RETURN) {
+            st = emit_dense(r, r->t_final + r->eps_t, 1, fn, user, err);
+            done = 1;
+        } else
+            st = emit_dense(r, tret, 1, fn, user, err);
+        if (st != RU_OK || done)
+            return st;
+        stall = tret > tprev ? 0 : stall + 1;
+        tprev = fmax(tprev, tret);
+        if (stall > RU_TR_STALL_STEPS)
+            return fail_numeric(r, 0, "the step size fell below the time resolution",
+                                err);
+        if (r->o->max_steps > 0 && total_steps(r) >= r->o->max_steps) {
+            char why[96];
+            snprintf(why, sizeof why, "reached the limit of %ld internal steps",
+                     r->o->max_steps);
+            return fail_numeric(r, 0, why, err);
+        }
+    }
+    return RU_OK;
+}
+
+static void fill_stats(tr_run *r, ru_solver_stats *stats, double t_reached)
+{
+    memset(stats, 0, sizeof *stats);
+    stats->rtol = r->o->rtol;
+    stats->samples = r->samples;
+    stats->rhs_evals = r->rhs_evals;
+    stats->jac_evals = r->jac_evals;
+    stats->t_reached_s = t_reached;
+    if (!r->cv)
+        return;
+    long v = 0;
+    stats->steps = total_steps(r);
+    stats->err_fails = r->seg_errf + (CVodeGetNumErrTestFails(r->cv, &v) ? 0 : v);
+    stats->newton_fails =
+        r->seg_nlf + (CVodeGetNumNonlinSolvConvFails(r->cv, &v) ? 0 : v);
+    CVodeGetLastStep(r->cv, &stats->h_last_s);
+    CVodeGetLastOrder(r->cv, &stats->order_last);
+    double tc = 0;
+    if (CVodeGetCurrentTime(r->cv, &tc) == CV_SUCCESS && stats->t_reached_s == 0)
+        stats->t_reached_s = tc;
+}
+
+static double now_s(void)
+{
+    struct timespec ts;
+    clock_gettime(CLOCK_MONOTONIC, &ts);
+    return (double)ts.tv_sec + 1e-9 * (double)ts.tv_nsec;
+}
+
+/* No states (every node driven): the samples are the sources alone. */
+static ru_status run_stateless(tr_run *r, ru_sample_fn fn, void *user, ru_error *err)
+{
+    static const double none[1] = {0.0}; /* read-only: never written */
+    return emit_state(r, r->t_final + r->eps_t, none, fn, user, err);
+}
+
+ru_status ru_transient_run(const ru_system *s, const ru_transient_opts *o,
+                           const double *x0, ru_sample_fn fn, void *user,
+                           ru_solver_stats *stats, ru_error *err)
+{
+    double t0 = now_s();
+    ru_status st = check_opts(s, o, x0, fn, err);
+    if (st != RU_OK)
+        return st;
+    tr_run r;
+    memset(&r, 0, sizeof r);
+    r.sys = s;
+    r.o = o;
+    r.n = ru_system_size(s);
+    st = setup_times(&r, err);
+    if (st == RU_OK && r.n == 0)
+        st = run_stateless(&r, fn, user, err);
+    else if (st == RU_OK) {
+        st = setup_solver(&r, x0, err);
+        if (st == RU_OK)
+            st = emit_state(&r, 0.0, x0, fn, user, err); /* t = 0 is x0 */
+        if (st == RU_OK)
+            st = step_loop(&r, fn, user, err);
+    }
+    double t_reached = 0.0;
+    if (st == RU_OK)
+        t_reached = r.t_final;
+    if (stats) {
+        fill_stats(&r, stats, t_reached);
+        stats->wall_s = now_s() - t0;
+    }
+    run_free(&r);
+    return st;
+}
