@@ -89,8 +89,10 @@ void ru_ld_place(ld_doc *d, struct fy_node *n, int *line, int *col)
     if (m) {
         *line = m->line + 1;
         *col = m->column + 1;
-        if (fy_node_is_alias(n) && *col > 1)
-            (*col)--; /* the token starts after the '*' */
+        enum fy_node_style st = fy_node_get_style(n);
+        if ((fy_node_is_alias(n) || st == FYNS_SINGLE_QUOTED ||
+             st == FYNS_DOUBLE_QUOTED) && *col > 1)
+            (*col)--; /* the token starts after the '*' or the opening quote */
         return;
     }
     /* Collections have no public start mark in libfyaml 0.7.12: a report to the
@@ -113,6 +115,15 @@ ru_status ru_ld_fail(ld_doc *d, struct fy_node *n, ru_error *err, const char *fm
     vsnprintf(msg, sizeof msg, fmt, ap);
     va_end(ap);
     return ru_error_set(err, RU_EINPUT, d->file, line, col, "%s", msg);
+}
+
+struct fy_node *ru_ld_val(struct fy_node_pair *p)
+{
+    struct fy_node *v = fy_node_pair_value(p);
+    if (v && fy_node_get_type(v) == FYNT_SCALAR && !fy_node_is_alias(v) &&
+        !fy_node_get_scalar_token(v))
+        return NULL; /* an empty value ("key:" with nothing after it) */
+    return v;
 }
 
 const char *ru_ld_key(struct fy_node_pair *p)
@@ -140,7 +151,7 @@ static const char *sep(const char *who) { return who && who[0] ? ": " : ""; }
 ru_status ru_ld_scalar(ld_doc *d, struct fy_node_pair *p, const char *who,
                        ru_error *err, const char **text)
 {
-    struct fy_node *v = fy_node_pair_value(p);
+    struct fy_node *v = ru_ld_val(p);
     if (!v)
         return ru_ld_fail(d, fy_node_pair_key(p), err, "%s%skey %s has no value", who,
                           sep(who), ru_ld_key(p));
@@ -162,7 +173,7 @@ ru_status ru_ld_value(ld_doc *d, struct fy_node_pair *p, const char *who,
         return s;
     char why[160];
     if (ru_value_parse(text, unit, out, why, sizeof why) != RU_OK)
-        return ru_ld_fail(d, fy_node_pair_value(p), err, "%s%skey %s: %s", who, sep(who),
+        return ru_ld_fail(d, ru_ld_val(p), err, "%s%skey %s: %s", who, sep(who),
                           ru_ld_key(p), why);
     return RU_OK;
 }
@@ -235,7 +246,7 @@ static ru_status refuse_refs(ld_doc *d, struct fy_node *root, ru_error *err)
         struct fy_token *t = fy_node_get_tag_token(r.tag);
         const struct fy_mark *m = fy_token_start_mark(t);
         size_t len = 0;
-        const char *tag = fy_node_get_tag(r.tag, &len);
+        const char *tag = t ? fy_token_get_text(t, &len) : NULL;
         return ru_error_set(err, RU_EINPUT, d->file, m ? m->line + 1 : 0,
                             m ? m->column + 1 : 0,
                             "tag %.*s is not allowed (the circuit format uses no YAML "
@@ -369,7 +380,7 @@ static ru_status only_keys(ld_doc *d, struct fy_node *map, const char *who,
 static ru_status need_mapping(ld_doc *d, struct fy_node_pair *p, const char *who,
                               ru_error *err, struct fy_node **map)
 {
-    struct fy_node *v = fy_node_pair_value(p);
+    struct fy_node *v = ru_ld_val(p);
     if (!v || fy_node_get_type(v) != FYNT_MAPPING)
         return ru_ld_fail(d, v ? v : fy_node_pair_key(p), err,
                           "%s%skey %s needs a mapping of keys and values", who, sep(who),
@@ -392,7 +403,7 @@ static ru_status pick(ld_doc *d, struct fy_node_pair *p, const char *who,
             *index = i;
             return RU_OK;
         }
-    return ru_ld_fail(d, fy_node_pair_value(p), err, "%s%skey %s: '%s' is not one of %s",
+    return ru_ld_fail(d, ru_ld_val(p), err, "%s%skey %s: '%s' is not one of %s",
                       who, sep(who), ru_ld_key(p), text, choices);
 }
 
@@ -443,7 +454,7 @@ static ru_status read_kick(ld_doc *d, ru_circuit *c, struct fy_node_pair *p,
                            ru_error *err)
 {
     static const char *const names[] = {"power-on", "noise", NULL};
-    struct fy_node *v = fy_node_pair_value(p);
+    struct fy_node *v = ru_ld_val(p);
     if (v && fy_node_get_type(v) == FYNT_MAPPING)
         return read_preset_kick(d, c, v, err);
     int k = 0;
@@ -464,7 +475,7 @@ static ru_status read_seed(ld_doc *d, struct fy_node_pair *p, ru_error *err,
     for (const char *q = text; ok && *q; q++)
         ok = *q >= '0' && *q <= '9';
     if (!ok)
-        return ru_ld_fail(d, fy_node_pair_value(p), err,
+        return ru_ld_fail(d, ru_ld_val(p), err,
                           "run: key seed: '%s' is not a whole number from 0 up", text);
     *seed = strtoul(text, NULL, 10);
     return RU_OK;
@@ -476,7 +487,7 @@ static ru_status positive_time(ld_doc *d, struct fy_node_pair *p, ru_error *err,
 {
     ru_status s = ru_ld_value(d, p, "run", "s", err, out);
     if (s == RU_OK && !(*out > 0))
-        s = ru_ld_fail(d, fy_node_pair_value(p), err, "run: key %s must be positive",
+        s = ru_ld_fail(d, ru_ld_val(p), err, "run: key %s must be positive",
                        ru_ld_key(p));
     return s;
 }
@@ -539,7 +550,7 @@ static ru_status read_probe(ld_doc *d, ru_circuit *c, struct fy_node_pair *p,
     char *minus = strchr(pos, '-');
     if (minus)
         *minus = '\0';
-    struct fy_node *v = fy_node_pair_value(p);
+    struct fy_node *v = ru_ld_val(p);
     ru_measure_opts *m = ru_circuit_measure_opts(c);
     s = probe_node(d, c, v, pos, 0, err, &m->probe_pos);
     m->probe_neg = 0;
@@ -559,24 +570,24 @@ static ru_status read_loop(ld_doc *d, ru_circuit *c, struct fy_node_pair *p,
         return s;
     int k = ru_circuit_find_part(c, text);
     if (k < 0)
-        return ru_ld_fail(d, fy_node_pair_value(p), err,
+        return ru_ld_fail(d, ru_ld_val(p), err,
                           "measure: key loop: there is no part %s", text);
     if (ru_circuit_part(c, (size_t)k)->type != RU_PART_AMPLIFIER)
-        return ru_ld_fail(d, fy_node_pair_value(p), err,
+        return ru_ld_fail(d, ru_ld_val(p), err,
                           "measure: key loop: part %s is not an amplifier", text);
     snprintf(ru_circuit_measure_opts(c)->loop, RU_NAME_MAX, "%s", text);
     return RU_OK;
 }
 
 /* A fraction in (0, 1) written as a percentage or a plain number. */
-static ru_status fraction(ld_doc *d, struct fy_node *v, const char *what, ru_error *err,
-                          double *out)
+static ru_status fraction(ld_doc *d, struct fy_node *v, struct fy_node *place,
+                          const char *what, ru_error *err, double *out)
 {
     char why[160];
     const char *text = (v && fy_node_get_type(v) == FYNT_SCALAR) ? fy_node_get_scalar0(v)
                                                                   : NULL;
     if (!text)
-        return ru_ld_fail(d, v, err, "measure: %s needs a single value", what);
+        return ru_ld_fail(d, v ? v : place, err, "measure: %s needs a single value", what);
     if (ru_value_parse(text, "%", out, why, sizeof why) != RU_OK)
         return ru_ld_fail(d, v, err, "measure: %s: %s", what, why);
     if (!(*out > 0 && *out < 1))
@@ -589,15 +600,16 @@ static ru_status fraction(ld_doc *d, struct fy_node *v, const char *what, ru_err
 static ru_status read_window(ld_doc *d, ru_circuit *c, struct fy_node_pair *p,
                              ru_error *err)
 {
-    struct fy_node *v = fy_node_pair_value(p);
+    struct fy_node *v = ru_ld_val(p);
     if (!v || fy_node_get_type(v) != FYNT_SEQUENCE || fy_node_sequence_item_count(v) != 2)
         return ru_ld_fail(d, v ? v : fy_node_pair_key(p), err,
                           "measure: key growth-window needs a list of two levels [lo, hi]");
     double lo, hi;
-    ru_status s = fraction(d, fy_node_sequence_get_by_index(v, 0),
+    ru_status s = fraction(d, fy_node_sequence_get_by_index(v, 0), v,
                            "key growth-window", err, &lo);
     if (s == RU_OK)
-        s = fraction(d, fy_node_sequence_get_by_index(v, 1), "key growth-window", err, &hi);
+        s = fraction(d, fy_node_sequence_get_by_index(v, 1), v, "key growth-window", err,
+                     &hi);
     if (s == RU_OK && !(lo < hi))
         s = ru_ld_fail(d, v, err, "measure: key growth-window: lo must be below hi");
     if (s == RU_OK) {
@@ -622,7 +634,7 @@ static ru_status read_measure(ld_doc *d, ru_circuit *c, struct fy_node_pair *mp,
     if (s == RU_OK && (p = ru_ld_find(map, "loop")) != NULL)
         s = read_loop(d, c, p, err);
     if (s == RU_OK && (p = ru_ld_find(map, "startup-level")) != NULL)
-        s = fraction(d, fy_node_pair_value(p), "key startup-level", err,
+        s = fraction(d, ru_ld_val(p), fy_node_pair_key(p), "key startup-level", err,
                      &ru_circuit_measure_opts(c)->startup_level);
     if (s == RU_OK && (p = ru_ld_find(map, "growth-window")) != NULL)
         s = read_window(d, c, p, err);
@@ -663,7 +675,7 @@ static ru_status read_top(ld_doc *d, const char *models_dir, ru_circuit **out,
     if (s == RU_OK && (p = ru_ld_find(d->root, "stray")) != NULL &&
         (s = ru_ld_value(d, p, "", "F", err, &stray)) == RU_OK &&
         ru_circuit_set_stray_f(c, stray) != RU_OK)
-        s = ru_ld_fail(d, fy_node_pair_value(p), err, "key stray must be positive");
+        s = ru_ld_fail(d, ru_ld_val(p), err, "key stray must be positive");
     if (s == RU_OK && (p = ru_ld_find(d->root, "parts")) == NULL)
         s = ru_ld_fail(d, d->root, err, "missing required key parts");
     ld_ctx ctx = {d, c, models_dir, err};

@@ -50,6 +50,9 @@ ru_status ru_ld_fail(ld_doc *d, struct fy_node *n, ru_error *err, const char *fm
 #endif
     ;
 
+/* The value node of pair p, or NULL when the value is empty ("key:"). */
+struct fy_node *ru_ld_val(struct fy_node_pair *p);
+
 /* The scalar text of a key node ("" for a non-scalar). */
 const char *ru_ld_key(struct fy_node_pair *p);
 

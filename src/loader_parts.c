@@ -128,11 +128,12 @@ static ru_status read_keys(ld_doc *d, struct fy_node *map, struct fy_node *place
 }
 
 /* A node name from a scalar, added to the circuit at its place. */
-static ru_status node_of(ld_ctx *x, struct fy_node *v, const char *who, const char *key,
-                         int *node)
+static ru_status node_of(ld_ctx *x, struct fy_node *v, struct fy_node *place,
+                         const char *who, const char *key, int *node)
 {
     if (!v || fy_node_get_type(v) != FYNT_SCALAR)
-        return ru_ld_fail(x->d, v, x->err, "%s: key %s needs a node name", who, key);
+        return ru_ld_fail(x->d, v ? v : place, x->err, "%s: key %s needs a node name", who,
+                          key);
     const char *name = fy_node_get_scalar0(v);
     if (!name || !ru_ld_valid_name(name))
         return ru_ld_fail(x->d, v, x->err,
@@ -155,7 +156,7 @@ static ru_status read_nodes(ld_ctx *x, struct fy_node *map, struct fy_node *plac
     struct fy_node_pair *p = ru_ld_find(map, "nodes");
     if (!p)
         return ru_ld_fail(x->d, place, x->err, "%s: missing required key nodes", who);
-    struct fy_node *v = fy_node_pair_value(p);
+    struct fy_node *v = ru_ld_val(p);
     if (!v || fy_node_get_type(v) != FYNT_SEQUENCE)
         return ru_ld_fail(x->d, v ? v : fy_node_pair_key(p), x->err,
                           "%s: key nodes needs a list of 2 nodes, e.g. [a, gnd]", who);
@@ -164,7 +165,8 @@ static ru_status read_nodes(ld_ctx *x, struct fy_node *map, struct fy_node *plac
         return ru_ld_fail(x->d, v, x->err, "%s: key nodes needs 2 nodes, got %d", who, n);
     ru_status s = RU_OK;
     for (int i = 0; i < 2 && s == RU_OK; i++)
-        s = node_of(x, fy_node_sequence_get_by_index(v, i), who, "nodes", &part->node[i]);
+        s = node_of(x, fy_node_sequence_get_by_index(v, i), v, who, "nodes",
+                    &part->node[i]);
     return s;
 }
 
@@ -210,7 +212,7 @@ static ru_status read_poly(ld_ctx *x, struct fy_node *map, struct fy_node *place
     struct fy_node_pair *p = ru_ld_find(map, "coeffs");
     if (!p)
         return ru_ld_fail(x->d, place, x->err, "%s: missing required key coeffs", who);
-    struct fy_node *v = fy_node_pair_value(p);
+    struct fy_node *v = ru_ld_val(p);
     int n = v && fy_node_get_type(v) == FYNT_SEQUENCE ? fy_node_sequence_item_count(v) : 0;
     if (n < 1 || n > RU_POLY_MAX)
         return ru_ld_fail(x->d, v ? v : fy_node_pair_key(p), x->err,
@@ -242,7 +244,7 @@ static ru_status read_source(ld_ctx *x, struct fy_node *map, struct fy_node *pla
     for (kind = 0; wave_names[kind] && strcmp(wave_names[kind], text) != 0; kind++)
         ;
     if (!wave_names[kind])
-        return ru_ld_fail(x->d, fy_node_pair_value(p), x->err,
+        return ru_ld_fail(x->d, ru_ld_val(p), x->err,
                           "%s: key wave: '%s' is not one of dc, step, sine, pulse", who,
                           text);
     const char *allowed[MAX_KEYS] = {"type", "nodes", "wave", NULL};
@@ -272,7 +274,7 @@ static ru_status read_law(ld_doc *d, struct fy_node_pair *p, const char *who,
             *law = (ru_law)i;
             return RU_OK;
         }
-    return ru_ld_fail(d, fy_node_pair_value(p), err,
+    return ru_ld_fail(d, ru_ld_val(p), err,
                       "%s: key law: '%s' is not one of follower-tanh, exp-stage", who, text);
 }
 
@@ -311,7 +313,7 @@ static ru_status read_model(ld_ctx *x, struct fy_node_pair *p, const char *who,
     ru_status s = ru_ld_scalar(x->d, p, who, x->err, &name);
     if (s != RU_OK)
         return s;
-    struct fy_node *v = fy_node_pair_value(p);
+    struct fy_node *v = ru_ld_val(p);
     int ok = name[0] != '.' && strlen(name) < RU_NAME_MAX;
     for (const char *q = name; ok && *q; q++)
         ok = ru_ld_valid_name((char[]){*q, '\0'}) || *q == '-';
@@ -355,7 +357,8 @@ static ru_status read_amp_nodes(ld_ctx *x, struct fy_node *map, struct fy_node *
         if (!p && i < 2)
             return ru_ld_fail(x->d, place, x->err, "%s: missing required key %s", who,
                               keys[i]);
-        ru_status s = p ? node_of(x, fy_node_pair_value(p), who, keys[i], &part->node[i])
+        ru_status s = p ? node_of(x, ru_ld_val(p), fy_node_pair_key(p), who, keys[i],
+                                  &part->node[i])
                         : RU_OK;
         if (s != RU_OK)
             return s;
@@ -411,7 +414,7 @@ static ru_status read_type(ld_ctx *x, struct fy_node *map, struct fy_node *place
             *type = (ru_part_type)t;
             return RU_OK;
         }
-    return ru_ld_fail(x->d, fy_node_pair_value(p), x->err,
+    return ru_ld_fail(x->d, ru_ld_val(p), x->err,
                       "%s: unknown type '%s' (resistor, capacitor, inductor, supply, "
                       "current, poly-conductance or amplifier)",
                       who, text);
@@ -419,7 +422,7 @@ static ru_status read_type(ld_ctx *x, struct fy_node *map, struct fy_node *place
 
 static ru_status read_part(ld_ctx *x, struct fy_node_pair *pair)
 {
-    struct fy_node *key = fy_node_pair_key(pair), *map = fy_node_pair_value(pair);
+    struct fy_node *key = fy_node_pair_key(pair), *map = ru_ld_val(pair);
     const char *name = ru_ld_key(pair);
     if (!ru_ld_valid_name(name))
         return ru_ld_fail(x->d, key, x->err,
@@ -455,7 +458,7 @@ static ru_status read_part(ld_ctx *x, struct fy_node_pair *pair)
 
 ru_status ru_ld_parts(ld_ctx *x, struct fy_node_pair *parts)
 {
-    struct fy_node *map = fy_node_pair_value(parts);
+    struct fy_node *map = ru_ld_val(parts);
     if (!map || fy_node_get_type(map) != FYNT_MAPPING || fy_node_mapping_item_count(map) < 1)
         return ru_ld_fail(x->d, map ? map : fy_node_pair_key(parts), x->err,
                           "key parts needs a mapping of part names to parts");
