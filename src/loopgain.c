@@ -125,8 +125,8 @@ ru_status ru_loopgain_at(const ru_system *s, int part, const double *x, double f
     lin_ctx c;
     double complex L = 0;
     ru_status st = RU_OK;
+    memset(&c, 0, sizeof c);
     if (!(isfinite(f_hz) && f_hz >= 0)) {
-        memset(&c, 0, sizeof c);
         st = ru_error_set(err, RU_ERANGE, "", 0, 0,
                           "loop gain: frequency must be finite and >= 0 (got %g)", f_hz);
         goto done;
