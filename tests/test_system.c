@@ -338,6 +338,404 @@ static void test_mass_matrix(void **state)
     ru_circuit_destroy(c);
 }
 
+/* ---- jumps, breakpoints, initial state ---------------------------------------- */
+
+/* Capacitive divider: VS top-gnd (step v0 -> v1 at 1 ms, no edge), C1 top-m,
+ * C2 m-gnd, stray on m. */
+static ru_circuit *cap_divider(double v0, double v1)
+{
+    ru_circuit *c;
+    assert_int_equal(ru_circuit_create("cap divider", &c), RU_OK);
+    ru_part p;
+    add2(c, RU_PART_SUPPLY, "VS", "top", "gnd", 0.0, &p);
+    p.wave.kind = RU_WAVE_STEP;
+    p.wave.v0 = v0;
+    p.wave.v1 = v1;
+    p.wave.at_s = 1e-3;
+    add_part(c, &p);
+    add2(c, RU_PART_CAPACITOR, "C1", "top", "m", 2e-9, NULL);
+    add2(c, RU_PART_CAPACITOR, "C2", "m", "gnd", 3e-9, NULL);
+    add2(c, RU_PART_RESISTOR, "R1", "m", "gnd", 1e6, NULL);
+    return c;
+}
+
+static void test_charge_jump(void **state)
+{
+    (void)state;
+    ru_circuit *c = cap_divider(1.0, 5.0);
+    ru_system *s = make(c);
+    assert_int_equal(ru_system_size(s), 1);
+    /* Reference: charge conservation at node m, Q = C V: a step dV on the top
+     * node moves m by dV * C1 / (C1 + C2 + stray). Rounding only: 1e-13. */
+    double share = 2e-9 / (2e-9 + 3e-9 + 1e-12), x[1];
+    ru_error e;
+    assert_int_equal(ru_system_initial_state(s, x, &e), RU_OK);
+    RU_ASSERT_REL(x[0], 1.0 * share, 1e-13); /* 0 -> v0 at power-on */
+    double bp[4];
+    assert_int_equal(ru_system_breakpoints(s, 10e-3, bp, 4), 1);
+    RU_ASSERT_NEAR(bp[0], 1e-3, 0.0);
+    double before = x[0];
+    ru_system_apply_jump(s, 0.5e-3, x); /* nothing jumps there */
+    RU_ASSERT_NEAR(x[0], before, 0.0);
+    ru_system_apply_jump(s, bp[0], x);
+    RU_ASSERT_REL(x[0] - before, 4.0 * share, 1e-13);
+    /* The driven node itself follows the wave. */
+    RU_ASSERT_NEAR(ru_system_node_voltage(s, ru_circuit_find_node(c, "top"), 2e-3, x),
+                   5.0, 0.0);
+    RU_ASSERT_NEAR(ru_system_node_voltage(s, ru_circuit_find_node(c, "m"), 2e-3, x),
+                   x[0], 0.0);
+    RU_ASSERT_NEAR(ru_system_node_voltage(s, 0, 2e-3, x), 0.0, 0.0);
+    ru_system_destroy(s);
+    ru_circuit_destroy(c);
+}
+
+/* A supply at value from t = 0 (rise 0) through a chain: the initial state
+ * carries the t = 0 jump; a ramped supply (rise > 0) does not jump. */
+/* A capacitor to a ramping supply injects C dv/dt into the free node. */
+static void test_cap_coupling(void **state)
+{
+    (void)state;
+    ru_circuit *c = cap_divider(0.0, 5.0);
+    ru_part *vs = ru_circuit_part_mut(c, (size_t)ru_circuit_find_part(c, "VS"));
+    vs->wave.edge_s = 1e-3; /* 5 V over 1 ms from t = 1 ms: 5000 V/s */
+    ru_system *s = make(c);
+    double x[1] = {0.7}, f[1];
+    assert_int_equal(ru_system_rhs(s, 1.5e-3, x, f), RU_OK);
+    /* Reference: i = C dv/dt through C1 and Ohm's law through R1, divided by the
+     * node's capacitance (KCL at m). Rounding only: 1e-12. */
+    double ctot = 2e-9 + 3e-9 + 1e-12;
+    RU_ASSERT_REL(f[0], (2e-9 * 5000.0 - 0.7 / 1e6) / ctot, 1e-12);
+    assert_int_equal(ru_system_rhs(s, 2.5e-3, x, f), RU_OK); /* after the edge */
+    RU_ASSERT_REL(f[0], (-0.7 / 1e6) / ctot, 1e-12);
+    double bp[4];
+    assert_int_equal(ru_system_breakpoints(s, 1.0, bp, 4), 2); /* edge start, end */
+    RU_ASSERT_NEAR(bp[1], 2e-3, 0.0);
+    ru_system_destroy(s);
+    ru_circuit_destroy(c);
+}
+
+static void test_initial_chain_jump(void **state)
+{
+    (void)state;
+    ru_circuit *c;
+    assert_int_equal(ru_circuit_create("chain jump", &c), RU_OK);
+    ru_part p;
+    add2(c, RU_PART_SUPPLY, "V1", "a", "gnd", 3.0, NULL);
+    add2(c, RU_PART_SUPPLY, "V2", "b", "a", 2.0, NULL);        /* v(b) = 5 V */
+    add2(c, RU_PART_SUPPLY, "V3", "r", "gnd", 7.0, &p);        /* ramps: no jump */
+    p.wave.rise_s = 1e-3;
+    add_part(c, &p);
+    add2(c, RU_PART_CAPACITOR, "C1", "b", "m", 1e-9, NULL);
+    add2(c, RU_PART_CAPACITOR, "C2", "r", "m", 1e-9, NULL);
+    add2(c, RU_PART_CAPACITOR, "C3", "m", "gnd", 2e-9, NULL);
+    ru_system *s = make(c);
+    double x[1];
+    assert_int_equal(ru_system_initial_state(s, x, NULL), RU_OK);
+    /* Reference: Q = C V on node m: v_m = 5 V * 1n / (1n + 1n + 2n + 1p). */
+    RU_ASSERT_REL(x[0], 5.0 * 1e-9 / (4e-9 + 1e-12), 1e-13);
+    double bp[2];
+    assert_int_equal(ru_system_breakpoints(s, 1.0, bp, 2), 1); /* ramp end */
+    RU_ASSERT_NEAR(bp[0], 1e-3, 0.0);
+    ru_system_destroy(s);
+    ru_circuit_destroy(c);
+}
+
+/* Breakpoints of a repeating pulse with edges and of a sine start, merged and
+ * sorted; more than max are counted. */
+static void test_breakpoints(void **state)
+{
+    (void)state;
+    ru_circuit *c;
+    assert_int_equal(ru_circuit_create("bp", &c), RU_OK);
+    ru_part p;
+    add2(c, RU_PART_CURRENT, "IP", "gnd", "m", 0.0, &p);
+    p.wave.kind = RU_WAVE_PULSE;
+    p.wave.v0 = 0.0;
+    p.wave.v1 = 1e-3;
+    p.wave.at_s = 1e-3;
+    p.wave.edge_s = 0.1e-3;
+    p.wave.width_s = 2e-3;
+    p.wave.period_s = 5e-3;
+    add_part(c, &p);
+    add2(c, RU_PART_SUPPLY, "VS", "s", "gnd", 0.0, &p);
+    p.wave.kind = RU_WAVE_SINE;
+    p.wave.amplitude = 1.0;
+    p.wave.freq_hz = 100.0;
+    p.wave.at_s = 4e-3;
+    p.wave.phase_deg = 90.0;
+    add_part(c, &p);
+    add2(c, RU_PART_RESISTOR, "R", "m", "gnd", 1e3, NULL);
+    add2(c, RU_PART_CAPACITOR, "C", "m", "s", 1e-9, NULL);
+    ru_system *s = make(c);
+    /* Reference: the pulse timing rule (edges inside the width): starts at
+     * 1 + 5k ms, edges end 0.1 ms later, falling edges over the last 0.1 ms. */
+    const double want[] = {1e-3, 1.1e-3, 2.9e-3, 3e-3, 4e-3, 6e-3, 6.1e-3, 7.9e-3,
+                           8e-3, 11e-3, 11.1e-3};
+    double bp[16];
+    assert_int_equal(ru_system_breakpoints(s, 11.5e-3, bp, 16), 11);
+    for (int i = 0; i < 11; i++)
+        RU_ASSERT_NEAR(bp[i], want[i], 1e-15);
+    assert_int_equal(ru_system_breakpoints(s, 11.5e-3, bp, 3), 11);
+    /* Reference: a sine starting at 90 degrees jumps by its amplitude; Q = C V
+     * on m (C to s and stray to gnd). Only the sine start moves m. */
+    double x[1] = {0.25};
+    ru_system_apply_jump(s, 4e-3, x);
+    RU_ASSERT_REL(x[0], 0.25 + 1.0 * 1e-9 / (1e-9 + 1e-12), 1e-13);
+    ru_system_apply_jump(s, 6e-3, x); /* current source edge: no state change */
+    RU_ASSERT_REL(x[0], 0.25 + 1.0 * 1e-9 / (1e-9 + 1e-12), 1e-13);
+    ru_system_destroy(s);
+    ru_circuit_destroy(c);
+}
+
+/* Wave values and slopes: slope against central differences inside segments,
+ * final values, jumps. */
+static void test_waves(void **state)
+{
+    (void)state;
+    ru_wave w = {0};
+    w.kind = RU_WAVE_PULSE;
+    w.v0 = -1.0;
+    w.v1 = 3.0;
+    w.at_s = 1.0;
+    w.edge_s = 0.2;
+    w.width_s = 1.0;
+    w.period_s = 3.0;
+    /* Reference: pulse timing rule; 1 + 3k start, top 1.2..1.8, fall 1.8..2.0. */
+    RU_ASSERT_NEAR(ru_wave_value(&w, 0.5), -1.0, 0.0);
+    RU_ASSERT_NEAR(ru_wave_value(&w, 4.1), 1.0, 1e-12);
+    RU_ASSERT_NEAR(ru_wave_value(&w, 7.5), 3.0, 0.0);
+    RU_ASSERT_NEAR(ru_wave_value(&w, 7.9), 1.0, 1e-12);
+    RU_ASSERT_NEAR(ru_wave_value(&w, 8.5), -1.0, 0.0);
+    RU_ASSERT_NEAR(ru_wave_final(&w), -1.0, 0.0);
+    RU_ASSERT_NEAR(ru_wave_jump(&w, 4.0), 0.0, 0.0); /* edges have width */
+    const double ts[] = {1.1, 4.05, 7.9, 0.3};
+    for (int i = 0; i < 4; i++) {
+        double h = 1e-6;
+        double num = (ru_wave_value(&w, ts[i] + h) - ru_wave_value(&w, ts[i] - h)) / (2 * h);
+        /* Reference: central difference on a linear segment: exact to 1e-8. */
+        RU_ASSERT_NEAR(ru_wave_slope(&w, ts[i]), num, 1e-6);
+    }
+    ru_wave sn = {0};
+    sn.kind = RU_WAVE_SINE;
+    sn.offset = 0.5;
+    sn.amplitude = 2.0;
+    sn.freq_hz = 50.0;
+    sn.at_s = 0.01;
+    sn.phase_deg = 30.0;
+    double h = 1e-7, t = 0.0173;
+    double num = (ru_wave_value(&sn, t + h) - ru_wave_value(&sn, t - h)) / (2 * h);
+    /* Reference: d/dt A sin(wt + p) = A w cos(wt + p); central difference with
+     * h = 1e-7 s: truncation A w^3 h^2 / 6 ~ 1e-10 V/s. */
+    RU_ASSERT_NEAR(ru_wave_slope(&sn, t), num, 1e-5);
+    RU_ASSERT_NEAR(ru_wave_value(&sn, 0.005), 0.5, 0.0);
+    RU_ASSERT_NEAR(ru_wave_jump(&sn, 0.01), 1.0, 1e-12); /* 2 sin 30 deg */
+    RU_ASSERT_NEAR(ru_wave_final(&sn), 0.5, 0.0);
+    ru_wave st = {0};
+    st.kind = RU_WAVE_STEP;
+    st.v0 = 2.0;
+    st.v1 = -4.0;
+    st.at_s = 0.3;
+    RU_ASSERT_NEAR(ru_wave_jump(&st, 0.3), -6.0, 0.0);
+    RU_ASSERT_NEAR(ru_wave_value(&st, 0.3), -4.0, 0.0); /* right-continuous */
+    RU_ASSERT_NEAR(ru_wave_value(&st, -1.0), 0.0, 0.0); /* zero before t = 0 */
+    RU_ASSERT_NEAR(ru_wave_final(&st), -4.0, 0.0);
+}
+
+/* ---- supplies, names, presets, scales ------------------------------------------ */
+
+/* Chain given in "wrong" order: V3 hangs on b, V2 on a, V1 on gnd. */
+static void test_supply_chain(void **state)
+{
+    (void)state;
+    ru_circuit *c;
+    assert_int_equal(ru_circuit_create("chain", &c), RU_OK);
+    add2(c, RU_PART_SUPPLY, "V3", "b", "c", 2.0, NULL); /* v(c) = v(b) - 2 */
+    add2(c, RU_PART_SUPPLY, "V2", "b", "a", 3.0, NULL); /* v(b) = v(a) + 3 */
+    add2(c, RU_PART_SUPPLY, "V1", "a", "gnd", 5.0, NULL);
+    add2(c, RU_PART_SUPPLY, "V4", "gnd", "n", 1.5, NULL); /* v(n) = -1.5 */
+    add2(c, RU_PART_RESISTOR, "R1", "c", "d", 1e3, NULL);
+    add2(c, RU_PART_RESISTOR, "R2", "d", "n", 1e3, NULL);
+    ru_system *s = make(c);
+    assert_int_equal(ru_system_size(s), 1);
+    const char *dn[] = {"a", "b", "c", "n"};
+    const double dv[] = {5.0, 8.0, 6.0, -1.5}; /* Reference: KVL along the chain */
+    double x[1] = {0.3};
+    for (int i = 0; i < 4; i++) {
+        int k = ru_circuit_find_node(c, dn[i]);
+        assert_int_equal(ru_system_node_state(s, k), -2);
+        RU_ASSERT_NEAR(ru_system_node_voltage(s, k, 1e-3, x), dv[i], 1e-15);
+    }
+    int d = ru_circuit_find_node(c, "d");
+    assert_int_equal(ru_system_node_state(s, d), 0);
+    assert_int_equal(ru_system_node_state(s, 0), -1);
+    assert_int_equal(ru_system_node_state(s, 99), -3);
+    assert_int_equal(ru_system_node_state(s, -1), -3);
+    /* Reference: divider between 6 V and -1.5 V: the DC residual vanishes at
+     * 2.25 V (Kirchhoff's current law). */
+    double r[1], xd[1] = {2.25};
+    ru_eval_point ep = {0.0, 1, 1.0};
+    assert_int_equal(ru_system_residual(s, &ep, xd, r, NULL), RU_OK);
+    RU_ASSERT_NEAR(r[0], 0.0, 1e-18);
+    ru_system_destroy(s);
+    ru_circuit_destroy(c);
+}
+
+static void test_supply_errors(void **state)
+{
+    (void)state;
+    ru_circuit *c;
+    assert_int_equal(ru_circuit_create("floating", &c), RU_OK);
+    ru_circuit_set_file(c, "osc.yaml");
+    add2(c, RU_PART_SUPPLY, "VF", "x", "y", 1.0, NULL);
+    add2(c, RU_PART_RESISTOR, "R1", "x", "gnd", 1e3, NULL);
+    ru_system *s = (ru_system *)1;
+    ru_error e;
+    assert_int_equal(ru_system_create(c, &s, &e), RU_EINPUT);
+    assert_null(s);
+    assert_non_null(strstr(e.msg, "part VF"));
+    assert_non_null(strstr(e.msg, "needs one terminal on gnd"));
+    assert_string_equal(e.file, "osc.yaml");
+    assert_int_equal(e.line, 7);
+    assert_int_equal(e.col, 3);
+    ru_circuit_destroy(c);
+
+    assert_int_equal(ru_circuit_create("loop", &c), RU_OK);
+    add2(c, RU_PART_SUPPLY, "V1", "x", "gnd", 1.0, NULL);
+    add2(c, RU_PART_SUPPLY, "V2", "y", "x", 1.0, NULL);
+    add2(c, RU_PART_SUPPLY, "V3", "y", "gnd", 2.0, NULL); /* closes a loop */
+    assert_int_equal(ru_system_create(c, &s, &e), RU_EINPUT);
+    assert_non_null(strstr(e.msg, "part V3"));
+    assert_non_null(strstr(e.msg, "loop"));
+    ru_circuit_destroy(c);
+    ru_system_destroy(NULL);
+}
+
+static void test_names(void **state)
+{
+    (void)state;
+    ru_circuit *c = rich_circuit();
+    ru_system *s = make(c);
+    /* Free nodes in node order (vcc, vb driven), then inductors in part order. */
+    const char *want[] = {"col", "base", "emit", "tank", "fo", "i(L1)", "i(L2)"};
+    assert_int_equal(ru_system_size(s), 7);
+    assert_int_equal(ru_system_free_nodes(s), 5);
+    for (size_t i = 0; i < 7; i++)
+        assert_string_equal(ru_system_state_name(s, i), want[i]);
+    assert_string_equal(ru_system_state_name(s, 7), "?");
+    assert_int_equal(ru_system_inductor_state(s, ru_circuit_find_part(c, "L2")), 6);
+    assert_int_equal(ru_system_inductor_state(s, ru_circuit_find_part(c, "R1")), -1);
+    assert_int_equal(ru_system_inductor_state(s, 1000), -1);
+    assert_ptr_equal(ru_system_circuit(s), c);
+    ru_system_destroy(s);
+    ru_circuit_destroy(c);
+}
+
+static void test_preset(void **state)
+{
+    (void)state;
+    ru_circuit *c = cap_divider(0.0, 1.0);
+    ru_run_opts *ro = ru_circuit_run_opts(c);
+    ro->kick = RU_KICK_PRESET;
+    ro->npreset = 1;
+    ro->preset_node[0] = ru_circuit_find_node(c, "m");
+    ro->preset_v[0] = 1e-3;
+    ru_system *s = make(c);
+    double x[1];
+    ru_error e;
+    assert_int_equal(ru_system_initial_state(s, x, &e), RU_OK);
+    RU_ASSERT_NEAR(x[0], 1e-3, 0.0);
+    ru_system_destroy(s);
+    ro->preset_node[0] = ru_circuit_find_node(c, "top"); /* driven: refused */
+    s = make(c);
+    assert_int_equal(ru_system_initial_state(s, x, &e), RU_EINPUT);
+    assert_non_null(strstr(e.msg, "top"));
+    ru_system_destroy(s);
+    ru_circuit_destroy(c);
+}
+
+/* Scales: volts from the largest supply chain, amperes of a tank of L and the
+ * total capacitance (V sqrt(C/L)). */
+static void test_state_scale(void **state)
+{
+    (void)state;
+    ru_circuit *c = rich_circuit();
+    ru_system *s = make(c);
+    double sc[7];
+    ru_system_state_scale(s, sc);
+    /* vb = vcc - (6 +- 0.5): chain sum of peaks 9 + 6.5 = 15.5 V. */
+    for (size_t i = 0; i < 5; i++)
+        RU_ASSERT_NEAR(sc[i], 15.5, 0.0);
+    double ctot = 10e-9 + 22e-9 + 1e-9 + 5e-12;
+    RU_ASSERT_REL(sc[5], 15.5 * sqrt(ctot / 1e-3), 1e-14);
+    RU_ASSERT_REL(sc[6], 15.5 * sqrt(ctot / 4.7e-3), 1e-14);
+    ru_system_destroy(s);
+    ru_circuit_destroy(c);
+}
+
+/* ---- loop split ------------------------------------------------------------------ */
+
+static void check_split(const ru_system *s, int part, const double *x)
+{
+    size_t n = ru_system_size(s);
+    double *A0 = calloc(n * n, sizeof *A0), *dr = calloc(n * n, sizeof *dr);
+    double *b = calloc(n, sizeof *b), *g = calloc(n, sizeof *g), *r = calloc(n, sizeof *r);
+    ru_error e;
+    assert_int_equal(ru_system_loop_split(s, part, x, A0, b, g, &e), RU_OK);
+    ru_eval_point ep = {0.0, 1, 1.0};
+    assert_int_equal(ru_system_residual(s, &ep, x, r, dr), RU_OK);
+    double bmax = 0.0, big = 0.0;
+    for (size_t i = 0; i < n; i++)
+        bmax = fmax(bmax, fabs(b[i]));
+    for (size_t i = 0; i < n * n; i++)
+        big = fmax(big, fabs(dr[i]));
+    assert_true(bmax > 0.0); /* the loop is really cut */
+    for (size_t i = 0; i < n; i++)
+        for (size_t j = 0; j < n; j++)
+            /* Reference: the split's definition dr/dx = A0 + b g^T; A0 is stamped
+             * with the transconductance left out, not computed as dr - b g^T.
+             * Rounding of sums of terms up to `big`: 1e-14 of it. */
+            RU_ASSERT_NEAR(A0[i * n + j] + b[i] * g[j], dr[i * n + j], 1e-14 * big);
+    free(A0); free(dr); free(b); free(g); free(r);
+}
+
+static void test_loop_split(void **state)
+{
+    (void)state;
+    ru_circuit *c = rich_circuit();
+    ru_system *s = make(c);
+    double x[7] = {0};
+    unsigned long seed = 7;
+    for (int k = 0; k < 5; k++) {
+        for (size_t i = 0; i < 7; i++)
+            x[i] = i < 5 ? 3.0 * lcg(&seed) : 1e-3 * lcg(&seed);
+        check_split(s, ru_circuit_find_part(c, "Q1"), x);
+        check_split(s, ru_circuit_find_part(c, "A1"), x);
+    }
+    /* Follower at its center, ref on gnd: b on the out row is gain / rout
+     * (Reference: d tanh/du = 1 at 0) and g picks the input node. */
+    size_t n = 7;
+    int tank = ru_system_node_state(s, ru_circuit_find_node(c, "tank"));
+    int fo = ru_system_node_state(s, ru_circuit_find_node(c, "fo"));
+    x[tank] = 2.0;
+    double A0[49], b[7], g[7];
+    assert_int_equal(ru_system_loop_split(s, ru_circuit_find_part(c, "A1"), x, A0, b, g,
+                                          NULL),
+                     RU_OK);
+    RU_ASSERT_REL(b[fo], 0.95 / 200.0, 1e-14);
+    for (size_t i = 0; i < n; i++) {
+        RU_ASSERT_NEAR(g[i], i == (size_t)tank ? 1.0 : 0.0, 0.0);
+        if (i != (size_t)fo)
+            RU_ASSERT_NEAR(b[i], 0.0, 0.0);
+    }
+    ru_error e;
+    assert_int_equal(ru_system_loop_split(s, ru_circuit_find_part(c, "R1"), x, A0, b, g,
+                                          &e),
+                     RU_EINPUT);
+    assert_non_null(strstr(e.msg, "R1"));
+    ru_system_destroy(s);
+    ru_circuit_destroy(c);
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
@@ -346,6 +744,17 @@ int main(void)
         cmocka_unit_test(test_residual_dc),
         cmocka_unit_test(test_rhs_mass),
         cmocka_unit_test(test_mass_matrix),
+        cmocka_unit_test(test_charge_jump),
+        cmocka_unit_test(test_cap_coupling),
+        cmocka_unit_test(test_initial_chain_jump),
+        cmocka_unit_test(test_breakpoints),
+        cmocka_unit_test(test_waves),
+        cmocka_unit_test(test_supply_chain),
+        cmocka_unit_test(test_supply_errors),
+        cmocka_unit_test(test_names),
+        cmocka_unit_test(test_preset),
+        cmocka_unit_test(test_state_scale),
+        cmocka_unit_test(test_loop_split),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }
