@@ -1,0 +1,77 @@
+/* measure_impl.h: private parts shared by measure.c, envelope.c and harmonics.c.
+ *
+ * Not installed, not part of the public API. The envelope tracker turns a stream of
+ * samples into one envelope point per cycle (memory O(cycles)); the harmonics helpers
+ * resample a uniformly sampled stretch onto whole periods and call ru_harmonics.
+ * Invariants: env_t/env_a hold n_env points with strictly increasing times;
+ * cap_env >= n_env and grows by doubling only. */
+#ifndef RU_MEASURE_IMPL_H
+#define RU_MEASURE_IMPL_H
+
+#include "ringup/measure.h"
+
+#include <stdint.h>
+
+/* One candidate extremum: the extreme sample and its two neighbours. */
+typedef struct ru_ext {
+    double t_s;       /* time of the extreme sample (s) */
+    double v;         /* its value (V) */
+    double vprev;     /* sample before it (V), valid when has_prev */
+    double vnext;     /* sample after it (V), valid when has_next */
+    double dt_s;      /* sample spacing around it (s) */
+    uint64_t idx;     /* global sample index */
+    int ok;           /* 1: this candidate holds a sample */
+    int has_prev;     /* 1: vprev is set */
+    int has_next;     /* 1: vnext is set */
+} ru_ext;
+
+/* Seeks one extremum: the maximum when sign = +1, the minimum when sign = -1. */
+typedef struct ru_seek {
+    ru_ext cand;      /* most extreme sample since the last confirmed opposite one */
+    ru_ext sub;       /* most opposite sample after cand (next candidate) */
+    int sign;         /* +1 seeks a maximum, -1 a minimum */
+} ru_seek;
+
+/* Streaming envelope: extrema with hysteresis, refined by a parabola. */
+typedef struct ru_envelope {
+    int mode;            /* 0: direction unknown (hi and lo both seek), 1: tracking */
+    ru_seek hi, lo;      /* mode 0: seek the first maximum / minimum */
+    ru_seek seek;        /* mode 1: the extremum sought now */
+    double last_ext_v;   /* value of the last confirmed extremum (V) */
+    double floor_v;      /* minimum hysteresis (V): noise the swing must beat */
+    int have_max;        /* 1: max_t_s/max_v wait for their following minimum */
+    double max_t_s;      /* refined time of that maximum (s) */
+    double max_v;        /* refined value of that maximum (V) */
+    double *env_t;       /* envelope point times (s) */
+    double *env_a;       /* envelope amplitudes (V) */
+    size_t n_env;        /* points held */
+    size_t cap_env;      /* capacity of env_t and env_a */
+} ru_envelope;
+
+/* Hysteresis as a fraction of the current half-cycle swing (common practice). */
+#define RU_ENV_HYST 0.2
+
+void ru_envelope_init(ru_envelope *e, double floor_v);
+void ru_envelope_free(ru_envelope *e);
+/* Feeds sample number idx (t_s, v); vlast/tlast is the previous sample when
+ * idx > 0. Returns RU_ENOMEM when an envelope point cannot be stored. */
+ru_status ru_envelope_push(ru_envelope *e, uint64_t idx, double t_s, double v,
+                           double tlast_s, double vlast);
+
+/* Largest number of samples the spectrum window keeps (8 MiB of doubles). */
+#define RU_RING_MAX ((size_t)1 << 20)
+/* Most whole periods resampled for the spectrum. */
+#define RU_THD_MAX_PERIODS 64
+/* Fewest whole periods for THD. */
+#define RU_THD_MIN_PERIODS 4
+
+/* Resamples x (n uniform samples, x[i] at t0_s + i*dt_s) onto out[0..nout-1] at
+ * ts_s + j*span_s/nout by 8-point Lagrange interpolation. */
+void ru_resample(const double *x, size_t n, double t0_s, double dt_s, double ts_s,
+                 double span_s, double *out, size_t nout);
+
+/* Internal queries for tests: capacities of the bounded buffers (entries). */
+size_t ru_measure_ring_capacity(const ru_measure *m);
+size_t ru_measure_envelope_capacity(const ru_measure *m);
+
+#endif

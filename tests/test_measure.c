@@ -1,0 +1,416 @@
+/* test_measure.c: envelope, start-up, growth, settling, frequency and DC figures of
+ * ru_measure on synthetic waveforms whose figures are known in closed form.
+ *
+ * Main reference: the averaged van der Pol envelope (method of averaging),
+ * a(t) = A / sqrt(1 + (A^2/a0^2 - 1) exp(-2 sigma t)), the solution of
+ * da/dt = sigma a (1 - a^2/A^2); the probe is a(t) cos(omega t). Its start-up time to
+ * a level L*A inverts in closed form: t_L = ln((A^2/a0^2 - 1)/(1/L^2 - 1))/(2 sigma). */
+#include "ru_test.h"
+
+#include "measure_impl.h"
+#include "ringup/measure.h"
+
+#include <stdint.h>
+#include <stdlib.h>
+#include <string.h>
+
+typedef struct sig {
+    double amp_v;     /* A: settled amplitude (V) */
+    double a0_v;      /* a0: envelope at t = 0 (V) */
+    double sigma;     /* small-signal growth rate (1/s); < 0 with a0 = A: decay */
+    double f_hz;      /* oscillation frequency */
+    double dc_v;      /* added DC level (V) */
+    double ramp_v_s;  /* added slow DC ramp (V/s) */
+    double noise_v;   /* added pseudo-noise, uniform in +-noise_v */
+    int decay;        /* 1: a0 exp(sigma t) instead of the van der Pol envelope */
+} sig;
+
+static double vdp_env(const sig *s, double t)
+{
+    double q = s->amp_v * s->amp_v / (s->a0_v * s->a0_v) - 1.0;
+    return s->amp_v / sqrt(1.0 + q * exp(-2.0 * s->sigma * t));
+}
+
+static double t_level(const sig *s, double level)
+{
+    double q = s->amp_v * s->amp_v / (s->a0_v * s->a0_v) - 1.0;
+    return log(q / (1.0 / (level * level) - 1.0)) / (2.0 * s->sigma);
+}
+
+/* Deterministic uniform pseudo-noise in [-1, 1) (64-bit LCG, Knuth's MMIX
+ * constants, from memory; any fixed generator does here). */
+static double lcg_uniform(uint64_t *state)
+{
+    *state = *state * 6364136223846793005ULL + 1442695040888963407ULL;
+    return (double)(*state >> 11) / 4503599627370496.0 - 1.0;
+}
+
+/* Pushes the signal over [0, stop_s] at sample_s; returns the measure (caller
+ * destroys) with res filled. */
+static ru_measure *run(const sig *s, const ru_measure_cfg *cfg, double until_s,
+                       ru_measure_result *res)
+{
+    ru_measure *m = NULL;
+    assert_int_equal(ru_measure_create(cfg, &m), RU_OK);
+    uint64_t st = 12345;
+    size_t n = (size_t)llround(until_s / cfg->sample_s);
+    double w = 2.0 * M_PI * s->f_hz;
+    for (size_t i = 0; i <= n; i++) {
+        double t = (double)i * cfg->sample_s;
+        double a = s->decay ? s->a0_v * exp(s->sigma * t) : vdp_env(s, t);
+        double v = a * cos(w * t) + s->dc_v + s->ramp_v_s * t;
+        if (s->noise_v > 0.0)
+            v += s->noise_v * lcg_uniform(&st);
+        assert_int_equal(ru_measure_push(m, t, v), RU_OK);
+    }
+    assert_int_equal(ru_measure_finish(m, res), RU_OK);
+    return m;
+}
+
+/* Least-squares slope of exact ln a(t) at the given times: what the growth fit
+ * would read on a perfect envelope (the nonlinearity's own bias). */
+static double exact_fit_slope(const sig *s, const double *t, size_t n)
+{
+    double tm = 0.0, ym = 0.0, stt = 0.0, sty = 0.0;
+    for (size_t i = 0; i < n; i++) {
+        tm += t[i];
+        ym += log(vdp_env(s, t[i]));
+    }
+    tm /= (double)n;
+    ym /= (double)n;
+    for (size_t i = 0; i < n; i++) {
+        stt += (t[i] - tm) * (t[i] - tm);
+        sty += (t[i] - tm) * (log(vdp_env(s, t[i])) - ym);
+    }
+    return sty / stt;
+}
+
+/* Start-up of the averaged van der Pol envelope at sigma/omega = ratio. */
+static void check_vdp(double ratio, double startup_rel_tol)
+{
+    sig s = {.amp_v = 1.5, .a0_v = 1.5e-3, .f_hz = 1000.0};
+    s.sigma = ratio * 2.0 * M_PI * s.f_hz;
+    /* stop where the envelope is within ~1e-7 of A through the last 10 %:
+     * A - a ~ A/2 (A/a0)^2 exp(-2 sigma t) <= 1e-7 A at 0.9 stop */
+    double stop = (log(0.5e7 * 1e6) / (2.0 * s.sigma)) / 0.9;
+    double T = 1.0 / s.f_hz;
+    stop = ceil(stop / T) * T;
+    ru_measure_cfg cfg;
+    ru_measure_cfg_default(&cfg, stop, T / 64.0);
+    cfg.kick_level_v = s.a0_v;
+    ru_measure_result r;
+    ru_measure *m = run(&s, &cfg, stop, &r);
+
+    assert_int_equal(r.started, 1);
+    assert_int_equal(r.settled, 1);
+    /* Tolerance 1e-4: parabola vertex error at 64 samples/period is O((w dt)^4)
+     * ~ 1e-5 (common practice bound), the envelope is within 1e-7 of A. */
+    RU_ASSERT_REL(r.settled_amplitude_v, s.amp_v, 1e-4);
+    /* Reference: closed-form inverse of a(t) at 0.9 A (head comment). */
+    RU_ASSERT_REL(r.startup_time_s, t_level(&s, 0.9), startup_rel_tol);
+    /* Reference: same closed form at 0.99 A (settle band 1 %, approached from
+     * below). Same interpolation error class as the start-up time. */
+    RU_ASSERT_REL(r.settling_time_s, t_level(&s, 0.99), startup_rel_tol);
+    /* Frequency from mean crossings at an integer 64 samples/period: crossings
+     * repeat exactly, so only rounding remains (1e-6 per the contract). */
+    RU_ASSERT_REL(r.frequency_hz, s.f_hz, 1e-6);
+    RU_ASSERT_NEAR(r.dc_level_v, 0.0, 1e-6 * s.amp_v);
+
+    /* Growth: the fit window's points, and the fit on exact ln a(t) at them. */
+    const double *et, *ea;
+    size_t n;
+    ru_measure_envelope(m, &et, &ea, &n);
+    assert_int_equal(n, r.cycles);
+    assert_true(r.growth_fit_points >= 3);
+    size_t i0 = 0;
+    while (i0 < n && et[i0] < r.growth_fit_t0_s)
+        i0++;
+    assert_true(i0 + (size_t)r.growth_fit_points <= n);
+    RU_ASSERT_NEAR(et[i0 + (size_t)r.growth_fit_points - 1], r.growth_fit_t1_s, 0.0);
+    double sig_ref = exact_fit_slope(&s, et + i0, (size_t)r.growth_fit_points);
+    /* Reference: the 1 %..10 % window of the exact envelope reads low because
+     * d ln a/dt = sigma (1 - a^2/A^2); bound 0.3 % (brief), ~0.2 % expected. */
+    assert_true(sig_ref < s.sigma);
+    RU_ASSERT_REL(sig_ref, s.sigma, 3e-3);
+    /* The measured envelope's fit follows the exact one to 1e-3 relative: each
+     * point has a constant relative bias (cosh of a quarter period's growth,
+     * cancels in a log slope) and ~1e-5 vertex error. */
+    RU_ASSERT_REL(r.growth_rate_per_s, sig_ref, 1e-3);
+    RU_ASSERT_REL(r.growth_rate_per_s, s.sigma, 3e-3);
+    assert_true(r.growth_fit_rms < 1e-2);
+    ru_measure_destroy(m);
+}
+
+/* Tolerance for the start-up time: linear interpolation between envelope points one
+ * period apart errs by ~ |a''| T^2 / (8 a') at 0.9 A, which for the averaged
+ * equation is 0.18 sigma T^2 (derived from da/dt = sigma a (1 - a^2/A^2)); relative
+ * to t90 = 5.3/sigma that is 0.034 (sigma T)^2, i.e. 4e-5, 1.3e-4 and 3.4e-3 at
+ * sigma/omega = 0.005, 0.01, 0.05. Tolerances: 1e-3 and, at 0.05, 5e-3. */
+static void test_vdp_slow(void **state)
+{
+    (void)state;
+    check_vdp(0.005, 1e-3);
+}
+
+static void test_vdp_mid(void **state)
+{
+    (void)state;
+    check_vdp(0.01, 1e-3);
+}
+
+static void test_vdp_fast(void **state)
+{
+    (void)state;
+    check_vdp(0.05, 5e-3);
+}
+
+/* Frequency at a non-integer number of samples per period, so crossing positions
+ * vary from period to period. Reference: the generated frequency. Linear crossing
+ * interpolation of a sine errs by <= (w dt)^2 dt / 100 per crossing (cubic term of
+ * the Taylor series at the inflection, common practice estimate): 2.4e-6 T here, over
+ * >= 60 periods that is < 1e-7; tolerance 1e-6 (contract). */
+static void test_frequency_incommensurate(void **state)
+{
+    (void)state;
+    sig s = {.amp_v = 0.8, .a0_v = 8e-3, .f_hz = 1234.5};
+    s.sigma = 0.02 * 2.0 * M_PI * s.f_hz;
+    double stop = 0.6;
+    ru_measure_cfg cfg;
+    ru_measure_cfg_default(&cfg, stop, 1.0 / (s.f_hz * 61.7));
+    ru_measure_result r;
+    ru_measure *m = run(&s, &cfg, stop, &r);
+    assert_int_equal(r.started, 1);
+    RU_ASSERT_REL(r.frequency_hz, s.f_hz, 1e-6);
+    RU_ASSERT_REL(r.settled_amplitude_v, s.amp_v, 1e-4);
+    /* a pure cosine: every harmonic far below the fundamental (resampler error of
+     * order 1e-8, see test_harmonics.c) */
+    assert_true(r.thd_percent < 1e-4);
+    ru_measure_destroy(m);
+}
+
+/* A decaying sine never starts: started = 0, figures NAN, notes say why. */
+static void test_decaying(void **state)
+{
+    (void)state;
+    sig s = {.amp_v = 1.0, .a0_v = 1.0, .f_hz = 500.0, .decay = 1};
+    s.sigma = -0.01 * 2.0 * M_PI * s.f_hz;
+    ru_measure_cfg cfg;
+    ru_measure_cfg_default(&cfg, 0.2, 1.0 / (500.0 * 64.0));
+    ru_measure_result r;
+    ru_measure *m = run(&s, &cfg, 0.2, &r);
+    assert_true(r.cycles > 90); /* 100 periods, all found */
+    assert_int_equal(r.started, 0);
+    assert_int_equal(r.settled, 0);
+    assert_true(isnan(r.startup_time_s) && isnan(r.growth_rate_per_s));
+    assert_true(isnan(r.settled_amplitude_v) && isnan(r.thd_percent));
+    assert_true(isnan(r.settling_time_s) && isnan(r.frequency_hz));
+    assert_non_null(strstr(r.growth_note, "did not start"));
+    assert_non_null(strstr(r.thd_note, "did not start"));
+    /* the window's envelope falls by 1 - exp(sigma * 0.02 s) ~ 47 % */
+    assert_true(r.envelope_drift < -0.3);
+    ru_measure_destroy(m);
+}
+
+/* A steady sine with no growth never "starts" either (grew 1x). */
+static void test_constant_not_started(void **state)
+{
+    (void)state;
+    sig s = {.amp_v = 1.0, .a0_v = 1.0, .f_hz = 500.0, .decay = 1, .sigma = 0.0};
+    ru_measure_cfg cfg;
+    ru_measure_cfg_default(&cfg, 0.1, 1.0 / (500.0 * 64.0));
+    ru_measure_result r;
+    ru_measure *m = run(&s, &cfg, 0.1, &r);
+    assert_int_equal(r.started, 0);
+    assert_non_null(strstr(r.settle_note, "grew"));
+    ru_measure_destroy(m);
+}
+
+/* A DC offset leaves the envelope unchanged (max - min and the hysteresis are both
+ * shift invariant) and is read back as dc_level_v. Reference: the added offset. */
+static void test_dc_offset(void **state)
+{
+    (void)state;
+    sig s = {.amp_v = 1.0, .a0_v = 1e-2, .f_hz = 2000.0};
+    s.sigma = 0.02 * 2.0 * M_PI * s.f_hz;
+    double stop = 0.15;
+    ru_measure_cfg cfg;
+    ru_measure_cfg_default(&cfg, stop, 1.0 / (s.f_hz * 64.0));
+    ru_measure_result r0, r1;
+    ru_measure *m0 = run(&s, &cfg, stop, &r0);
+    s.dc_v = 2.5;
+    ru_measure *m1 = run(&s, &cfg, stop, &r1);
+    const double *t0, *a0, *t1, *a1;
+    size_t n0, n1;
+    ru_measure_envelope(m0, &t0, &a0, &n0);
+    ru_measure_envelope(m1, &t1, &a1, &n1);
+    assert_int_equal(n0, n1);
+    /* same points up to rounding of 2.5 V + signal (ulp ~ 4e-16 * 2.5) */
+    for (size_t i = 0; i < n0; i++) {
+        RU_ASSERT_NEAR(a1[i], a0[i], 1e-12);
+        RU_ASSERT_NEAR(t1[i], t0[i], 1e-12);
+    }
+    RU_ASSERT_REL(r1.settled_amplitude_v, r0.settled_amplitude_v, 1e-12);
+    /* mean over whole periods of a settled cosine: exact up to the linear
+     * interpolant's O((w dt)^2) ripple integral, far below 1e-6 */
+    RU_ASSERT_NEAR(r1.dc_level_v, 2.5, 1e-6);
+    RU_ASSERT_REL(r1.frequency_hz, s.f_hz, 1e-6);
+    ru_measure_destroy(m0);
+    ru_measure_destroy(m1);
+}
+
+/* A slowly moving DC level (0.5 V over the run, against a 1 V amplitude) and
+ * -80 dB pseudo-noise do not add or lose cycles. */
+static void test_drift_and_noise(void **state)
+{
+    (void)state;
+    sig s = {.amp_v = 1.0, .a0_v = 3e-3, .f_hz = 2000.0};
+    s.sigma = 0.02 * 2.0 * M_PI * s.f_hz;
+    double stop = 0.15;
+    ru_measure_cfg cfg;
+    ru_measure_cfg_default(&cfg, stop, 1.0 / (s.f_hz * 64.0));
+    cfg.kick_level_v = s.a0_v;
+    ru_measure_result r0, r1, r2;
+    ru_measure *m0 = run(&s, &cfg, stop, &r0);
+    s.ramp_v_s = 0.5 / stop;
+    ru_measure *m1 = run(&s, &cfg, stop, &r1);
+    s.ramp_v_s = 0.0;
+    s.noise_v = 1e-4 * s.amp_v; /* -80 dB of the settled amplitude */
+    ru_measure *m2 = run(&s, &cfg, stop, &r2);
+    /* one envelope point per period: 300 periods, the last may be incomplete */
+    assert_true(r0.cycles >= 299 && r0.cycles <= 300);
+    assert_int_equal(r1.cycles, r0.cycles);
+    assert_int_equal(r2.cycles, r0.cycles);
+    /* ramp: max - min of a ramped cosine picks up slope * T/2, 1.7e-3 V here;
+     * noise: +-1e-4 V per extremum, averaged over 30 cycles */
+    RU_ASSERT_REL(r1.settled_amplitude_v, s.amp_v, 3e-3);
+    RU_ASSERT_REL(r2.settled_amplitude_v, s.amp_v, 1e-4);
+    RU_ASSERT_REL(r2.startup_time_s, r0.startup_time_s, 1e-3);
+    RU_ASSERT_REL(r2.frequency_hz, s.f_hz, 1e-5);
+    ru_measure_destroy(m0);
+    ru_measure_destroy(m1);
+    ru_measure_destroy(m2);
+}
+
+/* A run cut short just after start-up: the last 10 % still rises, so settled = 0
+ * with a hint to run longer. */
+static void test_not_settled(void **state)
+{
+    (void)state;
+    sig s = {.amp_v = 1.0, .a0_v = 1e-3, .f_hz = 1000.0};
+    s.sigma = 0.01 * 2.0 * M_PI * s.f_hz;
+    double stop = 1.05 * t_level(&s, 0.9);
+    ru_measure_cfg cfg;
+    ru_measure_cfg_default(&cfg, stop, 1.0 / (s.f_hz * 64.0));
+    ru_measure_result r;
+    ru_measure *m = run(&s, &cfg, stop, &r);
+    assert_int_equal(r.started, 1);
+    assert_int_equal(r.settled, 0);
+    assert_true(r.envelope_drift > 0.005);
+    assert_non_null(strstr(r.settle_note, "longer"));
+    ru_measure_destroy(m);
+}
+
+/* A kick at 20 % of the settled amplitude leaves no cycle between 1 % and 10 %:
+ * growth is NAN with the note the README promises. */
+static void test_growth_kick_too_high(void **state)
+{
+    (void)state;
+    sig s = {.amp_v = 1.0, .a0_v = 0.2, .f_hz = 1000.0};
+    s.sigma = 0.01 * 2.0 * M_PI * s.f_hz;
+    ru_measure_cfg cfg;
+    ru_measure_cfg_default(&cfg, 0.3, 1.0 / (s.f_hz * 64.0));
+    ru_measure_result r;
+    ru_measure *m = run(&s, &cfg, 0.3, &r);
+    assert_int_equal(r.started, 0); /* grew only 5x */
+    ru_measure_destroy(m);
+    /* the same start declared as a 0.02 V kick: started, growth still NAN */
+    cfg.kick_level_v = 0.02;
+    m = run(&s, &cfg, 0.3, &r);
+    assert_int_equal(r.started, 1);
+    assert_true(isnan(r.growth_rate_per_s));
+    assert_true(r.growth_fit_points < 3);
+    assert_non_null(strstr(r.growth_note, "fewer than 3 cycles between 1% and 10%"));
+    RU_ASSERT_REL(r.settled_amplitude_v, 1.0, 1e-4);
+    ru_measure_destroy(m);
+}
+
+/* Memory is O(cycles) + a ring fixed at create: pushing 10x more samples than the
+ * configured run leaves the ring capacity unchanged and the envelope storage within
+ * a factor 2 of the points held (doubling growth). */
+static void test_memory_bounded(void **state)
+{
+    (void)state;
+    sig s = {.amp_v = 1.0, .a0_v = 1e-2, .f_hz = 1000.0};
+    s.sigma = 0.02 * 2.0 * M_PI * s.f_hz;
+    double dt = 1.0 / (s.f_hz * 64.0), stop = 0.2;
+    ru_measure_cfg cfg;
+    ru_measure_cfg_default(&cfg, stop, dt);
+    ru_measure_result r1, r10;
+    ru_measure *m1 = run(&s, &cfg, stop, &r1);
+    ru_measure *m10 = run(&s, &cfg, 10.0 * stop, &r10);
+    size_t ring = ru_measure_ring_capacity(m1);
+    assert_true(ring <= (size_t)(0.1 * stop / dt) + 64 + 1);
+    assert_int_equal(ru_measure_ring_capacity(m10), ring);
+    const double *t, *a;
+    size_t n;
+    ru_measure_envelope(m10, &t, &a, &n);
+    assert_int_equal(n, r10.cycles);
+    assert_true(r10.cycles >= 1999 && r10.cycles <= 2000); /* 2000 periods */
+    assert_true(ru_measure_envelope_capacity(m10) <= 2 * n + 64);
+    assert_true(ru_measure_envelope_capacity(m1) <= 2 * r1.cycles + 64);
+    /* the settled window follows the pushed run: still a steady 1 V */
+    assert_int_equal(r10.settled, 1);
+    RU_ASSERT_REL(r10.settled_amplitude_v, 1.0, 1e-4);
+    ru_measure_destroy(m1);
+    ru_measure_destroy(m10);
+    /* a very long run at a fine step: the ring is capped */
+    ru_measure *big = NULL;
+    ru_measure_cfg_default(&cfg, 10.0, 1e-9);
+    assert_int_equal(ru_measure_create(&cfg, &big), RU_OK);
+    assert_int_equal(ru_measure_ring_capacity(big), RU_RING_MAX);
+    ru_measure_destroy(big);
+}
+
+static void test_bad_input(void **state)
+{
+    (void)state;
+    ru_measure_cfg cfg;
+    ru_measure *m = NULL;
+    ru_measure_cfg_default(&cfg, 1.0, 0.0);
+    assert_int_equal(ru_measure_create(&cfg, &m), RU_ERANGE);
+    assert_null(m);
+    ru_measure_cfg_default(&cfg, 1.0, 1e-3);
+    cfg.growth_hi = cfg.growth_lo;
+    assert_int_equal(ru_measure_create(&cfg, &m), RU_ERANGE);
+    ru_measure_cfg_default(&cfg, 1.0, 1e-3);
+    assert_int_equal(ru_measure_create(NULL, &m), RU_EINPUT);
+    assert_int_equal(ru_measure_create(&cfg, &m), RU_OK);
+    assert_int_equal(ru_measure_push(m, 0.0, 1.0), RU_OK);
+    assert_int_equal(ru_measure_push(m, 0.0, 1.0), RU_EINPUT);
+    assert_int_equal(ru_measure_push(m, 1e-3, NAN), RU_EINPUT);
+    ru_measure_result r;
+    assert_int_equal(ru_measure_finish(m, &r), RU_OK);
+    assert_int_equal(r.started, 0);
+    assert_int_equal(r.cycles, 0);
+    ru_measure_destroy(m);
+    ru_measure_destroy(NULL);
+}
+
+int main(void)
+{
+    const struct CMUnitTest tests[] = {
+        cmocka_unit_test(test_vdp_slow),
+        cmocka_unit_test(test_vdp_mid),
+        cmocka_unit_test(test_vdp_fast),
+        cmocka_unit_test(test_frequency_incommensurate),
+        cmocka_unit_test(test_decaying),
+        cmocka_unit_test(test_constant_not_started),
+        cmocka_unit_test(test_dc_offset),
+        cmocka_unit_test(test_drift_and_noise),
+        cmocka_unit_test(test_not_settled),
+        cmocka_unit_test(test_growth_kick_too_high),
+        cmocka_unit_test(test_memory_bounded),
+        cmocka_unit_test(test_bad_input),
+    };
+    return cmocka_run_group_tests(tests, NULL, NULL);
+}
