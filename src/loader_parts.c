@@ -370,9 +370,14 @@ static ru_status read_amp(ld_ctx *x, struct fy_node *map, struct fy_node *place,
                           const char *who, ru_part *part)
 {
     struct fy_node_pair *pm = ru_ld_find(map, "model"), *pl = ru_ld_find(map, "law");
-    if (pm && pl)
-        return ru_ld_fail(x->d, fy_node_pair_key(pl), x->err,
+    if (pm && pl) {
+        int l1, c1, l2, c2; /* point at whichever of the two comes second */
+        ru_ld_place(x->d, fy_node_pair_key(pm), &l1, &c1);
+        ru_ld_place(x->d, fy_node_pair_key(pl), &l2, &c2);
+        int law_later = l2 > l1 || (l2 == l1 && c2 > c1);
+        return ru_ld_fail(x->d, fy_node_pair_key(law_later ? pl : pm), x->err,
                           "%s: give either model or law, not both", who);
+    }
     if (!pm && !pl)
         return ru_ld_fail(x->d, place, x->err,
                           "%s: missing required key model or law (an amplifier needs one)",

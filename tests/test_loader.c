@@ -1,0 +1,597 @@
+/* test_loader.c: the circuit-file loader (ru_circuit_load, ru_circuit_load_string,
+ * ru_loader_default_models_dir). Expectations come from the file format as
+ * specified (Reference: README circuit-file format): every field read back, preset
+ * layering, and for each class of bad input the place (line and column of the
+ * offending key or value, found here by searching the test text, not taken from
+ * the loader) and a key word of the message. SI scale factors: Source: BIPM SI
+ * Brochure, 9th ed., Table 7. Doubles are compared with a relative 1e-15 (a few
+ * ulp: "15n" is 15 * 1e-9 in double arithmetic). */
+#include "ru_test.h"
+
+#include "ringup/circuit.h"
+#include "ringup/loader.h"
+
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#define NAME "t.yaml"
+#define DATA RU_SOURCE_DIR "/tests/data/loader"
+#define REL 1e-15
+
+/* 1-based column of the first `token` on 1-based `line` of text (fails if absent). */
+static int col_of(const char *text, int line, const char *token)
+{
+    const char *p = text;
+    for (int l = 1; l < line && p; l++) {
+        p = strchr(p, '\n');
+        if (p)
+            p++;
+    }
+    if (!p)
+        fail_msg("test text has no line %d", line);
+    const char *end = strchr(p, '\n');
+    size_t n = end ? (size_t)(end - p) : strlen(p);
+    for (size_t i = 0; i + strlen(token) <= n; i++)
+        if (strncmp(p + i, token, strlen(token)) == 0)
+            return (int)i + 1;
+    fail_msg("line %d of the test text has no '%s'", line, token);
+    return 0;
+}
+
+/* Loading text fails with RU_EINPUT at file:line:col with `word` in the message. */
+static void expect_at(const char *text, const char *models, const char *file, int line,
+                      int col, const char *word)
+{
+    ru_circuit *c = (ru_circuit *)1;
+    ru_error err;
+    ru_status s = ru_circuit_load_string(text, NAME, models ? models : RU_MODELS_DIR, &c,
+                                         &err);
+    char buf[1024];
+    ru_error_format(&err, buf, sizeof buf);
+    if (s != RU_EINPUT)
+        fail_msg("status %d, want RU_EINPUT; message: %s", s, buf);
+    assert_null(c);
+    assert_int_equal(err.code, RU_EINPUT);
+    if (strcmp(err.file, file) != 0 && !strstr(err.file, file))
+        fail_msg("file '%s', want '%s' (%s)", err.file, file, buf);
+    if (err.line != line || err.col != col)
+        fail_msg("place %d:%d, want %d:%d (%s)", err.line, err.col, line, col, buf);
+    if (!strstr(err.msg, word))
+        fail_msg("message lacks '%s': %s", word, buf);
+}
+
+/* Same, in the circuit text itself, at the column of `token` on `line`. */
+static void expect_tok(const char *text, int line, const char *token, const char *word)
+{
+    expect_at(text, NULL, NAME, line, col_of(text, line, token), word);
+}
+
+static ru_circuit *load_ok(const char *text, const char *models)
+{
+    ru_circuit *c = NULL;
+    ru_error err;
+    ru_status s = ru_circuit_load_string(text, NAME, models ? models : RU_MODELS_DIR, &c,
+                                         &err);
+    char buf[1024];
+    ru_error_format(&err, buf, sizeof buf);
+    if (s != RU_OK)
+        fail_msg("load failed: %s", buf);
+    assert_non_null(c);
+    return c;
+}
+
+static const ru_part *part(const ru_circuit *c, const char *name)
+{
+    int k = ru_circuit_find_part(c, name);
+    if (k < 0)
+        fail_msg("no part %s", name);
+    return ru_circuit_part(c, (size_t)k);
+}
+
+static void assert_nodes(const ru_circuit *c, const ru_part *p, const char *a,
+                         const char *b)
+{
+    assert_string_equal(ru_circuit_node_name(c, p->node[0]), a);
+    assert_string_equal(ru_circuit_node_name(c, p->node[1]), b);
+}
+
+/* The format's example with our own values, every wave and part kind. */
+static const char *const good_text =
+    "title: Bench sine source, 1 kHz\n"
+    "stray: 1p\n"
+    "parts:\n"
+    "  VS: {type: supply, nodes: [vcc, gnd], value: 12V, rise: 20u}\n"
+    "  V2: {type: supply, nodes: [in, 0], wave: sine, offset: 0.2V, amplitude: 1V, freq: 1k, "
+    "phase: 30, at: 0.5m}\n"
+    "  V3: {type: supply, nodes: [s, gnd], wave: step, from: -1V, to: 1V, at: 1m, edge: 2u}\n"
+    "  I1: {type: current, nodes: [gnd, tank], wave: pulse, from: 0.1m, to: 1m, at: 10u, "
+    "width: 1u, period: 5u, edge: 0.1u}\n"
+    "  R1: {type: resistor,  nodes: [out, a],  value: 10k, tol: 1%}\n"
+    "  C1: {type: capacitor, nodes: [a, b],    value: 15nF, tol: 0.05}\n"
+    "  L1: {type: inductor,  nodes: [x, gnd],  value: 10mH, series: 2}\n"
+    "  G1: {type: poly-conductance, nodes: [t, gnd], coeffs: [0, -1m, 0, 0.33m]}\n"
+    "  A1: {type: amplifier, in: b, out: out, model: soft-follower, gain: 0.99}\n"
+    "  Q1: {type: amplifier, in: b, out: c, ref: e, law: exp-stage, is: 10f, beta: 150}\n"
+    "  RX: {type: resistor, nodes: [x, t], value: 1}\n"
+    "  RC: {type: resistor, nodes: [c, vcc], value: 4.7k}\n"
+    "  RE: {type: resistor, nodes: [e, gnd], value: 470}\n"
+    "run:  {stop: 200m, sample: 5u, kick: noise, accuracy: draft, seed: 42}\n"
+    "measure: {probe: out-a, loop: A1, startup-level: 90%, growth-window: [1%, 10%]}\n";
+
+/* Reference: README circuit-file format (title, stray, supplies and their waves). */
+static void test_good_sources(void **state)
+{
+    (void)state;
+    ru_circuit *c = load_ok(good_text, NULL);
+    assert_string_equal(ru_circuit_title(c), "Bench sine source, 1 kHz");
+    assert_string_equal(ru_circuit_file(c), NAME);
+    RU_ASSERT_REL(ru_circuit_stray_f(c), 1e-12, REL);
+    const ru_part *p = part(c, "VS");
+    assert_int_equal(p->type, RU_PART_SUPPLY);
+    assert_nodes(c, p, "vcc", "gnd");
+    assert_int_equal(p->wave.kind, RU_WAVE_DC);
+    RU_ASSERT_REL(p->wave.value, 12.0, REL);
+    RU_ASSERT_REL(p->wave.rise_s, 20e-6, REL);
+    assert_int_equal(p->line, 4);
+    assert_int_equal(p->col, 3);
+    p = part(c, "V2");
+    assert_nodes(c, p, "in", "gnd"); /* "0" is ground */
+    assert_int_equal(p->wave.kind, RU_WAVE_SINE);
+    RU_ASSERT_REL(p->wave.offset, 0.2, REL);
+    RU_ASSERT_REL(p->wave.amplitude, 1.0, REL);
+    RU_ASSERT_REL(p->wave.freq_hz, 1e3, REL);
+    RU_ASSERT_REL(p->wave.phase_deg, 30.0, REL);
+    RU_ASSERT_REL(p->wave.at_s, 0.5e-3, REL);
+    p = part(c, "V3");
+    assert_int_equal(p->wave.kind, RU_WAVE_STEP);
+    RU_ASSERT_REL(p->wave.v0, -1.0, REL);
+    RU_ASSERT_REL(p->wave.v1, 1.0, REL);
+    RU_ASSERT_REL(p->wave.at_s, 1e-3, REL);
+    RU_ASSERT_REL(p->wave.edge_s, 2e-6, REL);
+    p = part(c, "I1");
+    assert_int_equal(p->type, RU_PART_CURRENT);
+    assert_nodes(c, p, "gnd", "tank");
+    assert_int_equal(p->wave.kind, RU_WAVE_PULSE);
+    RU_ASSERT_REL(p->wave.v0, 0.1e-3, REL);
+    RU_ASSERT_REL(p->wave.v1, 1e-3, REL);
+    RU_ASSERT_REL(p->wave.at_s, 10e-6, REL);
+    RU_ASSERT_REL(p->wave.width_s, 1e-6, REL);
+    RU_ASSERT_REL(p->wave.period_s, 5e-6, REL);
+    RU_ASSERT_REL(p->wave.edge_s, 0.1e-6, REL);
+    ru_circuit_destroy(c);
+}
+
+/* Reference: README circuit-file format (passive parts, poly-conductance). */
+static void test_good_passives(void **state)
+{
+    (void)state;
+    ru_circuit *c = load_ok(good_text, NULL);
+    const ru_part *p = part(c, "R1");
+    assert_int_equal(p->type, RU_PART_RESISTOR);
+    assert_nodes(c, p, "out", "a");
+    RU_ASSERT_REL(p->value, 10e3, REL);
+    RU_ASSERT_REL(p->tol, 0.01, REL);
+    p = part(c, "C1");
+    assert_int_equal(p->type, RU_PART_CAPACITOR);
+    RU_ASSERT_REL(p->value, 15e-9, REL);
+    RU_ASSERT_REL(p->tol, 0.05, REL);
+    p = part(c, "L1");
+    assert_int_equal(p->type, RU_PART_INDUCTOR);
+    assert_nodes(c, p, "x", "gnd");
+    RU_ASSERT_REL(p->value, 10e-3, REL);
+    RU_ASSERT_REL(p->series_ohm, 2.0, REL);
+    RU_ASSERT_NEAR(p->tol, 0.0, 0.0);
+    p = part(c, "G1");
+    assert_int_equal(p->type, RU_PART_POLY);
+    assert_int_equal(p->ncoeffs, 4);
+    RU_ASSERT_NEAR(p->coeffs[0], 0.0, 0.0);
+    RU_ASSERT_REL(p->coeffs[1], -1e-3, REL);
+    RU_ASSERT_NEAR(p->coeffs[2], 0.0, 0.0);
+    RU_ASSERT_REL(p->coeffs[3], 0.33e-3, REL);
+    assert_int_equal(ru_circuit_part_count(c), 13);
+    /* nodes in order of first mention */
+    static const char *const order[] = {"gnd", "vcc", "in", "s", "tank", "out", "a",
+                                        "b",   "x",   "t",  "c", "e"};
+    assert_int_equal(ru_circuit_node_count(c), 12);
+    for (int i = 0; i < 12; i++)
+        assert_string_equal(ru_circuit_node_name(c, i), order[i]);
+    int line, col;
+    ru_circuit_node_place(c, ru_circuit_find_node(c, "tank"), &line, &col);
+    assert_int_equal(line, 7);
+    assert_int_equal(col, col_of(good_text, 7, "tank"));
+    ru_circuit_destroy(c);
+}
+
+/* Reference: README circuit-file format (amplifiers: preset < part keys; law
+ * defaults from ru_amp_defaults for keys nobody gives). */
+static void test_good_amplifiers(void **state)
+{
+    (void)state;
+    ru_circuit *c = load_ok(good_text, NULL);
+    const ru_part *p = part(c, "A1");
+    assert_int_equal(p->type, RU_PART_AMPLIFIER);
+    assert_string_equal(ru_circuit_node_name(c, p->node[0]), "b");
+    assert_string_equal(ru_circuit_node_name(c, p->node[1]), "out");
+    assert_int_equal(p->node[2], 0); /* ref defaults to gnd */
+    assert_int_equal(p->amp.law, RU_LAW_FOLLOWER_TANH);
+    assert_string_equal(p->amp.model, "soft-follower");
+    RU_ASSERT_REL(p->amp.gain, 0.99, REL); /* the part's own key wins */
+    p = part(c, "Q1");
+    ru_amp def;
+    ru_amp_defaults(&def, RU_LAW_EXP_STAGE);
+    assert_int_equal(p->amp.law, RU_LAW_EXP_STAGE);
+    assert_string_equal(p->amp.model, "");
+    assert_string_equal(ru_circuit_node_name(c, p->node[2]), "e");
+    RU_ASSERT_REL(p->amp.is_a, 10e-15, REL);
+    RU_ASSERT_REL(p->amp.beta, 150.0, REL);
+    RU_ASSERT_REL(p->amp.n, def.n, REL);
+    RU_ASSERT_REL(p->amp.vsat_v, def.vsat_v, REL);
+    RU_ASSERT_REL(p->amp.temp_c, def.temp_c, REL);
+    ru_circuit_destroy(c);
+}
+
+/* Reference: README circuit-file format (run and measure sections). */
+static void test_good_run_measure(void **state)
+{
+    (void)state;
+    ru_circuit *c = load_ok(good_text, NULL);
+    const ru_run_opts *r = ru_circuit_run_opts_const(c);
+    RU_ASSERT_REL(r->stop_s, 0.2, REL);
+    RU_ASSERT_REL(r->sample_s, 5e-6, REL);
+    assert_int_equal(r->kick, RU_KICK_NOISE);
+    assert_int_equal(r->accuracy, RU_ACCURACY_DRAFT);
+    assert_int_equal(r->seed, 42);
+    const ru_measure_opts *m = ru_circuit_measure_opts_const(c);
+    assert_int_equal(m->probe_pos, ru_circuit_find_node(c, "out"));
+    assert_int_equal(m->probe_neg, ru_circuit_find_node(c, "a"));
+    assert_string_equal(m->loop, "A1");
+    RU_ASSERT_REL(m->startup_level, 0.9, REL);
+    RU_ASSERT_REL(m->growth_lo, 0.01, REL);
+    RU_ASSERT_REL(m->growth_hi, 0.10, REL);
+    /* tank is fed by a current source only: one warning at its first mention */
+    assert_int_equal(ru_circuit_warning_count(c), 1);
+    char want[160];
+    snprintf(want, sizeof want, "t.yaml:7:%d: warning: node tank has no DC path to ground",
+             col_of(good_text, 7, "tank"));
+    if (strncmp(ru_circuit_warning(c, 0), want, strlen(want)) != 0)
+        fail_msg("warning '%s', want it to start '%s'", ru_circuit_warning(c, 0), want);
+    ru_circuit_destroy(c);
+}
+
+/* Reference: README circuit-file format (defaults: sample auto -> 0, kick preset,
+ * file loaded from disk with its path in places). */
+static void test_good_file(void **state)
+{
+    (void)state;
+    ru_circuit *c = NULL;
+    ru_error err;
+    const char *path = DATA "/good.yaml";
+    assert_int_equal(ru_circuit_load(path, RU_MODELS_DIR, &c, &err), RU_OK);
+    assert_string_equal(ru_circuit_file(c), path);
+    assert_string_equal(ru_circuit_title(c), "Loader test tank");
+    RU_ASSERT_REL(ru_circuit_stray_f(c), 2e-12, REL);
+    const ru_part *p = part(c, "L1");
+    RU_ASSERT_REL(p->value, 4.7e-3, REL);
+    RU_ASSERT_REL(p->series_ohm, 1.5, REL);
+    RU_ASSERT_REL(p->tol, 0.02, REL);
+    assert_int_equal(p->line, 6);
+    const ru_run_opts *r = ru_circuit_run_opts_const(c);
+    assert_int_equal(r->kick, RU_KICK_PRESET);
+    assert_int_equal(r->npreset, 1);
+    assert_int_equal(r->preset_node[0], ru_circuit_find_node(c, "t"));
+    RU_ASSERT_REL(r->preset_v[0], 10e-3, REL);
+    assert_int_equal(r->accuracy, RU_ACCURACY_PRECISE);
+    assert_int_equal(r->seed, 7);
+    RU_ASSERT_REL(r->sample_s, 2e-6, REL);
+    const ru_measure_opts *m = ru_circuit_measure_opts_const(c);
+    RU_ASSERT_REL(m->startup_level, 0.8, REL);
+    RU_ASSERT_REL(m->growth_lo, 0.02, REL);
+    RU_ASSERT_REL(m->growth_hi, 0.20, REL);
+    assert_int_equal(m->probe_neg, 0);
+    assert_string_equal(m->loop, "");
+    assert_int_equal(ru_circuit_warning_count(c), 0);
+    ru_circuit_destroy(c);
+    /* sample: auto and the defaults of a circuit without run/measure */
+    c = load_ok("parts: {R1: {type: resistor, nodes: [a, gnd], value: 1k}}\n"
+                "run: {sample: auto}\n",
+                NULL);
+    RU_ASSERT_NEAR(ru_circuit_run_opts_const(c)->sample_s, 0.0, 0.0);
+    assert_int_equal(ru_circuit_run_opts_const(c)->kick, RU_KICK_POWER_ON);
+    RU_ASSERT_REL(ru_circuit_stray_f(c), 1e-12, REL); /* default 1 pF */
+    ru_circuit_destroy(c);
+}
+
+/* Reference: README circuit-file format (defaults(law) < preset < part keys). */
+static void test_preset_override(void **state)
+{
+    (void)state;
+    ru_circuit *c = load_ok("parts:\n"
+                            "  A1: {type: amplifier, in: i, out: o, model: inline-follower,"
+                            " rout: 10ohm}\n"
+                            "  R1: {type: resistor, nodes: [i, gnd], value: 1k}\n",
+                            DATA);
+    const ru_part *p = part(c, "A1");
+    assert_string_equal(p->amp.model, "inline-follower");
+    RU_ASSERT_REL(p->amp.gain, 0.9, REL);     /* preset */
+    RU_ASSERT_REL(p->amp.swing_v, 2.5, REL);  /* preset */
+    RU_ASSERT_REL(p->amp.center_v, 1.0, REL); /* preset */
+    RU_ASSERT_REL(p->amp.rout_ohm, 10.0, REL); /* part overrides preset's 75 */
+    ru_circuit_destroy(c);
+}
+
+/* Each shipped preset loads and has the law its file names. */
+static void test_shipped_presets(void **state)
+{
+    (void)state;
+    static const char *const names[] = {"soft-follower", "emitter-follower",
+                                        "small-signal-npn", "low-beta-npn"};
+    static const ru_law laws[] = {RU_LAW_FOLLOWER_TANH, RU_LAW_FOLLOWER_TANH,
+                                  RU_LAW_EXP_STAGE, RU_LAW_EXP_STAGE};
+    for (int i = 0; i < 4; i++) {
+        char text[256];
+        snprintf(text, sizeof text,
+                 "parts:\n  A1: {type: amplifier, in: i, out: o, model: %s}\n"
+                 "  R1: {type: resistor, nodes: [i, gnd], value: 1k}\n",
+                 names[i]);
+        ru_circuit *c = load_ok(text, NULL);
+        assert_int_equal(part(c, "A1")->amp.law, laws[i]);
+        assert_string_equal(part(c, "A1")->amp.model, names[i]);
+        ru_circuit_destroy(c);
+    }
+}
+
+/* Reference: README circuit-file format (each error class: place and message). */
+static void test_yaml_errors(void **state)
+{
+    (void)state;
+    const char *t = "parts:\n  R1: {type: resistor, nodes: [a, gnd], value: 1k}}\n";
+    /* libfyaml's own diagnostic, at the extra brace */
+    expect_at(t, NULL, NAME, 2, col_of(t, 2, "}}") + 1, "YAML:");
+    t = "parts:\n  R1: {type: resistor, nodes: [a, gnd], value: 1k}\n"
+        "  R1: {type: resistor, nodes: [b, gnd], value: 2k}\n";
+    expect_tok(t, 3, "R1", "duplicate key");
+    t = "parts:\n  R1: {type: resistor, nodes: [a, gnd], value: 1k, value: 2k}\n";
+    expect_at(t, NULL, NAME, 2, col_of(t, 2, "value: 2k"), "duplicate key");
+    expect_at("- a\n- b\n", NULL, NAME, 1, 1, "must be a mapping");
+    expect_at("just text\n", NULL, NAME, 1, 1, "must be a mapping");
+    expect_at("", NULL, NAME, 1, 1, "empty");
+    t = "parts: {R1: {type: resistor, nodes: [a, gnd], value: 1k}}\n---\nmore: 1\n";
+    expect_at(t, NULL, NAME, 3, 1, "more than one YAML document");
+}
+
+/* Reference: README circuit-file format (anchors, aliases and tags are refused). */
+static void test_refs_refused(void **state)
+{
+    (void)state;
+    const char *t = "parts:\n"
+                    "  R1: {type: resistor, nodes: [a, gnd], value: 1k}\n"
+                    "  R2: {type: resistor, nodes: [b, gnd], value: &v 1k}\n"
+                    "  R3: {type: resistor, nodes: [c, gnd], value: *v}\n";
+    expect_tok(t, 4, "*v", "alias *v");
+    t = "parts:\n  R2: {type: resistor, nodes: [b, gnd], value: &v 1k}\n";
+    expect_tok(t, 2, "1k}", "anchor &v"); /* at the anchored value */
+    t = "parts:\n  R2: {type: resistor, nodes: [b, gnd], value: !!str 1k}\n";
+    expect_tok(t, 2, "!!str", "tag");
+    t = "parts: !local\n  R2: {type: resistor, nodes: [b, gnd], value: 1k}\n";
+    expect_tok(t, 1, "!local", "tag !local");
+}
+
+/* Billion laughs: nine levels of nine aliases would expand to 9^9 strings; the
+ * loader must refuse the first alias without expanding (no timing: the status and
+ * the named alias are the check; an expansion would exhaust memory long before). */
+static void test_billion_laughs(void **state)
+{
+    (void)state;
+    const char *t = "a: &a [lol, lol, lol, lol, lol, lol, lol, lol, lol]\n"
+                    "b: &b [*a, *a, *a, *a, *a, *a, *a, *a, *a]\n"
+                    "c: &c [*b, *b, *b, *b, *b, *b, *b, *b, *b]\n"
+                    "d: &d [*c, *c, *c, *c, *c, *c, *c, *c, *c]\n"
+                    "e: &e [*d, *d, *d, *d, *d, *d, *d, *d, *d]\n"
+                    "f: &f [*e, *e, *e, *e, *e, *e, *e, *e, *e]\n"
+                    "g: &g [*f, *f, *f, *f, *f, *f, *f, *f, *f]\n"
+                    "h: &h [*g, *g, *g, *g, *g, *g, *g, *g, *g]\n"
+                    "i: &i [*h, *h, *h, *h, *h, *h, *h, *h, *h]\n"
+                    "parts: {R1: {type: resistor, nodes: [a, gnd], value: *i}}\n";
+    expect_tok(t, 2, "*a", "alias *a");
+}
+
+/* Reference: README circuit-file format (unknown and misplaced keys). */
+static void test_key_errors(void **state)
+{
+    (void)state;
+    const char *r = "  R1: {type: resistor, nodes: [a, gnd], value: 1k}\n";
+    char t[512];
+    snprintf(t, sizeof t, "parts:\n%spartz: 1\n", r);
+    expect_tok(t, 3, "partz", "unknown key partz");
+    expect_tok("parts:\n  R1: {type: resistor, nodes: [a, gnd], value: 1k, colour: red}\n",
+               2, "colour", "part R1: unknown key colour");
+    expect_tok("parts:\n  R1: {type: resistor, nodes: [a, gnd], value: 1k, series: 2}\n", 2,
+               "series", "part R1: key series does not apply to type resistor");
+    expect_tok("parts:\n  Q1: {type: amplifier, in: b, out: c, law: exp-stage, gain: 0.9}\n",
+               2, "gain", "part Q1: key gain does not apply to law exp-stage");
+    expect_tok("parts:\n  V1: {type: supply, nodes: [a, gnd], wave: step, to: 1V, value: 1V}\n",
+               2, "value: 1V", "part V1: key value does not apply to wave step");
+    snprintf(t, sizeof t, "parts:\n%srun: {stop: 1m, stopp: 2m}\n", r);
+    expect_tok(t, 3, "stopp", "run: unknown key stopp");
+    snprintf(t, sizeof t, "parts:\n%smeasure: {probe: a, prob: a}\n", r);
+    expect_tok(t, 3, "prob:", "measure: unknown key prob");
+    expect_tok("parts:\n  A1: {type: amplifier, in: b, out: c, law: exp-stage, model: x}\n", 2,
+               "model", "either model or law");
+}
+
+/* Reference: README circuit-file format (types, required keys, node lists). */
+static void test_part_errors(void **state)
+{
+    (void)state;
+    expect_tok("parts:\n  X1: {type: transistor, nodes: [a, gnd]}\n", 2, "transistor",
+               "part X1: unknown type 'transistor'");
+    expect_tok("parts:\n  R1: {type: resistor, value: 1k}\n", 2, "R1",
+               "part R1: missing required key nodes");
+    expect_tok("parts:\n  R1: {type: resistor, nodes: [a, gnd]}\n", 2, "R1",
+               "part R1: missing required key value");
+    expect_tok("parts:\n  R1: {nodes: [a, gnd], value: 1k}\n", 2, "R1",
+               "part R1: missing required key type");
+    expect_tok("parts:\n  A1: {type: amplifier, out: c, law: exp-stage}\n", 2, "A1",
+               "part A1: missing required key in");
+    expect_tok("parts:\n  R1: {type: resistor, nodes: [a], value: 1k}\n", 2, "[a]",
+               "part R1: key nodes needs 2 nodes, got 1");
+    expect_tok("parts:\n  R1: {type: resistor, nodes: [a, b, c], value: 1k}\n", 2, "[a, b",
+               "got 3");
+    expect_tok("parts:\n  R1: {type: resistor, nodes: [a-b, gnd], value: 1k}\n", 2, "a-b",
+               "not a node name");
+    expect_tok("parts:\n  R-1: {type: resistor, nodes: [a, gnd], value: 1k}\n", 2, "R-1",
+               "part name 'R-1' is not valid");
+    expect_tok("parts:\n  R1: {type: resistor, nodes: [a, gnd], value:}\n", 2, "value",
+               "part R1: key value has no value");
+    expect_tok("parts:\n  G1: {type: poly-conductance, nodes: [a, gnd], coeffs: []}\n", 2,
+               "[]", "part G1: key coeffs needs a list of 1 to 8");
+    expect_tok("parts:\n  G1: {type: poly-conductance, nodes: [a, gnd], coeffs: [1m, 2V]}\n",
+               2, "2V", "item 2: unit V does not fit");
+    expect_tok("parts:\n  V1: {type: supply, nodes: [a, gnd], wave: square, to: 1V}\n", 2,
+               "square", "not one of dc, step, sine, pulse");
+    expect_tok("parts:\n  V1: {type: supply, nodes: [a, gnd], wave: sine, amplitude: 1V}\n",
+               2, "V1", "part V1: missing required key freq");
+    expect_tok("parts:\n  A1: {type: amplifier, in: b, out: c, law: tanh}\n", 2, "tanh",
+               "not one of follower-tanh, exp-stage");
+    expect_tok("parts: []\n", 1, "[]", "key parts needs a mapping");
+    expect_at("title: x\n", NULL, NAME, 1, 1, "missing required key parts");
+}
+
+/* Reference: README circuit-file format (values, units, R/C/L > 0). */
+static void test_value_errors(void **state)
+{
+    (void)state;
+    expect_tok("parts:\n  C1: {type: capacitor, nodes: [a, gnd], value: 15nH}\n", 2, "15nH",
+               "part C1: key value: unit H does not fit, expected F");
+    expect_tok("parts:\n  R1: {type: resistor, nodes: [a, gnd], value: 1kk}\n", 2, "1kk",
+               "part R1: key value: unexpected text");
+    expect_tok("parts:\n  R1: {type: resistor, nodes: [a, gnd], value: .inf}\n", 2, ".inf",
+               "not a number");
+    expect_tok("parts:\n  R1: {type: resistor, nodes: [a, gnd], value: 1e999}\n", 2, "1e999",
+               "out of range");
+    expect_tok("parts:\n  V1: {type: supply, nodes: [a, gnd], value: 2A}\n", 2, "2A",
+               "expected V");
+    expect_tok("parts:\n  I1: {type: current, nodes: [a, gnd], value: 2V}\n", 2, "2V",
+               "expected A");
+    expect_tok("parts:\n  Q1: {type: amplifier, in: b, out: c, law: exp-stage, temp: 300K}\n",
+               2, "300K", "part Q1: key temp");
+    /* zero and negative values: the builder's check, at the part's name */
+    expect_tok("parts:\n  R1: {type: resistor, nodes: [a, gnd], value: 0}\n", 2, "R1",
+               "part R1: value must be positive");
+    expect_tok("parts:\n  C1: {type: capacitor, nodes: [a, gnd], value: -1n}\n", 2, "C1",
+               "part C1: value must be positive");
+    expect_tok("parts:\n  L1: {type: inductor, nodes: [a, gnd], value: 0H}\n", 2, "L1",
+               "part L1: value must be positive");
+    expect_tok("stray: 0\nparts:\n  R1: {type: resistor, nodes: [a, gnd], value: 1}\n", 1,
+               "0", "stray must be positive");
+}
+
+/* Reference: README circuit-file format (run and measure names must exist). */
+static void test_run_measure_errors(void **state)
+{
+    (void)state;
+    const char *head = "parts:\n"
+                       "  R1: {type: resistor, nodes: [a, gnd], value: 1k}\n"
+                       "  A1: {type: amplifier, in: a, out: b, law: follower-tanh}\n";
+    static const struct {
+        const char *line3; /* third line of the file */
+        const char *token; /* where the error must point */
+        const char *word;  /* what the message must say */
+    } cases[] = {
+        {"measure: {probe: zz}", "zz", "measure: key probe: node zz does not exist"},
+        {"measure: {probe: a-zz}", "a-zz", "node zz does not exist"},
+        {"measure: {probe: gnd}", "gnd", "ground"},
+        {"measure: {loop: X9}", "X9", "measure: key loop: there is no part X9"},
+        {"measure: {loop: R1}", "R1", "part R1 is not an amplifier"},
+        {"measure: {startup-level: 150%}", "150%", "between 0 and 100%"},
+        {"measure: {growth-window: [10%, 1%]}", "[10%", "lo must be below hi"},
+        {"measure: {growth-window: [10%]}", "[10%", "list of two levels"},
+        {"run: {kick: {preset: {zz: 1V}}}", "zz", "run: kick preset: node zz does not exist"},
+        {"run: {kick: {preset: {a: 1A}}}", "1A", "unit A does not fit, expected V"},
+        {"run: {kick: shake}", "shake", "not one of power-on, noise"},
+        {"run: {accuracy: best}", "best", "not one of draft, normal, precise"},
+        {"run: {seed: -3}", "-3", "run: key seed"},
+        {"run: {stop: 0}", "0", "run: key stop must be positive"},
+        {"run: {sample: often}", "often", "run: key sample"},
+        {"run: [1, 2]", "[1", "run needs a mapping"},
+    };
+    for (size_t i = 0; i < sizeof cases / sizeof cases[0]; i++) {
+        char t[512];
+        snprintf(t, sizeof t, "%s%s\n", head, cases[i].line3);
+        expect_tok(t, 4, cases[i].token, cases[i].word);
+    }
+}
+
+/* Reference: README circuit-file format (model presets: missing, broken). */
+static void test_preset_errors(void **state)
+{
+    (void)state;
+    const char *t = "parts:\n  A1: {type: amplifier, in: a, out: b, model: no-such}\n";
+    expect_tok(t, 2, "no-such", "part A1: key model: no preset no-such");
+    t = "parts:\n  A1: {type: amplifier, in: a, out: b, model: ../x}\n";
+    expect_tok(t, 2, "../x", "not a preset name");
+    t = "parts:\n  A1: {type: amplifier, in: a, out: b, model: bad-key}\n";
+    expect_at(t, DATA, "bad-key.yaml", 4, 1, "preset bad-key (used by part A1): key gain "
+                                            "does not apply to law exp-stage");
+    t = "parts:\n  A1: {type: amplifier, in: a, out: b, model: bad-syntax}\n";
+    /* libfyaml's diagnostic, one column after the opening quote of line 3 */
+    expect_at(t, DATA, "bad-syntax.yaml", 3, 8, "YAML: double-quoted scalar without");
+    t = "parts:\n  A1: {type: amplifier, in: a, out: b, model: no-law}\n";
+    expect_at(t, DATA, "no-law.yaml", 2, 1, "missing required key law"); /* the mapping */
+    t = "parts:\n  A1: {type: amplifier, in: a, out: b, model: bad-unit}\n";
+    expect_at(t, DATA, "bad-unit.yaml", 3, 8, "key swing: unit A does not fit, expected V");
+    /* the part's keys are checked against the preset's law */
+    t = "parts:\n  A1: {type: amplifier, in: a, out: b, model: small-signal-npn, swing: 1V}\n";
+    expect_tok(t, 2, "swing", "key swing does not apply to law exp-stage");
+}
+
+static void test_io_errors(void **state)
+{
+    (void)state;
+    ru_circuit *c = (ru_circuit *)1;
+    ru_error err;
+    /* Source: POSIX, ENOENT text of strerror in glibc. */
+    assert_int_equal(ru_circuit_load(DATA "/does-not-exist.yaml", NULL, &c, &err), RU_EIO);
+    assert_null(c);
+    assert_non_null(strstr(err.msg, "No such file or directory"));
+    assert_non_null(strstr(err.file, "does-not-exist.yaml"));
+    c = (ru_circuit *)1;
+    assert_int_equal(ru_circuit_load(DATA, NULL, &c, &err), RU_EIO); /* a folder */
+    assert_null(c);
+    assert_non_null(strstr(err.msg, "Is a directory"));
+}
+
+/* $RINGUP_MODELS wins; without it the folder the build was configured with. */
+static void test_default_models_dir(void **state)
+{
+    (void)state;
+    setenv("RINGUP_MODELS", "/tmp/some-models", 1);
+    assert_string_equal(ru_loader_default_models_dir(), "/tmp/some-models");
+    unsetenv("RINGUP_MODELS");
+    assert_string_equal(ru_loader_default_models_dir(), RU_MODELS_DIR);
+    /* NULL models_dir uses the default */
+    ru_circuit *c = NULL;
+    ru_error err;
+    assert_int_equal(ru_circuit_load_string("parts:\n  A1: {type: amplifier, in: a, out: b,"
+                                            " model: soft-follower}\n",
+                                            NAME, NULL, &c, &err),
+                     RU_OK);
+    ru_circuit_destroy(c);
+}
+
+int main(void)
+{
+    const struct CMUnitTest tests[] = {
+        cmocka_unit_test(test_good_sources),     cmocka_unit_test(test_good_passives),
+        cmocka_unit_test(test_good_amplifiers),  cmocka_unit_test(test_good_run_measure),
+        cmocka_unit_test(test_good_file),        cmocka_unit_test(test_preset_override),
+        cmocka_unit_test(test_shipped_presets),  cmocka_unit_test(test_yaml_errors),
+        cmocka_unit_test(test_refs_refused),     cmocka_unit_test(test_billion_laughs),
+        cmocka_unit_test(test_key_errors),       cmocka_unit_test(test_part_errors),
+        cmocka_unit_test(test_value_errors),     cmocka_unit_test(test_run_measure_errors),
+        cmocka_unit_test(test_preset_errors),    cmocka_unit_test(test_io_errors),
+        cmocka_unit_test(test_default_models_dir),
+    };
+    return cmocka_run_group_tests(tests, NULL, NULL);
+}
