@@ -376,6 +376,10 @@ ru_status ru_system_initial_state(const ru_system *s, double *x0, ru_error *err)
     return RU_OK;
 }
 
+/* Relative spacing below which breakpoints of different sources merge; the same
+ * tolerance ru_wave_jump uses, so a merged time applies every source's jump. */
+#define BP_MERGE 1e-12
+
 static int is_source(const ru_part *p)
 {
     return p->type == RU_PART_SUPPLY || p->type == RU_PART_CURRENT;
@@ -397,7 +401,7 @@ size_t ru_system_breakpoints(const ru_system *s, double t_stop, double *bp, size
         if (count < max)
             bp[count] = next;
         count++;
-        t = next;
+        t = next * (1.0 + BP_MERGE); /* edges this close count as one time */
     }
     return count;
 }
@@ -408,6 +412,14 @@ void ru_system_apply_jump(const ru_system *s, double t, double *x)
         return; /* t = 0 belongs to ru_system_initial_state */
     (void)charge_share(s, t, 1, x); /* scratch only fails beyond 64 free nodes */
 }
+
+/* Scales for absolute tolerances. Node voltages: one figure for all, the
+ * largest of 1 V, the sum of wave peaks along any supply chain and any preset
+ * voltage. Inductor currents: the amplitude an LC tank of that inductor and the
+ * circuit's whole capacitance (capacitors plus strays) would carry at that
+ * voltage, V sqrt(C_total / L), or the largest current source peak when that is
+ * larger. C_total overstates a single tank's C when there are several tanks, so
+ * the scale errs large by sqrt of that ratio at most. Internal states: 1. */
 
 /* Volts: 1 V or the largest supply chain sum, source peak or preset. */
 static double voltage_scale(const ru_system *s)

@@ -256,7 +256,9 @@ ru_status ru_system_loop_split(const ru_system *s, int part, const double *x,
     free(r);
     if (st != RU_OK)
         return ru_error_set(err, st, ru_circuit_file(s->c), p->line, p->col,
-                            "part %s: the residual is not finite at this state",
+                            st == RU_ENOMEM ? "part %s: out of memory"
+                                            : "part %s: the residual is not finite "
+                                              "at this state",
                             p->name);
     return RU_OK;
 }
