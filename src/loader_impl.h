@@ -1,6 +1,6 @@
 /* loader_impl.h: private helpers shared by the circuit-file loader's sources
- * (loader.c: YAML handling, top level, run and measure; loader_parts.c: parts,
- * waveforms, amplifiers and preset files).
+ * (loader.c: YAML handling and the top level; loader_run.c: run and measure;
+ * loader_parts.c: parts, waveforms, amplifiers and preset files).
  *
  * Invariants: an ld_doc holds one parsed YAML file whose anchors, aliases and
  * tags have been refused before anything reads a value; every error goes through
@@ -69,6 +69,21 @@ ru_status ru_ld_value(ld_doc *d, struct fy_node_pair *p, const char *who,
 
 /* Whether s is a valid part or node name (letters, digits, _ and .). */
 int ru_ld_valid_name(const char *s);
+
+/* ": " after a non-empty who, else "" (message prefixes). */
+const char *ru_ld_sep(const char *who);
+
+/* Every key of map must be in allowed (NULL-terminated): else "unknown key". */
+ru_status ru_ld_only_keys(ld_doc *d, struct fy_node *map, const char *who,
+                          const char *const *allowed, ru_error *err);
+
+/* The value of pair p as a mapping, or an error naming who and the key. */
+ru_status ru_ld_need_mapping(ld_doc *d, struct fy_node_pair *p, const char *who,
+                             ru_error *err, struct fy_node **map);
+
+/* The `run:` and `measure:` sections (loader_run.c), read after the parts. */
+ru_status ru_ld_run(ld_doc *d, ru_circuit *c, struct fy_node_pair *p, ru_error *err);
+ru_status ru_ld_measure(ld_doc *d, ru_circuit *c, struct fy_node_pair *p, ru_error *err);
 
 /* Reads the `parts:` mapping into ctx->c. */
 ru_status ru_ld_parts(ld_ctx *ctx, struct fy_node_pair *parts);
