@@ -199,7 +199,11 @@ def check_circuit(ringup, srcdir, fname, model):
         print("  FAIL ringup poles exited %d: %s" % (proc.returncode,
                                                      proc.stderr.strip()[:300]))
         return False
-    out = json.loads(proc.stdout)
+    try:
+        out = json.loads(proc.stdout)
+    except json.JSONDecodeError:
+        print("  FAIL `ringup poles --json` printed no JSON: %r" % proc.stdout[:200])
+        return False
     got = [complex(p["re_per_s"], p["im_rad_per_s"]) for p in out["poles"]]
     ok = not bad
     if len(got) != len(ref):
