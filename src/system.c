@@ -281,11 +281,11 @@ int ru_system_inductor_state(const ru_system *s, int part)
     return s->part_state[part];
 }
 
-double ru_system_node_voltage(const ru_system *s, int node, double t, const double *x)
+/* Voltage of a node with the sources evaluated as e says. */
+static double node_voltage_at(const ru_system *s, int node, ru_src_eval e, const double *x)
 {
     if (node <= 0 || (size_t)node >= s->nnodes)
         return 0.0;
-    ru_src_eval e = {t, 0, 1.0};
     double v = 0.0;
     while (s->node_state[node] == RU_NS_DRIVEN) { /* walk the chain to gnd/free */
         const ru_drive *d = &s->drive[node];
@@ -295,6 +295,18 @@ double ru_system_node_voltage(const ru_system *s, int node, double t, const doub
         node = d->from;
     }
     return v + (s->node_state[node] >= 0 ? x[s->node_state[node]] : 0.0);
+}
+
+double ru_system_node_voltage(const ru_system *s, int node, double t, const double *x)
+{
+    ru_src_eval e = {t, 0, 1.0};
+    return node_voltage_at(s, node, e, x);
+}
+
+double ru_system_node_voltage_dc(const ru_system *s, int node, const double *x)
+{
+    ru_src_eval e = {0.0, 1, 1.0};
+    return node_voltage_at(s, node, e, x);
 }
 
 /* ---- initial state, breakpoints, jumps, scales ------------------------------ */

@@ -62,6 +62,10 @@ int ru_system_inductor_state(const ru_system *s, int part);
 /* Voltage of any node (ground, driven or free) at time t for state x. */
 double ru_system_node_voltage(const ru_system *s, int node, double t, const double *x);
 
+/* Voltage of any node with every source at its final DC value (for showing an
+ * operating point). */
+double ru_system_node_voltage_dc(const ru_system *s, int node, const double *x);
+
 /* The initial state for the circuit's kick (power-on: all zero, then the jump of
  * supplies that are at value at t = 0; preset: the preset voltages on top). */
 ru_status ru_system_initial_state(const ru_system *s, double *x0, ru_error *err);
