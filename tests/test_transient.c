@@ -432,6 +432,44 @@ static void test_ramp_into_rc(void **state)
     ru_circuit_destroy(c);
 }
 
+/* A pulse train (zero-width edges, 200 of them: more than the engine keeps on its
+ * stack) through a series C into R: a jump and a restart at every edge. */
+static void test_pulse_train_jumps(void **state)
+{
+    (void)state;
+    const double R = 1e3, C = 10e-9, V = 1.0;
+    ru_circuit *c = NULL;
+    assert_int_equal(ru_circuit_create("pulses", &c), RU_OK);
+    ru_wave w = {.kind = RU_WAVE_PULSE, .v0 = 0, .v1 = V, .at_s = 0.1e-3,
+                 .edge_s = 0, .width_s = 0.2e-3, .period_s = 0.4e-3};
+    add_supply(c, "VS", "in", &w);
+    add2(c, RU_PART_CAPACITOR, "C1", "in", "out", C);
+    add2(c, RU_PART_RESISTOR, "R1", "out", "gnd", R);
+    double dv = V * C / (C + ru_circuit_stray_f(c));
+    ru_system *s = NULL;
+    rec r = {0};
+    ru_solver_stats st;
+    ru_error err;
+    assert_int_equal(run(c, &s, RU_ACCURACY_NORMAL, 40e-3, 10e-6, "out", &r, 0, &st, &err),
+                     RU_OK);
+    assert_int_equal(r.n, 4001);
+    /* Reference: charge conservation at each edge, as in
+     * test_step_through_capacitor; tau = 10 us, so 10 us after an edge v is
+     * dv e^{-1}, and by the next edge (20 tau) it has decayed to 2e-9 of dv.
+     * Edges fall on samples: rising at 0.1 ms + k 0.4 ms, falling 0.2 ms later. */
+    int edges = 0;
+    for (long k = 10; k < r.n; k += 20) {
+        double want = ((k - 10) / 20) % 2 == 0 ? dv : -dv;
+        RU_ASSERT_NEAR(r.v[k], want, 1e-6);
+        RU_ASSERT_NEAR(r.v[k + 1], want * exp(-10e-6 / (R * (C + 1e-12))), 1e-6);
+        edges++;
+    }
+    assert_int_equal(edges, 200);
+    rec_free(&r);
+    ru_system_destroy(s);
+    ru_circuit_destroy(c);
+}
+
 /* ---- failures ------------------------------------------------------------------ */
 
 static void test_step_limit_fails(void **state)
@@ -545,6 +583,11 @@ static void test_no_growth(void **state)
     assert_int_equal(h.n, 50001);
     print_message("heap in use: %zu bytes at sample 1000, %zu at sample %ld\n",
                   h.at_early, h.at_last, h.n);
+    if (h.at_early == 0) { /* sanitizer builds replace malloc: no figures to compare */
+        ru_system_destroy(s);
+        ru_circuit_destroy(c);
+        skip();
+    }
     assert_int_equal(h.at_last, h.at_early);
     ru_system_destroy(s);
     ru_circuit_destroy(c);
@@ -559,6 +602,7 @@ int main(void)
         cmocka_unit_test(test_growth_rate),
         cmocka_unit_test(test_step_through_capacitor),
         cmocka_unit_test(test_ramp_into_rc),
+        cmocka_unit_test(test_pulse_train_jumps),
         cmocka_unit_test(test_step_limit_fails),
         cmocka_unit_test(test_sink_stops_run),
         cmocka_unit_test(test_bad_options),
