@@ -10,6 +10,8 @@
 #include "ringup/system.h"
 #include "smallsig_impl.h"
 
+#include <complex.h>
+#include <lapacke.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -364,6 +366,22 @@ static void test_colpitts_crossover(void **state)
     RU_ASSERT_REL(sum.crossover_hz, sqrt(w2) / (2.0 * PI), 1e-9);
     RU_ASSERT_REL(sum.gain, g * w2 * l * c1 / (w2 * l * c1p - 1.0), 1e-9);
     RU_ASSERT_REL(sum.margin_db, 20.0 * log10(sum.gain), 1e-12);
+    /* The sweep's arrays: log-spaced from fmin to fmax, |L| as ru_loopgain_at
+     * gives it, phase unwrapped (steps below 180 deg between neighbours). */
+    enum { NPTS = 41 };
+    double f[NPTS], mag[NPTS], ph[NPTS], re, im;
+    int part = ru_circuit_find_part(c, "A1");
+    assert_int_equal(ru_loopgain_sweep(s, part, x, 1e4, 1e6, NPTS, f, mag, ph, &sum,
+                                       &err),
+                     RU_OK);
+    RU_ASSERT_REL(f[0], 1e4, 1e-15);
+    RU_ASSERT_REL(f[NPTS - 1], 1e6, 1e-15);
+    RU_ASSERT_REL(f[20], 1e5, 1e-12);
+    assert_int_equal(ru_loopgain_at(s, part, x, f[20], &re, &im, &err), RU_OK);
+    RU_ASSERT_REL(mag[20], hypot(re, im), 1e-12);
+    for (int k = 1; k < NPTS; k++)
+        assert_true(fabs(ph[k] - ph[k - 1]) < 180.0);
+    RU_ASSERT_REL(sum.crossover_hz, sqrt(w2) / (2.0 * PI), 1e-9); /* same crossing */
     free(x);
     ru_system_destroy(s);
     ru_circuit_destroy(c);
@@ -423,6 +441,74 @@ static void test_loop_identity(void **state)
         ru_system_destroy(s);
         ru_circuit_destroy(c);
     }
+}
+
+/* log |det K| and arg det K of a complex n*n matrix (destroyed) by LU. */
+static double complex log_det(lapack_complex_double *k, size_t n)
+{
+    lapack_int *piv = calloc(n, sizeof *piv);
+    assert_non_null(piv);
+    assert_int_equal(LAPACKE_zgetrf(LAPACK_ROW_MAJOR, (lapack_int)n, (lapack_int)n, k,
+                                    (lapack_int)n, piv),
+                     0);
+    double complex sum = 0;
+    for (size_t i = 0; i < n; i++) {
+        sum += clog(k[i * n + i]);
+        if (piv[i] != (lapack_int)i + 1)
+            sum += CMPLX(0.0, PI);
+    }
+    free(piv);
+    return sum;
+}
+
+/* Common-emitter exp-stage with collector-to-base feedback (RB, CF) and a base
+ * capacitor. Reference: matrix determinant lemma, det(jwM - A0 - b g^T) =
+ * det(jwM - A0) (1 - g^T (jwM - A0)^{-1} b): 1 - L from the loop-gain solve must
+ * equal the ratio of two determinants computed here by LU (zgetrf), at the
+ * operating point found by Newton. 1e-9 relative: both sides are LU products of
+ * 3x3 matrices with modest condition numbers. */
+static void test_loop_determinant_identity(void **state)
+{
+    (void)state;
+    ru_circuit *c = new_circuit(1e-12);
+    add_supply(c, "VS", "vcc", 5.0);
+    add2(c, RU_PART_RESISTOR, "RC", "vcc", "col", 2.2e3);
+    add2(c, RU_PART_RESISTOR, "RB", "col", "b", 100e3);
+    add2(c, RU_PART_CAPACITOR, "CF", "col", "b", 100e-12);
+    add2(c, RU_PART_CAPACITOR, "CB", "b", "gnd", 1e-9);
+    add_exp_stage(c, "Q1", "b", "col");
+    ru_system *s = compile(c);
+    size_t n = ru_system_size(s);
+    double *x = zeros(s);
+    ru_error err;
+    assert_int_equal(ru_oppoint_solve(s, x, 0, NULL, &err), RU_OK);
+    double *dr = calloc(n * n, sizeof *dr), *a0 = calloc(n * n, sizeof *a0);
+    double *m = calloc(n * n, sizeof *m), *b = calloc(n, sizeof *b);
+    double *g = calloc(n, sizeof *g);
+    lapack_complex_double *k1 = calloc(n * n, sizeof *k1), *k2 = calloc(n * n, sizeof *k2);
+    assert_true(dr && a0 && m && b && g && k1 && k2);
+    int part = ru_circuit_find_part(c, "Q1");
+    assert_int_equal(ru_ss_linearize(s, x, dr, m, &err), RU_OK);
+    assert_int_equal(ru_system_loop_split(s, part, x, a0, b, g, &err), RU_OK);
+    const double fs[3] = {1e3, 3e5, 2e7};
+    for (int q = 0; q < 3; q++) {
+        double w = 2.0 * PI * fs[q], re, im;
+        for (size_t i = 0; i < n * n; i++) {
+            k1[i] = CMPLX(-dr[i], w * m[i]);
+            k2[i] = CMPLX(-a0[i], w * m[i]);
+        }
+        double complex ratio = cexp(log_det(k1, n) - log_det(k2, n));
+        assert_int_equal(ru_loopgain_at(s, part, x, fs[q], &re, &im, &err), RU_OK);
+        double complex one_minus_l = 1.0 - CMPLX(re, im);
+        RU_ASSERT_NEAR(cabs(one_minus_l - ratio), 0.0, 1e-9 * cabs(ratio));
+    }
+    /* The stage inverts: at low frequency L is real and negative, |L| > 1. */
+    double re, im;
+    assert_int_equal(ru_loopgain_at(s, part, x, 1.0, &re, &im, &err), RU_OK);
+    assert_true(re < -1.0);
+    free(dr), free(a0), free(m), free(b), free(g), free(k1), free(k2), free(x);
+    ru_system_destroy(s);
+    ru_circuit_destroy(c);
 }
 
 static void test_loop_bad_args(void **state)
@@ -587,6 +673,7 @@ int main(void)
         cmocka_unit_test(test_dominant_pick),
         cmocka_unit_test(test_colpitts_crossover),
         cmocka_unit_test(test_loop_identity),
+        cmocka_unit_test(test_loop_determinant_identity),
         cmocka_unit_test(test_loop_bad_args),
         cmocka_unit_test(test_oppoint_divider),
         cmocka_unit_test(test_oppoint_exp_stage),
