@@ -183,36 +183,47 @@ static ru_status refine_crossing(lin_ctx *c, double f_lo, double p_lo, double f_
     return st;
 }
 
-/* Every multiple of 360 crossed between unwrapped phases p0 (at f0) and p1. */
+static void record_crossing(ru_loop_summary *sum, double f_hz, double gain)
+{
+    if (!sum->found || gain > sum->gain) {
+        sum->found = 1;
+        sum->crossover_hz = f_hz;
+        sum->gain = gain;
+        sum->margin_db = 20.0 * log10(gain);
+    }
+}
+
+/* A sweep point whose phase is exactly a multiple of 360 is a crossing itself. */
+static ru_status exact_crossing(lin_ctx *c, double f_hz, ru_loop_summary *sum,
+                                ru_error *err)
+{
+    double complex L;
+    ru_status st = loop_eval(c, f_hz, &L, err);
+    if (st == RU_OK)
+        record_crossing(sum, f_hz, cabs(L));
+    return st;
+}
+
+/* Every multiple of 360 crossed between unwrapped phases p0 (at f0) and p1 (at
+ * f1); one that p0 sits on was counted with the previous interval. */
 static ru_status crossings_in(lin_ctx *c, double f0, double p0, double f1, double p1,
                               ru_loop_summary *sum, ru_error *err)
 {
     double lo = p0 < p1 ? p0 : p1, hi = p0 < p1 ? p1 : p0;
-    for (double k = ceil(lo / 360.0); k * 360.0 <= hi; k += 1.0) {
-        double target = k * 360.0;
+    ru_status st = RU_OK;
+    for (double k = ceil(lo / 360.0); st == RU_OK && k * 360.0 <= hi; k += 1.0) {
+        double target = k * 360.0, fx, gx;
         if (target == p0)
-            continue; /* counted at the previous interval (or the first point) */
-        double fx, gx;
-        ru_status st = target == p1 ? RU_OK
-                                    : refine_crossing(c, f0, p0, f1, target, &fx, &gx, err);
-        if (st != RU_OK)
-            return st;
+            continue;
         if (target == p1) {
-            double complex L;
-            fx = f1;
-            st = loop_eval(c, fx, &L, err);
-            if (st != RU_OK)
-                return st;
-            gx = cabs(L);
+            st = exact_crossing(c, f1, sum, err);
+            continue;
         }
-        if (!sum->found || gx > sum->gain) {
-            sum->found = 1;
-            sum->crossover_hz = fx;
-            sum->gain = gx;
-            sum->margin_db = 20.0 * log10(gx);
-        }
+        st = refine_crossing(c, f0, p0, f1, target, &fx, &gx, err);
+        if (st == RU_OK)
+            record_crossing(sum, fx, gx);
     }
-    return RU_OK;
+    return st;
 }
 
 static ru_status sweep_args(double fmin_hz, double fmax_hz, size_t npts,
@@ -260,7 +271,7 @@ ru_status ru_loopgain_sweep(const ru_system *s, int part, const double *x,
         if (phase_deg)
             phase_deg[k] = p;
         if (k == 0 && fmod(p, 360.0) == 0.0)
-            st = crossings_in(&c, f, p - 1.0, f, p, &res, err);
+            st = exact_crossing(&c, f, &res, err);
         else if (k > 0)
             st = crossings_in(&c, f_prev, p_prev, f, p, &res, err);
         f_prev = f;
