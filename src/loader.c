@@ -4,8 +4,8 @@
  *
  * Invariants: the document is built unresolved and every anchor, alias and tag is
  * refused before any value is read, so expansion attacks cost one linear walk;
- * libfyaml's diagnostics are collected (never printed) and returned with their
- * place; every error is RU_EINPUT with a 1-based FILE:LINE:COL, except an
+ * libfyaml's diagnostics go to our output function (never printed; its
+ * collect-errors mode leaks in 0.7.12) and are returned with their place; every error is RU_EINPUT with a 1-based FILE:LINE:COL, except an
  * unreadable file (RU_EIO) and out of memory (RU_ENOMEM). Sections are read in a
  * fixed order (title, stray, parts, run, measure) whatever their order in the
  * file, so run and measure can check node and part names. */
@@ -69,14 +69,60 @@ ru_status ru_ld_read_file(const char *path, char **text, size_t *len, ru_error *
     return RU_OK;
 }
 
-/* The last diagnostic libfyaml collected, or NULL. */
-static struct fy_diag_error *last_diag(struct fy_diag *diag)
+/* Reads "LINE:COL: error: " back from the end of a diagnostic's first chunk
+ * ("NAME:LINE:COL: error: msg\n"); returns the offset of the message or 0. */
+static size_t parse_diag_head(const char *b, size_t len, int *line, int *col)
 {
-    void *it = NULL;
-    struct fy_diag_error *e, *last = NULL;
-    while ((e = fy_diag_errors_iterate(diag, &it)) != NULL)
-        last = e;
-    return last;
+    static const char tag[] = ": error: ";
+    size_t n = sizeof tag - 1, at = 0;
+    for (size_t i = 0; i + n <= len && !at; i++)
+        if (memcmp(b + i, tag, n) == 0)
+            at = i;
+    int v[2] = {0, 0};
+    size_t i = at;
+    for (int k = 1; k >= 0 && i > 0; k--) {
+        int scale = 1, digits = 0;
+        while (i > 0 && b[i - 1] >= '0' && b[i - 1] <= '9' && digits < 9) {
+            v[k] += (b[--i] - '0') * scale;
+            scale *= 10;
+            digits++;
+        }
+        if (!digits || (k == 1 && (i == 0 || b[--i] != ':')))
+            return 0;
+    }
+    *line = v[0];
+    *col = v[1];
+    return at ? at + n : 0;
+}
+
+/* libfyaml's output function: records places and messages, prints nothing. One
+ * diagnostic arrives in three chunks; only the first carries "FILE:L:C: error:". */
+static void diag_output(struct fy_diag *diag, void *user, const char *buf, size_t len)
+{
+    (void)diag;
+    ld_doc *d = user;
+    int line, col;
+    size_t msg = parse_diag_head(buf, len, &line, &col);
+    if (!msg)
+        return;
+    if (d->probing) {
+        d->probe_line = line;
+        d->probe_col = col;
+        return;
+    }
+    size_t end = msg;
+    while (end < len && buf[end] != '\n')
+        end++;
+    size_t used = strlen(d->err_text);
+    if (d->nerr == 0) {
+        d->err_line = line;
+        d->err_col = col;
+        snprintf(d->err_text, sizeof d->err_text, "YAML: %.*s", (int)(end - msg), buf + msg);
+    } else if (used + 1 < sizeof d->err_text) {
+        snprintf(d->err_text + used, sizeof d->err_text - used, "; then at %d:%d: %.*s",
+                 line, col, (int)(end - msg), buf + msg);
+    }
+    d->nerr++;
 }
 
 void ru_ld_place(ld_doc *d, struct fy_node *n, int *line, int *col)
@@ -95,14 +141,14 @@ void ru_ld_place(ld_doc *d, struct fy_node *n, int *line, int *col)
             (*col)--; /* the token starts after the '*' or the opening quote */
         return;
     }
-    /* Collections have no public start mark in libfyaml 0.7.12: a report to the
-     * collecting diag records the node's place, which we read back. */
+    /* Collections have no public start mark in libfyaml 0.7.12: a report to our
+     * diag output function carries the node's place, which we read back. */
+    d->probing = 1;
+    d->probe_line = d->probe_col = 0;
     fy_node_report(n, FYET_ERROR, "place");
-    struct fy_diag_error *e = last_diag(d->diag);
-    if (e) {
-        *line = e->line;
-        *col = e->column;
-    }
+    d->probing = 0;
+    *line = d->probe_line;
+    *col = d->probe_col;
 }
 
 ru_status ru_ld_fail(ld_doc *d, struct fy_node *n, ru_error *err, const char *fmt, ...)
@@ -256,48 +302,25 @@ static ru_status refuse_refs(ld_doc *d, struct fy_node *root, ru_error *err)
     return RU_OK;
 }
 
-/* libfyaml's collected diagnostics as one error at the first one's place. */
+/* libfyaml's diagnostics as one error at the first one's place. */
 static ru_status yaml_errors(ld_doc *d, ru_error *err)
 {
-    void *it = NULL;
-    struct fy_diag_error *e;
-    char msg[RU_ERROR_TEXT] = "";
-    int line = 0, col = 0;
-    size_t used = 0;
-    while ((e = fy_diag_errors_iterate(d->diag, &it)) != NULL && used + 8 < sizeof msg) {
-        if (e->type < FYET_ERROR)
-            continue;
-        int w;
-        if (!line) {
-            line = e->line;
-            col = e->column;
-            w = snprintf(msg, sizeof msg, "YAML: %s", e->msg ? e->msg : "syntax error");
-        } else {
-            w = snprintf(msg + used, sizeof msg - used, "; then at %d:%d: %s", e->line,
-                         e->column, e->msg ? e->msg : "?");
-        }
-        if (w < 0)
-            break;
-        used += (size_t)w;
-        if (used >= sizeof msg)
-            used = sizeof msg - 1;
-    }
-    if (!line)
-        snprintf(msg, sizeof msg, "YAML: the text could not be parsed");
-    return ru_error_set(err, RU_EINPUT, d->file, line, col, "%s", msg);
+    if (!d->nerr)
+        return ru_error_set(err, RU_EINPUT, d->file, 0, 0,
+                            "YAML: the text could not be parsed");
+    return ru_error_set(err, RU_EINPUT, d->file, d->err_line, d->err_col, "%s",
+                        d->err_text);
 }
 
-static struct fy_diag *quiet_diag(void)
+static struct fy_diag *quiet_diag(ld_doc *d)
 {
     struct fy_diag_cfg dc;
     fy_diag_cfg_default(&dc);
     dc.fp = NULL;
-    dc.output_fn = NULL;
+    dc.output_fn = diag_output;
+    dc.user = d;
     dc.colorize = false;
-    struct fy_diag *diag = fy_diag_create(&dc);
-    if (diag)
-        fy_diag_set_collect_errors(diag, true);
-    return diag;
+    return fy_diag_create(&dc);
 }
 
 ru_status ru_ld_open(ld_doc *d, const char *text, size_t len, const char *name,
@@ -305,14 +328,14 @@ ru_status ru_ld_open(ld_doc *d, const char *text, size_t len, const char *name,
 {
     memset(d, 0, sizeof *d);
     snprintf(d->file, sizeof d->file, "%s", name ? name : "");
-    d->diag = quiet_diag();
+    d->diag = quiet_diag(d);
     struct fy_parse_cfg cfg = {.flags = FYPCF_QUIET, .diag = d->diag};
     d->parser = d->diag ? fy_parser_create(&cfg) : NULL;
     if (!d->parser || fy_parser_set_string(d->parser, text, len) != 0)
         return ru_error_set(err, RU_ENOMEM, d->file, 0, 0, "cannot start the YAML parser");
     d->doc = fy_parse_load_document(d->parser);
-    if (!d->doc || fy_diag_got_error(d->diag)) {
-        if (fy_diag_got_error(d->diag))
+    if (!d->doc || d->nerr) {
+        if (d->nerr)
             return yaml_errors(d, err);
         return ru_error_set(err, RU_EINPUT, d->file, 1, 1,
                             "the file is empty: expected a mapping with a parts: section");
@@ -322,7 +345,7 @@ ru_status ru_ld_open(ld_doc *d, const char *text, size_t len, const char *name,
     if (s != RU_OK)
         return s;
     struct fy_document *more = fy_parse_load_document(d->parser);
-    if (more || fy_diag_got_error(d->diag)) {
+    if (more || d->nerr) {
         if (more) {
             struct fy_node *r2 = fy_document_root(more);
             ru_status s2 = r2 ? ru_ld_fail(d, r2, err,

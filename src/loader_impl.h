@@ -17,7 +17,12 @@
 /* One parsed YAML file. */
 typedef struct ld_doc {
     char file[RU_ERROR_FILE];   /* name used in messages */
-    struct fy_diag *diag;       /* collects libfyaml's diagnostics (never prints) */
+    struct fy_diag *diag;       /* sends libfyaml's diagnostics to us (never prints) */
+    int probing;                /* 1 while ru_ld_place asks libfyaml for a place */
+    int probe_line, probe_col;  /* the place the last probe reported (1-based) */
+    int nerr;                   /* libfyaml errors received */
+    int err_line, err_col;      /* place of the first one (1-based) */
+    char err_text[RU_ERROR_TEXT]; /* their messages, joined */
     struct fy_parser *parser;   /* owns the input */
     struct fy_document *doc;    /* unresolved document */
     struct fy_node *root;       /* root mapping */
