@@ -4,10 +4,12 @@
  * one point per cycle, and a ring buffer keeps the last part of the run (the last
  * 10 % of stop_s, at most RU_RING_MAX samples) for frequency, DC level and spectrum.
  * Memory is therefore O(cycles) + a capacity fixed at create time.
- * ru_measure_finish works on copies and may be called more than once.
- * Choices the header leaves open (the README repeats them):
+ * ru_measure_finish works on a copy of the ring (so it briefly doubles that
+ * memory) and may be called more than once.
+ * Choices the header leaves open (to be stated in the README):
  *   - "the run" is what was pushed: the settled window is the last 10 % of
- *     [first t, last t] (= [0.9 stop, stop] for a run from 0 to stop);
+ *     [first t, last t] (= [0.9 stop, stop] for a run from 0 to stop); a run pushed
+ *     past stop_s keeps only the last 0.1 stop_s of samples for the sample figures;
  *   - envelope drift = slope of a least-squares line through the window's envelope
  *     points times the window length, over the mean; settled when |drift| <= 0.5 %;
  *   - started: settled amplitude >= 10x the reference (first envelope point, or the
@@ -291,18 +293,9 @@ static double settling_time(const ru_envelope *e, double settled_v, double band)
     return e->env_t[last_out] + f * (e->env_t[last_out + 1] - e->env_t[last_out]);
 }
 
-/* ---- figures from the sample window ------------------------------------------ */
+/* ---- the sample window -------------------------------------------------------- */
 
-/* The sample window: ring contents oldest first; x[i] is at t0_s + i*dt_s. */
-typedef struct win {
-    double *x;     /* samples (V), owned */
-    size_t n;      /* samples held */
-    size_t i_w;    /* first sample inside the settled window */
-    double t0_s;   /* time of x[0] (s) */
-    double dt_s;   /* spacing (s) */
-} win;
-
-static ru_status win_make(const ru_measure *m, double tw_s, win *w)
+static ru_status win_make(const ru_measure *m, double tw_s, ru_window *w)
 {
     memset(w, 0, sizeof *w);
     w->n = m->count < m->cap_ring ? (size_t)m->count : m->cap_ring;
@@ -319,139 +312,13 @@ static ru_status win_make(const ru_measure *m, double tw_s, win *w)
     return RU_OK;
 }
 
-/* Upward crossings of level_v inside the window, linear between samples; a crossing
- * counts only after the signal has been below level_v - hyst_v since the last one.
- * tc needs room for (n - i_w)/2 + 1 entries. */
-static size_t crossings(const win *w, double level_v, double hyst_v, double *tc)
-{
-    size_t nc = 0;
-    int armed = 0;
-    for (size_t i = w->i_w + 1; i < w->n; i++) {
-        double a = w->x[i - 1], b = w->x[i];
-        if (a < level_v - hyst_v)
-            armed = 1;
-        if (armed && a < level_v && b >= level_v) {
-            double f = (level_v - a) / (b - a);
-            tc[nc++] = w->t0_s + w->dt_s * ((double)(i - 1) + f);
-            armed = 0;
-        }
-    }
-    return nc;
-}
-
-/* Value of the linear interpolant at t_s (clamped to the samples). */
-static double lin_at(const win *w, double t_s)
-{
-    double u = (t_s - w->t0_s) / w->dt_s;
-    if (u <= 0.0)
-        return w->x[0];
-    size_t i = (size_t)u;
-    if (i + 1 >= w->n)
-        return w->x[w->n - 1];
-    double f = u - (double)i;
-    return w->x[i] + f * (w->x[i + 1] - w->x[i]);
-}
-
-/* Mean of the linear interpolant over [ta_s, tb_s] (trapezoid rule, exact ends). */
-static double mean_between(const win *w, double ta_s, double tb_s)
-{
-    double ua = (ta_s - w->t0_s) / w->dt_s, ub = (tb_s - w->t0_s) / w->dt_s;
-    size_t ia = (size_t)ceil(ua), ib = (size_t)floor(ub);
-    if (ib >= w->n)
-        ib = w->n - 1;
-    if (ia > ib)
-        return 0.5 * (lin_at(w, ta_s) + lin_at(w, tb_s));
-    double s = 0.5 * ((double)ia - ua) * (lin_at(w, ta_s) + w->x[ia]);
-    for (size_t i = ia; i < ib; i++)
-        s += 0.5 * (w->x[i] + w->x[i + 1]);
-    s += 0.5 * (ub - (double)ib) * (w->x[ib] + lin_at(w, tb_s));
-    return s / (ub - ua);
-}
-
-/* Resamples the last K whole periods (ending at the last crossing) and fills THD and
- * harmonics. */
-static ru_status spectrum(const win *w, const double *tc, size_t nc, double f_hz,
-                          ru_measure_result *r)
-{
-    size_t periods = nc - 1;
-    if (periods < RU_THD_MIN_PERIODS) {
-        snprintf(r->thd_note, RU_NOTE_MAX,
-                 "only %zu whole periods in the last 10 %% of the run (need %d); run "
-                 "longer",
-                 periods, RU_THD_MIN_PERIODS);
-        return RU_OK;
-    }
-    int K = periods < RU_THD_MAX_PERIODS ? (int)periods : RU_THD_MAX_PERIODS;
-    double spp = 1.0 / (f_hz * w->dt_s);
-    size_t M = 32;
-    while ((double)M < spp && M < 4096)
-        M *= 2;
-    size_t N = (size_t)K * M;
-    double *y = malloc(N * sizeof *y);
-    if (!y)
-        return RU_ENOMEM;
-    double span_s = (double)K / f_hz;
-    ru_resample(w->x, w->n, w->t0_s, w->dt_s, tc[nc - 1] - span_s, span_s, y, N);
-    double amp[RU_HARMONICS], thd = NAN;
-    ru_status st = ru_harmonics(y, N, K, RU_HARMONICS, amp, &thd);
-    free(y);
-    if (st != RU_OK)
-        return st;
-    r->thd_percent = thd;
-    for (int k = 2; k <= RU_HARMONICS; k++) {
-        double rel = amp[k - 1] / amp[0];
-        /* floor at -300 dBc so an exactly zero harmonic stays a finite number */
-        r->harmonics_dbc[k - 2] = rel > 1e-15 ? 20.0 * log10(rel) : -300.0;
-    }
-    return RU_OK;
-}
-
 /* DC level, frequency, THD and harmonics from the settled window. */
 static ru_status window_figures(const ru_measure *m, double tw_s, ru_measure_result *r)
 {
-    win w;
+    ru_window w;
     ru_status st = win_make(m, tw_s, &w);
-    if (st != RU_OK)
-        return st;
-    double *tc = NULL;
-    size_t nw = w.n - w.i_w;
-    if (nw < 8) {
-        snprintf(r->thd_note, RU_NOTE_MAX, "too few samples in the last 10 %% of the run");
-        goto done;
-    }
-    double lo = w.x[w.i_w], hi = lo, s = 0.0;
-    for (size_t i = w.i_w; i < w.n; i++) {
-        s += w.x[i];
-        lo = w.x[i] < lo ? w.x[i] : lo;
-        hi = w.x[i] > hi ? w.x[i] : hi;
-    }
-    double dc = s / (double)nw, hyst = 0.05 * (hi - lo);
-    r->dc_level_v = dc;
-    tc = malloc((nw / 2 + 2) * sizeof *tc);
-    if (!tc) {
-        st = RU_ENOMEM;
-        goto done;
-    }
-    size_t nc = 0;
-    for (int pass = 0; pass < 2; pass++) { /* mean over whole periods, then again */
-        nc = crossings(&w, dc, hyst, tc);
-        if (nc < 2)
-            break;
-        dc = mean_between(&w, tc[0], tc[nc - 1]);
-    }
-    if (nc < 2) {
-        snprintf(r->thd_note, RU_NOTE_MAX,
-                 "no whole period in the last 10 %% of the run; run longer");
-        goto done;
-    }
-    nc = crossings(&w, dc, hyst, tc);
-    r->dc_level_v = dc;
-    if (nc >= 2) {
-        r->frequency_hz = (double)(nc - 1) / (tc[nc - 1] - tc[0]);
-        st = spectrum(&w, tc, nc, r->frequency_hz, r);
-    }
-done:
-    free(tc);
+    if (st == RU_OK)
+        st = ru_window_figures(&w, r);
     free(w.x);
     return st;
 }

@@ -70,6 +70,20 @@ ru_status ru_envelope_push(ru_envelope *e, uint64_t idx, double t_s, double v,
 void ru_resample(const double *x, size_t n, double t0_s, double dt_s, double ts_s,
                  double span_s, double *out, size_t nout);
 
+/* The sample window: the ring contents, oldest first. */
+typedef struct ru_window {
+    double *x;     /* samples (V), owned by whoever made the window */
+    size_t n;      /* samples held */
+    size_t i_w;    /* first sample inside the settled window */
+    double t0_s;   /* time of x[0] (s) */
+    double dt_s;   /* spacing (s) */
+} ru_window;
+
+/* DC level, frequency, THD and harmonics (into r) from the part of the window from
+ * i_w on: crossings of the mean, the mean over whole periods, and the spectrum of the
+ * last (at most RU_THD_MAX_PERIODS) whole periods. Only RU_ENOMEM fails. */
+ru_status ru_window_figures(const ru_window *w, ru_measure_result *r);
+
 /* Internal queries for tests: capacities of the bounded buffers (entries). */
 size_t ru_measure_ring_capacity(const ru_measure *m);
 size_t ru_measure_envelope_capacity(const ru_measure *m);

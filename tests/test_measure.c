@@ -23,7 +23,14 @@ typedef struct sig {
     double ramp_v_s;  /* added slow DC ramp (V/s) */
     double noise_v;   /* added pseudo-noise, uniform in +-noise_v */
     int decay;        /* 1: a0 exp(sigma t) instead of the van der Pol envelope */
+    double die_s;     /* > 0: from this time on the envelope also decays ... */
+    double die_rate;  /* ... as exp(-die_rate (t - die_s)) (1/s) */
 } sig;
+
+/* Phase of the probe at t = 0: half a sample off the grid at 64 samples/period
+ * (2 pi/64 = 0.098 rad), so peaks fall between samples and the parabola refinement
+ * matters (raw sample maxima would read up to 1.2e-3 low). */
+#define PHASE0 0.05
 
 static double vdp_env(const sig *s, double t)
 {
@@ -58,7 +65,9 @@ static ru_measure *run(const sig *s, const ru_measure_cfg *cfg, double until_s,
     for (size_t i = 0; i <= n; i++) {
         double t = (double)i * cfg->sample_s;
         double a = s->decay ? s->a0_v * exp(s->sigma * t) : vdp_env(s, t);
-        double v = a * cos(w * t) + s->dc_v + s->ramp_v_s * t;
+        if (s->die_s > 0.0 && t > s->die_s)
+            a *= exp(-s->die_rate * (t - s->die_s));
+        double v = a * cos(w * t + PHASE0) + s->dc_v + s->ramp_v_s * t;
         if (s->noise_v > 0.0)
             v += s->noise_v * lcg_uniform(&st);
         assert_int_equal(ru_measure_push(m, t, v), RU_OK);
@@ -276,6 +285,12 @@ static void test_drift_and_noise(void **state)
     s.ramp_v_s = 0.0;
     s.noise_v = 1e-4 * s.amp_v; /* -80 dB of the settled amplitude */
     ru_measure *m2 = run(&s, &cfg, stop, &r2);
+    /* without a declared kick level only the relative hysteresis guards */
+    ru_measure_result r3;
+    cfg.kick_level_v = 0.0;
+    ru_measure *m3 = run(&s, &cfg, stop, &r3);
+    assert_int_equal(r3.cycles, r0.cycles);
+    ru_measure_destroy(m3);
     /* one envelope point per period: 300 periods, the last may be incomplete */
     assert_true(r0.cycles >= 299 && r0.cycles <= 300);
     assert_int_equal(r1.cycles, r0.cycles);
@@ -331,6 +346,49 @@ static void test_growth_kick_too_high(void **state)
     assert_true(r.growth_fit_points < 3);
     assert_non_null(strstr(r.growth_note, "fewer than 3 cycles between 1% and 10%"));
     RU_ASSERT_REL(r.settled_amplitude_v, 1.0, 1e-4);
+    ru_measure_destroy(m);
+}
+
+/* The growth fit skips points up to twice the kick level: with a kick at 0.8 % of
+ * the settled amplitude the fit starts above 1.6 %. */
+static void test_growth_above_kick(void **state)
+{
+    (void)state;
+    sig s = {.amp_v = 1.0, .a0_v = 8e-3, .f_hz = 1000.0};
+    s.sigma = 0.01 * 2.0 * M_PI * s.f_hz;
+    ru_measure_cfg cfg;
+    ru_measure_cfg_default(&cfg, 0.3, 1.0 / (s.f_hz * 64.0));
+    cfg.kick_level_v = s.a0_v;
+    ru_measure_result r;
+    ru_measure *m = run(&s, &cfg, 0.3, &r);
+    const double *t, *a;
+    size_t n, i = 0;
+    ru_measure_envelope(m, &t, &a, &n);
+    while (i < n && t[i] < r.growth_fit_t0_s)
+        i++;
+    assert_true(i > 0 && i < n);
+    assert_true(a[i] > 2.0 * s.a0_v);
+    assert_true(a[i - 1] <= 2.0 * s.a0_v);
+    assert_true(r.growth_fit_points >= 3);
+    ru_measure_destroy(m);
+}
+
+/* Grows 1000x, then dies away (as when the loop gain collapses): the last 10 %
+ * clearly decays, so started = 0. */
+static void test_grows_then_dies(void **state)
+{
+    (void)state;
+    sig s = {.amp_v = 1.0, .a0_v = 1e-3, .f_hz = 1000.0, .die_s = 0.15,
+             .die_rate = 20.0};
+    s.sigma = 0.01 * 2.0 * M_PI * s.f_hz;
+    ru_measure_cfg cfg;
+    ru_measure_cfg_default(&cfg, 0.3, 1.0 / (s.f_hz * 64.0));
+    ru_measure_result r;
+    ru_measure *m = run(&s, &cfg, 0.3, &r);
+    assert_int_equal(r.started, 0);
+    assert_non_null(strstr(r.growth_note, "decays"));
+    /* ln a falls by 20/s * 0.03 s = 0.6 over the window: line-fit drift ~ -0.6 */
+    assert_true(r.envelope_drift < -0.3);
     ru_measure_destroy(m);
 }
 
@@ -409,6 +467,8 @@ int main(void)
         cmocka_unit_test(test_drift_and_noise),
         cmocka_unit_test(test_not_settled),
         cmocka_unit_test(test_growth_kick_too_high),
+        cmocka_unit_test(test_growth_above_kick),
+        cmocka_unit_test(test_grows_then_dies),
         cmocka_unit_test(test_memory_bounded),
         cmocka_unit_test(test_bad_input),
     };
