@@ -11,6 +11,7 @@
 #include "ringup/measure.h"
 
 #include <stdint.h>
+#include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 
@@ -322,6 +323,44 @@ static void test_not_settled(void **state)
     assert_int_equal(r.settled, 0);
     assert_true(r.envelope_drift > 0.005);
     assert_non_null(strstr(r.settle_note, "longer"));
+    /* The hint is an estimate from the drift's decay across the window. Reference:
+     * the stop at which the exact envelope moves < 0.5 % over its last 10 %, found
+     * by scanning the closed form; the hint must land within 50 % of the extra time
+     * needed (common practice for an advisory figure). */
+    const char *about = strstr(r.settle_note, "about ");
+    assert_non_null(about);
+    double more = 0.0;
+    assert_int_equal(sscanf(about, "about %lf", &more), 1);
+    double need = stop;
+    while ((vdp_env(&s, need) - vdp_env(&s, 0.9 * need)) / vdp_env(&s, need) >= 0.005)
+        need *= 1.001;
+    RU_ASSERT_REL(more, need - stop, 0.5);
+    ru_measure_destroy(m);
+}
+
+/* The design notes say a 1 %..30 % growth window reads about 0.9 % low on an exact
+ * van der Pol envelope, which is why the default stops at 10 %. Reference: the same
+ * least squares on exact ln a(t) at the fitted points; its bias is checked against
+ * that statement (0.6 %..1.2 %), and the measured rate against the exact fit. */
+static void test_growth_window_30(void **state)
+{
+    (void)state;
+    sig s = {.amp_v = 1.0, .a0_v = 1e-3, .f_hz = 1000.0};
+    s.sigma = 0.01 * 2.0 * M_PI * s.f_hz;
+    ru_measure_cfg cfg;
+    ru_measure_cfg_default(&cfg, 0.3, 1.0 / (s.f_hz * 64.0));
+    cfg.growth_hi = 0.30;
+    ru_measure_result r;
+    ru_measure *m = run(&s, &cfg, 0.3, &r);
+    const double *t, *a;
+    size_t n, i0 = 0;
+    ru_measure_envelope(m, &t, &a, &n);
+    while (i0 < n && t[i0] < r.growth_fit_t0_s)
+        i0++;
+    double ref = exact_fit_slope(&s, t + i0, (size_t)r.growth_fit_points);
+    double bias = ref / s.sigma - 1.0;
+    assert_true(bias < -0.006 && bias > -0.012);
+    RU_ASSERT_REL(r.growth_rate_per_s, ref, 1e-3);
     ru_measure_destroy(m);
 }
 
@@ -468,6 +507,7 @@ int main(void)
         cmocka_unit_test(test_not_settled),
         cmocka_unit_test(test_growth_kick_too_high),
         cmocka_unit_test(test_growth_above_kick),
+        cmocka_unit_test(test_growth_window_30),
         cmocka_unit_test(test_grows_then_dies),
         cmocka_unit_test(test_memory_bounded),
         cmocka_unit_test(test_bad_input),
