@@ -53,9 +53,13 @@ static void law_exp_stage(const ru_amp *a, double vc, double vo, ru_law_eval *e)
     e->i_out = -ic;
     e->di_out_dvc = -dic_dvc;
     e->di_out_dvo = -dic_dvo;
-    e->i_in = -ic / a->beta;
-    e->di_in_dvc = -dic_dvc / a->beta;
-    e->di_in_dvo = -dic_dvo / a->beta;
+    /* The input draws the junction current over beta, not reduced by the
+     * saturation factor: in saturation a real base-emitter junction keeps
+     * conducting and clamps the input, which the saturated collector current
+     * alone would not do (the operating point could then fail to exist). */
+    e->i_in = -ie / a->beta;
+    e->di_in_dvc = -a->is_a * dex / nvt / a->beta;
+    e->di_in_dvo = 0.0;
 }
 
 /* Indexed by ru_law; keep in the enum's order. */

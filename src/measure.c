@@ -12,8 +12,11 @@
  *     past stop_s keeps only the last 0.1 stop_s of samples for the sample figures;
  *   - envelope drift = slope of a least-squares line through the window's envelope
  *     points times the window length, over the mean; settled when |drift| <= 0.5 %;
- *   - started: settled amplitude >= 10x the reference (first envelope point, or the
- *     kick level when given and lower) and drift >= -10 % (not clearly decaying);
+ *   - started: settled amplitude >= 10x the reference (the lowest envelope point
+ *     before the settled window, or the kick level when given and lower) and
+ *     drift >= -10 % (not clearly decaying); start-up time and growth fit look at
+ *     the envelope from that lowest point on (a power-on transient before it is
+ *     not part of the growth);
  *   - settling time: the band crossing interpolated linearly between the last point
  *     outside the band and the next point (the first point's time when none is
  *     outside); NAN when the last point is outside. */
@@ -224,11 +227,11 @@ static void settle_hint(const ru_envelope *e, size_t i0, double tw_s, double wle
 }
 
 /* First time the envelope reaches level_v, linear between points; NAN if never. */
-static double first_reach(const ru_envelope *e, double level_v)
+static double first_reach(const ru_envelope *e, size_t from, double level_v)
 {
-    for (size_t i = 0; i < e->n_env; i++) {
+    for (size_t i = from; i < e->n_env; i++) {
         if (e->env_a[i] >= level_v) {
-            if (i == 0)
+            if (i == from)
                 return e->env_t[0];
             double a0 = e->env_a[i - 1], a1 = e->env_a[i];
             double f = (level_v - a0) / (a1 - a0);
@@ -238,15 +241,15 @@ static double first_reach(const ru_envelope *e, double level_v)
     return NAN;
 }
 
-static void growth_fit(const ru_envelope *e, const ru_measure_cfg *c, double settled_v,
-                       double t_limit_s, ru_measure_result *r)
+static void growth_fit(const ru_envelope *e, const ru_measure_cfg *c, size_t from,
+                       double settled_v, double t_limit_s, ru_measure_result *r)
 {
     double lo = c->growth_lo * settled_v, hi = c->growth_hi * settled_v;
     double kick = 2.0 * c->kick_level_v;
     /* the envelope rises through the window once before start-up ends, so the
      * matching points are contiguous: fit from the first to the last of them */
     size_t i0 = e->n_env, i1 = 0;
-    for (size_t i = 0; i < e->n_env && e->env_t[i] <= t_limit_s; i++) {
+    for (size_t i = from; i < e->n_env && e->env_t[i] <= t_limit_s; i++) {
         double a = e->env_a[i];
         if (a >= lo && a <= hi && a > kick) {
             if (i0 == e->n_env)
@@ -372,7 +375,14 @@ ru_status ru_measure_finish(ru_measure *m, ru_measure_result *r)
         return RU_OK;
     }
     r->envelope_drift = drift;
-    double ref = e->env_a[0];
+    /* The start is measured from the envelope's lowest point before the settled
+     * window: a power-on transient can leave a large first "cycle" (the bias
+     * moving) before the oscillation grows from a much smaller level. */
+    size_t trough = 0;
+    for (size_t i = 1; i < i0; i++)
+        if (e->env_a[i] < e->env_a[trough])
+            trough = i;
+    double ref = e->env_a[trough];
     if (m->cfg.kick_level_v > 0.0 && m->cfg.kick_level_v < ref)
         ref = m->cfg.kick_level_v;
     char why[RU_NOTE_MAX];
@@ -393,9 +403,9 @@ ru_status ru_measure_finish(ru_measure *m, ru_measure_result *r)
     r->settled = fabs(drift) <= DRIFT_LIMIT && e->n_env - i0 >= 2;
     if (!r->settled)
         settle_hint(e, i0, tw, wlen, drift, r->settle_note);
-    r->startup_time_s = first_reach(e, m->cfg.startup_level * mean);
+    r->startup_time_s = first_reach(e, trough, m->cfg.startup_level * mean);
     double tlim = isfinite(r->startup_time_s) ? r->startup_time_s : INFINITY;
-    growth_fit(e, &m->cfg, mean, tlim, r);
+    growth_fit(e, &m->cfg, trough, mean, tlim, r);
     r->settling_time_s = settling_time(e, mean, m->cfg.settle_band);
     return RU_OK;
 }

@@ -565,20 +565,19 @@ static void test_oppoint_divider(void **state)
     ru_circuit_destroy(c);
 }
 
-/* Independent reference for the biased exp-stage: with ib = (Vcc - vb)/RB and
- * ic = beta ib = is (exp(vb/(n vt)) - 1) tanh(vc/vsat), vc = Vcc - RC ic, the
- * residual h(vb) = is (e^{vb/vt} - 1) tanh(vc(vb)/vsat) - beta (Vcc - vb)/RB
- * increases with vb; solved by bisection on [0, Vcc]. Reference: Shockley law
- * (the exp-stage definition), vt = k T / q with the exact 2019 SI constants. */
-static double exp_stage_vb(double vcc, double rb, double rc, const ru_amp *a)
+/* Independent reference for the biased exp-stage: the base draws the junction
+ * current over beta, ib = (Vcc - vb)/RB = is (exp(vb/(n vt)) - 1)/beta, so
+ * h(vb) = is (e^{vb/vt} - 1) - beta (Vcc - vb)/RB increases with vb; solved by
+ * bisection on [0, Vcc]. Then ic = beta ib tanh(vc/vsat) with vc = Vcc - RC ic,
+ * solved by bisection too. Reference: Shockley law (the exp-stage definition),
+ * vt = k T / q with the exact 2019 SI constants. */
+static double exp_stage_vb(double vcc, double rb, const ru_amp *a)
 {
     double vt = a->n * 1.380649e-23 * (a->temp_c + 273.15) / 1.602176634e-19;
     double lo = 0.0, hi = vcc;
     for (int k = 0; k < 200; k++) {
         double vb = 0.5 * (lo + hi);
-        double ic_b = a->beta * (vcc - vb) / rb;
-        double vc = vcc - rc * ic_b;
-        double h = a->is_a * (exp(vb / vt) - 1.0) * tanh(vc / a->vsat_v) - ic_b;
+        double h = a->is_a * (exp(vb / vt) - 1.0) - a->beta * (vcc - vb) / rb;
         if (h > 0)
             hi = vb;
         else
@@ -597,8 +596,17 @@ static void test_oppoint_exp_stage(void **state)
     add2(c, RU_PART_RESISTOR, "RC", "vcc", "col", rc);
     add_exp_stage(c, "Q1", "b", "col");
     const ru_amp *amp = &ru_circuit_part(c, (size_t)ru_circuit_find_part(c, "Q1"))->amp;
-    double vb = exp_stage_vb(vcc, rb, rc, amp);
-    double vc = vcc - rc * amp->beta * (vcc - vb) / rb;
+    double vb = exp_stage_vb(vcc, rb, amp);
+    double ij = amp->beta * (vcc - vb) / rb; /* junction current before saturation */
+    double vlo = 0.0, vhi = vcc;             /* vc = Vcc - RC ij tanh(vc/vsat) */
+    for (int k = 0; k < 200; k++) {
+        double vm = 0.5 * (vlo + vhi);
+        if (vm - (vcc - rc * ij * tanh(vm / amp->vsat_v)) > 0)
+            vhi = vm;
+        else
+            vlo = vm;
+    }
+    double vc = 0.5 * (vlo + vhi);
     ru_system *s = compile(c);
     int nb = ru_circuit_find_node(c, "b"), ncol = ru_circuit_find_node(c, "col");
     for (int force = 0; force <= 1; force++) {
@@ -609,7 +617,7 @@ static void test_oppoint_exp_stage(void **state)
         if (st != RU_OK)
             fail_msg("oppoint (force %d): %s", force, err.msg);
         /* vb to 1e-9 V (Newton converges quadratically past the 1e-9 V step test);
-         * vc = Vcc - RC*beta*(Vcc - vb)/RB is less sensitive, 1e-8 V. */
+         * vc from the scalar equation above is less sensitive, 1e-8 V. */
         RU_ASSERT_NEAR(ru_system_node_voltage(s, nb, 0.0, x), vb, 1e-9);
         RU_ASSERT_NEAR(ru_system_node_voltage(s, ncol, 0.0, x), vc, 1e-8);
         assert_true(stats.residual <= 1e-12);

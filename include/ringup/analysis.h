@@ -52,6 +52,7 @@ typedef struct ru_run_report {
     double stop_s;                /* run length used */
     double sample_s;              /* sample spacing used */
     char probe[2 * RU_NAME_MAX + 2]; /* "out" or "a-b" */
+    double startup_level;         /* start-up threshold used (fraction of settled) */
     ru_solver_stats solver;
     ru_measure_result meas;
     ru_prediction pred;

@@ -81,8 +81,11 @@ const char *ru_law_name(ru_law law);
  *   behind rout from out to ref; the input draws no current.
  * exp-stage: a current ic = is*(exp(vc/(n*vt)) - 1)*tanh(vo/vsat) flows into out
  *   and leaves by ref (a sink at out, as a junction transistor's collector); the
- *   input draws ic/beta from in to ref; vt = k*T/q at temp_c. The tanh factor is
- *   the smooth saturation: 1 when vo is well above vsat, 0 at vo = 0. */
+ *   input draws the junction current over beta, is*(exp(vc/(n*vt)) - 1)/beta, from
+ *   in to ref; vt = k*T/q at temp_c. The tanh factor is the smooth saturation of
+ *   the output only: 1 when vo is well above vsat, 0 at vo = 0. The input is not
+ *   reduced by it, so in saturation the junction still clamps the input as a real
+ *   base-emitter junction does. */
 typedef struct ru_amp {
     ru_law law;
     char model[RU_NAME_MAX]; /* preset name the values came from, "" when inline */

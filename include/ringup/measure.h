@@ -42,6 +42,8 @@ typedef struct ru_measure_cfg {
     double kick_level_v;   /* envelope level the kick itself gives (0 for none);
                               growth points must exceed 2x this */
     double settle_band;    /* settling band, fraction of settled (0.01) */
+    double period_hint_s;  /* expected period (s) from the poles, 0 when unknown: lets
+                              the envelope find cycles riding on a moving DC level */
 } ru_measure_cfg;
 
 /* Fills cfg with the defaults above for a run of stop_s sampled at sample_s. */

@@ -1,0 +1,201 @@
+/* analysis.c: one start-up analysis end to end (see ringup/analysis.h).
+ *
+ * Order: compile -> operating point -> poles -> loop gain -> choose the sample
+ * spacing -> transient streamed to the CSV writer, the measurement and the energy
+ * balance -> predictions and self-checks. Every stage that cannot run leaves its
+ * figures NAN and a note; only input errors and I/O errors stop the analysis. */
+#include "ringup/analysis.h"
+
+#include "ringup/system.h"
+#include "ringup/wavefile.h"
+#include "analysis_impl.h"
+
+#include <math.h>
+#include <stdarg.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+void ru_run_request_default(ru_run_request *rq)
+{
+    memset(rq, 0, sizeof *rq);
+    rq->accuracy = -1;
+    rq->tol_scale = 1.0;
+}
+
+void ru_report_note(ru_run_report *rep, const char *fmt, ...)
+{
+    if (rep->nnotes >= RU_MAX_NOTES)
+        return;
+    va_list ap;
+    va_start(ap, fmt);
+    vsnprintf(rep->notes[rep->nnotes], sizeof rep->notes[0], fmt, ap);
+    va_end(ap);
+    rep->nnotes++;
+}
+
+/* What the transient sink needs: the probe, the writers and the energy balance. */
+typedef struct run_sink {
+    const ru_system *sys;
+    int probe_pos, probe_neg;
+    ru_csv *csv;            /* NULL when no file is written */
+    ru_measure *meas;
+    ru_energy_balance *energy;
+} run_sink;
+
+static ru_status sink_sample(void *user, double t_s, const double *x, size_t n)
+{
+    run_sink *k = user;
+    ru_status st = RU_OK;
+    if (k->csv && (st = ru_csv_sample(k->csv, t_s, x, n)) != RU_OK)
+        return st;
+    double v = ru_system_node_voltage(k->sys, k->probe_pos, t_s, x) -
+               ru_system_node_voltage(k->sys, k->probe_neg, t_s, x);
+    if ((st = ru_measure_push(k->meas, t_s, v)) != RU_OK)
+        return st;
+    if (k->energy)
+        ru_energy_balance_push(k->energy, t_s, x);
+    return RU_OK;
+}
+
+static ru_status resolve_probe(const ru_circuit *c, const ru_system *sys,
+                               ru_run_report *rep, int *pos, int *neg, ru_error *err)
+{
+    const ru_measure_opts *mo = ru_circuit_measure_opts_const(c);
+    *pos = mo->probe_pos;
+    *neg = mo->probe_neg;
+    if (*pos < 0) { /* no probe named: the first free node */
+        *neg = 0;
+        for (size_t i = 1; i < ru_circuit_node_count(c); i++) {
+            if (ru_system_node_state(sys, (int)i) >= 0) {
+                *pos = (int)i;
+                break;
+            }
+        }
+        if (*pos < 0)
+            return ru_error_set(err, RU_EINPUT, ru_circuit_file(c), 0, 0,
+                                "the circuit has no free node to probe");
+    }
+    if (*neg > 0)
+        snprintf(rep->probe, sizeof rep->probe, "%s-%s", ru_circuit_node_name(c, *pos),
+                 ru_circuit_node_name(c, *neg));
+    else
+        snprintf(rep->probe, sizeof rep->probe, "%s", ru_circuit_node_name(c, *pos));
+    return RU_OK;
+}
+
+/* Sample spacing: the request's, the file's, or 72 samples per predicted period
+ * (at least 64 even if the tone settles 10 % higher), else 20000 over the run. */
+static double choose_sample(const ru_run_request *rq, const ru_run_opts *ro,
+                            const ru_prediction *pr, double stop_s)
+{
+    if (rq->sample_s > 0)
+        return rq->sample_s;
+    if (ro->sample_s > 0)
+        return ro->sample_s;
+    if (pr->have_poles && pr->frequency_hz > 0)
+        return 1.0 / (72.0 * pr->frequency_hz);
+    return stop_s / 20000.0;
+}
+
+static ru_status run_transient(const ru_circuit *c, const ru_system *sys,
+                               const ru_run_request *rq, ru_run_report *rep,
+                               int probe_pos, int probe_neg, ru_error *err)
+{
+    const ru_run_opts *ro = ru_circuit_run_opts_const(c);
+    size_t n = ru_system_size(sys);
+    ru_status st = RU_OK;
+    run_sink k = {.sys = sys, .probe_pos = probe_pos, .probe_neg = probe_neg};
+    double *x0 = calloc(n ? n : 1, sizeof *x0);
+    char path[4096];
+    if (!x0)
+        return ru_error_set(err, RU_ENOMEM, NULL, 0, 0, "out of memory");
+    if ((st = ru_system_initial_state(sys, x0, err)) != RU_OK)
+        goto cleanup;
+    ru_transient_opts to;
+    ru_transient_opts_for(rq->accuracy >= 0 ? (ru_accuracy)rq->accuracy : ro->accuracy,
+                          &to);
+    to.stop_s = rep->stop_s;
+    to.sample_s = rep->sample_s;
+    to.rtol *= rq->tol_scale;
+    to.atol_rel *= rq->tol_scale;
+    ru_measure_cfg mc;
+    ru_measure_cfg_default(&mc, rep->stop_s, rep->sample_s);
+    const ru_measure_opts *mo = ru_circuit_measure_opts_const(c);
+    mc.startup_level = mo->startup_level;
+    mc.growth_lo = mo->growth_lo;
+    mc.growth_hi = mo->growth_hi;
+    if (rep->pred.have_poles && rep->pred.frequency_hz > 0)
+        mc.period_hint_s = 1.0 / rep->pred.frequency_hz;
+    /* A preset kick is a small-signal start whose size the modal projection gives;
+     * power-on moves the bias through a large-signal transient, whose projection
+     * says nothing about the envelope's floor, so it sets none. */
+    mc.kick_level_v = (ro->kick == RU_KICK_PRESET && isfinite(rep->pred.kick_amplitude_v))
+                          ? rep->pred.kick_amplitude_v
+                          : 0;
+    if ((st = ru_measure_create(&mc, &k.meas)) != RU_OK) {
+        ru_error_set(err, st, NULL, 0, 0, "cannot set up the measurement");
+        goto cleanup;
+    }
+    if (ru_energy_balance_create(sys, rep->stop_s, &k.energy) != RU_OK)
+        k.energy = NULL; /* the estimate is optional */
+    if (rq->out_dir) {
+        snprintf(path, sizeof path, "%s/wave.csv", rq->out_dir);
+        if ((st = ru_csv_open(sys, path, &k.csv, err)) != RU_OK)
+            goto cleanup;
+    }
+    st = ru_transient_run(sys, &to, x0, sink_sample, &k, &rep->solver, err);
+    if (st == RU_ENUMERIC)
+        rep->partial = 1;
+    if (k.csv) {
+        ru_error cerr;
+        ru_status cs = ru_csv_close(k.csv, st == RU_OK ? 1 : (st == RU_ENUMERIC ? 2 : 0),
+                                    &cerr);
+        k.csv = NULL;
+        if (st == RU_OK && cs != RU_OK) {
+            if (err)
+                *err = cerr;
+            st = cs;
+        }
+    }
+    if (st == RU_OK || st == RU_ENUMERIC) {
+        ru_measure_finish(k.meas, &rep->meas);
+        if (k.energy)
+            rep->integrator_damping_per_s = ru_energy_balance_damping(k.energy);
+    }
+cleanup:
+    if (k.csv)
+        ru_csv_close(k.csv, 0, NULL);
+    ru_energy_balance_destroy(k.energy);
+    ru_measure_destroy(k.meas);
+    free(x0);
+    return st;
+}
+
+ru_status ru_analysis_run(const ru_circuit *c, const ru_run_request *rq,
+                          ru_run_report *rep, ru_error *err)
+{
+    memset(rep, 0, sizeof *rep);
+    rep->integrator_damping_per_s = NAN;
+    rep->growth_mismatch = NAN;
+    ru_system *sys = NULL;
+    ru_status st = ru_system_create(c, &sys, err);
+    if (st != RU_OK)
+        return st;
+    int pos = -1, neg = 0;
+    if ((st = resolve_probe(c, sys, rep, &pos, &neg, err)) != RU_OK)
+        goto done;
+    const ru_run_opts *ro = ru_circuit_run_opts_const(c);
+    rep->stop_s = rq->stop_s > 0 ? rq->stop_s : ro->stop_s;
+    rep->startup_level = ru_circuit_measure_opts_const(c)->startup_level;
+    const char *loop = rq->loop_part ? rq->loop_part : ru_circuit_measure_opts_const(c)->loop;
+    if ((st = ru_predict(c, sys, loop, pos, neg, rep, err)) != RU_OK)
+        goto done;
+    rep->sample_s = choose_sample(rq, ro, &rep->pred, rep->stop_s);
+    st = run_transient(c, sys, rq, rep, pos, neg, err);
+    if (st == RU_OK || st == RU_ENUMERIC)
+        ru_selfcheck(rep);
+done:
+    ru_system_destroy(sys);
+    return st;
+}

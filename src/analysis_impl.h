@@ -1,0 +1,42 @@
+/* analysis_impl.h: private pieces of the start-up analysis: the energy balance that
+ * estimates the integrator's own damping, the small-signal prediction and the
+ * self-checks that compare prediction with measurement. */
+#ifndef RU_ANALYSIS_IMPL_H
+#define RU_ANALYSIS_IMPL_H
+
+#include "ringup/analysis.h"
+#include "ringup/system.h"
+
+/* Appends a self-check remark (printf format) to the report; extra ones are dropped. */
+void ru_report_note(ru_run_report *rep, const char *fmt, ...)
+#if defined(__GNUC__)
+    __attribute__((format(printf, 2, 3)))
+#endif
+    ;
+
+/* Energy balance over the output samples: stored energy
+ *   E = sum over capacitors C (v_a - v_b)^2 / 2 + stray + sum over inductors L i^2 / 2
+ * against the integral of its rate of change dE/dt given by the model equations at
+ * each sample (the power the other parts deliver). An exact solution keeps the two
+ * equal; the integrator's numerical damping makes E fall short. The estimate
+ *   sigma_num = -(E_end - E_start - integral dE/dt) / (2 integral E dt)
+ * is in the units of a growth rate (1/s): it costs one right-hand-side evaluation
+ * per sample, no solver step. It runs over the samples after the last breakpoint. */
+typedef struct ru_energy_balance ru_energy_balance;
+ru_status ru_energy_balance_create(const ru_system *s, double stop_s,
+                                   ru_energy_balance **out);
+void ru_energy_balance_destroy(ru_energy_balance *e);
+void ru_energy_balance_push(ru_energy_balance *e, double t_s, const double *x);
+/* sigma_num in 1/s (positive: the integrator removes energy), NAN when unknown. */
+double ru_energy_balance_damping(const ru_energy_balance *e);
+
+/* Operating point, poles, kick size on the probe and loop gain into rep->pred.
+ * Failures of the small-signal engine become notes; RU_EINPUT only for a loop
+ * part that is not an amplifier. */
+ru_status ru_predict(const ru_circuit *c, const ru_system *s, const char *loop_part,
+                     int probe_pos, int probe_neg, ru_run_report *rep, ru_error *err);
+
+/* After the transient: start-up prediction and the comparison notes. */
+void ru_selfcheck(ru_run_report *rep);
+
+#endif

@@ -1,0 +1,58 @@
+/* cli.h: pieces shared by the CLI's commands: option tables, loading, printing
+ * errors. Only src/main.c and src/cli/ use it; the library never does. */
+#ifndef RU_CLI_H
+#define RU_CLI_H
+
+#include "ringup/analysis.h"
+#include "ringup/circuit.h"
+#include "ringup/json.h"
+#include "ringup/status.h"
+
+#include <stdio.h>
+
+typedef struct cli_command {
+    const char *name;
+    const char *summary;
+    int (*fn)(int argc, char **argv); /* argv[0] is the command name */
+} cli_command;
+
+int cmd_check(int argc, char **argv);
+int cmd_run(int argc, char **argv);
+int cmd_poles(int argc, char **argv);
+int cmd_response(int argc, char **argv);
+
+/* One option of a command: "--name VALUE" (or --name=VALUE) or a flag. */
+typedef struct cli_opt {
+    const char *name;  /* without the dashes */
+    const char *arg;   /* metavariable for help, NULL for a flag */
+    const char *help;
+    const char *value; /* filled by cli_parse: the value, or "1" for a given flag */
+} cli_opt;
+
+/* Parses argv[1..] into opts (terminated by a NULL name) and the one positional
+ * FILE. Prints help and returns 0 for --help; returns 1 on a bad option (after a
+ * message); returns -1 to go on. */
+int cli_parse(int argc, char **argv, const char *usage_line, const char *about,
+              cli_opt *opts, const char **file);
+
+/* The value of an option, or NULL when it was not given. */
+const char *cli_get(const cli_opt *opts, const char *name);
+
+/* Parses a value option with ru_value_parse; prints an error naming the option and
+ * returns 0 when it does not parse. */
+int cli_value(const cli_opt *opts, const char *name, const char *unit, double *out);
+
+/* Prints the error as FILE:LINE:COL: message and returns its exit status. */
+int cli_fail(const ru_error *err);
+
+/* Loads a circuit file (models from $RINGUP_MODELS or the build's folder), prints
+ * its warnings to stderr unless quiet; returns 0 or an exit status. */
+int cli_load(const char *file, int quiet, ru_circuit **out);
+
+/* The run keys of DESIGN.md (measured, predicted, solver) into an open object. */
+void cli_json_run_body(ru_json *j, const ru_run_report *r);
+
+/* Creates folder dir (and parents) if missing; returns 0 or exit status 3. */
+int cli_make_dir(const char *dir);
+
+#endif

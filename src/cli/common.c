@@ -1,0 +1,151 @@
+/* common.c: option parsing, loading and error printing shared by the commands. */
+#include "cli.h"
+
+#include "ringup/loader.h"
+
+#include <errno.h>
+#include <stdlib.h>
+#include <string.h>
+#include <sys/stat.h>
+
+static void print_help(const char *usage_line, const char *about, const cli_opt *opts)
+{
+    printf("usage: %s\n\n%s\n\noptions:\n", usage_line, about);
+    for (const cli_opt *o = opts; o->name; o++) {
+        char left[64];
+        snprintf(left, sizeof left, "--%s%s%s", o->name, o->arg ? " " : "",
+                 o->arg ? o->arg : "");
+        printf("  %-28s %s\n", left, o->help);
+    }
+    printf("  %-28s %s\n", "--help", "show this help");
+}
+
+static cli_opt *find_opt(cli_opt *opts, const char *name, size_t len)
+{
+    for (cli_opt *o = opts; o->name; o++)
+        if (strlen(o->name) == len && !strncmp(o->name, name, len))
+            return o;
+    return NULL;
+}
+
+int cli_parse(int argc, char **argv, const char *usage_line, const char *about,
+              cli_opt *opts, const char **file)
+{
+    *file = NULL;
+    for (int i = 1; i < argc; i++) {
+        const char *a = argv[i];
+        if (!strcmp(a, "--help") || !strcmp(a, "-h")) {
+            print_help(usage_line, about, opts);
+            return 0;
+        }
+        if (strncmp(a, "--", 2) != 0) {
+            if (*file) {
+                fprintf(stderr, "ringup %s: more than one file given ('%s' and '%s')\n",
+                        argv[0], *file, a);
+                return 1;
+            }
+            *file = a;
+            continue;
+        }
+        const char *eq = strchr(a + 2, '=');
+        size_t len = eq ? (size_t)(eq - (a + 2)) : strlen(a + 2);
+        cli_opt *o = find_opt(opts, a + 2, len);
+        if (!o) {
+            fprintf(stderr, "ringup %s: unknown option '%s' (see ringup %s --help)\n",
+                    argv[0], a, argv[0]);
+            return 1;
+        }
+        if (!o->arg) {
+            if (eq) {
+                fprintf(stderr, "ringup %s: option --%s takes no value\n", argv[0], o->name);
+                return 1;
+            }
+            o->value = "1";
+        } else if (eq) {
+            o->value = eq + 1;
+        } else if (i + 1 < argc) {
+            o->value = argv[++i];
+        } else {
+            fprintf(stderr, "ringup %s: option --%s needs a value (%s)\n", argv[0],
+                    o->name, o->arg);
+            return 1;
+        }
+    }
+    if (!*file) {
+        fprintf(stderr, "ringup %s: no circuit file given (usage: %s)\n", argv[0],
+                usage_line);
+        return 1;
+    }
+    return -1;
+}
+
+const char *cli_get(const cli_opt *opts, const char *name)
+{
+    for (const cli_opt *o = opts; o->name; o++)
+        if (!strcmp(o->name, name))
+            return o->value;
+    return NULL;
+}
+
+int cli_value(const cli_opt *opts, const char *name, const char *unit, double *out)
+{
+    const char *v = cli_get(opts, name);
+    char why[128];
+    if (!v)
+        return 1;
+    if (ru_value_parse(v, unit, out, why, sizeof why) != RU_OK) {
+        fprintf(stderr, "ringup: option --%s: '%s' is not a valid value: %s\n", name, v,
+                why);
+        return 0;
+    }
+    return 1;
+}
+
+int cli_fail(const ru_error *err)
+{
+    char buf[RU_ERROR_TEXT + RU_ERROR_FILE + 64];
+    ru_error_format(err, buf, sizeof buf);
+    fprintf(stderr, "%s\n", buf);
+    return ru_status_exit_code(err->code);
+}
+
+int cli_load(const char *file, int quiet, ru_circuit **out)
+{
+    ru_error err;
+    ru_error_clear(&err);
+    ru_status st = ru_circuit_load(file, NULL, out, &err);
+    if (st != RU_OK) {
+        if (!err.code)
+            err.code = st;
+        return cli_fail(&err);
+    }
+    if (!quiet)
+        for (size_t i = 0; i < ru_circuit_warning_count(*out); i++)
+            fprintf(stderr, "%s\n", ru_circuit_warning(*out, i));
+    return 0;
+}
+
+int cli_make_dir(const char *dir)
+{
+    char path[4096];
+    snprintf(path, sizeof path, "%s", dir);
+    for (char *p = path + 1; *p; p++) {
+        if (*p != '/')
+            continue;
+        *p = '\0';
+        if (mkdir(path, 0777) != 0 && errno != EEXIST)
+            goto fail;
+        *p = '/';
+    }
+    if (mkdir(path, 0777) != 0 && errno != EEXIST)
+        goto fail;
+    struct stat sb;
+    if (stat(path, &sb) != 0 || !S_ISDIR(sb.st_mode)) {
+        errno = ENOTDIR;
+        goto fail;
+    }
+    return 0;
+fail:
+    fprintf(stderr, "%s: cannot create output folder: %s\n", dir, strerror(errno));
+    return 3;
+}

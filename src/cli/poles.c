@@ -1,0 +1,174 @@
+/* poles.c: `ringup poles FILE`: operating point, poles, dominant pair, loop gain. */
+#include "cli.h"
+
+#include "ringup/format.h"
+#include "ringup/json.h"
+#include "ringup/smallsig.h"
+#include "ringup/system.h"
+
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+typedef struct poles_result {
+    ru_system *sys;
+    double *x;          /* operating point */
+    ru_pole *poles;
+    int dom;            /* index of the dominant pair or -1 */
+    int loop_part;      /* -1: none */
+    ru_loop_summary loop;
+    int have_loop;
+} poles_result;
+
+static void print_text(const ru_circuit *c, const poles_result *p)
+{
+    size_t n = ru_system_size(p->sys);
+    char a[40], b[40];
+    printf("%s: %s\n\noperating point:\n", ru_circuit_file(c), ru_circuit_title(c));
+    for (size_t i = 1; i < ru_circuit_node_count(c); i++)
+        printf("  %-12s %s\n", ru_circuit_node_name(c, (int)i),
+               ru_format_si(ru_system_node_voltage_dc(p->sys, (int)i, p->x), "V", 5, a,
+                            sizeof a));
+    printf("\npoles (real part 1/s, imaginary part as Hz):\n");
+    for (size_t i = 0; i < n; i++)
+        printf("  %+14.6g /s  %+14.6g Hz%s\n", p->poles[i].re_per_s,
+               p->poles[i].im_rad_per_s / (2 * M_PI),
+               (int)i == p->dom ? "   <- dominant pair" : "");
+    if (p->dom >= 0) {
+        const ru_pole *d = &p->poles[p->dom];
+        printf("\ndominant pair: growth rate %.6g /s at %s: %s\n", d->re_per_s,
+               ru_format_si(d->im_rad_per_s / (2 * M_PI), "Hz", 5, a, sizeof a),
+               d->re_per_s > 0 ? "right of the jw axis, it starts"
+                               : "left of the jw axis, it does not start");
+        if (d->re_per_s > 0)
+            printf("  grows 10x every %s\n",
+                   ru_format_si(log(10.0) / d->re_per_s, "s", 3, b, sizeof b));
+    } else {
+        printf("\nno complex pole pair: nothing here oscillates\n");
+    }
+    if (p->have_loop) {
+        const ru_part *pt = ru_circuit_part(c, (size_t)p->loop_part);
+        if (p->loop.found)
+            printf("loop gain of %s: phase 0 at %s, |L| = %.5g (%+.2f dB)\n", pt->name,
+                   ru_format_si(p->loop.crossover_hz, "Hz", 5, a, sizeof a), p->loop.gain,
+                   p->loop.margin_db);
+        else
+            printf("loop gain of %s: the phase does not pass 0 degrees in the range "
+                   "searched\n", pt->name);
+    }
+}
+
+static void print_json(const ru_circuit *c, const poles_result *p)
+{
+    size_t n = ru_system_size(p->sys);
+    ru_json j;
+    ru_json_init(&j, stdout, 1);
+    ru_json_begin_object(&j, NULL);
+    ru_json_begin_object(&j, "operating_point_v");
+    for (size_t i = 1; i < ru_circuit_node_count(c); i++)
+        ru_json_number(&j, ru_circuit_node_name(c, (int)i),
+                       ru_system_node_voltage_dc(p->sys, (int)i, p->x));
+    ru_json_end_object(&j);
+    ru_json_begin_array(&j, "poles");
+    for (size_t i = 0; i < n; i++) {
+        ru_json_begin_object(&j, NULL);
+        ru_json_number(&j, "re_per_s", p->poles[i].re_per_s);
+        ru_json_number(&j, "im_rad_per_s", p->poles[i].im_rad_per_s);
+        ru_json_end_object(&j);
+    }
+    ru_json_end_array(&j);
+    if (p->dom >= 0) {
+        ru_json_begin_object(&j, "dominant");
+        ru_json_number(&j, "growth_rate_per_s", p->poles[p->dom].re_per_s);
+        ru_json_number(&j, "frequency_hz", p->poles[p->dom].im_rad_per_s / (2 * M_PI));
+        ru_json_end_object(&j);
+    } else {
+        ru_json_null(&j, "dominant");
+    }
+    if (p->have_loop) {
+        ru_json_begin_object(&j, "loop");
+        ru_json_string(&j, "part", ru_circuit_part(c, (size_t)p->loop_part)->name);
+        ru_json_number(&j, "crossover_hz", p->loop.found ? p->loop.crossover_hz : NAN);
+        ru_json_number(&j, "gain_at_crossover", p->loop.found ? p->loop.gain : NAN);
+        ru_json_number(&j, "margin_db", p->loop.found ? p->loop.margin_db : NAN);
+        ru_json_end_object(&j);
+    }
+    ru_json_end_object(&j);
+    ru_json_finish(&j);
+}
+
+static ru_status compute(const ru_circuit *c, const char *loop, poles_result *p,
+                         ru_error *err)
+{
+    ru_status st = ru_system_create(c, &p->sys, err);
+    if (st != RU_OK)
+        return st;
+    int fl;
+    if (ru_circuit_find_floating_node(c, &fl)) {
+        int line, col;
+        ru_circuit_node_place(c, fl, &line, &col);
+        return ru_error_set(err, RU_EINPUT, ru_circuit_file(c), line, col,
+                            "node %s has no DC path to ground: there is no operating "
+                            "point (add a resistor to ground)",
+                            ru_circuit_node_name(c, fl));
+    }
+    size_t n = ru_system_size(p->sys);
+    p->x = calloc(n ? n : 1, sizeof *p->x);
+    p->poles = calloc(n ? n : 1, sizeof *p->poles);
+    if (!p->x || !p->poles)
+        return ru_error_set(err, RU_ENOMEM, NULL, 0, 0, "out of memory");
+    if ((st = ru_oppoint_solve(p->sys, p->x, 0, NULL, err)) != RU_OK)
+        return st;
+    if ((st = ru_poles_compute(p->sys, p->x, p->poles, err)) != RU_OK)
+        return st;
+    p->dom = ru_poles_dominant(p->poles, n);
+    if (!loop || !loop[0])
+        return RU_OK;
+    p->loop_part = ru_circuit_find_part(c, loop);
+    if (p->loop_part < 0 || ru_circuit_part(c, (size_t)p->loop_part)->type != RU_PART_AMPLIFIER)
+        return ru_error_set(err, RU_EINPUT, ru_circuit_file(c), 0, 0,
+                            "loop part %s is not an amplifier of this circuit", loop);
+    double f0 = p->dom >= 0 ? p->poles[p->dom].im_rad_per_s / (2 * M_PI) : 0;
+    st = ru_loopgain_sweep(p->sys, p->loop_part, p->x, f0 > 0 ? f0 / 30 : 1,
+                           f0 > 0 ? f0 * 30 : 1e9, 601, NULL, NULL, NULL, &p->loop, err);
+    p->have_loop = st == RU_OK;
+    return st;
+}
+
+int cmd_poles(int argc, char **argv)
+{
+    cli_opt opts[] = {{"loop", "PART", "amplifier whose loop gain is reported", NULL},
+                      {"json", NULL, "print JSON on stdout (keys in README)", NULL},
+                      {NULL, NULL, NULL, NULL}};
+    const char *file;
+    int rc = cli_parse(argc, argv, "ringup poles FILE [--loop PART] [--json]",
+                       "Finds the DC operating point (supplies at their final values), the "
+                       "poles of the\nlinearized circuit there, the dominant pair and, for "
+                       "a named amplifier, the loop gain\nwith its zero-phase crossover "
+                       "(Barkhausen criterion).",
+                       opts, &file);
+    if (rc >= 0)
+        return rc;
+    ru_circuit *c = NULL;
+    if ((rc = cli_load(file, cli_get(opts, "json") != NULL, &c)) != 0)
+        return rc;
+    poles_result p = {.dom = -1, .loop_part = -1};
+    ru_error err;
+    ru_error_clear(&err);
+    const char *loop = cli_get(opts, "loop");
+    if (!loop)
+        loop = ru_circuit_measure_opts_const(c)->loop;
+    ru_status st = compute(c, loop, &p, &err);
+    if (st != RU_OK)
+        rc = cli_fail(&err);
+    else if (cli_get(opts, "json"))
+        print_json(c, &p);
+    else
+        print_text(c, &p);
+    free(p.x);
+    free(p.poles);
+    ru_system_destroy(p.sys);
+    ru_circuit_destroy(c);
+    return rc;
+}

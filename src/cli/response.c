@@ -1,0 +1,242 @@
+/* response.c: `ringup response FILE --from N --to M`: the network's transfer from
+ * an ideal source at node N to node M over log-spaced frequencies. */
+#include "cli.h"
+
+#include "ringup/format.h"
+#include "ringup/json.h"
+#include "ringup/smallsig.h"
+#include "ringup/system.h"
+
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+typedef struct resp_data {
+    size_t npts;
+    double *f_hz, *mag, *phase_deg;
+    size_t peak;        /* index of the largest magnitude */
+    double f0_hz;       /* a zero-phase crossing (NAN: none), linear interpolation */
+    double mag0;        /* magnitude there */
+} resp_data;
+
+/* Frequency range from the poles: a decade and a half around the smallest and
+ * largest pole magnitudes (ignoring the fast poles of the stray capacitance). */
+static void range_from_poles(const ru_system *s, const double *x, double *fmin, double *fmax)
+{
+    size_t n = ru_system_size(s);
+    ru_pole *p = calloc(n ? n : 1, sizeof *p);
+    double lo = INFINITY, hi = 0;
+    if (p && ru_poles_compute(s, x, p, NULL) == RU_OK) {
+        for (size_t i = 0; i < n; i++) {
+            double w = hypot(p[i].re_per_s, p[i].im_rad_per_s) / (2 * M_PI);
+            if (w > 0 && w < lo)
+                lo = w;
+        }
+        for (size_t i = 0; i < n; i++) {
+            double w = hypot(p[i].re_per_s, p[i].im_rad_per_s) / (2 * M_PI);
+            if (w > hi && w < lo * 1e4) /* stray poles sit far above */
+                hi = w;
+        }
+    }
+    free(p);
+    if (!isfinite(lo) || !(hi > 0)) {
+        lo = 10;
+        hi = 1e6;
+    }
+    *fmin = lo / 30;
+    *fmax = hi * 30;
+}
+
+static ru_status sweep(const ru_system *s, const double *x, int in, int out, double fmin,
+                       double fmax, resp_data *d, ru_error *err)
+{
+    d->f0_hz = d->mag0 = NAN;
+    d->peak = 0;
+    for (size_t i = 0; i < d->npts; i++) {
+        double u = d->npts > 1 ? (double)i / (double)(d->npts - 1) : 0;
+        d->f_hz[i] = fmin * pow(fmax / fmin, u);
+        ru_status st = ru_response_at(s, x, in, out, d->f_hz[i], &d->mag[i],
+                                      &d->phase_deg[i], err);
+        if (st != RU_OK)
+            return st;
+        if (d->mag[i] > d->mag[d->peak])
+            d->peak = i;
+        if (i > 0 && !isfinite(d->f0_hz)) {
+            double p0 = d->phase_deg[i - 1], p1 = d->phase_deg[i];
+            if ((p0 <= 0 && p1 > 0) || (p0 >= 0 && p1 < 0)) {
+                if (fabs(p1 - p0) < 180) { /* not the +-180 wrap */
+                    double w = p0 / (p0 - p1);
+                    d->f0_hz = d->f_hz[i - 1] * pow(d->f_hz[i] / d->f_hz[i - 1], w);
+                    d->mag0 = d->mag[i - 1] + w * (d->mag[i] - d->mag[i - 1]);
+                }
+            }
+        }
+    }
+    return RU_OK;
+}
+
+static void print_text(const ru_circuit *c, const char *from, const char *to,
+                       const resp_data *d)
+{
+    char a[40];
+    printf("%s: %s\ntransfer v(%s)/v(%s), %s driven by an ideal source\n\n",
+           ru_circuit_file(c), ru_circuit_title(c), to, from, from);
+    printf("  %-14s %-12s %-10s %s\n", "frequency", "gain", "gain dB", "phase");
+    size_t stride = d->npts > 41 ? (d->npts - 1) / 40 : 1;
+    for (size_t i = 0; i < d->npts; i += stride)
+        printf("  %-14s %-12.5g %+-10.2f %+7.2f deg\n",
+               ru_format_si(d->f_hz[i], "Hz", 4, a, sizeof a), d->mag[i],
+               20 * log10(d->mag[i]), d->phase_deg[i]);
+    printf("\npeak: gain %.5g (%+.2f dB) at %s, phase %+.2f deg\n", d->mag[d->peak],
+           20 * log10(d->mag[d->peak]), ru_format_si(d->f_hz[d->peak], "Hz", 4, a, sizeof a),
+           d->phase_deg[d->peak]);
+    if (d->mag[d->peak] > 1)
+        printf("VOLTAGE GAIN ABOVE ONE: this network steps the voltage up by %.4g at its "
+               "peak\n", d->mag[d->peak]);
+    else
+        printf("the gain stays below one at every frequency swept\n");
+    if (isfinite(d->f0_hz))
+        printf("phase passes 0 deg at %s with gain %.5g: a loop around an amplifier of "
+               "gain %.4g or more would start there\n",
+               ru_format_si(d->f0_hz, "Hz", 4, a, sizeof a), d->mag0, 1.0 / d->mag0);
+}
+
+static void print_json(const resp_data *d)
+{
+    ru_json j;
+    ru_json_init(&j, stdout, 1);
+    ru_json_begin_object(&j, NULL);
+    ru_json_begin_array(&j, "points");
+    for (size_t i = 0; i < d->npts; i++) {
+        ru_json_begin_object(&j, NULL);
+        ru_json_number(&j, "f_hz", d->f_hz[i]);
+        ru_json_number(&j, "mag", d->mag[i]);
+        ru_json_number(&j, "phase_deg", d->phase_deg[i]);
+        ru_json_end_object(&j);
+    }
+    ru_json_end_array(&j);
+    ru_json_begin_object(&j, "peak");
+    ru_json_number(&j, "f_hz", d->f_hz[d->peak]);
+    ru_json_number(&j, "mag", d->mag[d->peak]);
+    ru_json_end_object(&j);
+    ru_json_begin_object(&j, "zero_phase");
+    ru_json_number(&j, "f_hz", d->f0_hz);
+    ru_json_number(&j, "mag", d->mag0);
+    ru_json_end_object(&j);
+    ru_json_bool(&j, "gain_above_one", d->mag[d->peak] > 1);
+    ru_json_end_object(&j);
+    ru_json_finish(&j);
+}
+
+static int node_arg(const ru_circuit *c, const ru_system *s, const char *opt,
+                    const char *name)
+{
+    int k = name ? ru_circuit_find_node(c, name) : -1;
+    if (!name) {
+        fprintf(stderr, "ringup response: --%s NODE is required\n", opt);
+        return -1;
+    }
+    if (k < 0) {
+        fprintf(stderr, "ringup response: --%s: no node named '%s' in %s\n", opt, name,
+                ru_circuit_file(c));
+        return -1;
+    }
+    if (!strcmp(opt, "from") && ru_system_node_state(s, k) < 0) {
+        fprintf(stderr, "ringup response: --from: node '%s' is ground or held by a "
+                        "supply; pick a free node\n", name);
+        return -1;
+    }
+    return k;
+}
+
+int cmd_response(int argc, char **argv)
+{
+    cli_opt opts[] = {{"from", "NODE", "node driven by the ideal test source", NULL},
+                      {"to", "NODE", "node whose voltage is read", NULL},
+                      {"fmin", "F", "lowest frequency (default: from the poles)", NULL},
+                      {"fmax", "F", "highest frequency (default: from the poles)", NULL},
+                      {"points", "N", "number of log-spaced points (default 201)", NULL},
+                      {"json", NULL, "print JSON on stdout (keys in README)", NULL},
+                      {NULL, NULL, NULL, NULL}};
+    const char *file;
+    int rc = cli_parse(argc, argv, "ringup response FILE --from NODE --to NODE [options]",
+                       "Drives node NODE with an ideal sine source (every other part stays, "
+                       "amplifiers\nlinearized at the operating point) and reports "
+                       "v(to)/v(from) over frequency:\nmagnitude, phase, the peak and "
+                       "where the phase passes 0 degrees.",
+                       opts, &file);
+    if (rc >= 0)
+        return rc;
+    double fmin = NAN, fmax = NAN, npts = 201;
+    if (!cli_value(opts, "fmin", "Hz", &fmin) || !cli_value(opts, "fmax", "Hz", &fmax) ||
+        !cli_value(opts, "points", NULL, &npts))
+        return 1;
+    if (!(npts >= 2 && npts <= 100000) || npts != floor(npts)) {
+        fprintf(stderr, "ringup response: --points takes a whole number from 2 to 100000\n");
+        return 1;
+    }
+    ru_circuit *c = NULL;
+    if ((rc = cli_load(file, cli_get(opts, "json") != NULL, &c)) != 0)
+        return rc;
+    ru_system *s = NULL;
+    resp_data d = {.npts = (size_t)npts};
+    double *x = NULL;
+    ru_error err;
+    ru_error_clear(&err);
+    int in, out, fl;
+    if (ru_system_create(c, &s, &err) != RU_OK) {
+        rc = cli_fail(&err);
+        goto done;
+    }
+    if ((in = node_arg(c, s, "from", cli_get(opts, "from"))) < 0 ||
+        (out = node_arg(c, s, "to", cli_get(opts, "to"))) < 0) {
+        rc = 1;
+        goto done;
+    }
+    if (ru_circuit_find_floating_node(c, &fl)) {
+        fprintf(stderr, "%s: node %s has no DC path to ground: there is no operating point\n",
+                ru_circuit_file(c), ru_circuit_node_name(c, fl));
+        rc = 1;
+        goto done;
+    }
+    x = calloc(ru_system_size(s) + 1, sizeof *x);
+    d.f_hz = calloc(d.npts, sizeof *d.f_hz);
+    d.mag = calloc(d.npts, sizeof *d.mag);
+    d.phase_deg = calloc(d.npts, sizeof *d.phase_deg);
+    if (!x || !d.f_hz || !d.mag || !d.phase_deg) {
+        rc = 2;
+        goto done;
+    }
+    if (ru_oppoint_solve(s, x, 0, NULL, &err) != RU_OK) {
+        rc = cli_fail(&err);
+        goto done;
+    }
+    double lo, hi;
+    range_from_poles(s, x, &lo, &hi);
+    if (!isfinite(fmin))
+        fmin = isfinite(fmax) ? fmax / 1000 : lo;
+    if (!isfinite(fmax))
+        fmax = fmin < hi ? hi : fmin * 1000;
+    if (!(fmin > 0 && fmax > fmin)) {
+        fprintf(stderr, "ringup response: need 0 < fmin < fmax (got %g, %g)\n", fmin, fmax);
+        rc = 1;
+        goto done;
+    }
+    if (sweep(s, x, in, out, fmin, fmax, &d, &err) != RU_OK) {
+        rc = cli_fail(&err);
+        goto done;
+    }
+    if (cli_get(opts, "json"))
+        print_json(&d);
+    else
+        print_text(c, cli_get(opts, "from"), cli_get(opts, "to"), &d);
+done:
+    free(x);
+    free(d.f_hz);
+    free(d.mag);
+    free(d.phase_deg);
+    ru_system_destroy(s);
+    ru_circuit_destroy(c);
+    return rc;
+}

@@ -1,0 +1,373 @@
+/* run.c: `ringup run FILE`: simulate the start-up, measure it, compare with the
+ * small-signal prediction, check the designer's expectations. */
+#include "cli.h"
+
+#include "ringup/analysis.h"
+#include "ringup/format.h"
+#include "ringup/json.h"
+#include "ringup/loader.h"
+
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+typedef struct expectations {
+    double start_within_s;    /* NAN: not given */
+    double amp_lo_v, amp_hi_v;
+    double thd_below_percent;
+} expectations;
+
+static const char *yes_no(int v) { return v ? "yes" : "no"; }
+
+static void row(const char *label, double meas, double pred, const char *unit)
+{
+    char a[40], b[40];
+    ru_format_si(meas, unit, 4, a, sizeof a);
+    ru_format_si(pred, unit, 4, b, sizeof b);
+    printf("  %-20s %-16s %s\n", label, a, b);
+}
+
+static void rate_row(const char *label, double meas, double pred)
+{
+    char a[40] = "-", b[40] = "-";
+    if (isfinite(meas))
+        snprintf(a, sizeof a, "%.5g /s", meas);
+    if (isfinite(pred))
+        snprintf(b, sizeof b, "%.5g /s", pred);
+    printf("  %-20s %-16s %s\n", label, a, b);
+}
+
+static void print_harmonics(const ru_measure_result *m)
+{
+    printf("  %-20s", "harmonics (dBc)");
+    if (!isfinite(m->thd_percent)) {
+        printf(" -\n");
+        return;
+    }
+    for (int k = 0; k < RU_HARMONICS - 1; k++) {
+        if (isfinite(m->harmonics_dbc[k]) && m->harmonics_dbc[k] > -200)
+            printf(" H%d %.1f", k + 2, m->harmonics_dbc[k]);
+        else
+            printf(" H%d <-200", k + 2);
+        if (k == 3)
+            printf("\n  %-20s", "");
+    }
+    printf("\n");
+}
+
+static void print_text(const ru_circuit *c, const ru_run_report *r, int auto_sample)
+{
+    const ru_measure_result *m = &r->meas;
+    const ru_prediction *p = &r->pred;
+    char a[40], b[40];
+    printf("%s: %s\n", ru_circuit_file(c), ru_circuit_title(c));
+    printf("probe %s, stop %s, sample %s%s\n\n", r->probe,
+           ru_format_si(r->stop_s, "s", 4, a, sizeof a),
+           ru_format_si(r->sample_s, "s", 4, b, sizeof b), auto_sample ? " (auto)" : "");
+    printf("  %-20s %-16s %s\n", "", "measured", "predicted");
+    printf("  %-20s %-16s %s\n", "started", yes_no(m->started),
+           p->have_poles ? (p->growth_rate_per_s > 0 ? "yes (poles right of jw axis)"
+                                                     : "no (poles left of jw axis)")
+                         : "-");
+    row("start-up time", m->startup_time_s, p->startup_time_s, "s");
+    rate_row("growth rate", m->growth_rate_per_s, p->growth_rate_per_s);
+    row("frequency", m->frequency_hz, p->frequency_hz, "Hz");
+    row("settled amplitude", m->settled_amplitude_v, p->settled_amplitude_v, "V");
+    printf("  %-20s %s\n", "settled", m->started ? yes_no(m->settled) : "-");
+    row("settling time", m->settling_time_s, NAN, "s");
+    printf("  %-20s %s\n", "THD",
+           isfinite(m->thd_percent) ? (snprintf(a, sizeof a, "%.4g %%", m->thd_percent), a)
+                                    : "-");
+    print_harmonics(m);
+    row("DC level", m->dc_level_v, NAN, "V");
+    if (isfinite(m->growth_rate_per_s))
+        printf("\ngrowth fit: %d cycles from %s to %s, rms residual %.2g\n",
+               m->growth_fit_points, ru_format_si(m->growth_fit_t0_s, "s", 3, a, sizeof a),
+               ru_format_si(m->growth_fit_t1_s, "s", 3, b, sizeof b), m->growth_fit_rms);
+    else if (m->growth_note[0])
+        printf("\ngrowth rate: %s\n", m->growth_note);
+    if (isfinite(p->kick_amplitude_v))
+        printf("kick: %s on the probe in the dominant mode\n",
+               ru_format_si(p->kick_amplitude_v, "V", 3, a, sizeof a));
+    if (p->have_loop) {
+        if (p->loop.found)
+            printf("loop gain of %s: phase 0 at %s, |L| = %.4g (%+.2f dB): %s\n",
+                   p->loop_part, ru_format_si(p->loop.crossover_hz, "Hz", 4, a, sizeof a),
+                   p->loop.gain, p->loop.margin_db,
+                   p->loop.margin_db > 0 ? "above 1, the loop starts (Barkhausen)"
+                                         : "below 1, the loop does not start");
+        else
+            printf("loop gain of %s: the phase never passes 0 degrees in the range "
+                   "searched: no oscillation through this loop\n", p->loop_part);
+    }
+    printf("solver: %ld steps, %ld right-hand-side evaluations, %ld Jacobians, rtol %.0e, "
+           "%.3f s\n",
+           r->solver.steps, r->solver.rhs_evals, r->solver.jac_evals, r->solver.rtol,
+           r->solver.wall_s);
+    if (isfinite(r->integrator_damping_per_s))
+        printf("integrator damping (energy balance): %.3g /s\n", r->integrator_damping_per_s);
+    for (int i = 0; i < r->nnotes; i++)
+        printf("note: %s\n", r->notes[i]);
+}
+
+static void json_measured(ru_json *j, const ru_run_report *r)
+{
+    const ru_measure_result *m = &r->meas;
+    ru_json_bool(j, "started", m->started);
+    ru_json_bool(j, "settled", m->settled);
+    ru_json_number(j, "startup_time_s", m->startup_time_s);
+    ru_json_number(j, "growth_rate_per_s", m->growth_rate_per_s);
+    ru_json_number(j, "frequency_hz", m->frequency_hz);
+    ru_json_number(j, "settled_amplitude_v", m->settled_amplitude_v);
+    ru_json_number(j, "settling_time_s", m->settling_time_s);
+    ru_json_number(j, "thd_percent", m->thd_percent);
+    ru_json_begin_array(j, "harmonics_dbc");
+    for (int k = 0; k < RU_HARMONICS - 1; k++)
+        ru_json_number(j, NULL, m->harmonics_dbc[k]);
+    ru_json_end_array(j);
+    ru_json_number(j, "dc_level_v", m->dc_level_v);
+}
+
+void cli_json_run_body(ru_json *j, const ru_run_report *r)
+{
+    json_measured(j, r);
+    const ru_prediction *p = &r->pred;
+    ru_json_begin_object(j, "predicted");
+    ru_json_number(j, "growth_rate_per_s", p->growth_rate_per_s);
+    ru_json_number(j, "frequency_hz", p->frequency_hz);
+    ru_json_number(j, "startup_time_s", p->startup_time_s);
+    ru_json_number(j, "settled_amplitude_v", p->settled_amplitude_v);
+    ru_json_end_object(j);
+    ru_json_begin_object(j, "solver");
+    ru_json_int(j, "steps", r->solver.steps);
+    ru_json_int(j, "rhs_evals", r->solver.rhs_evals);
+    ru_json_number(j, "rtol", r->solver.rtol);
+    ru_json_number(j, "wall_s", r->solver.wall_s);
+    ru_json_end_object(j);
+}
+
+static void print_json(const ru_run_report *r, int partial)
+{
+    ru_json j;
+    ru_json_init(&j, stdout, 1);
+    ru_json_begin_object(&j, NULL);
+    ru_json_string(&j, "probe", r->probe);
+    ru_json_number(&j, "stop_s", r->stop_s);
+    ru_json_number(&j, "sample_s", r->sample_s);
+    cli_json_run_body(&j, r);
+    const ru_measure_result *m = &r->meas;
+    ru_json_begin_object(&j, "growth_fit");
+    ru_json_number(&j, "t_start_s", m->growth_fit_t0_s);
+    ru_json_number(&j, "t_end_s", m->growth_fit_t1_s);
+    ru_json_int(&j, "cycles", m->growth_fit_points);
+    ru_json_number(&j, "rms_residual", m->growth_fit_rms);
+    ru_json_end_object(&j);
+    if (r->pred.have_loop) {
+        ru_json_begin_object(&j, "loop");
+        ru_json_string(&j, "part", r->pred.loop_part);
+        ru_json_number(&j, "crossover_hz", r->pred.loop.found ? r->pred.loop.crossover_hz : NAN);
+        ru_json_number(&j, "gain_at_crossover", r->pred.loop.found ? r->pred.loop.gain : NAN);
+        ru_json_number(&j, "margin_db", r->pred.loop.found ? r->pred.loop.margin_db : NAN);
+        ru_json_end_object(&j);
+    }
+    ru_json_number(&j, "integrator_damping_per_s", r->integrator_damping_per_s);
+    ru_json_bool(&j, "partial", partial);
+    ru_json_number(&j, "t_reached_s", r->solver.t_reached_s);
+    ru_json_begin_array(&j, "notes");
+    for (int i = 0; i < r->nnotes; i++)
+        ru_json_string(&j, NULL, r->notes[i]);
+    ru_json_end_array(&j);
+    ru_json_end_object(&j);
+    ru_json_finish(&j);
+}
+
+static int parse_expectations(const cli_opt *opts, expectations *e)
+{
+    e->start_within_s = e->amp_lo_v = e->amp_hi_v = e->thd_below_percent = NAN;
+    if (!cli_value(opts, "expect-start-within", "s", &e->start_within_s))
+        return 0;
+    if (!cli_value(opts, "expect-thd-below", "%", &e->thd_below_percent))
+        return 0;
+    if (isfinite(e->thd_below_percent))
+        e->thd_below_percent *= 100.0; /* the parser returns a fraction for % */
+    const char *amp = cli_get(opts, "expect-amplitude");
+    if (amp) {
+        char lo[64], why[128];
+        const char *colon = strchr(amp, ':');
+        size_t n = colon ? (size_t)(colon - amp) : 0;
+        if (!colon || n >= sizeof lo) {
+            fprintf(stderr, "ringup: option --expect-amplitude wants LO:HI, e.g. 1.8V:2.2V\n");
+            return 0;
+        }
+        memcpy(lo, amp, n);
+        lo[n] = '\0';
+        if (ru_value_parse(lo, "V", &e->amp_lo_v, why, sizeof why) != RU_OK ||
+            ru_value_parse(colon + 1, "V", &e->amp_hi_v, why, sizeof why) != RU_OK ||
+            !(e->amp_lo_v <= e->amp_hi_v)) {
+            fprintf(stderr, "ringup: option --expect-amplitude: '%s' is not LO:HI volts\n", amp);
+            return 0;
+        }
+    }
+    return 1;
+}
+
+/* Prints each missed expectation to stderr; returns 1 when all are met. */
+static int check_expectations(const expectations *e, const ru_measure_result *m)
+{
+    int ok = 1;
+    char a[40], b[40];
+    if (isfinite(e->start_within_s) &&
+        !(m->started && m->startup_time_s <= e->start_within_s)) {
+        fprintf(stderr, "expectation not met: start-up within %s (got %s)\n",
+                ru_format_si(e->start_within_s, "s", 4, a, sizeof a),
+                m->started ? ru_format_si(m->startup_time_s, "s", 4, b, sizeof b) : "no start");
+        ok = 0;
+    }
+    if (isfinite(e->amp_lo_v) && !(m->settled_amplitude_v >= e->amp_lo_v &&
+                                   m->settled_amplitude_v <= e->amp_hi_v && m->started)) {
+        fprintf(stderr, "expectation not met: settled amplitude in %g V .. %g V (got %s)\n",
+                e->amp_lo_v, e->amp_hi_v,
+                ru_format_si(m->settled_amplitude_v, "V", 4, a, sizeof a));
+        ok = 0;
+    }
+    if (isfinite(e->thd_below_percent) && !(m->thd_percent < e->thd_below_percent)) {
+        fprintf(stderr, "expectation not met: THD below %g %% (got %s)\n",
+                e->thd_below_percent,
+                isfinite(m->thd_percent) ? (snprintf(a, sizeof a, "%.4g %%", m->thd_percent), a)
+                                         : "no THD: no settled tone");
+        ok = 0;
+    }
+    return ok;
+}
+
+static void verify_row(const char *label, double a, double b)
+{
+    if (isfinite(a) && isfinite(b) && a != 0)
+        printf("  %-20s moved %+.3g %%\n", label, 100 * (b - a) / fabs(a));
+    else
+        printf("  %-20s -\n", label);
+}
+
+/* Reruns at 10x tighter tolerances and prints how much each figure moved. */
+static int verify(const ru_circuit *c, const ru_run_request *rq, const ru_run_report *r)
+{
+    ru_run_request tight = *rq;
+    tight.tol_scale = rq->tol_scale * 0.1;
+    tight.out_dir = NULL;
+    tight.sample_s = r->sample_s;
+    ru_run_report *r2 = malloc(sizeof *r2);
+    ru_error err;
+    ru_error_clear(&err);
+    if (!r2)
+        return 2;
+    ru_status st = ru_analysis_run(c, &tight, r2, &err);
+    if (st != RU_OK) {
+        free(r2);
+        return cli_fail(&err);
+    }
+    printf("\nverify: rerun at 10x tighter tolerances (rtol %.0e):\n", r2->solver.rtol);
+    verify_row("start-up time", r->meas.startup_time_s, r2->meas.startup_time_s);
+    verify_row("growth rate", r->meas.growth_rate_per_s, r2->meas.growth_rate_per_s);
+    verify_row("frequency", r->meas.frequency_hz, r2->meas.frequency_hz);
+    verify_row("settled amplitude", r->meas.settled_amplitude_v, r2->meas.settled_amplitude_v);
+    verify_row("THD", r->meas.thd_percent, r2->meas.thd_percent);
+    free(r2);
+    return 0;
+}
+
+static int set_request(const cli_opt *opts, ru_run_request *rq)
+{
+    ru_run_request_default(rq);
+    rq->out_dir = cli_get(opts, "out");
+    rq->loop_part = cli_get(opts, "loop");
+    if (!cli_value(opts, "stop", "s", &rq->stop_s) || !cli_value(opts, "sample", "s", &rq->sample_s))
+        return 0;
+    if (cli_get(opts, "stop") && !(rq->stop_s > 0)) {
+        fprintf(stderr, "ringup: option --stop must be positive\n");
+        return 0;
+    }
+    if (cli_get(opts, "sample") && !(rq->sample_s > 0)) {
+        fprintf(stderr, "ringup: option --sample must be positive\n");
+        return 0;
+    }
+    const char *acc = cli_get(opts, "accuracy");
+    if (acc) {
+        static const char *const names[] = {"draft", "normal", "precise"};
+        rq->accuracy = -1;
+        for (int i = 0; i < 3; i++)
+            if (!strcmp(acc, names[i]))
+                rq->accuracy = i;
+        if (rq->accuracy < 0) {
+            fprintf(stderr, "ringup: option --accuracy takes draft, normal or precise\n");
+            return 0;
+        }
+    }
+    return 1;
+}
+
+int cmd_run(int argc, char **argv)
+{
+    cli_opt opts[] = {
+        {"out", "DIR", "write DIR/wave.csv (every node voltage and inductor current)", NULL},
+        {"stop", "T", "run length, e.g. 20m (default: the file's run.stop)", NULL},
+        {"sample", "T", "output spacing (default: 72 samples per predicted period)", NULL},
+        {"accuracy", "LEVEL", "draft, normal or precise (default: the file's)", NULL},
+        {"loop", "PART", "amplifier whose loop gain is reported", NULL},
+        {"verify", NULL, "rerun at 10x tighter tolerances and show what moved", NULL},
+        {"expect-start-within", "T", "exit 4 unless it starts within T", NULL},
+        {"expect-amplitude", "LO:HI", "exit 4 unless the settled amplitude is in LO..HI", NULL},
+        {"expect-thd-below", "P", "exit 4 unless THD is below P (e.g. 1%)", NULL},
+        {"json", NULL, "print JSON on stdout (keys in README)", NULL},
+        {NULL, NULL, NULL, NULL}};
+    const char *file;
+    int rc = cli_parse(argc, argv, "ringup run FILE [options]",
+                       "Simulates the circuit from power-on (or its kick) with a stiff BDF "
+                       "solver, measures\nstart-up time, growth rate, frequency, settled "
+                       "amplitude and THD on the probe, and\ncompares them with the "
+                       "small-signal prediction from the poles and the loop gain.",
+                       opts, &file);
+    if (rc >= 0)
+        return rc;
+    ru_run_request rq;
+    expectations ex;
+    if (!set_request(opts, &rq) || !parse_expectations(opts, &ex))
+        return 1;
+    int json = cli_get(opts, "json") != NULL;
+    ru_circuit *c = NULL;
+    if ((rc = cli_load(file, 0, &c)) != 0)
+        return rc;
+    if (rq.out_dir && (rc = cli_make_dir(rq.out_dir)) != 0)
+        goto done;
+    ru_run_report *r = calloc(1, sizeof *r);
+    ru_error err;
+    ru_error_clear(&err);
+    ru_status st = r ? ru_analysis_run(c, &rq, r, &err) : RU_ENOMEM;
+    if (st != RU_OK && st != RU_ENUMERIC) {
+        rc = cli_fail(&err);
+        free(r);
+        goto done;
+    }
+    int auto_sample = !(rq.sample_s > 0) && !(ru_circuit_run_opts_const(c)->sample_s > 0);
+    if (json)
+        print_json(r, st == RU_ENUMERIC);
+    else
+        print_text(c, r, auto_sample);
+    if (st == RU_ENUMERIC) {
+        char a[40];
+        fprintf(stderr, "%s\nthe figures above cover the run up to t = %s%s\n", err.msg,
+                ru_format_si(r->solver.t_reached_s, "s", 4, a, sizeof a),
+                rq.out_dir ? "; wave.csv holds the samples up to there" : "");
+        rc = 2;
+    } else if (!json && rq.out_dir) {
+        printf("wrote %s/wave.csv\n", rq.out_dir);
+    }
+    if (rc == 0 && cli_get(opts, "verify") && !json)
+        rc = verify(c, &rq, r);
+    if (rc == 0 && !check_expectations(&ex, &r->meas))
+        rc = 4;
+    free(r);
+done:
+    ru_circuit_destroy(c);
+    return rc;
+}

@@ -1,0 +1,243 @@
+/* predict.c: the small-signal side of a run and the self-checks.
+ *
+ * Before the transient: operating point, poles, the dominant pair, the size of the
+ * kick as seen by the dominant mode on the probe (modal projection with left and
+ * right eigenvectors), and the loop gain. After it: the predicted start-up time and
+ * the comparison of measured against predicted figures. */
+#include "analysis_impl.h"
+
+#include "ringup/smallsig.h"
+
+#include <lapacke.h>
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+/* J = M^{-1} dr/dx at the DC operating point x (row-major n*n). */
+static ru_status dc_jacobian(const ru_system *s, const double *x, double *J)
+{
+    size_t n = ru_system_size(s);
+    ru_eval_point ep = {.t_s = 0, .dc = 1, .source_scale = 1};
+    double *M = malloc(n * n * sizeof *M);
+    lapack_int *piv = malloc(n * sizeof *piv);
+    ru_status st = (M && piv) ? RU_OK : RU_ENOMEM;
+    if (st == RU_OK)
+        st = ru_system_residual(s, &ep, x, NULL, J);
+    if (st == RU_OK) {
+        ru_system_mass(s, M);
+        if (LAPACKE_dgesv(LAPACK_ROW_MAJOR, (lapack_int)n, (lapack_int)n, M,
+                          (lapack_int)n, piv, J, (lapack_int)n) != 0)
+            st = RU_ENUMERIC;
+    }
+    free(M);
+    free(piv);
+    return st;
+}
+
+/* Amplitude on the probe of the dominant mode excited by dx: 2 |c| |v_probe| with
+ * c = u^H dx / (u^H v) for the right (v) and left (u) eigenvectors of lambda. */
+static double modal_amplitude(const ru_system *s, const double *x_op, const double *dx,
+                              ru_pole dom, int kpos, int kneg)
+{
+    size_t n = ru_system_size(s);
+    double amp = NAN;
+    double *J = malloc(n * n * sizeof *J), *vl = malloc(n * n * sizeof *vl);
+    double *vr = malloc(n * n * sizeof *vr), *wr = malloc(n * sizeof *wr);
+    double *wi = malloc(n * sizeof *wi);
+    if (!J || !vl || !vr || !wr || !wi || dc_jacobian(s, x_op, J) != RU_OK)
+        goto done;
+    if (LAPACKE_dgeev(LAPACK_ROW_MAJOR, 'V', 'V', (lapack_int)n, J, (lapack_int)n, wr, wi,
+                      vl, (lapack_int)n, vr, (lapack_int)n) != 0)
+        goto done;
+    size_t best = n;
+    double bestd = INFINITY;
+    for (size_t j = 0; j + 1 < n; j++) {
+        if (wi[j] <= 0)
+            continue;
+        double d = hypot(wr[j] - dom.re_per_s, wi[j] - dom.im_rad_per_s);
+        if (d < bestd) {
+            bestd = d;
+            best = j;
+        }
+    }
+    if (best == n)
+        goto done;
+    /* v = VR[:,j] + i VR[:,j+1]; u likewise from VL. */
+    double uh_dx_re = 0, uh_dx_im = 0, uh_v_re = 0, uh_v_im = 0;
+    for (size_t i = 0; i < n; i++) {
+        double ur = vl[i * n + best], ui = vl[i * n + best + 1];
+        double vrr = vr[i * n + best], vri = vr[i * n + best + 1];
+        uh_dx_re += ur * dx[i];
+        uh_dx_im += -ui * dx[i];
+        uh_v_re += ur * vrr + ui * vri;   /* conj(u) * v */
+        uh_v_im += ur * vri - ui * vrr;
+    }
+    double den = uh_v_re * uh_v_re + uh_v_im * uh_v_im;
+    if (!(den > 0))
+        goto done;
+    double c_abs = hypot(uh_dx_re, uh_dx_im) / sqrt(den);
+    double pr = 0, pi = 0;
+    if (kpos >= 0) {
+        pr += vr[kpos * n + best];
+        pi += vr[kpos * n + best + 1];
+    }
+    if (kneg >= 0) {
+        pr -= vr[kneg * n + best];
+        pi -= vr[kneg * n + best + 1];
+    }
+    amp = 2.0 * c_abs * hypot(pr, pi);
+done:
+    free(J);
+    free(vl);
+    free(vr);
+    free(wr);
+    free(wi);
+    return amp;
+}
+
+static void predict_poles(const ru_system *s, const double *x_op, int pos, int neg,
+                          ru_run_report *rep)
+{
+    size_t n = ru_system_size(s);
+    ru_prediction *pr = &rep->pred;
+    ru_pole *poles = malloc(n * sizeof *poles);
+    double *x0 = malloc(n * sizeof *x0);
+    ru_error e;
+    ru_error_clear(&e);
+    if (!poles || !x0)
+        goto done;
+    if (ru_poles_compute(s, x_op, poles, &e) != RU_OK) {
+        ru_report_note(rep, "poles not computed: %s", e.msg);
+        goto done;
+    }
+    int d = ru_poles_dominant(poles, n);
+    if (d < 0) {
+        ru_report_note(rep, "no complex pole pair at the operating point: the "
+                            "small-signal model has no oscillation to predict");
+        goto done;
+    }
+    pr->have_poles = 1;
+    pr->dominant = poles[d];
+    pr->growth_rate_per_s = poles[d].re_per_s;
+    pr->frequency_hz = poles[d].im_rad_per_s / (2 * M_PI);
+    if (ru_system_initial_state(s, x0, NULL) == RU_OK) {
+        for (size_t i = 0; i < n; i++)
+            x0[i] -= x_op[i];
+        pr->kick_amplitude_v =
+            modal_amplitude(s, x_op, x0, poles[d], ru_system_node_state(s, pos),
+                            neg > 0 ? ru_system_node_state(s, neg) : -1);
+    }
+done:
+    free(poles);
+    free(x0);
+}
+
+static ru_status predict_loop(const ru_circuit *c, const ru_system *s, const char *loop,
+                              const double *x_op, ru_run_report *rep, ru_error *err)
+{
+    int part = ru_circuit_find_part(c, loop);
+    if (part < 0 || ru_circuit_part(c, (size_t)part)->type != RU_PART_AMPLIFIER)
+        return ru_error_set(err, RU_EINPUT, ru_circuit_file(c), 0, 0,
+                            "loop part %s is not an amplifier of this circuit", loop);
+    ru_prediction *pr = &rep->pred;
+    double f0 = pr->have_poles ? pr->frequency_hz : 0;
+    double fmin = f0 > 0 ? f0 / 30 : 1.0, fmax = f0 > 0 ? f0 * 30 : 1e9;
+    ru_error e;
+    ru_error_clear(&e);
+    snprintf(pr->loop_part, sizeof pr->loop_part, "%s", loop);
+    if (ru_loopgain_sweep(s, part, x_op, fmin, fmax, 601, NULL, NULL, NULL, &pr->loop,
+                          &e) != RU_OK) {
+        ru_report_note(rep, "loop gain of %s not evaluated: %s", loop, e.msg);
+        return RU_OK;
+    }
+    pr->have_loop = 1;
+    return RU_OK;
+}
+
+ru_status ru_predict(const ru_circuit *c, const ru_system *s, const char *loop_part,
+                     int probe_pos, int probe_neg, ru_run_report *rep, ru_error *err)
+{
+    ru_prediction *pr = &rep->pred;
+    pr->growth_rate_per_s = pr->frequency_hz = NAN;
+    pr->kick_amplitude_v = pr->startup_time_s = pr->settled_amplitude_v = NAN;
+    int floating;
+    if (ru_circuit_find_floating_node(c, &floating)) {
+        ru_report_note(rep, "no prediction: node %s has no DC path to ground, so there "
+                            "is no operating point",
+                       ru_circuit_node_name(c, floating));
+        return RU_OK;
+    }
+    size_t n = ru_system_size(s);
+    double *x_op = calloc(n ? n : 1, sizeof *x_op);
+    if (!x_op)
+        return ru_error_set(err, RU_ENOMEM, NULL, 0, 0, "out of memory");
+    ru_error e;
+    ru_error_clear(&e);
+    ru_status st = RU_OK;
+    if (ru_oppoint_solve(s, x_op, 0, &pr->op, &e) != RU_OK) {
+        ru_report_note(rep, "no prediction: operating point not found: %s", e.msg);
+        goto done;
+    }
+    pr->have_op = 1;
+    predict_poles(s, x_op, probe_pos, probe_neg, rep);
+    if (loop_part && loop_part[0])
+        st = predict_loop(c, s, loop_part, x_op, rep, err);
+done:
+    free(x_op);
+    return st;
+}
+
+/* Start-up time of an envelope that grows as exp(sigma t) at first and levels off
+ * like the averaged van der Pol envelope a^2 = A^2 / (1 + (A^2/a0^2 - 1) e^{-2 sigma t}):
+ * t = ln((A^2/a0^2 - 1) / (1/level^2 - 1)) / (2 sigma). Exact for a cubic limiter
+ * (van der Pol, method of averaging); a model for other laws. */
+static double startup_model(double sigma, double a0, double amp, double level)
+{
+    if (!(sigma > 0) || !(a0 > 0) || !(amp > a0) || !(level > 0 && level < 1))
+        return NAN;
+    double r = amp * amp / (a0 * a0) - 1.0;
+    return log(r / (1.0 / (level * level) - 1.0)) / (2.0 * sigma);
+}
+
+void ru_selfcheck(ru_run_report *rep)
+{
+    const ru_measure_result *m = &rep->meas;
+    ru_prediction *pr = &rep->pred;
+    double amp = isfinite(pr->settled_amplitude_v) ? pr->settled_amplitude_v
+                                                   : m->settled_amplitude_v;
+    if (pr->have_poles && pr->kick_amplitude_v < 0.1 * amp)
+        pr->startup_time_s = startup_model(pr->growth_rate_per_s, pr->kick_amplitude_v,
+                                           amp, rep->startup_level);
+    else if (pr->have_poles && isfinite(amp))
+        ru_report_note(rep, "no start-up prediction: the kick (%.3g V in the dominant "
+                            "mode) is not small against the settled amplitude, so the "
+                            "start is not a small-signal growth",
+                       pr->kick_amplitude_v);
+    if (pr->have_poles && isfinite(m->growth_rate_per_s) && pr->growth_rate_per_s != 0) {
+        rep->growth_mismatch =
+            (m->growth_rate_per_s - pr->growth_rate_per_s) / fabs(pr->growth_rate_per_s);
+        if (fabs(rep->growth_mismatch) > 0.02)
+            ru_report_note(rep,
+                           "measured growth rate differs from the poles' by %+.1f %%: "
+                           "the operating point may still move during start-up (bias "
+                           "settling after power-on), the fit window may reach into the "
+                           "nonlinear region, or the kick is large; try --verify",
+                           100 * rep->growth_mismatch);
+    }
+    if (pr->have_poles && pr->growth_rate_per_s > 0 && !m->started)
+        ru_report_note(rep, "the poles say it grows (%.4g /s) but the run shows no "
+                            "start: run longer (the growth needs about %.3g s per "
+                            "decade)",
+                       pr->growth_rate_per_s, log(10.0) / pr->growth_rate_per_s);
+    if (pr->have_poles && pr->growth_rate_per_s < 0 && m->started)
+        ru_report_note(rep, "the poles are in the left half-plane yet the run started: "
+                            "a large kick can start a hard-excited oscillator");
+    if (m->started && !m->settled && m->settle_note[0])
+        ru_report_note(rep, "%s", m->settle_note);
+    double sn = rep->integrator_damping_per_s, sg = m->growth_rate_per_s;
+    if (isfinite(sn) && isfinite(sg) && fabs(sn) > 0.01 * fabs(sg))
+        ru_report_note(rep, "the integrator's own damping (%.3g /s) is %.1f %% of the "
+                            "growth rate: use accuracy precise or --verify",
+                       sn, 100 * fabs(sn / sg));
+}
