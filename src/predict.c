@@ -202,6 +202,11 @@ static double startup_model(double sigma, double a0, double amp, double level)
 
 void ru_selfcheck(ru_run_report *rep)
 {
+    if (rep->partial) {
+        ru_report_note(rep, "the run stopped early, so its figures cover only the part "
+                            "that was computed; no comparison with the prediction");
+        return;
+    }
     const ru_measure_result *m = &rep->meas;
     ru_prediction *pr = &rep->pred;
     double amp = isfinite(pr->settled_amplitude_v) ? pr->settled_amplitude_v

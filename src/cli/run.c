@@ -349,17 +349,19 @@ int cmd_run(int argc, char **argv)
         goto done;
     }
     int auto_sample = !(rq.sample_s > 0) && !(ru_circuit_run_opts_const(c)->sample_s > 0);
+    if (st == RU_ENUMERIC) {
+        char a[40];
+        fprintf(stderr, "%s\nthe figures below cover the run up to t = %s%s\n", err.msg,
+                ru_format_si(r->solver.t_reached_s, "s", 4, a, sizeof a),
+                rq.out_dir ? "; wave.csv holds the samples up to there" : "");
+        fflush(stderr);
+        rc = 2;
+    }
     if (json)
         print_json(r, st == RU_ENUMERIC);
     else
         print_text(c, r, auto_sample);
-    if (st == RU_ENUMERIC) {
-        char a[40];
-        fprintf(stderr, "%s\nthe figures above cover the run up to t = %s%s\n", err.msg,
-                ru_format_si(r->solver.t_reached_s, "s", 4, a, sizeof a),
-                rq.out_dir ? "; wave.csv holds the samples up to there" : "");
-        rc = 2;
-    } else if (!json && rq.out_dir) {
+    if (st == RU_OK && !json && rq.out_dir) {
         printf("wrote %s/wave.csv\n", rq.out_dir);
     }
     if (rc == 0 && cli_get(opts, "verify") && !json)
