@@ -1,0 +1,107 @@
+#!/usr/bin/env bash
+# cli_exit.sh: the command line's promises: exit statuses (0 done, 1 bad input,
+# 2 numerical failure, 3 file I/O, 4 expectation not met), FILE:LINE:COL messages,
+# JSON on stdout only, files written whole or not at all.
+# Usage: cli_exit.sh RINGUP_BINARY SOURCE_DIR
+set -u
+ru=$1
+src=$2
+tmp=$(mktemp -d)
+trap 'rm -rf "$tmp"' EXIT
+fails=0
+passes=0
+
+check() { # check NAME WANT_STATUS GOT_STATUS
+    if [ "$2" = "$3" ]; then
+        passes=$((passes + 1))
+    else
+        echo "FAIL: $1: exit status $3, want $2"
+        fails=$((fails + 1))
+    fi
+}
+
+grepcheck() { # grepcheck NAME PATTERN FILE
+    if grep -Eq -- "$2" "$3"; then
+        passes=$((passes + 1))
+    else
+        echo "FAIL: $1: no match for '$2' in:"
+        cat "$3"
+        fails=$((fails + 1))
+    fi
+}
+
+vdp=$src/examples/vdp-tank.yaml
+
+"$ru" --version >"$tmp/out" 2>&1
+check "--version" 0 $?
+"$ru" frobnicate >"$tmp/out" 2>&1
+check "unknown command" 1 $?
+"$ru" run "$vdp" --frobnicate >"$tmp/out" 2>&1
+check "unknown option" 1 $?
+
+# A bad value: the message names the file, line and column of the value.
+printf 'parts:\n  C1: {type: capacitor, nodes: [a, gnd], value: 15nH}\n' >"$tmp/bad.yaml"
+"$ru" check "$tmp/bad.yaml" >"$tmp/out" 2>"$tmp/err"
+check "wrong unit" 1 $?
+grepcheck "wrong unit place" "bad.yaml:2:[0-9]+: .*C1.*unit H" "$tmp/err"
+
+# YAML syntax error.
+printf 'parts:\n  C1: {type: capacitor, nodes: [a, gnd\n' >"$tmp/syntax.yaml"
+"$ru" run "$tmp/syntax.yaml" >"$tmp/out" 2>"$tmp/err"
+check "syntax error" 1 $?
+grepcheck "syntax error place" "syntax.yaml:[0-9]+:[0-9]+:" "$tmp/err"
+
+# A file that is not there is a file I/O error.
+"$ru" run "$tmp/missing.yaml" >"$tmp/out" 2>"$tmp/err"
+check "missing file" 3 $?
+
+# An output folder that cannot be made: a plain file stands in its way.
+touch "$tmp/plain"
+"$ru" run "$vdp" --out "$tmp/plain/sub" >"$tmp/out" 2>"$tmp/err"
+check "unwritable folder" 3 $?
+
+# Done, with a whole CSV and no temporary file left behind.
+"$ru" run "$vdp" --out "$tmp/o" >"$tmp/out" 2>"$tmp/err"
+check "run" 0 $?
+grepcheck "csv header" "^time_s,tank,i\(L1\)$" <(head -1 "$tmp/o/wave.csv")
+left=$(ls "$tmp/o" | grep -vc '^wave.csv$')
+check "no temporary file" 0 "$left"
+
+# Expectations: met -> 0, missed -> 4 (van der Pol tank: 2 V, starts in ~3.4 ms).
+"$ru" run "$vdp" --expect-start-within 10m --expect-amplitude 1.9V:2.1V \
+    --expect-thd-below 5% >"$tmp/out" 2>"$tmp/err"
+check "expectations met" 0 $?
+"$ru" run "$vdp" --expect-start-within 1m >"$tmp/out" 2>"$tmp/err"
+check "start too slow" 4 $?
+grepcheck "start too slow message" "expectation not met: start-up within" "$tmp/err"
+"$ru" run "$vdp" --expect-thd-below 0.1% >"$tmp/out" 2>"$tmp/err"
+check "THD too high" 4 $?
+
+# A numerical failure (a cubic that drives the tank to infinity): exit 2, the time
+# reached, and the samples computed so far kept.
+cat >"$tmp/blow.yaml" <<'YAML'
+parts:
+  L1: {type: inductor, nodes: [t, gnd], value: 1mH}
+  C1: {type: capacitor, nodes: [t, gnd], value: 1u}
+  G1: {type: poly-conductance, nodes: [t, gnd], coeffs: [0, -1m, 0, -1m]}
+run: {stop: 40m, kick: {preset: {t: 1}}}
+YAML
+"$ru" run "$tmp/blow.yaml" --out "$tmp/ob" >"$tmp/out" 2>"$tmp/err"
+check "numerical failure" 2 $?
+grepcheck "failure time" "solver failed at t = " "$tmp/err"
+rows=$(wc -l <"$tmp/ob/wave.csv")
+[ "$rows" -gt 10 ] && passes=$((passes + 1)) || { echo "FAIL: partial csv has $rows lines"; fails=$((fails + 1)); }
+
+# JSON: stdout holds one JSON document and nothing else.
+if [ -x /usr/bin/python3 ]; then
+    for cmd in "run $vdp" "poles $vdp" "check $vdp" \
+               "response $src/examples/follower-colpitts.yaml --from tap --to top"; do
+        "$ru" $cmd --json >"$tmp/j" 2>/dev/null
+        check "json status: $cmd" 0 $?
+        /usr/bin/python3 -c 'import json,sys; json.load(open(sys.argv[1]))' "$tmp/j"
+        check "json parses: $cmd" 0 $?
+    done
+fi
+
+echo "$passes passed, $fails failed"
+[ "$fails" -eq 0 ]
