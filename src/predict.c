@@ -7,6 +7,7 @@
 #include "analysis_impl.h"
 
 #include "ringup/smallsig.h"
+#include "smallsig_impl.h"
 
 #include <lapacke.h>
 #include <math.h>
@@ -18,18 +19,12 @@
 static ru_status dc_jacobian(const ru_system *s, const double *x, double *J)
 {
     size_t n = ru_system_size(s);
-    ru_eval_point ep = {.t_s = 0, .dc = 1, .source_scale = 1};
     double *M = malloc(n * n * sizeof *M);
     lapack_int *piv = malloc(n * sizeof *piv);
-    ru_status st = (M && piv) ? RU_OK : RU_ENOMEM;
-    if (st == RU_OK)
-        st = ru_system_residual(s, &ep, x, NULL, J);
-    if (st == RU_OK) {
-        ru_system_mass(s, M);
-        if (LAPACKE_dgesv(LAPACK_ROW_MAJOR, (lapack_int)n, (lapack_int)n, M,
-                          (lapack_int)n, piv, J, (lapack_int)n) != 0)
-            st = RU_ENUMERIC;
-    }
+    ru_status st = (M && piv) ? ru_ss_linearize(s, x, J, M, NULL) : RU_ENOMEM;
+    if (st == RU_OK && LAPACKE_dgesv(LAPACK_ROW_MAJOR, (lapack_int)n, (lapack_int)n, M,
+                                     (lapack_int)n, piv, J, (lapack_int)n) != 0)
+        st = RU_ENUMERIC;
     free(M);
     free(piv);
     return st;

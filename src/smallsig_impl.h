@@ -26,10 +26,4 @@ ru_status ru_oppoint_solve_ex(const ru_system *s, double *x, int use_guess,
                               int force_stepping, ru_oppoint_stats *stats,
                               ru_error *err);
 
-/* Largest |v(out)/v(in)| over [fmin_hz, fmax_hz]: a log-spaced scan of npts points
- * (>= 3), then golden-section refinement in log f around the best point. */
-ru_status ru_response_peak(const ru_system *s, const double *x, int node_in,
-                           int node_out, double fmin_hz, double fmax_hz, size_t npts,
-                           double *f_peak_hz, double *mag_peak, ru_error *err);
-
 #endif

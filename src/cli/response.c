@@ -15,7 +15,9 @@
 typedef struct resp_data {
     size_t npts;
     double *f_hz, *mag, *phase_deg;
-    size_t peak;        /* index of the largest magnitude */
+    double peak_f_hz;   /* the peak refined between grid points */
+    double peak_mag;
+    double peak_phase_deg;
     double f0_hz;       /* a zero-phase crossing (NAN: none), linear interpolation */
     double mag0;        /* magnitude there */
 } resp_data;
@@ -52,7 +54,6 @@ static ru_status sweep(const ru_system *s, const double *x, int in, int out, dou
                        double fmax, resp_data *d, ru_error *err)
 {
     d->f0_hz = d->mag0 = NAN;
-    d->peak = 0;
     for (size_t i = 0; i < d->npts; i++) {
         double u = d->npts > 1 ? (double)i / (double)(d->npts - 1) : 0;
         d->f_hz[i] = fmin * pow(fmax / fmin, u);
@@ -60,8 +61,6 @@ static ru_status sweep(const ru_system *s, const double *x, int in, int out, dou
                                       &d->phase_deg[i], err);
         if (st != RU_OK)
             return st;
-        if (d->mag[i] > d->mag[d->peak])
-            d->peak = i;
         if (i > 0 && !isfinite(d->f0_hz)) {
             double p0 = d->phase_deg[i - 1], p1 = d->phase_deg[i];
             if ((p0 <= 0 && p1 > 0) || (p0 >= 0 && p1 < 0)) {
@@ -88,12 +87,12 @@ static void print_text(const ru_circuit *c, const char *from, const char *to,
         printf("  %-14s %-12.5g %+-10.2f %+7.2f deg\n",
                ru_format_si(d->f_hz[i], "Hz", 4, a, sizeof a), d->mag[i],
                20 * log10(d->mag[i]), d->phase_deg[i]);
-    printf("\npeak: gain %.5g (%+.2f dB) at %s, phase %+.2f deg\n", d->mag[d->peak],
-           20 * log10(d->mag[d->peak]), ru_format_si(d->f_hz[d->peak], "Hz", 4, a, sizeof a),
-           d->phase_deg[d->peak]);
-    if (d->mag[d->peak] > 1)
+    printf("\npeak: gain %.5g (%+.2f dB) at %s, phase %+.2f deg\n", d->peak_mag,
+           20 * log10(d->peak_mag), ru_format_si(d->peak_f_hz, "Hz", 5, a, sizeof a),
+           d->peak_phase_deg);
+    if (d->peak_mag > 1)
         printf("VOLTAGE GAIN ABOVE ONE: this network steps the voltage up by %.4g at its "
-               "peak\n", d->mag[d->peak]);
+               "peak\n", d->peak_mag);
     else
         printf("the gain stays below one at every frequency swept\n");
     if (isfinite(d->f0_hz))
@@ -117,14 +116,15 @@ static void print_json(const resp_data *d)
     }
     ru_json_end_array(&j);
     ru_json_begin_object(&j, "peak");
-    ru_json_number(&j, "f_hz", d->f_hz[d->peak]);
-    ru_json_number(&j, "mag", d->mag[d->peak]);
+    ru_json_number(&j, "f_hz", d->peak_f_hz);
+    ru_json_number(&j, "mag", d->peak_mag);
+    ru_json_number(&j, "phase_deg", d->peak_phase_deg);
     ru_json_end_object(&j);
     ru_json_begin_object(&j, "zero_phase");
     ru_json_number(&j, "f_hz", d->f0_hz);
     ru_json_number(&j, "mag", d->mag0);
     ru_json_end_object(&j);
-    ru_json_bool(&j, "gain_above_one", d->mag[d->peak] > 1);
+    ru_json_bool(&j, "gain_above_one", d->peak_mag > 1);
     ru_json_end_object(&j);
     ru_json_finish(&j);
 }
@@ -223,10 +223,14 @@ int cmd_response(int argc, char **argv)
         rc = 1;
         goto done;
     }
-    if (sweep(s, x, in, out, fmin, fmax, &d, &err) != RU_OK) {
+    if (sweep(s, x, in, out, fmin, fmax, &d, &err) != RU_OK ||
+        ru_response_peak(s, x, in, out, fmin, fmax, d.npts, &d.peak_f_hz, &d.peak_mag,
+                         &err) != RU_OK) {
         rc = cli_fail(&err);
         goto done;
     }
+    double pm;
+    ru_response_at(s, x, in, out, d.peak_f_hz, &pm, &d.peak_phase_deg, NULL);
     if (cli_get(opts, "json"))
         print_json(&d);
     else
