@@ -1,12 +1,32 @@
 /* envelope.c: streaming envelope of a sampled oscillation, one point per cycle.
  *
- * Extrema are found by following the sign of the waveform's movement with
- * hysteresis: a maximum is confirmed once the signal has fallen from it by more than
- * RU_ENV_HYST of the swing since the previous minimum (and by more than floor_v), and
- * likewise for minima. This ignores a slowly moving DC level and noise well below
- * the swing. Each confirmed extreme sample is refined by the parabola through it and
- * its two neighbours. A maximum and the minimum that follows it give one envelope
- * point: amplitude (max - min)/2 at the time midway between them.
+ * The signal may ride on a moving DC level (a bias still settling after power-on).
+ * Extrema are sought in d(t) = v(t) - slope * t, where slope is the DC slope read
+ * from the midpoints of the last four confirmed extrema: the midpoint of a maximum
+ * and the next minimum (and of a minimum and the next maximum) lies on the DC line
+ * for a sine plus a linear ramp, wherever on the cycle the two extrema sit, so the
+ * slope from two midpoints one period apart is exact for a linear ramp and constant
+ * amplitude (a growing amplitude adds ~A sigma^2 T/4, negligible next to A omega).
+ * Until four extrema exist the slope is 0; the points made before are dropped then
+ * if the slope found says the ramp made more than 1 % of them (drop_early).
+ * A candidate extremum is the most extreme d since the last confirmed opposite one;
+ * it is confirmed when
+ *   - no period hint: d has come back from it by more than RU_ENV_HYST of the swing
+ *     since the previous extremum (in d, so once the slope is known the swing is the
+ *     oscillation's, not the DC drift's) and by more than floor_v;
+ *   - with a period hint P: no later sample has passed it for RU_ENV_HOLD * P and d
+ *     has come back from it by more than floor_v and, once the slope is known, by
+ *     RU_ENV_HYST of the swing. The hold stays below the half period for a true
+ *     period down to 0.6 P, and before the slope is known a raw extremum on a ramp
+ *     holds >= 0.3 T while the ramp is below 0.8 of the oscillation's peak slope
+ *     A omega (sine plus ramp, computed numerically), so the first cycles are found
+ *     as soon as the oscillation reaches ~1.25x the level where extrema exist.
+ * The first sample is never an extremum (nothing before it is known).
+ * Each confirmed extremum is refined by the parabola through its sample and its two
+ * neighbours (detrended). A maximum and the minimum that follows it give one envelope
+ * point at the midway time, amplitude = (dmax - dmin)/2 with the current slope:
+ * the ramp's own share slope*(tmin - tmax)/2 (raw bias of about slope*T/4) is
+ * removed, up to the slope estimate's error times T/4.
  * Invariant: memory is O(envelope points); no sample is stored. */
 #include "measure_impl.h"
 
@@ -14,12 +34,13 @@
 #include <stdlib.h>
 #include <string.h>
 
-void ru_envelope_init(ru_envelope *e, double floor_v)
+void ru_envelope_init(ru_envelope *e, double floor_v, double period_s)
 {
     memset(e, 0, sizeof *e);
     e->hi.sign = 1;
     e->lo.sign = -1;
     e->floor_v = floor_v > 0.0 ? floor_v : 0.0;
+    e->period_s = period_s > 0.0 && isfinite(period_s) ? period_s : 0.0;
 }
 
 void ru_envelope_free(ru_envelope *e)
@@ -56,15 +77,22 @@ static void ext_fill_next(ru_ext *x, uint64_t idx, double v)
     }
 }
 
-/* Vertex of the parabola through (prev, v, next); the raw sample without both
- * neighbours or when the three are collinear. */
-static void ext_refine(const ru_ext *x, double *t_s, double *v)
+/* Detrended value of a sample. */
+static double det(const ru_envelope *e, double t_s, double v)
+{
+    return v - e->slope_v_s * t_s;
+}
+
+/* Vertex of the parabola through the detrended (prev, v, next), returned with the
+ * DC put back; the raw sample without both neighbours or when they are collinear. */
+static void ext_refine(const ru_envelope *e, const ru_ext *x, double *t_s, double *v)
 {
     *t_s = x->t_s;
     *v = x->v;
     if (!x->has_prev || !x->has_next)
         return;
-    double a = x->vprev, b = x->v, c = x->vnext;
+    double sl = e->slope_v_s * x->dt_s;
+    double a = x->vprev + sl, b = x->v, c = x->vnext - sl; /* + const offset */
     double den = a - 2.0 * b + c;
     if (den == 0.0)
         return;
@@ -73,26 +101,32 @@ static void ext_refine(const ru_ext *x, double *t_s, double *v)
         p = 0.5;
     if (p < -0.5)
         p = -0.5;
-    *v = b - 0.25 * (a - c) * p;
+    /* detrended vertex b - (a - c) p / 4, then the ramp over p samples put back */
+    *v = b - 0.25 * (a - c) * p + p * sl;
     *t_s = x->t_s + p * x->dt_s;
 }
 
 /* Updates a seeker with the sample; returns how far (>= 0, in the sought direction)
- * the sample lies behind the candidate. */
-static double seek_update(ru_seek *s, uint64_t idx, double t_s, double v,
-                          double tlast_s, double vlast)
+ * the detrended sample lies behind the candidate. */
+static double seek_update(const ru_envelope *e, ru_seek *s, uint64_t idx, double t_s,
+                          double v, double tlast_s, double vlast)
 {
     ext_fill_next(&s->cand, idx, v);
     ext_fill_next(&s->sub, idx, v);
-    double sg = (double)s->sign;
-    if (!s->cand.ok || sg * v > sg * s->cand.v) {
+    double sg = (double)s->sign, d = det(e, t_s, v);
+    double dc = s->cand.ok ? det(e, s->cand.t_s, s->cand.v) : 0.0;
+    if (!s->cand.ok || sg * d > sg * dc) {
+        if (s->sub.ok)
+            s->rise_v = sg * (d - det(e, s->sub.t_s, s->sub.v));
+        else if (s->cand.ok)
+            s->rise_v += sg * (d - dc);
         s->cand = ext_new(idx, t_s, v, tlast_s, vlast);
         s->sub.ok = 0;
         return 0.0;
     }
-    if (!s->sub.ok || sg * v < sg * s->sub.v)
+    if (!s->sub.ok || sg * d < sg * det(e, s->sub.t_s, s->sub.v))
         s->sub = ext_new(idx, t_s, v, tlast_s, vlast);
-    return sg * (s->cand.v - v);
+    return sg * (dc - d);
 }
 
 static ru_status env_append(ru_envelope *e, double t_s, double a_v)
@@ -115,12 +149,52 @@ static ru_status env_append(ru_envelope *e, double t_s, double a_v)
     return RU_OK;
 }
 
+/* Once the slope is first known: the (at most two) points whose extrema were
+ * located with a slope of 0 are dropped when the ramp's share in them, slope * half period / 2,
+ * exceeds RU_ENV_EARLY_SHARE of their amplitude (they read the ramp, not the
+ * oscillation); on a level DC they stay. */
+static void drop_early(ru_envelope *e)
+{
+    double half_s = (e->ext_t[3] - e->ext_t[0]) / 3.0;
+    double share_v = 0.5 * fabs(e->slope_v_s) * half_s;
+    size_t keep = 0;
+    for (size_t i = 0; i < e->n_env; i++) {
+        if (share_v <= RU_ENV_EARLY_SHARE * e->env_a[i]) {
+            e->env_t[keep] = e->env_t[i];
+            e->env_a[keep] = e->env_a[i];
+            keep++;
+        }
+    }
+    e->n_env = keep;
+}
+
+/* Keeps the last four extrema and, once there are four, re-reads the DC slope from
+ * the midpoints of the first and the last pair (one period apart). */
+static void ext_record(ru_envelope *e, double t_s, double v)
+{
+    if (e->n_ext >= 4) {
+        memmove(e->ext_t, e->ext_t + 1, 3 * sizeof *e->ext_t);
+        memmove(e->ext_v, e->ext_v + 1, 3 * sizeof *e->ext_v);
+    }
+    size_t k = e->n_ext < 4 ? e->n_ext : 3;
+    e->ext_t[k] = t_s;
+    e->ext_v[k] = v;
+    e->n_ext++;
+    if (e->n_ext < RU_ENV_SLOPE_EXT)
+        return;
+    double ta = 0.5 * (e->ext_t[0] + e->ext_t[1]), va = 0.5 * (e->ext_v[0] + e->ext_v[1]);
+    double tb = 0.5 * (e->ext_t[2] + e->ext_t[3]), vb = 0.5 * (e->ext_v[2] + e->ext_v[3]);
+    if (tb > ta)
+        e->slope_v_s = (vb - va) / (tb - ta);
+}
+
 /* The candidate of s is confirmed: record it, and continue seeking the opposite
  * extremum from the sub-candidate. */
 static ru_status confirm(ru_envelope *e, const ru_seek *s)
 {
     double t, v;
-    ext_refine(&s->cand, &t, &v);
+    ext_refine(e, &s->cand, &t, &v);
+    ext_record(e, t, v);
     ru_status st = RU_OK;
     if (s->sign > 0) {
         e->have_max = 1;
@@ -128,10 +202,12 @@ static ru_status confirm(ru_envelope *e, const ru_seek *s)
         e->max_v = v;
     } else if (e->have_max) {
         e->have_max = 0;
-        if (e->max_v > v)
-            st = env_append(e, 0.5 * (e->max_t_s + t), 0.5 * (e->max_v - v));
+        double amp = 0.5 * (det(e, e->max_t_s, e->max_v) - det(e, t, v));
+        if (amp > 0.0)
+            st = env_append(e, 0.5 * (e->max_t_s + t), amp);
     }
-    e->last_ext_v = s->cand.v;
+    if (e->n_ext == RU_ENV_SLOPE_EXT)
+        drop_early(e); /* its extrema were located with a slope of 0 */
     ru_seek next;
     memset(&next, 0, sizeof next);
     next.sign = -s->sign;
@@ -141,28 +217,41 @@ static ru_status confirm(ru_envelope *e, const ru_seek *s)
     return st;
 }
 
-static double hyst(const ru_envelope *e, double swing_v)
+/* Whether the candidate of s, lying back behind by `back` (detrended) at t_s after a
+ * detrended swing of swing_v since the previous extremum, is confirmed. */
+static int confirmed(const ru_envelope *e, const ru_seek *s, double t_s, double back,
+                     double swing_v)
 {
-    double h = RU_ENV_HYST * fabs(swing_v);
-    return h > e->floor_v ? h : e->floor_v;
+    if (!(back > 0.0) || !s->cand.has_prev)
+        return 0;
+    double thr = e->floor_v;
+    if (e->period_s <= 0.0 || e->n_ext >= RU_ENV_SLOPE_EXT) {
+        double h = RU_ENV_HYST * fabs(swing_v);
+        thr = h > thr ? h : thr;
+    }
+    if (!(back > thr))
+        return 0;
+    return e->period_s <= 0.0 || t_s - s->cand.t_s >= RU_ENV_HOLD * e->period_s;
 }
 
 ru_status ru_envelope_push(ru_envelope *e, uint64_t idx, double t_s, double v,
                            double tlast_s, double vlast)
 {
     if (e->mode == 1) {
-        double back = seek_update(&e->seek, idx, t_s, v, tlast_s, vlast);
-        double thr = hyst(e, e->seek.cand.v - e->last_ext_v);
-        if (back > 0.0 && back > thr)
+        double back = seek_update(e, &e->seek, idx, t_s, v, tlast_s, vlast);
+        const ru_ext *c = &e->seek.cand;
+        double last = e->n_ext ? det(e, e->ext_t[e->n_ext < 4 ? e->n_ext - 1 : 3],
+                                     e->ext_v[e->n_ext < 4 ? e->n_ext - 1 : 3])
+                               : det(e, c->t_s, c->v);
+        if (confirmed(e, &e->seek, t_s, back, det(e, c->t_s, c->v) - last))
             return confirm(e, &e->seek);
         return RU_OK;
     }
-    double back_hi = seek_update(&e->hi, idx, t_s, v, tlast_s, vlast);
-    double back_lo = seek_update(&e->lo, idx, t_s, v, tlast_s, vlast);
-    double thr = hyst(e, e->hi.cand.v - e->lo.cand.v);
-    if (back_hi > 0.0 && back_hi > thr)
+    double back_hi = seek_update(e, &e->hi, idx, t_s, v, tlast_s, vlast);
+    double back_lo = seek_update(e, &e->lo, idx, t_s, v, tlast_s, vlast);
+    if (confirmed(e, &e->hi, t_s, back_hi, e->hi.rise_v))
         return confirm(e, &e->hi);
-    if (back_lo > 0.0 && back_lo > thr)
+    if (confirmed(e, &e->lo, t_s, back_lo, e->lo.rise_v))
         return confirm(e, &e->lo);
     return RU_OK;
 }

@@ -64,7 +64,8 @@ static int cfg_ok(const ru_measure_cfg *c)
            c->startup_level <= 1.0 && c->growth_lo > 0.0 &&
            c->growth_hi > c->growth_lo && c->growth_hi <= 1.0 &&
            c->kick_level_v >= 0.0 && isfinite(c->kick_level_v) &&
-           c->settle_band > 0.0 && c->settle_band < 1.0;
+           c->settle_band > 0.0 && c->settle_band < 1.0 && c->period_hint_s >= 0.0 &&
+           isfinite(c->period_hint_s);
 }
 
 ru_status ru_measure_create(const ru_measure_cfg *cfg, ru_measure **out)
@@ -85,7 +86,10 @@ ru_status ru_measure_create(const ru_measure_cfg *cfg, ru_measure **out)
         free(m);
         return RU_ENOMEM;
     }
-    ru_envelope_init(&m->env, 0.25 * cfg->kick_level_v);
+    double hint = cfg->period_hint_s;
+    if (hint < RU_ENV_HINT_MIN_SAMPLES * cfg->sample_s)
+        hint = 0.0; /* too short to resolve: the hysteresis rule alone */
+    ru_envelope_init(&m->env, 0.25 * cfg->kick_level_v, hint);
     *out = m;
     return RU_OK;
 }

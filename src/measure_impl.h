@@ -30,18 +30,26 @@ typedef struct ru_seek {
     ru_ext cand;      /* most extreme sample since the last confirmed opposite one */
     ru_ext sub;       /* most opposite sample after cand (next candidate) */
     int sign;         /* +1 seeks a maximum, -1 a minimum */
+    double rise_v;    /* detrended swing (V, >= 0) that led to cand: from the deepest
+                         opposite sample between the previous cand and it */
 } ru_seek;
 
-/* Streaming envelope: extrema with hysteresis, refined by a parabola. */
+/* Streaming envelope: extrema of the signal less a DC ramp estimated from the
+ * midpoints of the last extrema, confirmed by hysteresis and (with a period hint) a
+ * hold time, refined by a parabola. */
 typedef struct ru_envelope {
     int mode;            /* 0: direction unknown (hi and lo both seek), 1: tracking */
     ru_seek hi, lo;      /* mode 0: seek the first maximum / minimum */
     ru_seek seek;        /* mode 1: the extremum sought now */
-    double last_ext_v;   /* value of the last confirmed extremum (V) */
     double floor_v;      /* minimum hysteresis (V): noise the swing must beat */
+    double period_s;     /* hinted period (s); 0: none, hysteresis rule only */
+    double slope_v_s;    /* DC slope estimate (V/s), 0 until RU_ENV_SLOPE_EXT extrema */
+    double ext_t[4];     /* refined times of the last confirmed extrema (s), oldest first */
+    double ext_v[4];     /* their refined values, DC included (V) */
+    size_t n_ext;        /* extrema confirmed so far */
     int have_max;        /* 1: max_t_s/max_v wait for their following minimum */
     double max_t_s;      /* refined time of that maximum (s) */
-    double max_v;        /* refined value of that maximum (V) */
+    double max_v;        /* refined value of that maximum, DC included (V) */
     double *env_t;       /* envelope point times (s) */
     double *env_a;       /* envelope amplitudes (V) */
     size_t n_env;        /* points held */
@@ -50,8 +58,17 @@ typedef struct ru_envelope {
 
 /* Hysteresis as a fraction of the current half-cycle swing (common practice). */
 #define RU_ENV_HYST 0.2
+/* With a period hint P: an extremum holds (is not passed) for RU_ENV_HOLD * P. */
+#define RU_ENV_HOLD 0.3
+/* Extrema needed before the DC slope is estimated (two midpoints a period apart). */
+#define RU_ENV_SLOPE_EXT 4
+/* Points made before the slope was known are dropped above this ramp share. */
+#define RU_ENV_EARLY_SHARE 0.01
+/* A hint shorter than this many samples is ignored (cannot be resolved). */
+#define RU_ENV_HINT_MIN_SAMPLES 8.0
 
-void ru_envelope_init(ru_envelope *e, double floor_v);
+/* floor_v: minimum hysteresis (V); period_s: hinted period (s), 0 when unknown. */
+void ru_envelope_init(ru_envelope *e, double floor_v, double period_s);
 void ru_envelope_free(ru_envelope *e);
 /* Feeds sample number idx (t_s, v); vlast/tlast is the previous sample when
  * idx > 0. Returns RU_ENOMEM when an envelope point cannot be stored. */
