@@ -172,6 +172,29 @@ cleanup:
     return st;
 }
 
+/* Refuses runs that would take hours or fill a disk: more than RU_MAX_SAMPLES
+ * output samples, or more than RU_MAX_CYCLES cycles of the predicted tone (about
+ * 170 solver steps each at normal accuracy). A long study can be split into runs. */
+#define RU_MAX_SAMPLES 5e7
+#define RU_MAX_CYCLES 2e6
+static ru_status check_size(const ru_circuit *c, const ru_run_report *rep, ru_error *err)
+{
+    double samples = rep->stop_s / rep->sample_s;
+    double cycles = rep->pred.have_poles ? rep->stop_s * rep->pred.frequency_hz : 0;
+    if (samples > RU_MAX_SAMPLES)
+        return ru_error_set(err, RU_EINPUT, ru_circuit_file(c), 0, 0,
+                            "the run would make %.3g output samples (stop %g s at a "
+                            "spacing of %g s), more than %.0e: lengthen the sample "
+                            "spacing or shorten the run",
+                            samples, rep->stop_s, rep->sample_s, RU_MAX_SAMPLES);
+    if (cycles > RU_MAX_CYCLES)
+        return ru_error_set(err, RU_EINPUT, ru_circuit_file(c), 0, 0,
+                            "the run spans %.3g cycles of the %.4g Hz tone, more than "
+                            "%.0e (hours of solver time): shorten the run",
+                            cycles, rep->pred.frequency_hz, RU_MAX_CYCLES);
+    return RU_OK;
+}
+
 ru_status ru_analysis_run(const ru_circuit *c, const ru_run_request *rq,
                           ru_run_report *rep, ru_error *err)
 {
@@ -192,6 +215,8 @@ ru_status ru_analysis_run(const ru_circuit *c, const ru_run_request *rq,
     if ((st = ru_predict(c, sys, loop, pos, neg, rep, err)) != RU_OK)
         goto done;
     rep->sample_s = choose_sample(rq, ro, &rep->pred, rep->stop_s);
+    if ((st = check_size(c, rep, err)) != RU_OK)
+        goto done;
     st = run_transient(c, sys, rq, rep, pos, neg, err);
     if (st == RU_OK || st == RU_ENUMERIC)
         ru_selfcheck(rep);

@@ -35,8 +35,9 @@ static double node_v(const ru_energy_balance *e, int node, double t, const doubl
     return ru_system_node_voltage(e->sys, node, t, x);
 }
 
-/* d v(node)/dt: from x' for a free node, by a central difference for a driven one
- * (its voltage depends on t only), 0 for ground. */
+/* d v(node)/dt: from x' for a free node, by a forward difference for a driven one
+ * (its voltage depends on t only and is right-continuous, so a forward difference
+ * at a jump's time gives the slope after the jump), 0 for ground. */
 static double node_dv(const ru_energy_balance *e, int node, double t, const double *x)
 {
     int k = ru_system_node_state(e->sys, node);
@@ -45,7 +46,7 @@ static double node_dv(const ru_energy_balance *e, int node, double t, const doub
     if (k == -1)
         return 0.0;
     double h = 1e-9 * (fabs(t) + 1e-6);
-    return (node_v(e, node, t + h, x) - node_v(e, node, t - h, x)) / (2 * h);
+    return (node_v(e, node, t + h, x) - node_v(e, node, t, x)) / h;
 }
 
 static void energy_and_rate(ru_energy_balance *e, double t, const double *x, double *en,
