@@ -157,8 +157,8 @@ static void drop_early(ru_envelope *e)
 {
     double half_s = (e->ext_t[3] - e->ext_t[0]) / 3.0;
     double share_v = 0.5 * fabs(e->slope_v_s) * half_s;
-    size_t keep = 0;
-    for (size_t i = 0; i < e->n_env; i++) {
+    size_t keep = e->env_from;
+    for (size_t i = e->env_from; i < e->n_env; i++) {
         if (share_v <= RU_ENV_EARLY_SHARE * e->env_a[i]) {
             e->env_t[keep] = e->env_t[i];
             e->env_a[keep] = e->env_a[i];
@@ -234,9 +234,41 @@ static int confirmed(const ru_envelope *e, const ru_seek *s, double t_s, double 
     return e->period_s <= 0.0 || t_s - s->cand.t_s >= RU_ENV_HOLD * e->period_s;
 }
 
+/* The search has waited too long for the next extremum: with a DC slope read
+ * from extrema before the bias changed course, the detrended signal can run away
+ * monotonically and no extremum would ever be confirmed again. Start afresh from
+ * a slope of 0, keeping the envelope points made so far. */
+static int stalled(const ru_envelope *e, double t_s)
+{
+    if (e->n_ext == 0)
+        return 0;
+    size_t k = e->n_ext < 4 ? e->n_ext - 1 : 3;
+    double wait = 0.0;
+    if (e->period_s > 0.0)
+        wait = RU_ENV_STALL * e->period_s;
+    else if (e->n_ext >= 2)
+        wait = 2.0 * RU_ENV_STALL * (e->ext_t[k] - e->ext_t[k - 1]);
+    return wait > 0.0 && t_s - e->ext_t[k] > wait;
+}
+
+static void restart(ru_envelope *e)
+{
+    double floor_v = e->floor_v, period_s = e->period_s;
+    double *env_t = e->env_t, *env_a = e->env_a;
+    size_t n_env = e->n_env, cap_env = e->cap_env;
+    ru_envelope_init(e, floor_v, period_s);
+    e->env_t = env_t;
+    e->env_a = env_a;
+    e->n_env = n_env;
+    e->cap_env = cap_env;
+    e->env_from = n_env;
+}
+
 ru_status ru_envelope_push(ru_envelope *e, uint64_t idx, double t_s, double v,
                            double tlast_s, double vlast)
 {
+    if (e->mode == 1 && stalled(e, t_s))
+        restart(e);
     if (e->mode == 1) {
         double back = seek_update(e, &e->seek, idx, t_s, v, tlast_s, vlast);
         const ru_ext *c = &e->seek.cand;

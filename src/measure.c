@@ -13,7 +13,9 @@
  *   - envelope drift = slope of a least-squares line through the window's envelope
  *     points times the window length, over the mean; settled when |drift| <= 0.5 %;
  *   - started: settled amplitude >= 10x the reference (the lowest envelope point
- *     before the settled window, or the kick level when given and lower) and
+ *     before the settled window, or the kick level when given and lower), or no
+ *     cycle at all in the first 3 periods (it emerged from below the visible level,
+ *     e.g. under a bias transient after power-on), and
  *     drift >= -10 % (not clearly decaying); start-up time and growth fit look at
  *     the envelope from that lowest point on (a power-on transient before it is
  *     not part of the growth);
@@ -42,6 +44,7 @@ struct ru_measure {
 #define DRIFT_LIMIT 0.005   /* settled when the window's envelope moves <= 0.5 % */
 #define DECAY_LIMIT (-0.10) /* started only if the window loses < 10 % */
 #define GROW_MIN 10.0       /* started: grew at least 10x */
+#define EMERGE_PERIODS 3.0  /* or: no cycle at all for the first 3 periods */
 
 void ru_measure_cfg_default(ru_measure_cfg *cfg, double stop_s, double sample_s)
 {
@@ -265,10 +268,15 @@ static void growth_fit(const ru_envelope *e, const ru_measure_cfg *c, size_t fro
         i0 = i1 = 0;
     double slope = NAN, rms = NAN;
     if (i1 - i0 < 3 || !line_fit(e->env_t, e->env_a, i0, i1, 1, &slope, &rms)) {
+        const char *why = from < e->n_env && e->env_a[from] > lo
+                              ? "the first visible cycle is already above the window "
+                                "(a large kick, or growth hidden under a power-on "
+                                "transient); lower the kick or raise the window"
+                              : "the envelope grows too fast to put 3 cycles in the "
+                                "window; widen the window";
         snprintf(r->growth_note, RU_NOTE_MAX,
-                 "fewer than 3 cycles between %g%% and %g%% of the settled amplitude: the "
-                 "kick starts the oscillator too high; lower it or widen the window",
-                 100.0 * c->growth_lo, 100.0 * c->growth_hi);
+                 "fewer than 3 cycles between %g%% and %g%% of the settled amplitude: %s",
+                 100.0 * c->growth_lo, 100.0 * c->growth_hi, why);
         r->growth_fit_points = (int)(i1 - i0);
         return;
     }
@@ -389,8 +397,16 @@ ru_status ru_measure_finish(ru_measure *m, ru_measure_result *r)
     double ref = e->env_a[trough];
     if (m->cfg.kick_level_v > 0.0 && m->cfg.kick_level_v < ref)
         ref = m->cfg.kick_level_v;
+    /* An oscillation that shows no cycle for its first EMERGE_PERIODS periods and is
+     * sustained at the end grew from below what the probe shows: under a fast DC
+     * transient (a bias still settling) there are no extrema to measure, so the
+     * 10x rule cannot be applied and is not needed. */
+    double period = m->cfg.period_hint_s;
+    if (!(period > 0) && e->n_env - i0 >= 2)
+        period = (e->env_t[e->n_env - 1] - e->env_t[i0]) / (double)(e->n_env - 1 - i0);
+    int emerged = period > 0 && e->env_t[0] - m->t_first_s > EMERGE_PERIODS * period;
     char why[RU_NOTE_MAX];
-    if (!(mean >= GROW_MIN * ref)) {
+    if (!(mean >= GROW_MIN * ref) && !emerged) {
         snprintf(why, sizeof why, "the envelope grew %.3gx, less than %gx", mean / ref,
                  GROW_MIN);
         not_started(r, why);

@@ -46,7 +46,8 @@ typedef struct ru_envelope {
     double slope_v_s;    /* DC slope estimate (V/s), 0 until RU_ENV_SLOPE_EXT extrema */
     double ext_t[4];     /* refined times of the last confirmed extrema (s), oldest first */
     double ext_v[4];     /* their refined values, DC included (V) */
-    size_t n_ext;        /* extrema confirmed so far */
+    size_t n_ext;        /* extrema confirmed since the last restart */
+    size_t env_from;     /* first envelope point made since the last restart */
     int have_max;        /* 1: max_t_s/max_v wait for their following minimum */
     double max_t_s;      /* refined time of that maximum (s) */
     double max_v;        /* refined value of that maximum, DC included (V) */
@@ -64,6 +65,10 @@ typedef struct ru_envelope {
 #define RU_ENV_SLOPE_EXT 4
 /* Points made before the slope was known are dropped above this ramp share. */
 #define RU_ENV_EARLY_SHARE 0.01
+/* No extremum confirmed for this many hinted periods (or, without a hint, this many
+ * times the last half period): the DC slope estimate is stale (the bias changed
+ * course) and the search restarts from a slope of 0. */
+#define RU_ENV_STALL 2.5
 /* A hint shorter than this many samples is ignored (cannot be resolved). */
 #define RU_ENV_HINT_MIN_SAMPLES 8.0
 

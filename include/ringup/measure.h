@@ -49,7 +49,7 @@ typedef struct ru_measure_cfg {
 /* Fills cfg with the defaults above for a run of stop_s sampled at sample_s. */
 void ru_measure_cfg_default(ru_measure_cfg *cfg, double stop_s, double sample_s);
 
-#define RU_NOTE_MAX 160
+#define RU_NOTE_MAX 256
 
 typedef struct ru_measure_result {
     int started;                 /* 1: the envelope grew at least 10x and did not decay */
