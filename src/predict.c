@@ -7,28 +7,12 @@
 #include "analysis_impl.h"
 
 #include "ringup/smallsig.h"
-#include "smallsig_impl.h"
+#include "modes.h"
 
-#include <lapacke.h>
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
-
-/* J = M^{-1} dr/dx at the DC operating point x (row-major n*n). */
-static ru_status dc_jacobian(const ru_system *s, const double *x, double *J)
-{
-    size_t n = ru_system_size(s);
-    double *M = malloc(n * n * sizeof *M);
-    lapack_int *piv = malloc(n * sizeof *piv);
-    ru_status st = (M && piv) ? ru_ss_linearize(s, x, J, M, NULL) : RU_ENOMEM;
-    if (st == RU_OK && LAPACKE_dgesv(LAPACK_ROW_MAJOR, (lapack_int)n, (lapack_int)n, M,
-                                     (lapack_int)n, piv, J, (lapack_int)n) != 0)
-        st = RU_ENUMERIC;
-    free(M);
-    free(piv);
-    return st;
-}
 
 /* Amplitude on the probe of the dominant mode excited by dx: 2 |c| |v_probe| with
  * c = u^H dx / (u^H v) for the right (v) and left (u) eigenvectors of lambda. */
@@ -37,36 +21,17 @@ static double modal_amplitude(const ru_system *s, const double *x_op, const doub
 {
     size_t n = ru_system_size(s);
     double amp = NAN;
-    double *J = malloc(n * n * sizeof *J), *vl = malloc(n * n * sizeof *vl);
-    double *vr = malloc(n * n * sizeof *vr), *wr = malloc(n * sizeof *wr);
-    double *wi = malloc(n * sizeof *wi);
-    if (!J || !vl || !vr || !wr || !wi || dc_jacobian(s, x_op, J) != RU_OK)
+    double *v = malloc(4 * n * sizeof *v);
+    ru_pole lam;
+    if (!v || ru_mode_near(s, x_op, dom, &lam, v, v + n, v + 2 * n, v + 3 * n) != RU_OK)
         goto done;
-    if (LAPACKE_dgeev(LAPACK_ROW_MAJOR, 'V', 'V', (lapack_int)n, J, (lapack_int)n, wr, wi,
-                      vl, (lapack_int)n, vr, (lapack_int)n) != 0)
-        goto done;
-    size_t best = n;
-    double bestd = INFINITY;
-    for (size_t j = 0; j + 1 < n; j++) {
-        if (wi[j] <= 0)
-            continue;
-        double d = hypot(wr[j] - dom.re_per_s, wi[j] - dom.im_rad_per_s);
-        if (d < bestd) {
-            bestd = d;
-            best = j;
-        }
-    }
-    if (best == n)
-        goto done;
-    /* v = VR[:,j] + i VR[:,j+1]; u likewise from VL. */
+    const double *vre = v, *vim = v + n, *ure = v + 2 * n, *uim = v + 3 * n;
     double uh_dx_re = 0, uh_dx_im = 0, uh_v_re = 0, uh_v_im = 0;
     for (size_t i = 0; i < n; i++) {
-        double ur = vl[i * n + best], ui = vl[i * n + best + 1];
-        double vrr = vr[i * n + best], vri = vr[i * n + best + 1];
-        uh_dx_re += ur * dx[i];
-        uh_dx_im += -ui * dx[i];
-        uh_v_re += ur * vrr + ui * vri;   /* conj(u) * v */
-        uh_v_im += ur * vri - ui * vrr;
+        uh_dx_re += ure[i] * dx[i];
+        uh_dx_im += -uim[i] * dx[i];
+        uh_v_re += ure[i] * vre[i] + uim[i] * vim[i]; /* conj(u) * v */
+        uh_v_im += ure[i] * vim[i] - uim[i] * vre[i];
     }
     double den = uh_v_re * uh_v_re + uh_v_im * uh_v_im;
     if (!(den > 0))
@@ -74,20 +39,16 @@ static double modal_amplitude(const ru_system *s, const double *x_op, const doub
     double c_abs = hypot(uh_dx_re, uh_dx_im) / sqrt(den);
     double pr = 0, pi = 0;
     if (kpos >= 0) {
-        pr += vr[kpos * n + best];
-        pi += vr[kpos * n + best + 1];
+        pr += vre[kpos];
+        pi += vim[kpos];
     }
     if (kneg >= 0) {
-        pr -= vr[kneg * n + best];
-        pi -= vr[kneg * n + best + 1];
+        pr -= vre[kneg];
+        pi -= vim[kneg];
     }
     amp = 2.0 * c_abs * hypot(pr, pi);
 done:
-    free(J);
-    free(vl);
-    free(vr);
-    free(wr);
-    free(wi);
+    free(v);
     return amp;
 }
 
