@@ -32,9 +32,10 @@ struct ru_circuit {
 
 static const char *const part_type_names[RU_PART_TYPE_COUNT] = {
     "resistor", "capacitor", "inductor", "supply", "current", "poly-conductance",
-    "amplifier"};
+    "amplifier", "diode", "thermal-resistor"};
 
-static const char *const law_names[RU_LAW_COUNT] = {"follower-tanh", "exp-stage"};
+static const char *const law_names[RU_LAW_COUNT] = {"follower-tanh", "exp-stage",
+                                                    "diff-pair-tanh", "opamp", "table"};
 
 const char *ru_part_type_name(ru_part_type t)
 {
@@ -59,6 +60,44 @@ void ru_amp_defaults(ru_amp *a, ru_law law)
     a->beta = 100.0;
     a->vsat_v = 0.2;
     a->temp_c = 27.0;
+    a->itail_a = 1e-3;
+    a->sign = 1.0;
+    a->gbw_hz = 1e6;
+    a->vmax_v = 12.0;
+    a->vmin_v = -12.0;
+    a->knee_v = 0.1;
+    a->slew_v_per_s = 1e6;
+    if (law == RU_LAW_DIFF_PAIR_TANH)
+        a->rout_ohm = 0.0; /* none */
+    if (law == RU_LAW_OPAMP)
+        a->gain = 1e5;
+}
+
+void ru_diode_defaults(ru_diode *d)
+{
+    memset(d, 0, sizeof *d);
+    d->is_a = 1e-14;
+    d->n = 1.0;
+    d->rs_ohm = 0.0;
+    d->temp_c = 27.0;
+}
+
+void ru_thermal_defaults(ru_thermal *t, ru_thermal_kind kind)
+{
+    memset(t, 0, sizeof *t);
+    t->kind = kind;
+    t->r0_ohm = kind == RU_THERMAL_NTC ? 10e3 : 50.0;
+    t->alpha_per_k = 4.5e-3;
+    t->beta_k = 3500.0;
+    t->t0_c = 25.0;
+    t->tamb_c = 25.0;
+    t->rth_k_per_w = kind == RU_THERMAL_NTC ? 5e3 : 20e3;
+    t->cth_j_per_k = kind == RU_THERMAL_NTC ? 200e-6 : 5e-6;
+}
+
+int ru_part_inv_node(const ru_part *p)
+{
+    return p->node[3] >= 0 ? p->node[3] : p->node[2];
 }
 
 void ru_part_init(ru_part *p, ru_part_type type, const char *name)
@@ -68,6 +107,9 @@ void ru_part_init(ru_part *p, ru_part_type type, const char *name)
     p->type = type;
     p->wave.kind = RU_WAVE_DC;
     ru_amp_defaults(&p->amp, RU_LAW_FOLLOWER_TANH);
+    ru_diode_defaults(&p->diode);
+    ru_thermal_defaults(&p->thermal, RU_THERMAL_LAMP);
+    p->node[3] = -1;
 }
 
 ru_status ru_circuit_create(const char *title, ru_circuit **out)
@@ -201,7 +243,7 @@ void ru_circuit_node_place(const ru_circuit *c, int node, int *line, int *col)
 
 static int part_terminals(const ru_part *p)
 {
-    return p->type == RU_PART_AMPLIFIER ? 3 : 2;
+    return p->type == RU_PART_AMPLIFIER ? 3 : 2; /* inv (node[3]) checked apart */
 }
 
 static ru_status part_error(const ru_circuit *c, const ru_part *p, ru_error *err,
@@ -249,11 +291,61 @@ static ru_status check_wave(const ru_circuit *c, const ru_part *p, ru_error *err
     return RU_OK;
 }
 
+static ru_status check_exp_like(const ru_circuit *c, const ru_part *p, ru_error *err)
+{
+    const ru_amp *a = &p->amp;
+    if (a->n <= 0)
+        return part_error(c, p, err, "n must be positive", a->n);
+    if (a->temp_c <= -273.15)
+        return part_error(c, p, err, "temp must be above absolute zero", a->temp_c);
+    return RU_OK;
+}
+
+static ru_status check_opamp(const ru_circuit *c, const ru_part *p, ru_error *err)
+{
+    const ru_amp *a = &p->amp;
+    if (a->gain <= 0)
+        return part_error(c, p, err, "gain must be positive", a->gain);
+    if (a->gbw_hz <= 0)
+        return part_error(c, p, err, "gbw must be positive", a->gbw_hz);
+    if (a->vmax_v <= a->vmin_v)
+        return part_error(c, p, err, "vmax must be above vmin", a->vmax_v);
+    if (a->knee_v <= 0)
+        return part_error(c, p, err, "knee must be positive", a->knee_v);
+    if (a->slew_v_per_s <= 0)
+        return part_error(c, p, err, "slew must be positive", a->slew_v_per_s);
+    if (a->rout_ohm <= 0)
+        return part_error(c, p, err, "rout must be positive", a->rout_ohm);
+    return RU_OK;
+}
+
+static ru_status check_table(const ru_circuit *c, const ru_part *p, ru_error *err)
+{
+    const ru_amp *a = &p->amp;
+    if (a->npoints < 2 || a->npoints > RU_TABLE_MAX)
+        return ru_error_set(err, RU_EINPUT, c->file, p->line, p->col,
+                            "part %s: points needs 2 to %d points", p->name, RU_TABLE_MAX);
+    if (!finite_all(a->pt_vin, a->npoints) || !finite_all(a->pt_vout, a->npoints))
+        return ru_error_set(err, RU_EINPUT, c->file, p->line, p->col,
+                            "part %s: points must be finite", p->name);
+    for (int i = 1; i < a->npoints; i++)
+        if (!(a->pt_vin[i] > a->pt_vin[i - 1]))
+            return ru_error_set(err, RU_EINPUT, c->file, p->line, p->col,
+                                "part %s: points: vin must increase strictly (point %d: "
+                                "%g after %g)",
+                                p->name, i + 1, a->pt_vin[i], a->pt_vin[i - 1]);
+    if (a->rout_ohm <= 0)
+        return part_error(c, p, err, "rout must be positive", a->rout_ohm);
+    return RU_OK;
+}
+
 static ru_status check_amp(const ru_circuit *c, const ru_part *p, ru_error *err)
 {
     const ru_amp *a = &p->amp;
-    double all[] = {a->gain, a->swing_v, a->center_v, a->rout_ohm, a->is_a,
-                    a->n, a->beta, a->vsat_v, a->temp_c};
+    double all[] = {a->gain,    a->swing_v, a->center_v, a->rout_ohm, a->is_a,
+                    a->n,       a->beta,    a->vsat_v,   a->temp_c,   a->itail_a,
+                    a->sign,    a->gbw_hz,  a->vmax_v,   a->vmin_v,   a->knee_v,
+                    a->slew_v_per_s};
     if (!finite_all(all, (int)(sizeof all / sizeof all[0])))
         return ru_error_set(err, RU_EINPUT, c->file, p->line, p->col,
                             "part %s: amplifier values must be finite", p->name);
@@ -267,29 +359,89 @@ static ru_status check_amp(const ru_circuit *c, const ru_part *p, ru_error *err)
     case RU_LAW_EXP_STAGE:
         if (a->is_a <= 0)
             return part_error(c, p, err, "is must be positive", a->is_a);
-        if (a->n <= 0)
-            return part_error(c, p, err, "n must be positive", a->n);
         if (a->beta <= 0)
             return part_error(c, p, err, "beta must be positive", a->beta);
         if (a->vsat_v <= 0)
             return part_error(c, p, err, "vsat must be positive", a->vsat_v);
-        if (a->temp_c <= -273.15)
-            return part_error(c, p, err, "temp must be above absolute zero", a->temp_c);
-        return RU_OK;
+        return check_exp_like(c, p, err);
+    case RU_LAW_DIFF_PAIR_TANH:
+        if (a->itail_a <= 0)
+            return part_error(c, p, err, "itail must be positive", a->itail_a);
+        if (a->sign != 1.0 && a->sign != -1.0)
+            return part_error(c, p, err, "sign must be 1 or -1", a->sign);
+        if (a->rout_ohm < 0)
+            return part_error(c, p, err, "rout must not be negative (0: none)",
+                              a->rout_ohm);
+        return check_exp_like(c, p, err);
+    case RU_LAW_OPAMP:
+        return check_opamp(c, p, err);
+    case RU_LAW_TABLE:
+        return check_table(c, p, err);
     default:
         return ru_error_set(err, RU_EINPUT, c->file, p->line, p->col,
                             "part %s: unknown amplifier law", p->name);
     }
 }
 
-static ru_status check_part(const ru_circuit *c, const ru_part *p, ru_error *err)
+static ru_status check_diode(const ru_circuit *c, const ru_part *p, ru_error *err)
 {
-    if (!p->name[0])
+    const ru_diode *d = &p->diode;
+    double all[] = {d->is_a, d->n, d->rs_ohm, d->temp_c};
+    if (!finite_all(all, 4))
         return ru_error_set(err, RU_EINPUT, c->file, p->line, p->col,
-                            "a part needs a name");
-    if (ru_circuit_find_part(c, p->name) >= 0)
+                            "part %s: diode values must be finite", p->name);
+    if (d->is_a <= 0)
+        return part_error(c, p, err, "is must be positive", d->is_a);
+    if (d->n <= 0)
+        return part_error(c, p, err, "n must be positive", d->n);
+    if (d->rs_ohm < 0)
+        return part_error(c, p, err, "rs must not be negative", d->rs_ohm);
+    if (d->temp_c <= -273.15)
+        return part_error(c, p, err, "temp must be above absolute zero", d->temp_c);
+    return RU_OK;
+}
+
+static ru_status check_thermal(const ru_circuit *c, const ru_part *p, ru_error *err)
+{
+    const ru_thermal *t = &p->thermal;
+    double all[] = {t->r0_ohm, t->alpha_per_k, t->beta_k, t->t0_c,
+                    t->tamb_c, t->rth_k_per_w, t->cth_j_per_k};
+    if (!finite_all(all, 7))
         return ru_error_set(err, RU_EINPUT, c->file, p->line, p->col,
-                            "part %s is defined twice", p->name);
+                            "part %s: thermal-resistor values must be finite", p->name);
+    if (t->kind != RU_THERMAL_LAMP && t->kind != RU_THERMAL_NTC)
+        return ru_error_set(err, RU_EINPUT, c->file, p->line, p->col,
+                            "part %s: unknown thermal-resistor kind", p->name);
+    if (t->r0_ohm <= 0)
+        return part_error(c, p, err, "r0 must be positive", t->r0_ohm);
+    if (t->kind == RU_THERMAL_NTC && t->beta_k <= 0)
+        return part_error(c, p, err, "bth must be positive", t->beta_k);
+    if (t->t0_c <= -273.15 || t->tamb_c <= -273.15)
+        return part_error(c, p, err, "temperatures must be above absolute zero",
+                          fmin(t->t0_c, t->tamb_c));
+    if (t->kind == RU_THERMAL_LAMP && 1.0 + t->alpha_per_k * (t->tamb_c - t->t0_c) <= 0)
+        return part_error(c, p, err, "the lamp's resistance at tamb must be positive "
+                                     "(1 + alpha (tamb - t0))",
+                          1.0 + t->alpha_per_k * (t->tamb_c - t->t0_c));
+    if (t->rth_k_per_w <= 0)
+        return part_error(c, p, err, "rth must be positive", t->rth_k_per_w);
+    if (t->cth_j_per_k <= 0)
+        return part_error(c, p, err, "cth must be positive", t->cth_j_per_k);
+    return RU_OK;
+}
+
+static ru_status check_two_nodes(const ru_circuit *c, const ru_part *p, ru_error *err)
+{
+    if (p->node[0] == p->node[1])
+        return ru_error_set(err, RU_EINPUT, c->file, p->line, p->col,
+                            "part %s: both terminals are on node %s", p->name,
+                            ru_circuit_node_name(c, p->node[0]));
+    return RU_OK;
+}
+
+/* Values and terminals of part p against circuit c (the name is checked apart). */
+static ru_status check_values(const ru_circuit *c, const ru_part *p, ru_error *err)
+{
     if ((int)p->type < 0 || p->type >= RU_PART_TYPE_COUNT)
         return ru_error_set(err, RU_EINPUT, c->file, p->line, p->col,
                             "part %s: unknown part type", p->name);
@@ -297,12 +449,16 @@ static ru_status check_part(const ru_circuit *c, const ru_part *p, ru_error *err
         if (p->node[k] < 0 || (size_t)p->node[k] >= c->nnodes)
             return ru_error_set(err, RU_EINPUT, c->file, p->line, p->col,
                                 "part %s: terminal %d names no node", p->name, k + 1);
+    if (p->type == RU_PART_AMPLIFIER && p->node[3] >= (int)c->nnodes)
+        return ru_error_set(err, RU_EINPUT, c->file, p->line, p->col,
+                            "part %s: inv names no node", p->name);
     if (!isfinite(p->value) || !isfinite(p->series_ohm) || !isfinite(p->tol))
         return ru_error_set(err, RU_EINPUT, c->file, p->line, p->col,
                             "part %s: values must be finite", p->name);
     if (p->tol < 0 || p->tol >= 1)
         return part_error(c, p, err, "tol must be from 0 up to (not including) 100%",
                           p->tol);
+    ru_status s;
     switch (p->type) {
     case RU_PART_RESISTOR:
     case RU_PART_CAPACITOR:
@@ -312,11 +468,7 @@ static ru_status check_part(const ru_circuit *c, const ru_part *p, ru_error *err
         if (p->series_ohm < 0)
             return part_error(c, p, err, "series resistance must not be negative",
                               p->series_ohm);
-        if (p->node[0] == p->node[1])
-            return ru_error_set(err, RU_EINPUT, c->file, p->line, p->col,
-                                "part %s: both terminals are on node %s", p->name,
-                                ru_circuit_node_name(c, p->node[0]));
-        return RU_OK;
+        return check_two_nodes(c, p, err);
     case RU_PART_SUPPLY:
         if (p->node[0] == p->node[1])
             return ru_error_set(err, RU_EINPUT, c->file, p->line, p->col,
@@ -338,10 +490,46 @@ static ru_status check_part(const ru_circuit *c, const ru_part *p, ru_error *err
         if (p->node[0] == p->node[2] || p->node[1] == p->node[2])
             return ru_error_set(err, RU_EINPUT, c->file, p->line, p->col,
                                 "part %s: in and out must differ from ref", p->name);
+        if (p->node[0] == ru_part_inv_node(p))
+            return ru_error_set(err, RU_EINPUT, c->file, p->line, p->col,
+                                "part %s: in and inv must differ", p->name);
         return check_amp(c, p, err);
+    case RU_PART_DIODE:
+        s = check_two_nodes(c, p, err);
+        return s == RU_OK ? check_diode(c, p, err) : s;
+    case RU_PART_THERMAL:
+        s = check_two_nodes(c, p, err);
+        return s == RU_OK ? check_thermal(c, p, err) : s;
     default:
         return RU_EINPUT;
     }
+}
+
+static ru_status check_part(const ru_circuit *c, const ru_part *p, ru_error *err)
+{
+    if (!p->name[0])
+        return ru_error_set(err, RU_EINPUT, c->file, p->line, p->col,
+                            "a part needs a name");
+    if (ru_circuit_find_part(c, p->name) >= 0)
+        return ru_error_set(err, RU_EINPUT, c->file, p->line, p->col,
+                            "part %s is defined twice", p->name);
+    return check_values(c, p, err);
+}
+
+ru_status ru_circuit_replace_part(ru_circuit *c, size_t i, const ru_part *p,
+                                  ru_error *err)
+{
+    if (i >= c->nparts)
+        return ru_error_set(err, RU_EINPUT, c->file, p->line, p->col,
+                            "part %s: no part %zu to replace", p->name, i);
+    int other = ru_circuit_find_part(c, p->name);
+    if (!p->name[0] || (other >= 0 && (size_t)other != i))
+        return ru_error_set(err, RU_EINPUT, c->file, p->line, p->col,
+                            "part %s: the name is empty or taken", p->name);
+    ru_status s = check_values(c, p, err);
+    if (s == RU_OK)
+        c->parts[i] = *p;
+    return s;
 }
 
 ru_status ru_circuit_add_part(ru_circuit *c, const ru_part *p, ru_error *err)
@@ -440,12 +628,14 @@ int ru_circuit_find_floating_node(const ru_circuit *c, int *node)
         case RU_PART_INDUCTOR:
         case RU_PART_SUPPLY:
         case RU_PART_POLY:
+        case RU_PART_DIODE:
+        case RU_PART_THERMAL:
             uf_join(parent, p->node[0], p->node[1]);
             break;
         case RU_PART_AMPLIFIER:
             uf_join(parent, p->node[1], p->node[2]); /* output to ref */
-            if (p->amp.law == RU_LAW_EXP_STAGE)
-                uf_join(parent, p->node[0], p->node[2]); /* input junction */
+            if (p->amp.law == RU_LAW_EXP_STAGE) /* input junction, in to inv */
+                uf_join(parent, p->node[0], ru_part_inv_node(p));
             break;
         default:
             break;

@@ -1,17 +1,19 @@
-/* laws.h: amplifier laws (private): value and partial derivatives of the currents
- * a behavioral amplifier pushes into its nodes.
+/* laws.h: amplifier laws and the laws of the nonlinear two-terminal parts
+ * (private): values and partial derivatives of the currents they push into their
+ * nodes, and of the rates of their internal states.
  *
- * Convention: the law sees vc = v(in) - v(ref) and vo = v(out) - v(ref). It
- * returns i_out, the current it pushes INTO the out node, and i_in, the current
- * it pushes INTO the in node; the sum i_out + i_in leaves the ref node (KCL over
- * the part). The output terms are the "controlled" quantity (the loop gain breaks
- * d i_out / d vc); the input terms are the loading the amplifier puts on its
- * control node.
+ * Amplifier convention: the law sees vc = v(in) - v(inv) (inv is ref unless
+ * given), vo = v(out) - v(ref) and, for a law with an internal state, its value
+ * xs. It returns i_out, the current it pushes INTO the out node (it leaves by
+ * ref), i_in, the current it pushes INTO the in node (it leaves by inv), and the
+ * state's rate dxs = d xs/dt. The output terms are the "controlled" quantity:
+ * the loop gain breaks d i_out / d vc and, for a law with a state, d dxs / d vc
+ * (the opamp's output depends on vc only through its integrator). The input terms
+ * are the loading the amplifier puts on its control nodes.
  *
  * Laws are table-driven (ru_law_get): each entry names the law, its evaluator and
- * how many internal states it adds (0 for every law so far; a law with states,
- * such as an op-amp with a dominant pole, will add an evaluator for those rows).
- * Evaluators are pure functions of their arguments and safe from any thread. */
+ * how many internal states it adds (0 or 1). Evaluators are pure functions of
+ * their arguments and safe from any thread. */
 #ifndef RINGUP_LAWS_H
 #define RINGUP_LAWS_H
 
@@ -28,33 +30,83 @@
 #define RU_K_BOLTZMANN 1.380649e-23
 #define RU_Q_ELECTRON 1.602176634e-19
 
+#define RU_PI_LAW 3.14159265358979323846
+
 typedef struct ru_law_eval {
     double i_out;      /* current pushed into the out node (A) */
     double di_out_dvc; /* d i_out / d vc (S): the controlled (transconductance) term */
     double di_out_dvo; /* d i_out / d vo (S): output conductance, negated */
+    double di_out_dxs; /* d i_out / d xs (S for a voltage state) */
     double i_in;       /* current pushed into the in node (A) */
     double di_in_dvc;  /* d i_in / d vc (S) */
     double di_in_dvo;  /* d i_in / d vo (S) */
+    double dxs;        /* rate of the internal state (unit/s; 0 without a state) */
+    double ddxs_dvc;   /* d dxs / d vc: the controlled term of a law with a state */
+    double ddxs_dvo;   /* d dxs / d vo */
+    double ddxs_dxs;   /* d dxs / d xs (1/s) */
 } ru_law_eval;
 
-typedef void (*ru_law_fn)(const ru_amp *a, double vc_v, double vo_v, ru_law_eval *e);
+typedef void (*ru_law_fn)(const ru_amp *a, double vc_v, double vo_v, double xs,
+                          ru_law_eval *e);
 
 typedef struct ru_law_desc {
     ru_law law;        /* which law this entry describes */
-    ru_law_fn eval;    /* currents and derivatives */
-    int nstates;       /* internal states the law adds (0 so far) */
+    ru_law_fn eval;    /* currents, state rate and derivatives */
+    int nstates;       /* internal states the law adds (0 or 1) */
+    const char *state; /* name of the state ("vint"), NULL without one */
 } ru_law_desc;
 
 /* The table entry of a law, or NULL for an unknown law. */
 const ru_law_desc *ru_law_get(ru_law law);
 
-/* Evaluates the amplifier's law; returns 0 for an unknown law (e zeroed). */
+/* Evaluates the amplifier's law with its internal state (if any) at xs; returns
+ * 0 for an unknown law (e zeroed). */
+int ru_law_eval_state(const ru_amp *a, double vc_v, double vo_v, double xs,
+                      ru_law_eval *e);
+
+/* Same with the state at its rest value ru_law_rest_state(a). */
 int ru_law_eval_amp(const ru_amp *a, double vc_v, double vo_v, ru_law_eval *e);
+
+/* Initial value of the law's internal state: its rest with every node at 0 V
+ * (opamp: rail(0)); 0 for a law without a state. */
+double ru_law_rest_state(const ru_amp *a);
 
 /* Thermal voltage kT/q (V) at temp_c degrees Celsius. */
 double ru_law_thermal_voltage(double temp_c);
 
 /* exp(u) continued linearly above RU_LAW_U_MAX; *deriv gets d/du. */
 double ru_law_limexp(double u, double *deriv);
+
+/* The opamp's smooth rail: rail(u) between vmin and vmax (see circuit.h);
+ * *deriv gets d rail / du. */
+double ru_law_rail(const ru_amp *a, double u, double *deriv);
+
+/* The table law's curve f(v) and df/dv (monotone cubic, linear beyond the ends). */
+double ru_law_table_curve(const ru_amp *a, double v, double *deriv);
+
+/* Diode current i(anode -> cathode) at vd = v(anode) - v(cathode), and
+ * *g = di/dvd. With rs > 0 the junction voltage vj = vd - rs i is solved by
+ * Newton's method from above (the residual vj + rs i(vj) - vd is increasing and
+ * convex, so the iteration falls monotonically onto the root), to rounding; g is
+ * then exact by the implicit-function theorem: g = gj/(1 + rs gj). */
+double ru_diode_current(const ru_diode *d, double vd_v, double *g);
+
+/* A thermal resistor at voltage v across it and rise x (K above tamb). */
+typedef struct ru_thermal_eval {
+    double r_ohm;     /* R(T) */
+    double i;         /* v / R (A, a -> b) */
+    double di_dv;     /* 1/R (S) */
+    double di_dx;     /* d i / d rise (A/K) */
+    double dx;        /* d rise/dt = (v^2/R - rise/rth)/cth (K/s) */
+    double ddx_dv;    /* (K/s/V) */
+    double ddx_dx;    /* (1/s) */
+} ru_thermal_eval;
+
+void ru_thermal_eval_at(const ru_thermal *t, double v, double rise_k, ru_thermal_eval *e);
+
+/* R(T) and dR/dT for the thermal resistor at rise_k above ambient. Below the
+ * physical range (lamp: 1 + alpha (T - t0) under 1 %; ntc: T under 20 K) the
+ * law continues smoothly (C1) so that wild trial values stay finite. */
+double ru_thermal_resistance(const ru_thermal *t, double rise_k, double *dr_dx);
 
 #endif

@@ -90,6 +90,23 @@ ru_status ru_ld_need_mapping(ld_doc *d, struct fy_node_pair *p, const char *who,
 ru_status ru_ld_run(ld_doc *d, ru_circuit *c, struct fy_node_pair *p, ru_error *err);
 ru_status ru_ld_measure(ld_doc *d, ru_circuit *c, struct fy_node_pair *p, ru_error *err);
 
+/* Reads a preset document's values into part (the sub-struct of the preset's
+ * kind, defaults first); *kind gets the preset kind (an ru_law, or the diode and
+ * thermal-resistor kinds after them); info (may be NULL) gets the listing. */
+ru_status ru_ld_preset_values(ld_doc *pd, const char *who, ru_part *part, int *kind,
+                              ru_model_info *info, ru_error *err);
+
+/* Loads models_dir/NAME.yaml into part (which must be of the type the preset is
+ * for): the part's values of that type are replaced by defaults < preset, and the
+ * model name is recorded. *missing: 1 when the file cannot be read, 2 when the
+ * preset is for another part type (why says which; err is not set), else 0. */
+ru_status ru_ld_preset_into(const char *models_dir, const char *name, ru_part *part,
+                            int *missing, char *why, size_t whylen, ru_error *err);
+
+/* Whether name is a valid preset name (letters, digits, -, _ and ., not
+ * starting with '.'). */
+int ru_ld_valid_preset_name(const char *name);
+
 /* Reads the `parts:` mapping into ctx->c. */
 ru_status ru_ld_parts(ld_ctx *ctx, struct fy_node_pair *parts);
 

@@ -5,6 +5,7 @@
  * Jacobian stamps live in system_stamp.c. */
 #include "system_impl.h"
 
+#include "laws.h"
 #include "wave.h"
 
 #include <lapacke.h>
@@ -121,6 +122,32 @@ static ru_status resolve_supplies(ru_system *s, ru_error *err)
     return st;
 }
 
+int ru_sys_part_nstates(const ru_part *p)
+{
+    if (p->type == RU_PART_THERMAL)
+        return 1;
+    if (p->type == RU_PART_AMPLIFIER) {
+        const ru_law_desc *d = ru_law_get(p->amp.law);
+        return d ? d->nstates : 0;
+    }
+    return 0;
+}
+
+/* Names and numbers the internal states from state k on. */
+static void number_internal(ru_system *s, size_t k)
+{
+    for (size_t i = 0; i < s->nparts; i++) {
+        const ru_part *p = ru_circuit_part(s->c, i);
+        if (!ru_sys_part_nstates(p))
+            continue;
+        const ru_law_desc *d = ru_law_get(p->amp.law);
+        const char *what = p->type == RU_PART_THERMAL ? "rise" : d->state;
+        s->part_state[i] = (int)k;
+        snprintf(s->names[k], RU_STATE_NAME_MAX, "%s.%s", p->name, what);
+        k++;
+    }
+}
+
 static void number_states(ru_system *s)
 {
     size_t k = 0;
@@ -140,6 +167,7 @@ static void number_states(ru_system *s)
             k++;
         }
     }
+    number_internal(s, k);
 }
 
 static void count_states(ru_system *s)
@@ -152,7 +180,9 @@ static void count_states(ru_system *s)
     for (size_t i = 0; i < s->nparts; i++)
         if (ru_circuit_part(s->c, i)->type == RU_PART_INDUCTOR)
             s->nind++;
-    s->nint = 0; /* no law adds states yet (ru_law_desc.nstates) */
+    s->nint = 0;
+    for (size_t i = 0; i < s->nparts; i++)
+        s->nint += (size_t)ru_sys_part_nstates(ru_circuit_part(s->c, i));
     s->n = s->nfree + s->nind + s->nint;
 }
 
@@ -276,7 +306,8 @@ int ru_system_node_state(const ru_system *s, int node)
 
 int ru_system_inductor_state(const ru_system *s, int part)
 {
-    if (part < 0 || (size_t)part >= s->nparts)
+    if (part < 0 || (size_t)part >= s->nparts ||
+        ru_circuit_part(s->c, (size_t)part)->type != RU_PART_INDUCTOR)
         return -1;
     return s->part_state[part];
 }
@@ -362,9 +393,20 @@ static int charge_share(const ru_system *s, double t, int kind, double *x)
     return 1;
 }
 
+/* Internal states at rest: an opamp's vint at rail(0), a thermal rise at 0. */
+static void internal_rest(const ru_system *s, double *x0)
+{
+    for (size_t i = 0; i < s->nparts; i++) {
+        const ru_part *p = ru_circuit_part(s->c, i);
+        if (p->type == RU_PART_AMPLIFIER && ru_sys_part_nstates(p))
+            x0[s->part_state[i]] = ru_law_rest_state(&p->amp);
+    }
+}
+
 ru_status ru_system_initial_state(const ru_system *s, double *x0, ru_error *err)
 {
     memset(x0, 0, s->n * sizeof *x0);
+    internal_rest(s, x0);
     if (!charge_share(s, 0.0, 0, x0))
         return ru_error_set(err, RU_ENOMEM, "", 0, 0, "out of memory");
     const ru_run_opts *ro = ru_circuit_run_opts_const(s->c);
@@ -431,7 +473,10 @@ void ru_system_apply_jump(const ru_system *s, double t, double *x)
  * circuit's whole capacitance (capacitors plus strays) would carry at that
  * voltage, V sqrt(C_total / L), or the largest current source peak when that is
  * larger. C_total overstates a single tank's C when there are several tanks, so
- * the scale errs large by sqrt of that ratio at most. Internal states: 1. */
+ * the scale errs large by sqrt of that ratio at most. Internal states: an
+ * opamp's vint the node-voltage scale or its rails' size, if larger; a thermal
+ * rise the steady rise P rth that the voltage scale across r0 would give, kept
+ * within 1 K .. 1000 K. */
 
 /* Volts: 1 V or the largest supply chain sum, source peak or preset. */
 static double voltage_scale(const ru_system *s)
@@ -471,4 +516,15 @@ void ru_system_state_scale(const ru_system *s, double *scale)
     }
     for (size_t i = s->nfree + s->nind; i < s->n; i++)
         scale[i] = 1.0;
+    for (size_t i = 0; i < s->nparts; i++) {
+        const ru_part *p = ru_circuit_part(s->c, i);
+        if (p->type == RU_PART_INDUCTOR || !ru_sys_part_nstates(p))
+            continue;
+        if (p->type == RU_PART_THERMAL)
+            scale[s->part_state[i]] = fmax(1.0, fmin(1e3, v * v / p->thermal.r0_ohm *
+                                                              p->thermal.rth_k_per_w));
+        else
+            scale[s->part_state[i]] = fmax(v, fmax(fabs(p->amp.vmax_v),
+                                                   fabs(p->amp.vmin_v)));
+    }
 }

@@ -6,8 +6,10 @@
  * drive[k] whose `from` node is ground or a driven node listed earlier in
  * drive_order; free node states are 0..nfree-1 in node order; inductor states
  * follow in part order; cfac holds the Cholesky factor of the nfree x nfree
- * capacitance matrix (column-major lower, L(i,j) = cfac[i + j*nfree]). Nothing
- * changes after ru_system_create returns. */
+ * capacitance matrix (column-major lower, L(i,j) = cfac[i + j*nfree]); internal
+ * states (an opamp's vint, a thermal resistor's rise) follow the inductor
+ * currents in part order, one per such part, with unit mass. Nothing changes after
+ * ru_system_create returns. */
 #ifndef RINGUP_SYSTEM_IMPL_H
 #define RINGUP_SYSTEM_IMPL_H
 
@@ -33,12 +35,12 @@ struct ru_system {
     size_t n;              /* states in all */
     size_t nfree;          /* free node voltages (states 0..nfree-1) */
     size_t nind;           /* inductor currents (states nfree..nfree+nind-1) */
-    size_t nint;           /* internal states of laws (none yet) */
+    size_t nint;           /* internal states (after the inductor currents) */
     int *node_state;       /* per node: state index, RU_NS_GROUND or RU_NS_DRIVEN */
     ru_drive *drive;       /* per node: how a driven node is driven (else unused) */
     int *drive_order;      /* driven nodes, each after the node it hangs from */
     size_t ndriven;        /* entries of drive_order */
-    int *part_state;       /* per part: inductor state index, else -1 */
+    int *part_state;       /* per part: inductor current or internal state, else -1 */
     double *cmat;          /* nfree*nfree capacitance matrix (F), symmetric */
     double *cfac;          /* its Cholesky factor (see above) */
     char (*names)[RU_STATE_NAME_MAX]; /* per state: its name */
@@ -58,6 +60,9 @@ void ru_sys_source(const ru_part *p, const ru_src_eval *e, double *v, double *dv
  * driven nodes (0 for ground and free nodes). */
 void ru_sys_node_values(const ru_system *s, const ru_src_eval *e, const double *x,
                         double *v, double *dv);
+
+/* Internal states part p adds (0 or 1). */
+int ru_sys_part_nstates(const ru_part *p);
 
 /* Solves C y = b in place (b has nfree entries). */
 void ru_sys_csolve(const ru_system *s, double *b);

@@ -5,7 +5,8 @@
  * the capacitors (plus C * dv/dt of a driven node at a capacitor's far end); an
  * inductor's row is di/dt. Rows and columns of ground and driven nodes do not
  * exist and are skipped by the stamp helpers. Every call allocates its own
- * scratch, so one system serves many threads. */
+ * scratch, so one system serves many threads. An internal state's row is its
+ * rate (unit mass): an opamp's dvint/dt, a thermal resistor's d rise/dt. */
 #include "system_impl.h"
 
 #include "laws.h"
@@ -83,29 +84,74 @@ static void stamp_inductor(stamp_ctx *k, const ru_part *p, int st)
     k->dr[(size_t)st * n + (size_t)st] -= p->series_ohm / p->value;
 }
 
-/* The derivative of a current pushed into node `row_node` w.r.t. vc and vo. */
-static void stamp_amp_row(stamp_ctx *k, int row_node, const int *nd, double dvc,
-                          double dvo)
+/* dr[row][col state] += val (row and column are state indices). */
+static void add_ds(stamp_ctx *k, int row, int col, double val)
 {
-    int row = k->s->node_state[row_node];
-    add_dn(k, row, nd[0], dvc);
-    add_dn(k, row, nd[1], dvo);
-    add_dn(k, row, nd[2], -(dvc + dvo));
+    if (row >= 0 && col >= 0 && k->dr)
+        k->dr[(size_t)row * k->s->n + (size_t)col] += val;
 }
 
+/* Derivatives of a quantity on state row `row` w.r.t. vc = v(in) - v(inv) and
+ * vo = v(out) - v(ref); nd holds in, out, ref, inv (inv resolved). */
+static void stamp_amp_dv(stamp_ctx *k, int row, const int *nd, double dvc, double dvo)
+{
+    add_dn(k, row, nd[0], dvc);
+    add_dn(k, row, nd[3], -dvc);
+    add_dn(k, row, nd[1], dvo);
+    add_dn(k, row, nd[2], -dvo);
+}
+
+/* Amplifier: i_out into out and out of ref, i_in into in and out of inv, and the
+ * internal state's row. The skipped part's controlled terms (d i_out/d vc, and
+ * d rate/d vc for a law with a state) are left out of dr. */
 static void stamp_amp(stamp_ctx *k, const ru_part *p, int index)
 {
-    const int *nd = p->node; /* in, out, ref */
-    double vc = k->v[nd[0]] - k->v[nd[2]], vo = k->v[nd[1]] - k->v[nd[2]];
+    const int nd[4] = {p->node[0], p->node[1], p->node[2], ru_part_inv_node(p)};
+    const int *ns = k->s->node_state;
+    double vc = k->v[nd[0]] - k->v[nd[3]], vo = k->v[nd[1]] - k->v[nd[2]];
+    int st = ru_sys_part_nstates(p) ? k->s->part_state[index] : -1;
     ru_law_eval e;
-    ru_law_eval_amp(&p->amp, vc, vo, &e);
+    ru_law_eval_state(&p->amp, vc, vo, st >= 0 ? k->x[st] : 0.0, &e);
     add_r(k, nd[1], e.i_out);
+    add_r(k, nd[2], -e.i_out);
     add_r(k, nd[0], e.i_in);
-    add_r(k, nd[2], -(e.i_out + e.i_in));
-    double gout = index == k->skip_part ? 0.0 : e.di_out_dvc;
-    stamp_amp_row(k, nd[1], nd, gout, e.di_out_dvo);
-    stamp_amp_row(k, nd[0], nd, e.di_in_dvc, e.di_in_dvo);
-    stamp_amp_row(k, nd[2], nd, -(gout + e.di_in_dvc), -(e.di_out_dvo + e.di_in_dvo));
+    add_r(k, nd[3], -e.i_in);
+    int skip = index == k->skip_part;
+    double gout = skip ? 0.0 : e.di_out_dvc;
+    stamp_amp_dv(k, ns[nd[1]], nd, gout, e.di_out_dvo);
+    stamp_amp_dv(k, ns[nd[2]], nd, -gout, -e.di_out_dvo);
+    stamp_amp_dv(k, ns[nd[0]], nd, e.di_in_dvc, e.di_in_dvo);
+    stamp_amp_dv(k, ns[nd[3]], nd, -e.di_in_dvc, -e.di_in_dvo);
+    if (st < 0)
+        return;
+    add_ds(k, ns[nd[1]], st, e.di_out_dxs);
+    add_ds(k, ns[nd[2]], st, -e.di_out_dxs);
+    k->r[st] = e.dxs;
+    stamp_amp_dv(k, st, nd, skip ? 0.0 : e.ddxs_dvc, e.ddxs_dvo);
+    add_ds(k, st, st, e.ddxs_dxs);
+}
+
+static void stamp_diode(stamp_ctx *k, const ru_part *p)
+{
+    double g;
+    double i = ru_diode_current(&p->diode, k->v[p->node[0]] - k->v[p->node[1]], &g);
+    stamp_branch(k, p->node[0], p->node[1], i, g);
+}
+
+/* Thermal resistor: current v/R(rise) a -> b, and the heat balance row. */
+static void stamp_thermal(stamp_ctx *k, const ru_part *p, int st)
+{
+    int a = p->node[0], b = p->node[1];
+    const int *ns = k->s->node_state;
+    ru_thermal_eval e;
+    ru_thermal_eval_at(&p->thermal, k->v[a] - k->v[b], k->x[st], &e);
+    stamp_branch(k, a, b, e.i, e.di_dv);
+    add_ds(k, ns[a], st, -e.di_dx);
+    add_ds(k, ns[b], st, e.di_dx);
+    k->r[st] = e.dx;
+    add_dn(k, st, a, e.ddx_dv);
+    add_dn(k, st, b, -e.ddx_dv);
+    add_ds(k, st, st, e.ddx_dx);
 }
 
 static void stamp_part(stamp_ctx *k, const ru_src_eval *e, size_t i)
@@ -133,6 +179,12 @@ static void stamp_part(stamp_ctx *k, const ru_src_eval *e, size_t i)
         break;
     case RU_PART_AMPLIFIER:
         stamp_amp(k, p, (int)i);
+        break;
+    case RU_PART_DIODE:
+        stamp_diode(k, p);
+        break;
+    case RU_PART_THERMAL:
+        stamp_thermal(k, p, k->s->part_state[i]);
         break;
     default: /* supplies fix nodes and add no row terms */
         break;
@@ -214,25 +266,32 @@ void ru_system_mass(const ru_system *s, double *M)
         M[i * n + i] = 1.0;
 }
 
-/* b: d i_out/d vc of the part on the rows of out (+) and ref (-); g: e_in - e_ref.
- * v holds the node voltages at the DC evaluation point. */
-static void loop_vectors(const ru_system *s, const ru_part *p, const double *v,
+/* b: the controlled terms of the part: d i_out/d vc on the rows of out (+) and
+ * ref (-), and d rate/d vc on its internal state's row; g: e_in - e_inv.
+ * v holds the node voltages at the DC evaluation point, x the states. */
+static void loop_vectors(const ru_system *s, int part, const double *v, const double *x,
                          double *b, double *g)
 {
-    const int *nd = p->node; /* in, out, ref */
+    const ru_part *p = ru_circuit_part(s->c, (size_t)part);
+    const int nd[4] = {p->node[0], p->node[1], p->node[2], ru_part_inv_node(p)};
     memset(b, 0, s->n * sizeof *b);
     memset(g, 0, s->n * sizeof *g);
+    int st = ru_sys_part_nstates(p) ? s->part_state[part] : -1;
     ru_law_eval le;
-    ru_law_eval_amp(&p->amp, v[nd[0]] - v[nd[2]], v[nd[1]] - v[nd[2]], &le);
-    int si = s->node_state[nd[0]], so = s->node_state[nd[1]], sr = s->node_state[nd[2]];
+    ru_law_eval_state(&p->amp, v[nd[0]] - v[nd[3]], v[nd[1]] - v[nd[2]],
+                      st >= 0 ? x[st] : 0.0, &le);
+    int si = s->node_state[nd[0]], so = s->node_state[nd[1]], sr = s->node_state[nd[2]],
+        sn = s->node_state[nd[3]];
     if (so >= 0)
         b[so] += le.di_out_dvc;
     if (sr >= 0)
         b[sr] -= le.di_out_dvc;
+    if (st >= 0)
+        b[st] += le.ddxs_dvc;
     if (si >= 0)
         g[si] += 1.0;
-    if (sr >= 0)
-        g[sr] -= 1.0;
+    if (sn >= 0)
+        g[sn] -= 1.0;
 }
 
 ru_status ru_system_loop_split(const ru_system *s, int part, const double *x,
@@ -251,7 +310,7 @@ ru_status ru_system_loop_split(const ru_system *s, int part, const double *x,
     ru_status st = residual_core(s, &e, x, r, A0, part);
     if (st == RU_OK) {
         ru_sys_node_values(s, &e, x, r + s->n, r + s->n + nn);
-        loop_vectors(s, p, r + s->n, b, g);
+        loop_vectors(s, part, r + s->n, x, b, g);
     }
     free(r);
     if (st != RU_OK)

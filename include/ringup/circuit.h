@@ -24,6 +24,7 @@ extern "C" {
 #define RU_NAME_MAX 64   /* longest part, node or model name, with the NUL */
 #define RU_POLY_MAX 8    /* most coefficients of a poly-conductance (c_0..c_7) */
 #define RU_PRESET_MAX 32 /* most nodes a preset kick may set */
+#define RU_TABLE_MAX 64  /* most points of a `table` amplifier's transfer curve */
 
 typedef struct ru_circuit ru_circuit;
 
@@ -34,11 +35,14 @@ typedef enum {
     RU_PART_SUPPLY,    /* ideal voltage source: v(a) - v(b) = wave(t) */
     RU_PART_CURRENT,   /* ideal current source: wave(t) amps flow a -> b inside it */
     RU_PART_POLY,      /* poly-conductance: i(a->b) = sum coeffs[k] v^k, v = v(a)-v(b) */
-    RU_PART_AMPLIFIER, /* behavioral amplifier: nodes in, out, ref (see ru_amp) */
+    RU_PART_AMPLIFIER, /* behavioral amplifier: nodes in, out, ref, inv (see ru_amp) */
+    RU_PART_DIODE,     /* junction diode: nodes anode, cathode (see ru_diode) */
+    RU_PART_THERMAL,   /* thermal resistor (lamp or NTC): nodes a,b (see ru_thermal) */
     RU_PART_TYPE_COUNT
 } ru_part_type;
 
-/* The file spelling of a part type ("resistor", ..., "poly-conductance"). */
+/* The file spelling of a part type ("resistor", ..., "poly-conductance",
+ * "amplifier", "diode", "thermal-resistor"). */
 const char *ru_part_type_name(ru_part_type t);
 
 typedef enum {
@@ -68,37 +72,123 @@ typedef struct ru_wave {
 typedef enum {
     RU_LAW_FOLLOWER_TANH, /* see ru_amp */
     RU_LAW_EXP_STAGE,
+    RU_LAW_DIFF_PAIR_TANH,
+    RU_LAW_OPAMP,
+    RU_LAW_TABLE,
     RU_LAW_COUNT
 } ru_law;
 
-/* The file spelling of a law ("follower-tanh", "exp-stage"). */
+/* The file spelling of a law ("follower-tanh", "exp-stage", "diff-pair-tanh",
+ * "opamp", "table"). */
 const char *ru_law_name(ru_law law);
 
-/* Parameters of a behavioral amplifier. Voltages of the law are taken relative to
- * the ref node: vc = v(in) - v(ref), vo = v(out) - v(ref).
+/* Parameters of a behavioral amplifier. The control voltage is vc = v(in) - v(inv)
+ * (inv is the inverting input; it is the ref node unless given), the output
+ * voltage vo = v(out) - v(ref). The output current enters out and leaves by ref;
+ * an input current enters in and leaves by inv (KCL holds over the part).
  *
  * follower-tanh: a Thevenin source E = center + gain*swing*tanh((vc - center)/swing)
  *   behind rout from out to ref; the input draws no current.
  * exp-stage: a current ic = is*(exp(vc/(n*vt)) - 1)*tanh(vo/vsat) flows into out
  *   and leaves by ref (a sink at out, as a junction transistor's collector); the
  *   input draws the junction current over beta, is*(exp(vc/(n*vt)) - 1)/beta, from
- *   in to ref; vt = k*T/q at temp_c. The tanh factor is the smooth saturation of
- *   the output only: 1 when vo is well above vsat, 0 at vo = 0. The input is not
+ *   in to inv (ref unless given); vt = k*T/q at temp_c. The tanh factor is the
+ *   smooth saturation of the output only: 1 when vo is well above vsat, 0 at vo = 0. The input is not
  *   reduced by it, so in saturation the junction still clamps the input as a real
- *   base-emitter junction does. */
+ *   base-emitter junction does.
+ * diff-pair-tanh: the long-tailed (emitter-coupled) pair. Its differential output
+ *   current is itail*tanh(vc/(2 n vt)) (Source: the emitter-coupled pair's large-
+ *   signal transfer, e.g. Gray, Hurst, Lewis & Meyer, "Analysis and Design of
+ *   Analog Integrated Circuits", ch. 3; from memory). The current pushed INTO out
+ *   is sign*itail*tanh(vc/(2 n vt)): with a load resistor R from out to ref, sign
+ *   +1 gives a non-inverting stage of small-signal gain +itail*R/(2 n vt), sign -1
+ *   an inverting one. rout (0: none) is an output resistance from out to ref in
+ *   parallel. The inputs draw nothing. ref carries the output current back, so it
+ *   should be gnd or a stiff node; the pair's second input is `inv`.
+ * opamp: a dominant-pole operational amplifier with one internal state, the
+ *   integrator voltage vint (state "PART.vint", volts relative to ref):
+ *     target  = rail(gain*vc),                  the static transfer, rail-limited
+ *     rate_u  = wp*(target - vint),  wp = 2 pi gbw / gain (the open-loop pole)
+ *     dvint/dt = slew*tanh(rate_u/slew)          (smooth slew-rate limit)
+ *   and the output is vint behind rout (i_out = (vint - vo)/rout). Small-signal
+ *   vint/vc = gain/(1 + s/wp): open-loop gain A0/(1 + j f/fp) with fp = gbw/A0
+ *   (Source: the single-pole op-amp model, e.g. Sedra & Smith, "Microelectronic
+ *   Circuits", ch. 2; from memory). rail(u) = vmin + knee*(sp((u - vmin)/knee) -
+ *   sp((u - vmax)/knee)), sp(z) = ln(1 + e^z) (softplus): u between the rails
+ *   passes, beyond them it bends over within a few knee to vmax or vmin. Clamping
+ *   the target rather than the output means vint cannot wind up past the rails,
+ *   as a real output stage does not; it starts at rail(0), its rest with every
+ *   node at 0 V. The inputs draw nothing.
+ * table: a measured static transfer vout = f(vc) from npoints (2..RU_TABLE_MAX)
+ *   points with strictly increasing vin, interpolated by the monotone piecewise
+ *   cubic Hermite curve (Fritsch & Carlson, SIAM J. Numer. Anal. 17 (1980) 238,
+ *   with the weighted-harmonic-mean slopes of Fritsch & Butland (1984), the same
+ *   curve as scipy's PchipInterpolator): C1, and monotone on every interval where
+ *   the data are; beyond the ends it continues linearly with the end slopes. The
+ *   source f(vc) sits behind rout from out to ref; the input draws nothing. */
 typedef struct ru_amp {
     ru_law law;
     char model[RU_NAME_MAX]; /* preset name the values came from, "" when inline */
-    double gain;             /* follower: small-signal gain (V/V) */
+    double gain;             /* follower: small-signal gain (V/V); opamp: DC gain A0 */
     double swing_v;          /* follower: soft-clipping scale (V) */
     double center_v;         /* follower: input and output center (V) */
-    double rout_ohm;         /* follower: output resistance (ohm, > 0) */
+    double rout_ohm;         /* follower, opamp, table: output resistance (ohm, > 0);
+                                diff-pair: parallel output resistance (0: none) */
     double is_a;             /* exp-stage: saturation current (A) */
-    double n;                /* exp-stage: emission coefficient */
+    double n;                /* exp-stage, diff-pair: emission coefficient */
     double beta;             /* exp-stage: current gain ic/ib */
     double vsat_v;           /* exp-stage: saturation knee (V) */
-    double temp_c;           /* exp-stage: junction temperature (degrees C) */
+    double temp_c;           /* exp-stage, diff-pair: junction temperature (deg C) */
+    double itail_a;          /* diff-pair: tail current (A, > 0) */
+    double sign;             /* diff-pair: +1 non-inverting, -1 inverting */
+    double gbw_hz;           /* opamp: gain-bandwidth product (Hz, > 0) */
+    double vmax_v;           /* opamp: upper output rail (V, relative to ref) */
+    double vmin_v;           /* opamp: lower output rail (V, < vmax) */
+    double knee_v;           /* opamp: softness of the rails (V, > 0) */
+    double slew_v_per_s;     /* opamp: slew-rate limit (V/s, > 0) */
+    int npoints;             /* table: points used (2..RU_TABLE_MAX) */
+    double pt_vin[RU_TABLE_MAX];  /* table: input voltages (V), strictly increasing */
+    double pt_vout[RU_TABLE_MAX]; /* table: output voltages (V) */
 } ru_amp;
+
+/* Junction diode (two-terminal part): i(anode -> cathode) = is*(exp(vj/(n vt)) - 1)
+ * with vj = vd - rs*i, vd = v(anode) - v(cathode), vt = kT/q at temp_c (Source:
+ * Shockley's ideal-diode law with series resistance, e.g. Sze, "Physics of
+ * Semiconductor Devices"; from memory). Exponents above 40 continue linearly
+ * (junction-voltage limiting, as the exp-stage). */
+typedef struct ru_diode {
+    char model[RU_NAME_MAX]; /* preset name, "" when inline */
+    double is_a;             /* saturation current (A, > 0) */
+    double n;                /* emission coefficient (> 0) */
+    double rs_ohm;           /* series resistance (ohm, >= 0) */
+    double temp_c;           /* junction temperature (deg C) */
+} ru_diode;
+
+typedef enum {
+    RU_THERMAL_LAMP, /* R = r0*(1 + alpha*(T - t0)): a metal filament */
+    RU_THERMAL_NTC   /* R = r0*exp(bth*(1/T - 1/T0)), T in kelvin: a thermistor */
+} ru_thermal_kind;
+
+/* Thermal resistor (two-terminal part): a resistor whose resistance follows its
+ * own temperature T = tamb + rise. The rise is an internal state ("PART.rise",
+ * kelvin above ambient, 0 at start) obeying the first-order heat balance
+ *   cth d(rise)/dt = v^2/R(T) - rise/rth
+ * (a thermal RC: steady rise P*rth, time constant rth*cth). */
+typedef struct ru_thermal {
+    char model[RU_NAME_MAX]; /* preset name, "" when inline */
+    ru_thermal_kind kind;    /* lamp or ntc */
+    double r0_ohm;           /* resistance at t0 (ohm, > 0) */
+    double alpha_per_k;      /* lamp: temperature coefficient (1/K) */
+    double beta_k;           /* ntc: B constant (K, > 0) */
+    double t0_c;             /* reference temperature of r0 (deg C) */
+    double tamb_c;           /* ambient temperature (deg C) */
+    double rth_k_per_w;      /* thermal resistance to ambient (K/W, > 0) */
+    double cth_j_per_k;      /* heat capacity (J/K, > 0) */
+} ru_thermal;
+
+/* Fills d and t with their defaults (documented in README). */
+void ru_diode_defaults(ru_diode *d);
+void ru_thermal_defaults(ru_thermal *t, ru_thermal_kind kind);
 
 /* Fills a with the law's defaults (documented in README). */
 void ru_amp_defaults(ru_amp *a, ru_law law);
@@ -107,7 +197,8 @@ void ru_amp_defaults(ru_amp *a, ru_law law);
 typedef struct ru_part {
     char name[RU_NAME_MAX];
     ru_part_type type;
-    int node[3];             /* a,b for two-terminal parts; in,out,ref for amplifiers */
+    int node[4];             /* a,b for two-terminal parts; in,out,ref,inv for
+                                amplifiers (inv -1: the same node as ref) */
     double value;            /* R (ohm), C (farad), L (henry); unused otherwise */
     double series_ohm;       /* inductor: series resistance (ohm, >= 0) */
     double tol;              /* relative tolerance for Monte Carlo (0.01 = 1 %) */
@@ -115,10 +206,13 @@ typedef struct ru_part {
     int ncoeffs;             /* number of coefficients used */
     ru_wave wave;            /* supply, current */
     ru_amp amp;              /* amplifier */
+    ru_diode diode;          /* diode */
+    ru_thermal thermal;      /* thermal resistor */
     int line, col;           /* where the part is defined in its file (1-based; 0 none) */
 } ru_part;
 
-/* Fills p with zeros, the type's defaults and ground nodes. */
+/* Fills p with zeros, the type's defaults and ground nodes (an amplifier's inv
+ * is -1: the same as ref). */
 void ru_part_init(ru_part *p, ru_part_type type, const char *name);
 
 typedef enum {
@@ -181,6 +275,14 @@ void ru_circuit_node_place(const ru_circuit *c, int node, int *line, int *col);
  * no two parts of one name). On error err names the part and what is wrong. */
 ru_status ru_circuit_add_part(ru_circuit *c, const ru_part *p, ru_error *err);
 
+/* Replaces part i by p after the same checks (p keeps or changes its name; it
+ * must not take another part's name). For batch runs that swap a model. */
+ru_status ru_circuit_replace_part(ru_circuit *c, size_t i, const ru_part *p,
+                                  ru_error *err);
+
+/* The control-input nodes of an amplifier: in and inv (inv resolved to ref). */
+int ru_part_inv_node(const ru_part *p);
+
 size_t ru_circuit_part_count(const ru_circuit *c);
 const ru_part *ru_circuit_part(const ru_circuit *c, size_t i);
 /* Mutable access for batch runs that change a value; the caller keeps it valid. */
@@ -201,8 +303,9 @@ ru_measure_opts *ru_circuit_measure_opts(ru_circuit *c);
 const ru_measure_opts *ru_circuit_measure_opts_const(const ru_circuit *c);
 
 /* Topology: sets *node to the first node (index >= 1) that has no DC path to ground
- * (through resistors, inductors, supplies, poly-conductances, amplifier outputs
- * and junctions) and returns 1; returns 0 when every node has one. */
+ * (through resistors, inductors, supplies, poly-conductances, diodes, thermal
+ * resistors and amplifier outputs to ref; amplifier inputs do not conduct) and
+ * returns 1; returns 0 when every node has one. */
 int ru_circuit_find_floating_node(const ru_circuit *c, int *node);
 
 /* Warnings gathered while loading (e.g. a node without a DC path); each is a
