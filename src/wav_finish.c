@@ -98,8 +98,20 @@ static double peak_of(const double *y, size_t n)
     return p;
 }
 
-/* DC removal, fade-out, normalization of y (in volts on entry). */
-static void shape(const ru_wav *w, double *y, size_t n, double end_s, ru_wav_info *info)
+/* Largest |x - dc| of the unfiltered probe over the simulated span of the audio. */
+static double raw_peak(const ru_wav *w, double dx_s, size_t frames, double dc)
+{
+    double end = (double)(frames - 1) / w->o.rate_hz, p = 0.0;
+    for (size_t i = 0; i < w->n && (double)i * dx_s <= end * (1.0 + 1e-12); i++)
+        p = fmax(p, fabs(w->x[i] - dc));
+    return p;
+}
+
+/* DC removal, fade-out, normalization of y (in volts on entry). The gain is
+ * level / peak, but at most 1 / (the unfiltered probe's peak): what the filter
+ * removed (a tone above the audio band) is never amplified past full scale. */
+static void shape(const ru_wav *w, double dx_s, double *y, size_t n, double end_s,
+                  ru_wav_info *info)
 {
     double rate = w->o.rate_hz, before = peak_of(y, n);
     double dc = settled_dc(y, n, rate, info->tone_audio_hz, end_s);
@@ -108,10 +120,14 @@ static void shape(const ru_wav *w, double *y, size_t n, double end_s, ru_wav_inf
     info->dc_removed_v = dc;
     info->fade_s = (double)fade_out(y, n, rate, w->o.fade_s) / rate;
     double peak = peak_of(y, n), level = pow(10.0, w->o.level_dbfs / 20.0);
+    double gain = level / peak, cap = 1.0 / raw_peak(w, dx_s, n, dc);
     info->silent = !(peak > RU_WAV_SILENT * before);
-    info->fullscale_v = info->silent ? INFINITY : peak / level;
+    info->level_limited = !info->silent && cap < gain;
+    gain = info->silent ? 0.0 : fmin(gain, cap);
+    info->fullscale_v = info->silent ? INFINITY : 1.0 / gain;
+    info->peak_dbfs = info->silent ? -INFINITY : 20.0 * log10(peak * gain);
     for (size_t i = 0; i < n; i++)
-        y[i] = info->silent ? 0.0 : y[i] * (level / peak);
+        y[i] *= gain;
 }
 
 ru_status ru_wav_finish(ru_wav *w, double tone_hz, const char *path, ru_wav_info *info,
@@ -147,7 +163,7 @@ ru_status ru_wav_finish(ru_wav *w, double tone_hz, const char *path, ru_wav_info
         goto cleanup;
     }
     double end_s = fmin((double)(n - 1) / rate, (double)(w->n - 1) * dx - band.half_s);
-    shape(w, y, n, end_s > 0.5 * (double)(n - 1) / rate ? end_s : (double)(n - 1) / rate,
+    shape(w, dx, y, n, end_s > 0.5 * (double)(n - 1) / rate ? end_s : (double)(n - 1) / rate,
           info);
     st = ru_wav_write_file(path, rate, w->o.format, y, n, err);
 cleanup:

@@ -2,7 +2,8 @@
  *
  * Input: samples x[0..nx) at spacing dx_s of audio time (the simulation spacing
  * times the time scale); output: y[0..ny) at j / rate_hz. Outside [0, nx) the
- * input is held at its first / last value. The kernel is a Kaiser-windowed sinc
+ * input is mirrored about its first / last sample (even extension: the local mean
+ * and the value are continuous there, an ongoing tone's phase is not). The kernel is a Kaiser-windowed sinc
  * (beta for 110 dB) with its stopband edge at half the lower rate; each output is
  * divided by the sum of its weights, so a constant passes exactly. */
 #ifndef RINGUP_WAV_IMPL_H

@@ -62,6 +62,17 @@ static double *kernel_table(void)
     return t;
 }
 
+/* Even extension about the first and the last sample: x[-i] = x[i] and
+ * x[last + i] = x[last - i] (clamped for records shorter than the kernel). */
+static size_t mirror(long i, long last)
+{
+    if (i < 0)
+        i = -i;
+    if (i > last)
+        i = 2 * last - i;
+    return (size_t)(i < 0 ? 0 : (i > last ? last : i));
+}
+
 /* One output sample at input-index coordinate u (z = |u - i| * step). */
 static double one_output(const double *x, size_t nx, const double *tab, double u,
                          double wi, double step)
@@ -74,7 +85,7 @@ static double one_output(const double *x, size_t nx, const double *tab, double u
         if (m >= (size_t)RU_WAV_ZERO * RU_WAV_RES)
             continue;
         double f = p - (double)m, k = tab[m] + f * (tab[m + 1] - tab[m]);
-        acc += k * x[i < 0 ? 0 : (i > last ? last : i)];
+        acc += k * x[mirror(i, last)];
         wsum += k;
     }
     return wsum != 0.0 ? acc / wsum : 0.0;

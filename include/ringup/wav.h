@@ -16,7 +16,8 @@
  *    denser than the audio and the band-limited interpolator when it is sparser.
  *    Passband up to 0.417 x that rate (20 kHz at 48 kHz), stopband from 0.5 x on,
  *    designed for 110 dB; see ru_wav_info.passband_hz. Outside the run the probe
- *    is held at its first / last value (no step is invented at either end).
+ *    is mirrored about its first / last sample (even extension), so no step and
+ *    no DC offset is invented at either end.
  * 2. DC removal: the mean over the last whole number of tone periods (at least one,
  *    about the last 10 % of the audio, ending a filter half-width before the end
  *    of the run's data) is subtracted; without a tone, the mean of the last 10 %.
@@ -27,7 +28,11 @@
  * 4. Peak normalization: the largest sample magnitude is set to level_dbfs
  *    (default -12 dBFS; above -1 dBFS is refused by ru_wav_create). The sample
  *    peak is set; inter-sample peaks of a band-limited tone sit at most a fraction
- *    of a dB higher, which the 1 dB ceiling leaves room for.
+ *    of a dB higher, which the 1 dB ceiling leaves room for. One exception: the
+ *    gain never exceeds the one that would put the unfiltered probe's own peak
+ *    (after DC removal) at 0 dBFS, so a tone the filter removed (above the audio
+ *    band: use a pitch) leaves a near-silent file instead of its residue
+ *    amplified; info.level_limited and info.peak_dbfs say so.
  * 5. Written as "<path>.tmp.<pid>-<i>" in the target folder, renamed onto path when
  *    complete; on any failure the temporary file is removed (RU_EIO names the path
  *    and libsndfile's or the system's reason).
@@ -89,6 +94,9 @@ typedef struct ru_wav_info {
     double fullscale_v;    /* probe volts (after DC removal) that map to 0 dBFS;
                               INFINITY when silent */
     double fade_s;         /* fade-out length used (s) */
+    double peak_dbfs;      /* peak written (dBFS): the level unless level_limited */
+    int level_limited;     /* 1: gain capped (most of the probe lay outside the
+                              audio band, e.g. tone_audio_hz > passband_hz) */
     int truncated;         /* 1: audio cut at RU_WAV_MAX_FRAMES */
     int silent;            /* 1: nothing left after DC removal; zeros written */
     size_t buffer_bytes;   /* memory of the probe buffer (bytes) */
