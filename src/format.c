@@ -33,6 +33,10 @@ char *ru_format_si(double v, const char *unit, int digits, char *buf, size_t siz
     int dec = digits - intdig;
     if (dec < 0)
         dec = 0;
+    /* 9.99996 at 4 digits prints as 10.000: one digit too many after rounding */
+    double scale = pow(10.0, dec);
+    if (dec > 0 && fabs(round(m * scale) / scale) >= pow(10.0, intdig))
+        dec--;
     snprintf(buf, size, "%.*f %s%s", dec, m, prefix[e3 + 5], unit);
     return buf;
 }

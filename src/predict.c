@@ -6,6 +6,7 @@
  * the comparison of measured against predicted figures. */
 #include "analysis_impl.h"
 
+#include "ringup/descfn.h"
 #include "ringup/smallsig.h"
 #include "modes.h"
 
@@ -89,6 +90,26 @@ done:
     free(x0);
 }
 
+/* Settled amplitude by the describing-function method (ringup/descfn.h). */
+static void predict_amplitude(const ru_system *s, const double *x_op, int pos, int neg,
+                              ru_run_report *rep)
+{
+    ru_df_result df;
+    size_t npts = 0;
+    ru_error e;
+    ru_error_clear(&e);
+    if (ru_df_analyse(s, x_op, pos, neg, 0, NULL, 0, &npts, &df, &e) != RU_OK) {
+        ru_report_note(rep, "no amplitude prediction: %s", e.msg);
+        return;
+    }
+    if (!df.found) {
+        ru_report_note(rep, "no amplitude prediction: %s", df.note);
+        return;
+    }
+    rep->pred.settled_amplitude_v = df.settled_amplitude_v;
+    rep->pred.df_frequency_hz = df.frequency_hz;
+}
+
 static ru_status predict_loop(const ru_circuit *c, const ru_system *s, const char *loop,
                               const double *x_op, ru_run_report *rep, ru_error *err)
 {
@@ -117,6 +138,7 @@ ru_status ru_predict(const ru_circuit *c, const ru_system *s, const char *loop_p
     ru_prediction *pr = &rep->pred;
     pr->growth_rate_per_s = pr->frequency_hz = NAN;
     pr->kick_amplitude_v = pr->startup_time_s = pr->settled_amplitude_v = NAN;
+    pr->df_frequency_hz = NAN;
     int floating;
     if (ru_circuit_find_floating_node(c, &floating)) {
         ru_report_note(rep, "no prediction: node %s has no DC path to ground, so there "
@@ -137,6 +159,8 @@ ru_status ru_predict(const ru_circuit *c, const ru_system *s, const char *loop_p
     }
     pr->have_op = 1;
     predict_poles(s, x_op, probe_pos, probe_neg, rep);
+    if (pr->have_poles && pr->growth_rate_per_s > 0)
+        predict_amplitude(s, x_op, probe_pos, probe_neg, rep);
     if (loop_part && loop_part[0])
         st = predict_loop(c, s, loop_part, x_op, rep, err);
 done:
@@ -194,6 +218,14 @@ void ru_selfcheck(ru_run_report *rep)
     if (pr->have_poles && pr->growth_rate_per_s < 0 && m->started)
         ru_report_note(rep, "the poles are in the left half-plane yet the run started: "
                             "a large kick can start a hard-excited oscillator");
+    if (isfinite(pr->settled_amplitude_v) && isfinite(m->settled_amplitude_v) &&
+        fabs(m->settled_amplitude_v / pr->settled_amplitude_v - 1) > 0.05)
+        ru_report_note(rep, "measured amplitude differs from the describing-function "
+                            "prediction by %+.1f %%: that method keeps only the "
+                            "fundamental at every node, so harmonics anywhere in the loop "
+                            "(THD on the probe: %.2g %%) make it approximate",
+                       100 * (m->settled_amplitude_v / pr->settled_amplitude_v - 1),
+                       m->thd_percent);
     if (m->started && !m->settled && m->settle_note[0])
         ru_report_note(rep, "%s", m->settle_note);
     double sn = rep->integrator_damping_per_s, sg = m->growth_rate_per_s;

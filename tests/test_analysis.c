@@ -63,6 +63,9 @@ static void test_van_der_pol(void **state)
     /* Reference: van der Pol, method of averaging: amplitude 2 sqrt(a/(3b)); the
      * next correction is O(eps^2) = 1e-3 relative at most, so 2e-3. */
     RU_ASSERT_REL(r->meas.settled_amplitude_v, amp, 2e-3);
+    /* Reference: the describing function of the cubic gives the same amplitude as
+     * averaging, exactly (one-harmonic balance of a cubic): 1e-9. */
+    RU_ASSERT_REL(r->pred.settled_amplitude_v, amp, 1e-9);
     /* Reference: van der Pol limit-cycle frequency w0 (1 - eps^2/16 + O(eps^4))
      * (Lindstedt-Poincare expansion, from memory): the correction is 6.2e-5, and
      * the next term is O(eps^4) = 1e-6; 1e-5 relative separates the two. */

@@ -42,7 +42,8 @@ typedef struct ru_prediction {
     double frequency_hz;          /* = dominant.im_rad_per_s / (2 pi) */
     double kick_amplitude_v;      /* dominant-mode amplitude on the probe at t = 0 */
     double startup_time_s;        /* from growth rate, kick size and settled level */
-    double settled_amplitude_v;   /* from the describing function (NAN until then) */
+    double settled_amplitude_v;   /* from the describing function (ringup/descfn.h) */
+    double df_frequency_hz;       /* tone frequency where the describing function settles */
     int have_loop;                /* loop gain evaluated */
     char loop_part[RU_NAME_MAX];
     ru_loop_summary loop;

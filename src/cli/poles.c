@@ -1,6 +1,7 @@
 /* poles.c: `ringup poles FILE`: operating point, poles, dominant pair, loop gain. */
 #include "cli.h"
 
+#include "ringup/descfn.h"
 #include "ringup/format.h"
 #include "ringup/json.h"
 #include "ringup/smallsig.h"
@@ -19,7 +20,33 @@ typedef struct poles_result {
     int loop_part;      /* -1: none */
     ru_loop_summary loop;
     int have_loop;
+    int probe_pos, probe_neg; /* probe for the amplitude curve */
+    ru_df_point *curve;       /* describing-function curve (--amplitude), or NULL */
+    size_t ncurve;
+    ru_df_result df;
 } poles_result;
+
+#define CURVE_MAX 200
+
+static void print_curve(const ru_circuit *c, const poles_result *p)
+{
+    char a[40], b[40];
+    const char *pn = ru_circuit_node_name(c, p->probe_pos);
+    printf("\ndominant pair against the amplitude on %s (describing function):\n", pn);
+    printf("  %-14s %-16s %s\n", "amplitude", "growth rate", "frequency");
+    size_t stride = p->ncurve > 30 ? p->ncurve / 30 : 1;
+    for (size_t i = 0; i < p->ncurve; i += stride)
+        printf("  %-14s %-+16.6g %s\n", ru_format_si(p->curve[i].amplitude_v, "V", 4, a, sizeof a),
+               p->curve[i].growth_rate_per_s,
+               ru_format_si(p->curve[i].frequency_hz, "Hz", 6, b, sizeof b));
+    if (p->df.found)
+        printf("predicted settled amplitude: %s at %s (where the growth rate reaches 0)\n",
+               ru_format_si(p->df.settled_amplitude_v, "V", 5, a, sizeof a),
+               ru_format_si(p->df.frequency_hz, "Hz", 6, b, sizeof b));
+    if (p->df.note[0])
+        printf("note: %s\n", p->df.note);
+    printf("(an approximation where the tone carries strong harmonics or a law has memory)\n");
+}
 
 static void print_text(const ru_circuit *c, const poles_result *p)
 {
@@ -47,6 +74,8 @@ static void print_text(const ru_circuit *c, const poles_result *p)
     } else {
         printf("\nno complex pole pair: nothing here oscillates\n");
     }
+    if (p->curve)
+        print_curve(c, p);
     if (p->have_loop) {
         const ru_part *pt = ru_circuit_part(c, (size_t)p->loop_part);
         if (p->loop.found)
@@ -86,6 +115,22 @@ static void print_json(const ru_circuit *c, const poles_result *p)
     } else {
         ru_json_null(&j, "dominant");
     }
+    if (p->curve) {
+        ru_json_begin_array(&j, "amplitude_curve");
+        for (size_t i = 0; i < p->ncurve; i++) {
+            ru_json_begin_object(&j, NULL);
+            ru_json_number(&j, "amplitude_v", p->curve[i].amplitude_v);
+            ru_json_number(&j, "growth_rate_per_s", p->curve[i].growth_rate_per_s);
+            ru_json_number(&j, "frequency_hz", p->curve[i].frequency_hz);
+            ru_json_end_object(&j);
+        }
+        ru_json_end_array(&j);
+        ru_json_begin_object(&j, "predicted");
+        ru_json_number(&j, "settled_amplitude_v", p->df.found ? p->df.settled_amplitude_v : NAN);
+        ru_json_number(&j, "frequency_hz", p->df.found ? p->df.frequency_hz : NAN);
+        ru_json_string(&j, "note", p->df.note);
+        ru_json_end_object(&j);
+    }
     if (p->have_loop) {
         ru_json_begin_object(&j, "loop");
         ru_json_string(&j, "part", ru_circuit_part(c, (size_t)p->loop_part)->name);
@@ -96,6 +141,27 @@ static void print_json(const ru_circuit *c, const poles_result *p)
     }
     ru_json_end_object(&j);
     ru_json_finish(&j);
+}
+
+/* The probe of the file's measure section, or the first free node. */
+static void pick_probe(const ru_circuit *c, poles_result *p)
+{
+    const ru_measure_opts *mo = ru_circuit_measure_opts_const(c);
+    p->probe_pos = mo->probe_pos;
+    p->probe_neg = mo->probe_pos >= 0 ? mo->probe_neg : 0;
+    for (size_t i = 1; p->probe_pos < 0 && i < ru_circuit_node_count(c); i++)
+        if (ru_system_node_state(p->sys, (int)i) >= 0)
+            p->probe_pos = (int)i;
+}
+
+static ru_status amplitude_curve(const ru_circuit *c, poles_result *p, ru_error *err)
+{
+    pick_probe(c, p);
+    if (p->probe_pos < 0)
+        return ru_error_set(err, RU_EINPUT, ru_circuit_file(c), 0, 0,
+                            "no free node to probe for the amplitude curve");
+    return ru_df_analyse(p->sys, p->x, p->probe_pos, p->probe_neg, 0, p->curve, CURVE_MAX,
+                         &p->ncurve, &p->df, err);
 }
 
 static ru_status compute(const ru_circuit *c, const char *loop, poles_result *p,
@@ -123,6 +189,8 @@ static ru_status compute(const ru_circuit *c, const char *loop, poles_result *p,
     if ((st = ru_poles_compute(p->sys, p->x, p->poles, err)) != RU_OK)
         return st;
     p->dom = ru_poles_dominant(p->poles, n);
+    if (p->curve && (st = amplitude_curve(c, p, err)) != RU_OK)
+        return st;
     if (!loop || !loop[0])
         return RU_OK;
     p->loop_part = ru_circuit_find_part(c, loop);
@@ -139,6 +207,9 @@ static ru_status compute(const ru_circuit *c, const char *loop, poles_result *p,
 int cmd_poles(int argc, char **argv)
 {
     cli_opt opts[] = {{"loop", "PART", "amplifier whose loop gain is reported", NULL},
+                      {"amplitude", NULL,
+                       "how the dominant pair drifts as the amplitude grows (describing "
+                       "function) and the predicted settled amplitude", NULL},
                       {"json", NULL, "print JSON on stdout (keys in README)", NULL},
                       {NULL, NULL, NULL, NULL}};
     const char *file;
@@ -159,6 +230,10 @@ int cmd_poles(int argc, char **argv)
     const char *loop = cli_get(opts, "loop");
     if (!loop)
         loop = ru_circuit_measure_opts_const(c)->loop;
+    if (cli_get(opts, "amplitude") && !(p.curve = calloc(CURVE_MAX, sizeof *p.curve))) {
+        ru_circuit_destroy(c);
+        return 2;
+    }
     ru_status st = compute(c, loop, &p, &err);
     if (st != RU_OK)
         rc = cli_fail(&err);
@@ -168,6 +243,7 @@ int cmd_poles(int argc, char **argv)
         print_text(c, &p);
     free(p.x);
     free(p.poles);
+    free(p.curve);
     ru_system_destroy(p.sys);
     ru_circuit_destroy(c);
     return rc;

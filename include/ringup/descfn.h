@@ -1,0 +1,78 @@
+/* ringup/descfn.h: amplitude prediction by the describing-function method.
+ *
+ * The oscillation is taken as one sinusoid on a DC level in every state,
+ *   x(t) = x0 + Re(X e^{(sigma + j w) t}),
+ * and the network's currents are balanced at DC and at the fundamental only (the
+ * describing function of every nonlinear part at once, found by a numerical Fourier
+ * integral over one cycle of the actual laws; harmonic balance of order one):
+ *   mean over the cycle of r(x(theta))                    = 0          (DC)
+ *   2 x mean of r(x(theta)) e^{-j theta}                  = (sigma + j w) M X
+ * with the probe's phasor fixed to the amplitude A (real). For each A this gives the
+ * growth rate sigma(A), the frequency w(A) and the DC shift x0(A): how the dominant
+ * pole pair drifts back to the jw axis as the oscillation grows. The settled
+ * amplitude is where sigma(A) = 0. For a cubic conductance this is exactly the
+ * method of averaging (van der Pol: 2 sqrt(a/(3b))).
+ *
+ * Where it is only an approximation: strong harmonics (hard clipping, a stage
+ * driven into saturation: the tone is not one sinusoid), and laws with memory
+ * whose state moves at twice the tone's frequency (a lamp's filament is heated at
+ * 2w; only its DC temperature is balanced here). Amplitudes are of the fundamental
+ * (peak); the measured envelope is half the peak-to-peak, which differs when
+ * harmonics are strong. */
+#ifndef RINGUP_DESCFN_H
+#define RINGUP_DESCFN_H
+
+#include "ringup/circuit.h"
+#include "ringup/status.h"
+#include "ringup/system.h"
+
+#include <stddef.h>
+
+#ifdef __cplusplus
+extern "C" {
+#endif
+
+typedef struct ru_df_point {
+    double amplitude_v;        /* fundamental amplitude on the probe (peak, V) */
+    double growth_rate_per_s;  /* sigma(A) */
+    double frequency_hz;       /* w(A) / (2 pi) */
+    double dc_shift_v;         /* probe DC level at that amplitude minus at A -> 0 */
+} ru_df_point;
+
+typedef struct ru_df_result {
+    int found;                 /* 1: sigma(A) crosses 0 in the range searched */
+    double settled_amplitude_v;/* A where sigma = 0 (NAN when not found) */
+    double frequency_hz;       /* w there / (2 pi) */
+    double dc_level_v;         /* probe DC level there */
+    char note[256];            /* why not found, or a caveat; "" otherwise */
+} ru_df_result;
+
+/* Sweeps the probe amplitude from a small value (the linear limit) up to amp_max_v
+ * (0: 100x the largest supply or 100 V), on a geometric grid of at most max_pts
+ * points (curve may be NULL), stops past the zero of sigma, and refines the zero.
+ * x_op is the operating point; probe_pos/probe_neg are node indices (neg 0 for
+ * ground). *npts gets the number of curve points written. */
+ru_status ru_df_analyse(const ru_system *s, const double *x_op, int probe_pos,
+                        int probe_neg, double amp_max_v, ru_df_point *curve,
+                        size_t max_pts, size_t *npts, ru_df_result *res, ru_error *err);
+
+/* A memoryless scalar law y = f(x) for ru_df_gain. */
+typedef double (*ru_df_law_fn)(void *user, double x);
+
+/* Sinusoidal-input describing function of f around the bias x0 at amplitude a:
+ *   N(a) = (1/(pi a)) integral_0^{2 pi} f(x0 + a sin t) sin t dt
+ * (the fundamental's in-phase gain; for a memoryless law there is no quadrature
+ * part), by the trapezoid rule over `samples` points (exact for polynomials of
+ * degree below samples - 1; a law with kinks converges as 1/samples^2). */
+double ru_df_gain(ru_df_law_fn f, void *user, double x0, double a, int samples);
+
+/* The describing function of an amplifier's law: the output current's in-phase
+ * fundamental over the control amplitude a (a transconductance, A/V) with the
+ * control voltage vc = vc0 + a sin t and the output held at vo0. For a law that
+ * is a voltage source behind rout (follower-tanh), that is N_voltage / rout. */
+double ru_df_amp_gain(const struct ru_amp *amp, double vc0_v, double vo0_v, double a_v);
+
+#ifdef __cplusplus
+}
+#endif
+#endif
