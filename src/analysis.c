@@ -21,6 +21,7 @@ void ru_run_request_default(ru_run_request *rq)
     memset(rq, 0, sizeof *rq);
     rq->accuracy = -1;
     rq->tol_scale = 1.0;
+    ru_wav_opts_default(&rq->wav);
 }
 
 void ru_report_note(ru_run_report *rep, const char *fmt, ...)
@@ -41,6 +42,7 @@ typedef struct run_sink {
     ru_csv *csv;            /* NULL when no file is written */
     ru_measure *meas;
     ru_energy_balance *energy;
+    ru_wav *wav;            /* NULL when no audio is written */
 } run_sink;
 
 static ru_status sink_sample(void *user, double t_s, const double *x, size_t n)
@@ -52,6 +54,8 @@ static ru_status sink_sample(void *user, double t_s, const double *x, size_t n)
     double v = ru_system_node_voltage(k->sys, k->probe_pos, t_s, x) -
                ru_system_node_voltage(k->sys, k->probe_neg, t_s, x);
     if ((st = ru_measure_push(k->meas, t_s, v)) != RU_OK)
+        return st;
+    if (k->wav && (st = ru_wav_push(k->wav, t_s, v)) != RU_OK)
         return st;
     if (k->energy)
         ru_energy_balance_push(k->energy, t_s, x);
@@ -98,6 +102,32 @@ static double choose_sample(const ru_run_request *rq, const ru_run_opts *ro,
     return stop_s / 20000.0;
 }
 
+/* The WAV sink, planned from the run's spacing, length and predicted tone. */
+static ru_status wav_open(const ru_run_request *rq, const ru_run_report *rep,
+                          ru_wav **out, ru_error *err)
+{
+    ru_wav_opts wo = rq->wav;
+    wo.sample_s = rep->sample_s;
+    wo.stop_s = rep->stop_s;
+    wo.tone_hint_hz = rep->pred.have_poles && rep->pred.frequency_hz > 0
+                          ? rep->pred.frequency_hz
+                          : 0;
+    return ru_wav_create(&wo, out, err);
+}
+
+/* Writes the audio with the measured tone (the predicted one when none was
+ * measured): a pitch maps that tone onto the asked pitch. */
+static ru_status wav_finish(ru_wav *w, const ru_run_request *rq, ru_run_report *rep,
+                            ru_error *err)
+{
+    double tone = rep->meas.frequency_hz;
+    if (!(isfinite(tone) && tone > 0) && rep->pred.have_poles)
+        tone = rep->pred.frequency_hz;
+    ru_status st = ru_wav_finish(w, tone, rq->wav_path, &rep->wav, err);
+    rep->have_wav = st == RU_OK;
+    return st;
+}
+
 static ru_status run_transient(const ru_circuit *c, const ru_system *sys,
                                const ru_run_request *rq, ru_run_report *rep,
                                int probe_pos, int probe_neg, ru_error *err)
@@ -139,6 +169,8 @@ static ru_status run_transient(const ru_circuit *c, const ru_system *sys,
     }
     if (ru_energy_balance_create(sys, rep->stop_s, &k.energy) != RU_OK)
         k.energy = NULL; /* the estimate is optional */
+    if (rq->wav_path && (st = wav_open(rq, rep, &k.wav, err)) != RU_OK)
+        goto cleanup;
     if (rq->out_dir) {
         snprintf(path, sizeof path, "%s/wave.csv", rq->out_dir);
         if ((st = ru_csv_open(sys, path, &k.csv, err)) != RU_OK)
@@ -163,7 +195,10 @@ static ru_status run_transient(const ru_circuit *c, const ru_system *sys,
         if (k.energy)
             rep->integrator_damping_per_s = ru_energy_balance_damping(k.energy);
     }
+    if (st == RU_OK && k.wav)
+        st = wav_finish(k.wav, rq, rep, err);
 cleanup:
+    ru_wav_destroy(k.wav);
     if (k.csv)
         ru_csv_close(k.csv, 0, NULL);
     ru_energy_balance_destroy(k.energy);

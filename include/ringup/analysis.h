@@ -13,6 +13,7 @@
 #include "ringup/smallsig.h"
 #include "ringup/status.h"
 #include "ringup/transient.h"
+#include "ringup/wav.h"
 
 #ifdef __cplusplus
 extern "C" {
@@ -25,6 +26,9 @@ typedef struct ru_run_request {
     int accuracy;          /* -1: the file's; else an ru_accuracy */
     double tol_scale;      /* multiplies rtol and atol (1 normally; 0.1 for --verify) */
     const char *loop_part; /* overrides measure.loop when not NULL */
+    const char *wav_path;  /* probe audio file (ringup/wav.h); NULL writes none */
+    ru_wav_opts wav;       /* its rate, format, level, pitch, length; sample_s,
+                              stop_s and tone_hint_hz are filled in by the run */
 } ru_run_request;
 
 /* Fills rq with "use the file's settings". */
@@ -62,9 +66,12 @@ typedef struct ru_run_report {
     int nnotes;
     char notes[RU_MAX_NOTES][RU_NOTE_MAX * 2]; /* self-check remarks, one line each */
     int partial;                  /* 1: the transient stopped early (numerical failure) */
+    int have_wav;                 /* 1: the WAV file was written */
+    ru_wav_info wav;              /* what the WAV export did */
 } ru_run_report;
 
-/* Runs the analysis. Returns RU_OK, RU_EINPUT (bad probe, etc.), RU_EIO (csv),
+/* Runs the analysis. Returns RU_OK, RU_EINPUT (bad probe, etc.), RU_ERANGE (WAV
+ * options, checked before the transient), RU_EIO (csv, wav),
  * or RU_ENUMERIC (report keeps what was measured up to the failure). */
 ru_status ru_analysis_run(const ru_circuit *c, const ru_run_request *rq,
                           ru_run_report *rep, ru_error *err);

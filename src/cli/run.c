@@ -147,7 +147,21 @@ void cli_json_run_body(ru_json *j, const ru_run_report *r)
     ru_json_end_object(j);
 }
 
-static void print_json(const ru_run_report *r, int partial)
+static void json_wav(ru_json *j, const char *path, const ru_run_report *r)
+{
+    if (!r->have_wav)
+        return;
+    ru_json_begin_object(j, "wav");
+    ru_json_string(j, "path", path);
+    ru_json_number(j, "seconds", r->wav.seconds);
+    ru_json_number(j, "time_scale", r->wav.time_scale);
+    ru_json_number(j, "tone_audio_hz", r->wav.tone_audio_hz);
+    ru_json_number(j, "peak_dbfs", r->wav.peak_dbfs);
+    ru_json_bool(j, "level_limited", r->wav.level_limited);
+    ru_json_end_object(j);
+}
+
+static void print_json(const ru_run_report *r, int partial, const char *wav_path)
 {
     ru_json j;
     ru_json_init(&j, stdout, 1);
@@ -172,6 +186,7 @@ static void print_json(const ru_run_report *r, int partial)
         ru_json_end_object(&j);
     }
     ru_json_number(&j, "integrator_damping_per_s", r->integrator_damping_per_s);
+    json_wav(&j, wav_path, r);
     ru_json_bool(&j, "partial", partial);
     ru_json_number(&j, "t_reached_s", r->solver.t_reached_s);
     ru_json_begin_array(&j, "notes");
@@ -255,6 +270,7 @@ static int verify(const ru_circuit *c, const ru_run_request *rq, const ru_run_re
     ru_run_request tight = *rq;
     tight.tol_scale = rq->tol_scale * 0.1;
     tight.out_dir = NULL;
+    tight.wav_path = NULL;
     tight.sample_s = r->sample_s;
     ru_run_report *r2 = malloc(sizeof *r2);
     ru_error err;
@@ -276,6 +292,60 @@ static int verify(const ru_circuit *c, const ru_run_request *rq, const ru_run_re
     return 0;
 }
 
+/* --wav and its options; range checks (level above -1 dBFS, ...) are the
+ * library's (ru_wav_create, before the transient runs). */
+static int set_wav(const cli_opt *opts, ru_run_request *rq)
+{
+    rq->wav_path = cli_get(opts, "wav");
+    ru_wav_opts *w = &rq->wav;
+    if (!cli_value(opts, "wav-rate", "Hz", &w->rate_hz) ||
+        !cli_value(opts, "wav-level", NULL, &w->level_dbfs) ||
+        !cli_value(opts, "wav-pitch", "Hz", &w->pitch_hz) ||
+        !cli_value(opts, "wav-seconds", "s", &w->max_seconds))
+        return 0;
+    if (cli_get(opts, "wav-float"))
+        w->format = RU_WAV_FLOAT;
+    if (cli_get(opts, "wav-pitch") && !(w->pitch_hz > 0)) {
+        fprintf(stderr, "ringup: option --wav-pitch must be positive\n");
+        return 0;
+    }
+    if (cli_get(opts, "wav-seconds") && !(w->max_seconds > 0)) {
+        fprintf(stderr, "ringup: option --wav-seconds must be positive\n");
+        return 0;
+    }
+    if (!rq->wav_path && (cli_get(opts, "wav-rate") || cli_get(opts, "wav-level") ||
+                          cli_get(opts, "wav-pitch") || cli_get(opts, "wav-seconds") ||
+                          cli_get(opts, "wav-float"))) {
+        fprintf(stderr, "ringup: the --wav-* options need --wav FILE\n");
+        return 0;
+    }
+    return 1;
+}
+
+/* What the audio holds, and the caution to turn the volume down. */
+static void print_wav(const ru_run_request *rq, const ru_run_report *r)
+{
+    const ru_wav_info *w = &r->wav;
+    char a[40], b[40];
+    printf("wrote %s: %.3f s, %s, %.0f Hz mono, peak %.1f dBFS", rq->wav_path,
+           w->seconds, rq->wav.format == RU_WAV_FLOAT ? "32-bit float" : "24-bit PCM",
+           rq->wav.rate_hz, w->peak_dbfs);
+    if (w->time_scale != 1.0)
+        printf(", time stretched %.4gx", w->time_scale);
+    if (isfinite(w->tone_audio_hz))
+        printf(", tone at %s", ru_format_si(w->tone_audio_hz, "Hz", 4, a, sizeof a));
+    printf("\n");
+    printf("caution: the start-up can be loud and sudden; turn the volume down "
+           "before playing the file\n");
+    if (w->level_limited || (isfinite(w->tone_audio_hz) && w->tone_audio_hz > w->passband_hz))
+        printf("note: the tone lies above the audio band (%s): the file is nearly silent; "
+               "use --wav-pitch\n", ru_format_si(w->passband_hz, "Hz", 3, b, sizeof b));
+    if (w->truncated)
+        printf("note: the audio was cut at %.0f s; use --wav-seconds\n", w->seconds);
+    if (w->silent)
+        printf("note: the probe carries no signal after DC removal: the file is silent\n");
+}
+
 static int set_request(const cli_opt *opts, ru_run_request *rq)
 {
     ru_run_request_default(rq);
@@ -291,6 +361,8 @@ static int set_request(const cli_opt *opts, ru_run_request *rq)
         fprintf(stderr, "ringup: option --sample must be positive\n");
         return 0;
     }
+    if (!set_wav(opts, rq))
+        return 0;
     const char *acc = cli_get(opts, "accuracy");
     if (acc) {
         static const char *const names[] = {"draft", "normal", "precise"};
@@ -315,6 +387,12 @@ int cmd_run(int argc, char **argv)
         {"accuracy", "LEVEL", "draft, normal or precise (default: the file's)", NULL},
         {"loop", "PART", "amplifier whose loop gain is reported", NULL},
         {"verify", NULL, "rerun at 10x tighter tolerances and show what moved", NULL},
+        {"wav", "FILE", "write the probe as mono audio (WAV); lower the volume before playing", NULL},
+        {"wav-rate", "HZ", "audio sample rate (default 48000)", NULL},
+        {"wav-float", NULL, "32-bit float samples instead of 24-bit PCM", NULL},
+        {"wav-level", "DB", "peak level in dBFS, -1 at most (default -12)", NULL},
+        {"wav-pitch", "HZ", "stretch time so the settled tone plays at HZ", NULL},
+        {"wav-seconds", "T", "audio length cap (default: the whole run, stretched)", NULL},
         {"expect-start-within", "T", "exit 4 unless it starts within T", NULL},
         {"expect-amplitude", "LO:HI", "exit 4 unless the settled amplitude is in LO..HI", NULL},
         {"expect-thd-below", "P", "exit 4 unless THD is below P (e.g. 1%)", NULL},
@@ -358,12 +436,17 @@ int cmd_run(int argc, char **argv)
         rc = 2;
     }
     if (json)
-        print_json(r, st == RU_ENUMERIC);
+        print_json(r, st == RU_ENUMERIC, rq.wav_path);
+    if (json && r->have_wav)
+        fprintf(stderr, "caution: the start-up can be loud and sudden; turn the volume "
+                        "down before playing the file\n");
     else
         print_text(c, r, auto_sample);
     if (st == RU_OK && !json && rq.out_dir) {
         printf("wrote %s/wave.csv\n", rq.out_dir);
     }
+    if (st == RU_OK && !json && r->have_wav)
+        print_wav(&rq, r);
     if (rc == 0 && cli_get(opts, "verify") && !json)
         rc = verify(c, &rq, r);
     if (rc == 0 && !check_expectations(&ex, &r->meas))
