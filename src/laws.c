@@ -6,8 +6,8 @@
  * exp-stage: ic = is*(limexp(vc/(n vt)) - 1)*tanh(vo/vsat) sinks into out,
  *   so i_out = -ic; the base current ic/beta sinks into in, i_in = -ic/beta.
  * diff-pair-tanh: i_out = sign*itail*tanh(vc/(2 n vt)) - vo/rout (rout 0: none).
- * opamp: state vint; dvint/dt = slew*tanh(wp*(rail(gain vc) - vint)/slew),
- *   i_out = (vint - vo)/rout.
+ * opamp: state vint; dvint/dt = slew*tanh(wt vc/slew) - wp vint - K(vint),
+ *   i_out = (rail(vint) - vo)/rout.
  * table: i_out = (f(vc) - vo)/rout, f the monotone cubic through the points.
  * Every derivative is analytic; tests/test_laws.c checks each against central
  * differences. */
@@ -114,21 +114,33 @@ double ru_law_rail(const ru_amp *a, double u, double *deriv)
     return a->vmin_v + k * (lo - hi);
 }
 
+/* The opamp's anti-windup force K(v) = slew*(sp((v - hi)/knee) - sp((lo - v)/knee))
+ * with the band hi = vmax + RU_OPAMP_BAND knee, lo = vmin - RU_OPAMP_BAND knee;
+ * *dk = dK/dv. */
+static double opamp_clamp(const ru_amp *a, double v, double *dk)
+{
+    double k = a->knee_v, band = RU_OPAMP_BAND * k, dhi, dlo;
+    double hi = softplus((v - a->vmax_v - band) / k, &dhi);
+    double lo = softplus((a->vmin_v - band - v) / k, &dlo);
+    *dk = a->slew_v_per_s / k * (dhi + dlo);
+    return a->slew_v_per_s * (hi - lo);
+}
+
 static void law_opamp(const ru_amp *a, double vc, double vo, double xs, ru_law_eval *e)
 {
     double wp = 2.0 * RU_PI_LAW * a->gbw_hz / a->gain; /* open-loop pole (rad/s) */
-    double dtgt;
-    double tgt = ru_law_rail(a, a->gain * vc, &dtgt);
-    double z = wp * (tgt - xs) / a->slew_v_per_s;
-    double th = tanh(z), sech2 = 1.0 - th * th;
+    double wt = 2.0 * RU_PI_LAW * a->gbw_hz;             /* unity-gain (rad/s) */
+    double th = tanh(wt * vc / a->slew_v_per_s), dk, drail;
+    double k = opamp_clamp(a, xs, &dk);
+    double emf = ru_law_rail(a, xs, &drail);
     double g = 1.0 / a->rout_ohm;
     law_zero(e);
-    e->i_out = (xs - vo) * g;
+    e->i_out = (emf - vo) * g;
     e->di_out_dvo = -g;
-    e->di_out_dxs = g;
-    e->dxs = a->slew_v_per_s * th;
-    e->ddxs_dvc = wp * a->gain * dtgt * sech2;
-    e->ddxs_dxs = -wp * sech2;
+    e->di_out_dxs = drail * g;
+    e->dxs = a->slew_v_per_s * th - wp * xs - k;
+    e->ddxs_dvc = wt * (1.0 - th * th);
+    e->ddxs_dxs = -wp - dk;
 }
 
 /* Slope of the monotone cubic at point j (scipy PchipInterpolator's rule). */
@@ -225,8 +237,28 @@ const ru_law_desc *ru_law_get(ru_law law)
 
 double ru_law_rest_state(const ru_amp *a)
 {
-    double d;
-    return a->law == RU_LAW_OPAMP ? ru_law_rail(a, 0.0, &d) : 0.0;
+    if (a->law != RU_LAW_OPAMP)
+        return 0.0;
+    /* wp v + K(v) = 0: increasing in v, so Newton from 0 with a bracket. */
+    double wp = 2.0 * RU_PI_LAW * a->gbw_hz / a->gain, v = 0.0, dk;
+    double lo = a->vmin_v - (RU_OPAMP_BAND + 40.0) * a->knee_v;
+    double hi = a->vmax_v + (RU_OPAMP_BAND + 40.0) * a->knee_v;
+    lo = fmin(lo, 0.0);
+    hi = fmax(hi, 0.0);
+    for (int it = 0; it < 200; it++) {
+        double f = wp * v + opamp_clamp(a, v, &dk);
+        if (f > 0)
+            hi = v;
+        else
+            lo = v;
+        double nv = v - f / (wp + dk);
+        if (!(nv > lo && nv < hi))
+            nv = 0.5 * (lo + hi);
+        if (fabs(nv - v) <= 1e-15 * (fabs(v) + a->knee_v))
+            return nv;
+        v = nv;
+    }
+    return v;
 }
 
 int ru_law_eval_state(const ru_amp *a, double vc_v, double vo_v, double xs,

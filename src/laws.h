@@ -32,6 +32,10 @@
 
 #define RU_PI_LAW 3.14159265358979323846
 
+/* The opamp's integrator is held within its rails widened by this many knees on
+ * each side (anti-windup; see circuit.h). */
+#define RU_OPAMP_BAND 20.0
+
 typedef struct ru_law_eval {
     double i_out;      /* current pushed into the out node (A) */
     double di_out_dvc; /* d i_out / d vc (S): the controlled (transconductance) term */
@@ -68,7 +72,8 @@ int ru_law_eval_state(const ru_amp *a, double vc_v, double vo_v, double xs,
 int ru_law_eval_amp(const ru_amp *a, double vc_v, double vo_v, ru_law_eval *e);
 
 /* Initial value of the law's internal state: its rest with every node at 0 V
- * (opamp: rail(0)); 0 for a law without a state. */
+ * (opamp: the root of wp v + K(v) = 0, within 1e-15 relative; 0 V for rails
+ * far from 0); 0 for a law without a state. */
 double ru_law_rest_state(const ru_amp *a);
 
 /* Thermal voltage kT/q (V) at temp_c degrees Celsius. */

@@ -105,20 +105,26 @@ const char *ru_law_name(ru_law law);
  *   an inverting one. rout (0: none) is an output resistance from out to ref in
  *   parallel. The inputs draw nothing. ref carries the output current back, so it
  *   should be gnd or a stiff node; the pair's second input is `inv`.
- * opamp: a dominant-pole operational amplifier with one internal state, the
- *   integrator voltage vint (state "PART.vint", volts relative to ref):
- *     target  = rail(gain*vc),                  the static transfer, rail-limited
- *     rate_u  = wp*(target - vint),  wp = 2 pi gbw / gain (the open-loop pole)
- *     dvint/dt = slew*tanh(rate_u/slew)          (smooth slew-rate limit)
- *   and the output is vint behind rout (i_out = (vint - vo)/rout). Small-signal
- *   vint/vc = gain/(1 + s/wp): open-loop gain A0/(1 + j f/fp) with fp = gbw/A0
- *   (Source: the single-pole op-amp model, e.g. Sedra & Smith, "Microelectronic
- *   Circuits", ch. 2; from memory). rail(u) = vmin + knee*(sp((u - vmin)/knee) -
- *   sp((u - vmax)/knee)), sp(z) = ln(1 + e^z) (softplus): u between the rails
- *   passes, beyond them it bends over within a few knee to vmax or vmin. Clamping
- *   the target rather than the output means vint cannot wind up past the rails,
- *   as a real output stage does not; it starts at rail(0), its rest with every
- *   node at 0 V. The inputs draw nothing.
+ * opamp: a dominant-pole operational amplifier (two-stage macro model) with one
+ *   internal state, the integrator voltage vint (state "PART.vint", volts
+ *   relative to ref):
+ *     dvint/dt = slew*tanh(wt*vc/slew) - wp*vint - K(vint)
+ *     wt = 2 pi gbw (unity-gain frequency), wp = wt/gain (the open-loop pole)
+ *   and the output is rail(vint) behind rout: i_out = (rail(vint) - vo)/rout.
+ *   Small signal: vint/vc = gain/(1 + s/wp), the open-loop gain A0/(1 + j f/fp)
+ *   with fp = gbw/A0 (Source: the single-pole op-amp model, e.g. Sedra & Smith,
+ *   "Microelectronic Circuits", ch. 2; from memory). Large signal: the input
+ *   stage saturates, so |dvint/dt| stays below slew (smooth slew-rate limit).
+ *   rail(u) = vmin + knee*(sp((u - vmin)/knee) - sp((u - vmax)/knee)), sp(z) =
+ *   ln(1 + e^z) (softplus): u between the rails passes, beyond them it bends over
+ *   within a few knee to vmax or vmin (rail(vmax) = vmax - knee ln 2). K is the
+ *   anti-windup force, slew*(sp((vint - vmax - 20 knee)/knee) - sp((vmin - 20 knee
+ *   - vint)/knee)): negligible inside the rails widened by 20 knees, it holds vint
+ *   there once driven, so a driven-out output recovers after 20 knee/slew or
+ *   less, not after unwinding a huge integrator. DC: vint = gain*vc while inside
+ *   that band, so the static transfer is rail(gain*vc). vint starts at its rest
+ *   with every node at 0 V (0 V unless a rail is within 20 knees of 0). The
+ *   inputs draw nothing.
  * table: a measured static transfer vout = f(vc) from npoints (2..RU_TABLE_MAX)
  *   points with strictly increasing vin, interpolated by the monotone piecewise
  *   cubic Hermite curve (Fritsch & Carlson, SIAM J. Numer. Anal. 17 (1980) 238,
