@@ -3,7 +3,9 @@
  * differences of rhs for the analytic Jacobian, hand-solved DC points (Ohm's
  * and Kirchhoff's laws), charge conservation Q = C V at supply jumps, KVL along
  * supply chains, the mass matrix stamped by hand, and the identity
- * dr/dx = A0 + b g^T of the loop split (A0 stamped separately). */
+ * dr/dx = A0 + b g^T of the loop split (A0 stamped separately). New laws and
+ * parts: finite differences in every region, a follower's pole at GBW, and a
+ * lamp's step response against the first-order thermal RC. */
 #include "ru_test.h"
 
 #include "ringup/system.h"
@@ -737,6 +739,224 @@ static void test_loop_split(void **state)
     ru_circuit_destroy(c);
 }
 
+
+/* ---- new laws and parts: Jacobian, internal states, loop split ----------------- */
+
+/* Every new law and part: a diff pair (ref on gnd, inv on a free node), an opamp
+ * (inverting input on the output divider), a table stage, a diode with rs, a lamp
+ * and an NTC. States: the free nodes, then i(L1), then A2.vint, RT1.rise, RT2.rise. */
+static ru_circuit *new_parts_circuit(void)
+{
+    ru_circuit *c;
+    assert_int_equal(ru_circuit_create("new parts", &c), RU_OK);
+    ru_part p;
+    add2(c, RU_PART_SUPPLY, "VS", "vcc", "gnd", 12.0, NULL);
+    add2(c, RU_PART_RESISTOR, "R1", "vcc", "d1", 4.7e3, NULL);
+    add2(c, RU_PART_RESISTOR, "R2", "op", "fb", 10e3, NULL);
+    add2(c, RU_PART_RESISTOR, "R3", "fb", "gnd", 4.7e3, NULL);
+    add2(c, RU_PART_CAPACITOR, "C1", "d1", "x", 10e-9, NULL);
+    add2(c, RU_PART_INDUCTOR, "L1", "x", "gnd", 1e-3, NULL);
+    ru_part_init(&p, RU_PART_AMPLIFIER, "A1"); /* diff pair x - fb into d1 */
+    ru_amp_defaults(&p.amp, RU_LAW_DIFF_PAIR_TANH);
+    p.amp.rout_ohm = 20e3;
+    p.node[0] = node(c, "x");
+    p.node[1] = node(c, "d1");
+    p.node[3] = node(c, "fb");
+    add_part(c, &p);
+    ru_part_init(&p, RU_PART_AMPLIFIER, "A2"); /* opamp x - fb into op */
+    ru_amp_defaults(&p.amp, RU_LAW_OPAMP);
+    p.amp.vmax_v = 5.0;
+    p.amp.vmin_v = -4.0;
+    p.amp.knee_v = 0.1;
+    p.amp.slew_v_per_s = 1e6;
+    p.node[0] = node(c, "x");
+    p.node[1] = node(c, "op");
+    p.node[3] = node(c, "fb");
+    add_part(c, &p);
+    ru_part_init(&p, RU_PART_AMPLIFIER, "A3"); /* table op -> tb */
+    ru_amp_defaults(&p.amp, RU_LAW_TABLE);
+    const double xs[] = {-2.0, -0.5, 0.0, 0.6, 2.0}, ys[] = {-1.0, -0.45, 0.0, 0.5, 0.8};
+    p.amp.npoints = 5;
+    for (int i = 0; i < 5; i++) {
+        p.amp.pt_vin[i] = xs[i];
+        p.amp.pt_vout[i] = ys[i];
+    }
+    p.node[0] = node(c, "op");
+    p.node[1] = node(c, "tb");
+    add_part(c, &p);
+    add2(c, RU_PART_DIODE, "D1", "tb", "dk", 0.0, &p);
+    p.diode.rs_ohm = 10.0;
+    p.diode.n = 1.5;
+    add_part(c, &p);
+    add2(c, RU_PART_RESISTOR, "R4", "dk", "gnd", 1e3, NULL);
+    add2(c, RU_PART_THERMAL, "RT1", "op", "lp", 0.0, &p);
+    ru_thermal_defaults(&p.thermal, RU_THERMAL_LAMP);
+    p.thermal.cth_j_per_k = 1e-3;
+    p.thermal.rth_k_per_w = 500.0;
+    add_part(c, &p);
+    add2(c, RU_PART_THERMAL, "RT2", "lp", "gnd", 0.0, &p);
+    ru_thermal_defaults(&p.thermal, RU_THERMAL_NTC);
+    p.thermal.r0_ohm = 200.0;
+    p.thermal.cth_j_per_k = 1e-3;
+    add_part(c, &p);
+    return c;
+}
+
+static int state_named(const ru_system *s, const char *name)
+{
+    for (size_t i = 0; i < ru_system_size(s); i++)
+        if (strcmp(ru_system_state_name(s, i), name) == 0)
+            return (int)i;
+    fail_msg("no state %s", name);
+    return -1;
+}
+
+static void test_new_parts_jacobian(void **state)
+{
+    (void)state;
+    ru_circuit *c = new_parts_circuit();
+    ru_system *s = make(c);
+    size_t n = ru_system_size(s), nf = ru_system_free_nodes(s);
+    assert_int_equal(n, nf + 4); /* i(L1), A2.vint, RT1.rise, RT2.rise */
+    int sv = state_named(s, "A2.vint"), s1 = state_named(s, "RT1.rise"),
+        s2 = state_named(s, "RT2.rise");
+    assert_int_equal(sv, (int)nf + 1); /* internal states after the inductor current */
+    assert_int_equal(s1, (int)nf + 2);
+    assert_int_equal(s2, (int)nf + 3);
+    assert_int_equal(ru_system_inductor_state(s, ru_circuit_find_part(c, "RT1")), -1);
+    double *x = calloc(n, sizeof *x);
+    int sx = ru_system_node_state(s, ru_circuit_find_node(c, "x"));
+    int sfb = ru_system_node_state(s, ru_circuit_find_node(c, "fb"));
+    int sop = ru_system_node_state(s, ru_circuit_find_node(c, "op"));
+    int stb = ru_system_node_state(s, ru_circuit_find_node(c, "tb"));
+    int sdk = ru_system_node_state(s, ru_circuit_find_node(c, "dk"));
+    /* regions: {x, fb, op, vint, rise1, rise2, tb, dk}: linear and cold; opamp at
+     * the upper rail and slew-limited, lamp hot; lower rail, diode reverse;
+     * diode forward and limited (tb - dk = 3 V), table beyond both ends, NTC hot */
+    const double pts[][8] = {{1e-4, 0.0, 0.1, 0.2, 0.0, 0.0, 0.05, 0.0},
+                             {0.3, -0.2, 4.9, 5.3, 400.0, 20.0, 1.2, 0.3},
+                             {-0.4, 0.1, -3.9, -4.1, 50.0, 300.0, -1.5, 0.5},
+                             {0.01, 0.0, 2.5, 2.4, 1500.0, 5.0, 3.5, 0.5},
+                             {-2e-5, 1e-5, -2.5, -2.6, 0.0, 60.0, 0.7, 0.0}};
+    unsigned long seed = 99;
+    for (size_t k = 0; k < 5; k++) {
+        for (size_t i = 0; i < n; i++)
+            x[i] = 0.1 * lcg(&seed);
+        x[sx] = pts[k][0];
+        x[sfb] = pts[k][1];
+        x[sop] = pts[k][2];
+        x[sv] = pts[k][3];
+        x[s1] = pts[k][4];
+        x[s2] = pts[k][5];
+        x[stb] = pts[k][6];
+        x[sdk] = pts[k][7];
+        check_jacobian(s, 1e-3, x);
+        check_split(s, ru_circuit_find_part(c, "A1"), x);
+        check_split(s, ru_circuit_find_part(c, "A2"), x);
+        if (fabs(pts[k][2]) < 2.0) /* beyond the table's ends its slope may be 0 */
+            check_split(s, ru_circuit_find_part(c, "A3"), x);
+    }
+    /* The opamp's split: b sits on its vint row only (its output current does
+     * not depend on vc), g is e_x - e_fb (in minus inv). */
+    double *A0 = calloc(n * n, sizeof *A0), *b = calloc(n, sizeof *b), *g = calloc(n, sizeof *g);
+    assert_int_equal(ru_system_loop_split(s, ru_circuit_find_part(c, "A2"), x, A0, b, g, NULL),
+                     RU_OK);
+    for (size_t i = 0; i < n; i++) {
+        if ((int)i != sv)
+            RU_ASSERT_NEAR(b[i], 0.0, 0.0);
+        RU_ASSERT_NEAR(g[i], (int)i == sx ? 1.0 : (int)i == sfb ? -1.0 : 0.0, 0.0);
+    }
+    assert_true(b[sv] > 0.0);
+    /* initial state: internal states at rest, vint = 0 for rails far from 0 */
+    assert_int_equal(ru_system_initial_state(s, x, NULL), RU_OK);
+    RU_ASSERT_NEAR(x[sv], 0.0, 1e-12);
+    RU_ASSERT_NEAR(x[s1], 0.0, 0.0);
+    /* scales: vint in volts (rails 5 V or the 12 V supply), rises in kelvin
+     * (P rth at 12 V on r0: 144/50*500 = 1440 K, capped at 1000 K) */
+    double *sc = calloc(n, sizeof *sc);
+    ru_system_state_scale(s, sc);
+    RU_ASSERT_NEAR(sc[sv], 12.0, 0.0);
+    RU_ASSERT_NEAR(sc[s1], 1000.0, 0.0);
+    free(sc); free(A0); free(b); free(g); free(x);
+    ru_system_destroy(s);
+    ru_circuit_destroy(c);
+}
+
+/* A unity follower (out fed back to inv) on the general opamp model: the
+ * closed-loop pole sits at GBW. */
+static void test_opamp_follower_pole(void **state)
+{
+    (void)state;
+    ru_circuit *c;
+    assert_int_equal(ru_circuit_create("follower", &c), RU_OK);
+    add2(c, RU_PART_SUPPLY, "VS", "in", "gnd", 0.0, NULL);
+    add2(c, RU_PART_RESISTOR, "RL", "o", "gnd", 1e6, NULL);
+    ru_part p;
+    ru_part_init(&p, RU_PART_AMPLIFIER, "A1");
+    ru_amp_defaults(&p.amp, RU_LAW_OPAMP);
+    p.amp.gain = 1e5;
+    p.amp.gbw_hz = 2e6;
+    p.amp.rout_ohm = 50.0;
+    p.node[0] = node(c, "in");
+    p.node[1] = node(c, "o");
+    p.node[3] = node(c, "o");
+    add_part(c, &p);
+    ru_system *s = make(c);
+    assert_int_equal(ru_system_size(s), 2); /* o, A1.vint */
+    double x[2] = {0, 0}, J[4];
+    assert_int_equal(ru_system_jacobian(s, 0.0, x, J), RU_OK);
+    double tr = J[0] + J[3], det = J[0] * J[3] - J[1] * J[2];
+    double disc = sqrt(tr * tr - 4 * det);
+    double slow = (tr + disc) / 2; /* the pole nearer the origin */
+    /* Reference: closed-loop bandwidth of a unity-gain follower equals the GBW
+     * for A0 >> 1 (single-pole op-amp: pole at wp (1 + A0 beta), beta = 1;
+     * Sedra & Smith ch. 2, from memory). Departures: 1/A0 = 1e-5, rout/RL =
+     * 5e-5 and the coupling to the output node's own pole at 1/(rout * 1 pF)
+     * = 2e10 /s, i.e. 2 pi GBW / 2e10 = 6e-4: tolerance 1e-3. */
+    RU_ASSERT_REL(-slow / (2 * M_PI), 2e6, 1e-3);
+    ru_system_destroy(s);
+    ru_circuit_destroy(c);
+}
+
+/* Lamp with alpha 0 (a constant resistor) stepped onto a DC supply: the rise
+ * follows P rth (1 - exp(-t/(rth cth))). Integrated here by the classic RK4
+ * on ru_system_rhs (the thermal row is the only slow state). */
+static void test_thermal_step(void **state)
+{
+    (void)state;
+    ru_circuit *c;
+    assert_int_equal(ru_circuit_create("lamp", &c), RU_OK);
+    add2(c, RU_PART_SUPPLY, "VS", "a", "gnd", 2.0, NULL);
+    ru_part p;
+    add2(c, RU_PART_THERMAL, "RT1", "a", "gnd", 0.0, &p);
+    p.thermal.alpha_per_k = 0.0;
+    p.thermal.r0_ohm = 100.0;
+    p.thermal.rth_k_per_w = 800.0;
+    p.thermal.cth_j_per_k = 1e-3;
+    add_part(c, &p);
+    ru_system *s = make(c);
+    assert_int_equal(ru_system_size(s), 1); /* RT1.rise only: a is driven */
+    double x = 0.0, tau = 800.0 * 1e-3, dt = tau / 2000.0, t = 0.0;
+    for (int k = 0; k < 2000; k++) { /* to t = tau */
+        double k1, k2, k3, k4, y;
+        ru_system_rhs(s, t, &x, &k1);
+        y = x + dt / 2 * k1;
+        ru_system_rhs(s, t + dt / 2, &y, &k2);
+        y = x + dt / 2 * k2;
+        ru_system_rhs(s, t + dt / 2, &y, &k3);
+        y = x + dt * k3;
+        ru_system_rhs(s, t + dt, &y, &k4);
+        x += dt / 6 * (k1 + 2 * k2 + 2 * k3 + k4);
+        t += dt;
+    }
+    /* Reference: first-order thermal RC, steady rise P rth = (4/100) 800 = 32 K,
+     * time constant rth cth = 0.8 s: 32 (1 - e^-1) at t = tau. RK4's error
+     * (dt/tau)^4 = 4e-14 and the sum of 2000 steps' rounding: 1e-10. */
+    RU_ASSERT_REL(x, 32.0 * (1.0 - exp(-1.0)), 1e-10);
+    ru_system_destroy(s);
+    ru_circuit_destroy(c);
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
@@ -756,6 +976,9 @@ int main(void)
         cmocka_unit_test(test_preset),
         cmocka_unit_test(test_state_scale),
         cmocka_unit_test(test_loop_split),
+        cmocka_unit_test(test_new_parts_jacobian),
+        cmocka_unit_test(test_opamp_follower_pole),
+        cmocka_unit_test(test_thermal_step),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }
