@@ -43,6 +43,7 @@ typedef struct run_sink {
     ru_measure *meas;
     ru_energy_balance *energy;
     ru_wav *wav;            /* NULL when no audio is written */
+    ru_trace *trace;        /* NULL when no picture is wanted */
 } run_sink;
 
 static ru_status sink_sample(void *user, double t_s, const double *x, size_t n)
@@ -56,6 +57,8 @@ static ru_status sink_sample(void *user, double t_s, const double *x, size_t n)
     if ((st = ru_measure_push(k->meas, t_s, v)) != RU_OK)
         return st;
     if (k->wav && (st = ru_wav_push(k->wav, t_s, v)) != RU_OK)
+        return st;
+    if (k->trace && (st = ru_trace_push(k->trace, t_s, v)) != RU_OK)
         return st;
     if (k->energy)
         ru_energy_balance_push(k->energy, t_s, x);
@@ -128,6 +131,21 @@ static ru_status wav_finish(ru_wav *w, const ru_run_request *rq, ru_run_report *
     return st;
 }
 
+static ru_status keep_envelope(ru_run_data *d, const ru_measure *m)
+{
+    const double *t, *a;
+    size_t n;
+    ru_measure_envelope(m, &t, &a, &n);
+    d->env_t_s = malloc((n ? n : 1) * sizeof *t);
+    d->env_v = malloc((n ? n : 1) * sizeof *a);
+    if (!d->env_t_s || !d->env_v)
+        return RU_ENOMEM;
+    memcpy(d->env_t_s, t, n * sizeof *t);
+    memcpy(d->env_v, a, n * sizeof *a);
+    d->nenv = n;
+    return RU_OK;
+}
+
 static ru_status run_transient(const ru_circuit *c, const ru_system *sys,
                                const ru_run_request *rq, ru_run_report *rep,
                                int probe_pos, int probe_neg, ru_error *err)
@@ -171,6 +189,13 @@ static ru_status run_transient(const ru_circuit *c, const ru_system *sys,
         k.energy = NULL; /* the estimate is optional */
     if (rq->wav_path && (st = wav_open(rq, rep, &k.wav, err)) != RU_OK)
         goto cleanup;
+    if (rq->keep) {
+        if ((st = ru_trace_create(rep->stop_s, 0, &rq->keep->trace)) != RU_OK) {
+            ru_error_set(err, st, NULL, 0, 0, "cannot set up the waveform trace");
+            goto cleanup;
+        }
+        k.trace = rq->keep->trace;
+    }
     if (rq->out_dir) {
         snprintf(path, sizeof path, "%s/wave.csv", rq->out_dir);
         if ((st = ru_csv_open(sys, path, &k.csv, err)) != RU_OK)
@@ -192,6 +217,8 @@ static ru_status run_transient(const ru_circuit *c, const ru_system *sys,
     }
     if (st == RU_OK || st == RU_ENUMERIC) {
         ru_measure_finish(k.meas, &rep->meas);
+        if (rq->keep && keep_envelope(rq->keep, k.meas) != RU_OK)
+            st = ru_error_set(err, RU_ENOMEM, NULL, 0, 0, "out of memory");
         if (k.energy)
             rep->integrator_damping_per_s = ru_energy_balance_damping(k.energy);
     }
@@ -247,7 +274,9 @@ ru_status ru_analysis_run(const ru_circuit *c, const ru_run_request *rq,
     rep->stop_s = rq->stop_s > 0 ? rq->stop_s : ro->stop_s;
     rep->startup_level = ru_circuit_measure_opts_const(c)->startup_level;
     const char *loop = rq->loop_part ? rq->loop_part : ru_circuit_measure_opts_const(c)->loop;
-    if ((st = ru_predict(c, sys, loop, pos, neg, rep, err)) != RU_OK)
+    if (rq->keep)
+        ru_run_data_reset(rq->keep);
+    if ((st = ru_predict(c, sys, loop, pos, neg, rep, rq->keep, err)) != RU_OK)
         goto done;
     rep->sample_s = choose_sample(rq, ro, &rep->pred, rep->stop_s);
     if ((st = check_size(c, rep, err)) != RU_OK)
@@ -258,4 +287,53 @@ ru_status ru_analysis_run(const ru_circuit *c, const ru_run_request *rq,
 done:
     ru_system_destroy(sys);
     return st;
+}
+
+ru_status ru_run_data_create(ru_run_data **out)
+{
+    *out = calloc(1, sizeof **out);
+    if (!*out)
+        return RU_ENOMEM;
+    (*out)->dominant = -1;
+    return RU_OK;
+}
+
+void ru_run_data_reset(ru_run_data *d)
+{
+    ru_trace_destroy(d->trace);
+    free(d->env_t_s);
+    free(d->env_v);
+    free(d->poles);
+    memset(d, 0, sizeof *d);
+    d->dominant = -1;
+}
+
+void ru_run_data_destroy(ru_run_data *d)
+{
+    if (!d)
+        return;
+    ru_run_data_reset(d);
+    free(d);
+}
+
+void ru_run_data_get(const ru_run_data *d, ru_run_data_view *v)
+{
+    memset(v, 0, sizeof *v);
+    v->dominant = -1;
+    if (!d)
+        return;
+    if (d->trace)
+        ru_trace_get(d->trace, &v->trace);
+    v->nenv = d->nenv;
+    v->env_t_s = d->env_t_s;
+    v->env_v = d->env_v;
+    v->npoles = d->npoles;
+    v->poles = d->poles;
+    v->dominant = d->dominant;
+    v->nloop = d->nloop;
+    v->loop_f_hz = d->loop_f_hz;
+    v->loop_mag = d->loop_mag;
+    v->loop_phase_deg = d->loop_phase_deg;
+    v->ndf = d->ndf;
+    v->df = d->df;
 }

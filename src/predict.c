@@ -53,8 +53,17 @@ done:
     return amp;
 }
 
+static void keep_poles(ru_run_data *keep, const ru_pole *poles, size_t n, int d)
+{
+    if (!keep || !(keep->poles = malloc(n * sizeof *poles)))
+        return;
+    memcpy(keep->poles, poles, n * sizeof *poles);
+    keep->npoles = n;
+    keep->dominant = d;
+}
+
 static void predict_poles(const ru_system *s, const double *x_op, int pos, int neg,
-                          ru_run_report *rep)
+                          ru_run_report *rep, ru_run_data *keep)
 {
     size_t n = ru_system_size(s);
     ru_prediction *pr = &rep->pred;
@@ -69,6 +78,7 @@ static void predict_poles(const ru_system *s, const double *x_op, int pos, int n
         goto done;
     }
     int d = ru_poles_dominant(poles, n);
+    keep_poles(keep, poles, n, d);
     if (d < 0) {
         ru_report_note(rep, "no complex pole pair at the operating point: the "
                             "small-signal model has no oscillation to predict");
@@ -92,13 +102,17 @@ done:
 
 /* Settled amplitude by the describing-function method (ringup/descfn.h). */
 static void predict_amplitude(const ru_system *s, const double *x_op, int pos, int neg,
-                              ru_run_report *rep)
+                              ru_run_report *rep, ru_run_data *keep)
 {
     ru_df_result df;
     size_t npts = 0;
     ru_error e;
     ru_error_clear(&e);
-    if (ru_df_analyse(s, x_op, pos, neg, 0, NULL, 0, &npts, &df, &e) != RU_OK) {
+    ru_status st = ru_df_analyse(s, x_op, pos, neg, 0, keep ? keep->df : NULL,
+                                 keep ? RU_RUN_DATA_DF_MAX : 0, &npts, &df, &e);
+    if (keep)
+        keep->ndf = npts;
+    if (st != RU_OK) {
         ru_report_note(rep, "no amplitude prediction: %s", e.msg);
         return;
     }
@@ -111,7 +125,8 @@ static void predict_amplitude(const ru_system *s, const double *x_op, int pos, i
 }
 
 static ru_status predict_loop(const ru_circuit *c, const ru_system *s, const char *loop,
-                              const double *x_op, ru_run_report *rep, ru_error *err)
+                              const double *x_op, ru_run_report *rep, ru_run_data *keep,
+                              ru_error *err)
 {
     int part = ru_circuit_find_part(c, loop);
     if (part < 0 || ru_circuit_part(c, (size_t)part)->type != RU_PART_AMPLIFIER)
@@ -123,17 +138,21 @@ static ru_status predict_loop(const ru_circuit *c, const ru_system *s, const cha
     ru_error e;
     ru_error_clear(&e);
     snprintf(pr->loop_part, sizeof pr->loop_part, "%s", loop);
-    if (ru_loopgain_sweep(s, part, x_op, fmin, fmax, 601, NULL, NULL, NULL, &pr->loop,
-                          &e) != RU_OK) {
+    if (ru_loopgain_sweep(s, part, x_op, fmin, fmax, RU_RUN_DATA_LOOP_POINTS,
+                          keep ? keep->loop_f_hz : NULL, keep ? keep->loop_mag : NULL,
+                          keep ? keep->loop_phase_deg : NULL, &pr->loop, &e) != RU_OK) {
         ru_report_note(rep, "loop gain of %s not evaluated: %s", loop, e.msg);
         return RU_OK;
     }
     pr->have_loop = 1;
+    if (keep)
+        keep->nloop = RU_RUN_DATA_LOOP_POINTS;
     return RU_OK;
 }
 
 ru_status ru_predict(const ru_circuit *c, const ru_system *s, const char *loop_part,
-                     int probe_pos, int probe_neg, ru_run_report *rep, ru_error *err)
+                     int probe_pos, int probe_neg, ru_run_report *rep, ru_run_data *keep,
+                     ru_error *err)
 {
     ru_prediction *pr = &rep->pred;
     pr->growth_rate_per_s = pr->frequency_hz = NAN;
@@ -158,11 +177,11 @@ ru_status ru_predict(const ru_circuit *c, const ru_system *s, const char *loop_p
         goto done;
     }
     pr->have_op = 1;
-    predict_poles(s, x_op, probe_pos, probe_neg, rep);
+    predict_poles(s, x_op, probe_pos, probe_neg, rep, keep);
     if (pr->have_poles && pr->growth_rate_per_s > 0)
-        predict_amplitude(s, x_op, probe_pos, probe_neg, rep);
+        predict_amplitude(s, x_op, probe_pos, probe_neg, rep, keep);
     if (loop_part && loop_part[0])
-        st = predict_loop(c, s, loop_part, x_op, rep, err);
+        st = predict_loop(c, s, loop_part, x_op, rep, keep, err);
 done:
     free(x_op);
     return st;

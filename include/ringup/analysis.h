@@ -13,11 +13,42 @@
 #include "ringup/smallsig.h"
 #include "ringup/status.h"
 #include "ringup/transient.h"
+#include "ringup/descfn.h"
+#include "ringup/plot.h"
 #include "ringup/wav.h"
 
 #ifdef __cplusplus
 extern "C" {
 #endif
+
+/* What a run keeps for pictures: the decimated probe waveform, the envelope, every
+ * pole, the loop-gain sweep and the describing-function curve. Caller-owned; hand
+ * it to a run through ru_run_request.keep. Memory is bounded (2000 trace columns,
+ * one envelope point per cycle, 601 loop points, 200 curve points). */
+typedef struct ru_run_data ru_run_data;
+
+#define RU_RUN_DATA_LOOP_POINTS 601 /* loop-gain sweep points kept */
+#define RU_RUN_DATA_DF_MAX 200      /* describing-function curve points kept, at most */
+
+/* Constructor / destructor (NULL is harmless). */
+ru_status ru_run_data_create(ru_run_data **out);
+void ru_run_data_destroy(ru_run_data *d);
+
+typedef struct ru_run_data_view {
+    ru_trace_view trace;        /* probe min/max per column (n = 0: none) */
+    size_t nenv;                /* envelope points */
+    const double *env_t_s, *env_v;
+    size_t npoles;              /* every pole at the operating point (0: none) */
+    const ru_pole *poles;
+    int dominant;               /* index of the dominant pair (im > 0) or -1 */
+    size_t nloop;               /* loop-gain sweep points (0: none) */
+    const double *loop_f_hz, *loop_mag, *loop_phase_deg;
+    size_t ndf;                 /* describing-function curve points (0: none) */
+    const ru_df_point *df;
+} ru_run_data_view;
+
+/* Read-only view, valid until the data is destroyed or used for another run. */
+void ru_run_data_get(const ru_run_data *d, ru_run_data_view *v);
 
 typedef struct ru_run_request {
     const char *out_dir;   /* folder for wave.csv; NULL writes no file */
@@ -26,6 +57,7 @@ typedef struct ru_run_request {
     int accuracy;          /* -1: the file's; else an ru_accuracy */
     double tol_scale;      /* multiplies rtol and atol (1 normally; 0.1 for --verify) */
     const char *loop_part; /* overrides measure.loop when not NULL */
+    ru_run_data *keep;     /* filled for pictures when not NULL */
     const char *wav_path;  /* probe audio file (ringup/wav.h); NULL writes none */
     ru_wav_opts wav;       /* its rate, format, level, pitch, length; sample_s,
                               stop_s and tone_hint_hz are filled in by the run */

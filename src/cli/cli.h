@@ -52,6 +52,30 @@ int cli_load(const char *file, int quiet, ru_circuit **out);
 /* The run keys of DESIGN.md (measured, predicted, solver) into an open object. */
 void cli_json_run_body(ru_json *j, const ru_run_report *r);
 
+/* --plots DIR, --plot-format FMT, --report FILE of a command. */
+typedef struct cli_plot_req {
+    const char *dir;     /* NULL: no figure files */
+    const char *format;  /* png (default), svg, pdf */
+    const char *report;  /* NULL: no report */
+} cli_plot_req;
+
+/* The options every plotting command offers (append to its table). */
+#define CLI_PLOT_OPTS                                                               \
+    {"plots", "DIR", "write the figures into DIR", NULL},                         \
+        {"plot-format", "FMT", "png (default), svg or pdf", NULL},                \
+        {"report", "FILE", "one-file report: FILE.pdf (pages) or FILE.html", NULL}
+
+/* Reads and checks the plot options before any simulation work (an unknown
+ * format or an unwritable folder is refused at once); returns 0 or an exit status. */
+int cli_plot_check(const cli_opt *opts, cli_plot_req *pr);
+
+/* Figures and report of a run (data from ru_run_request.keep). */
+int cli_plot_run(const cli_plot_req *pr, const ru_circuit *c, const ru_run_report *r,
+                 const ru_run_data *data);
+
+/* Figures and a report of any prepared set. */
+int cli_plot_set(const cli_plot_req *pr, const char *title, const ru_plot_set *set);
+
 /* Creates folder dir (and parents) if missing; returns 0 or exit status 3. */
 int cli_make_dir(const char *dir);
 

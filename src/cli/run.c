@@ -271,6 +271,7 @@ static int verify(const ru_circuit *c, const ru_run_request *rq, const ru_run_re
     tight.tol_scale = rq->tol_scale * 0.1;
     tight.out_dir = NULL;
     tight.wav_path = NULL;
+    tight.keep = NULL;
     tight.sample_s = r->sample_s;
     ru_run_report *r2 = malloc(sizeof *r2);
     ru_error err;
@@ -397,6 +398,7 @@ int cmd_run(int argc, char **argv)
         {"expect-amplitude", "LO:HI", "exit 4 unless the settled amplitude is in LO..HI", NULL},
         {"expect-thd-below", "P", "exit 4 unless THD is below P (e.g. 1%)", NULL},
         {"json", NULL, "print JSON on stdout (keys in README)", NULL},
+        CLI_PLOT_OPTS,
         {NULL, NULL, NULL, NULL}};
     const char *file;
     int rc = cli_parse(argc, argv, "ringup run FILE [options]",
@@ -417,6 +419,15 @@ int cmd_run(int argc, char **argv)
         return rc;
     if (rq.out_dir && (rc = cli_make_dir(rq.out_dir)) != 0)
         goto done;
+    cli_plot_req plots;
+    if ((rc = cli_plot_check(opts, &plots)) != 0)
+        goto done;
+    ru_run_data *data = NULL;
+    if ((plots.dir || plots.report) && ru_run_data_create(&data) != RU_OK) {
+        rc = 2;
+        goto done;
+    }
+    rq.keep = data;
     ru_run_report *r = calloc(1, sizeof *r);
     ru_error err;
     ru_error_clear(&err);
@@ -424,6 +435,7 @@ int cmd_run(int argc, char **argv)
     if (st != RU_OK && st != RU_ENUMERIC) {
         rc = cli_fail(&err);
         free(r);
+        ru_run_data_destroy(data);
         goto done;
     }
     int auto_sample = !(rq.sample_s > 0) && !(ru_circuit_run_opts_const(c)->sample_s > 0);
@@ -447,6 +459,16 @@ int cmd_run(int argc, char **argv)
     }
     if (st == RU_OK && !json && r->have_wav)
         print_wav(&rq, r);
+    if (data) {
+        int prc = cli_plot_run(&plots, c, r, data);
+        if (prc && !rc)
+            rc = prc;
+        else if (!prc && !json)
+            printf("%s%s%s%s\n", plots.dir ? "wrote figures into " : "",
+                   plots.dir ? plots.dir : "", plots.dir && plots.report ? "; report " : "",
+                   plots.report ? plots.report : "");
+        ru_run_data_destroy(data);
+    }
     if (rc == 0 && cli_get(opts, "verify") && !json)
         rc = verify(c, &rq, r);
     if (rc == 0 && !check_expectations(&ex, &r->meas))

@@ -1,0 +1,156 @@
+/* plots.c: the CLI's --plots DIR, --plot-format and --report FILE: it turns what a
+ * command computed into the plot library's plain-array figures (ringup/plot.h). */
+#include "cli.h"
+
+#include "ringup/format.h"
+#include "ringup/plot.h"
+
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+int cli_plot_check(const cli_opt *opts, cli_plot_req *pr)
+{
+    memset(pr, 0, sizeof *pr);
+    pr->dir = cli_get(opts, "plots");
+    pr->format = cli_get(opts, "plot-format");
+    pr->report = cli_get(opts, "report");
+    ru_error err;
+    ru_error_clear(&err);
+    if (pr->format && !pr->dir && !pr->report) {
+        fprintf(stderr, "ringup: --plot-format needs --plots DIR\n");
+        return 1;
+    }
+    if (pr->dir) {
+        int rc = cli_make_dir(pr->dir);
+        if (rc)
+            return rc;
+        if (ru_plot_check(pr->dir, pr->format, &err) != RU_OK)
+            return cli_fail(&err);
+    }
+    if (pr->report && ru_plot_report_check(pr->report, &err) != RU_OK)
+        return cli_fail(&err);
+    return 0;
+}
+
+/* Poles of the run with the describing-function drift as poles (sigma, w). */
+static void fill_poles(const ru_run_data_view *v, ru_pole *drift, double *amp,
+                       ru_plot_poles *p)
+{
+    memset(p, 0, sizeof *p);
+    p->n = v->npoles;
+    p->poles = v->poles;
+    p->dominant = v->dominant;
+    for (size_t i = 0; i < v->ndf; i++) {
+        drift[i].re_per_s = v->df[i].growth_rate_per_s;
+        drift[i].im_rad_per_s = 2 * M_PI * v->df[i].frequency_hz;
+        amp[i] = v->df[i].amplitude_v;
+    }
+    p->ndrift = v->ndf;
+    p->drift = drift;
+    p->drift_amp_v = amp;
+}
+
+static void cell(char *buf, size_t size, double v, const char *unit)
+{
+    if (!strcmp(unit, "/s"))
+        isfinite(v) ? snprintf(buf, size, "%.5g /s", v) : snprintf(buf, size, "-");
+    else if (!strcmp(unit, "%"))
+        isfinite(v) ? snprintf(buf, size, "%.4g %%", v) : snprintf(buf, size, "-");
+    else
+        ru_format_si(v, unit, 4, buf, size);
+}
+
+#define TROWS 7
+static int write_report(const cli_plot_req *pr, const ru_circuit *c, const ru_run_report *r,
+                        const ru_plot_set *set)
+{
+    static const char *const label[TROWS] = {"start-up time", "growth rate", "frequency",
+                                             "settled amplitude", "settling time", "THD",
+                                             "DC level"};
+    static const char *const unit[TROWS] = {"s", "/s", "Hz", "V", "s", "%", "V"};
+    const ru_measure_result *m = &r->meas;
+    const ru_prediction *p = &r->pred;
+    double meas[TROWS] = {m->startup_time_s, m->growth_rate_per_s, m->frequency_hz,
+                          m->settled_amplitude_v, m->settling_time_s, m->thd_percent,
+                          m->dc_level_v};
+    double pred[TROWS] = {p->startup_time_s, p->growth_rate_per_s, p->frequency_hz,
+                          p->settled_amplitude_v, NAN, NAN, NAN};
+    char buf[(TROWS + 1) * 3][48];
+    const char *cells[(TROWS + 1) * 3] = {"figure", "measured", "predicted"};
+    for (int i = 0; i < TROWS; i++) {
+        cells[(i + 1) * 3] = label[i];
+        cell(buf[(i + 1) * 3 + 1], sizeof buf[0], meas[i], unit[i]);
+        cell(buf[(i + 1) * 3 + 2], sizeof buf[0], pred[i], unit[i]);
+        cells[(i + 1) * 3 + 1] = buf[(i + 1) * 3 + 1];
+        cells[(i + 1) * 3 + 2] = buf[(i + 1) * 3 + 2];
+    }
+    ru_plot_table table = {TROWS + 1, 3, cells};
+    char summary[2048];
+    int len = snprintf(summary, sizeof summary,
+                       "circuit file: %s\n%zu parts, %zu nodes besides ground\n"
+                       "probe %s, run %g s sampled every %g s\nstarted: %s, settled: %s\n",
+                       ru_circuit_file(c), ru_circuit_part_count(c),
+                       ru_circuit_node_count(c) - 1, r->probe, r->stop_s, r->sample_s,
+                       m->started ? "yes" : "no", m->settled ? "yes" : "no");
+    for (int i = 0; i < r->nnotes && len > 0 && (size_t)len < sizeof summary; i++)
+        len += snprintf(summary + len, sizeof summary - (size_t)len, "note: %s\n",
+                        r->notes[i]);
+    ru_error err;
+    ru_error_clear(&err);
+    if (ru_plot_report(pr->report, ru_circuit_title(c), summary, &table, set, &err) != RU_OK)
+        return cli_fail(&err);
+    return 0;
+}
+
+int cli_plot_run(const cli_plot_req *pr, const ru_circuit *c, const ru_run_report *r,
+                 const ru_run_data *data)
+{
+    if (!pr->dir && !pr->report)
+        return 0;
+    ru_run_data_view v;
+    ru_run_data_get(data, &v);
+    const ru_measure_result *m = &r->meas;
+    ru_plot_wave wave = {ru_circuit_title(c), r->probe, v.trace, v.nenv, v.env_t_s,
+                         v.env_v, m->dc_level_v, m->startup_time_s, r->startup_level,
+                         m->settled_amplitude_v};
+    ru_plot_growth growth = {v.nenv, v.env_t_s, v.env_v, m->growth_rate_per_s,
+                             m->growth_fit_t0_s, m->growth_fit_t1_s,
+                             r->pred.have_poles ? r->pred.growth_rate_per_s : NAN,
+                             m->settled_amplitude_v};
+    ru_plot_spectrum spec = {m->frequency_hz, m->harmonics_dbc, RU_HARMONICS - 1,
+                             m->thd_percent};
+    ru_pole drift[RU_RUN_DATA_DF_MAX];
+    double amp[RU_RUN_DATA_DF_MAX];
+    ru_plot_poles poles;
+    fill_poles(&v, drift, amp, &poles);
+    ru_plot_bode loop = {1, r->pred.loop_part, v.nloop, v.loop_f_hz, v.loop_mag,
+                         v.loop_phase_deg,
+                         r->pred.loop.found ? r->pred.loop.crossover_hz : NAN,
+                         r->pred.loop.found ? r->pred.loop.gain : NAN};
+    ru_plot_set set = {0};
+    set.wave = v.trace.n >= 2 ? &wave : NULL;
+    set.growth = v.nenv >= 2 ? &growth : NULL;
+    set.spectrum = isfinite(m->thd_percent) ? &spec : NULL;
+    set.poles = v.npoles ? &poles : NULL;
+    set.loop = v.nloop >= 2 ? &loop : NULL;
+    ru_error err;
+    ru_error_clear(&err);
+    if (pr->dir && ru_plot_set_files(pr->dir, pr->format, &set, &err) != RU_OK)
+        return cli_fail(&err);
+    if (pr->report)
+        return write_report(pr, c, r, &set);
+    return 0;
+}
+
+int cli_plot_set(const cli_plot_req *pr, const char *title, const ru_plot_set *set)
+{
+    ru_error err;
+    ru_error_clear(&err);
+    if (pr->dir && ru_plot_set_files(pr->dir, pr->format, set, &err) != RU_OK)
+        return cli_fail(&err);
+    if (pr->report && ru_plot_report(pr->report, title, "", NULL, set, &err) != RU_OK)
+        return cli_fail(&err);
+    return 0;
+}
