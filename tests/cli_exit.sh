@@ -92,6 +92,33 @@ grepcheck "failure time" "solver failed at t = " "$tmp/err"
 rows=$(wc -l <"$tmp/ob/wave.csv")
 [ "$rows" -gt 10 ] && passes=$((passes + 1)) || { echo "FAIL: partial csv has $rows lines"; fails=$((fails + 1)); }
 
+# Pictures: the files are written; a bad format or folder is refused before any
+# simulation work (exit 1 / 3), and nothing half-written is left.
+"$ru" run "$vdp" --plots "$tmp/pl" --report "$tmp/pl/report.pdf" >"$tmp/out" 2>"$tmp/err"
+check "plots" 0 $?
+for f in wave growth spectrum poles; do
+    [ -s "$tmp/pl/$f.png" ] && passes=$((passes + 1)) || { echo "FAIL: no $f.png"; fails=$((fails + 1)); }
+done
+head -c 5 "$tmp/pl/report.pdf" | grep -q '%PDF-' && passes=$((passes + 1)) || { echo "FAIL: report is not a PDF"; fails=$((fails + 1)); }
+"$ru" run "$vdp" --plots "$tmp/pl" --plot-format bmp >"$tmp/out" 2>"$tmp/err"
+check "unknown plot format" 1 $?
+"$ru" run "$vdp" --plots "$tmp/plain/sub" >"$tmp/out" 2>"$tmp/err"
+check "unwritable plot folder" 3 $?
+"$ru" run "$vdp" --report "$tmp/r.docx" >"$tmp/out" 2>"$tmp/err"
+check "unknown report type" 1 $?
+"$ru" response "$src/examples/follower-colpitts.yaml" --from tap --to top --plots "$tmp/pr" \
+    --plot-format svg >"$tmp/out" 2>"$tmp/err"
+check "response plot" 0 $?
+grep -q '<svg' "$tmp/pr/response.svg" && passes=$((passes + 1)) || { echo "FAIL: response.svg"; fails=$((fails + 1)); }
+
+# WAV: written whole at -12 dBFS with the caution on the terminal.
+"$ru" run "$vdp" --wav "$tmp/v.wav" >"$tmp/out" 2>"$tmp/err"
+check "wav" 0 $?
+grepcheck "wav caution" "turn the volume down" "$tmp/out"
+"$ru" run "$vdp" --wav "$tmp/v2.wav" --wav-level -0.5 >"$tmp/out" 2>"$tmp/err"
+check "wav level above -1 dBFS" 1 $?
+[ ! -e "$tmp/v2.wav" ] && passes=$((passes + 1)) || { echo "FAIL: refused wav exists"; fails=$((fails + 1)); }
+
 # JSON: stdout holds one JSON document and nothing else.
 if [ -x /usr/bin/python3 ]; then
     for cmd in "run $vdp" "poles $vdp" "check $vdp" \

@@ -4,6 +4,7 @@
 #include "ringup/descfn.h"
 #include "ringup/format.h"
 #include "ringup/json.h"
+#include "ringup/plot.h"
 #include "ringup/smallsig.h"
 #include "ringup/system.h"
 
@@ -24,6 +25,8 @@ typedef struct poles_result {
     ru_df_point *curve;       /* describing-function curve (--amplitude), or NULL */
     size_t ncurve;
     ru_df_result df;
+    double loop_f[RU_RUN_DATA_LOOP_POINTS], loop_mag[RU_RUN_DATA_LOOP_POINTS],
+        loop_ph[RU_RUN_DATA_LOOP_POINTS];
 } poles_result;
 
 #define CURVE_MAX 200
@@ -199,9 +202,32 @@ static ru_status compute(const ru_circuit *c, const char *loop, poles_result *p,
                             "loop part %s is not an amplifier of this circuit", loop);
     double f0 = p->dom >= 0 ? p->poles[p->dom].im_rad_per_s / (2 * M_PI) : 0;
     st = ru_loopgain_sweep(p->sys, p->loop_part, p->x, f0 > 0 ? f0 / 30 : 1,
-                           f0 > 0 ? f0 * 30 : 1e9, 601, NULL, NULL, NULL, &p->loop, err);
+                           f0 > 0 ? f0 * 30 : 1e9, RU_RUN_DATA_LOOP_POINTS, p->loop_f,
+                           p->loop_mag, p->loop_ph, &p->loop, err);
     p->have_loop = st == RU_OK;
     return st;
+}
+
+static int plot_poles(const cli_plot_req *pr, const ru_circuit *c, const poles_result *p)
+{
+    if (!pr->dir && !pr->report)
+        return 0;
+    ru_pole drift[CURVE_MAX];
+    double amp[CURVE_MAX];
+    for (size_t i = 0; i < p->ncurve; i++) {
+        drift[i].re_per_s = p->curve[i].growth_rate_per_s;
+        drift[i].im_rad_per_s = 2 * M_PI * p->curve[i].frequency_hz;
+        amp[i] = p->curve[i].amplitude_v;
+    }
+    ru_plot_poles pp = {ru_system_size(p->sys), p->poles, p->dom, p->ncurve, amp, drift};
+    ru_plot_bode loop = {1, p->have_loop ? ru_circuit_part(c, (size_t)p->loop_part)->name : "",
+                         RU_RUN_DATA_LOOP_POINTS, p->loop_f, p->loop_mag, p->loop_ph,
+                         p->loop.found ? p->loop.crossover_hz : NAN,
+                         p->loop.found ? p->loop.gain : NAN};
+    ru_plot_set set = {0};
+    set.poles = &pp;
+    set.loop = p->have_loop ? &loop : NULL;
+    return cli_plot_set(pr, ru_circuit_title(c), &set);
 }
 
 int cmd_poles(int argc, char **argv)
@@ -211,15 +237,19 @@ int cmd_poles(int argc, char **argv)
                        "how the dominant pair drifts as the amplitude grows (describing "
                        "function) and the predicted settled amplitude", NULL},
                       {"json", NULL, "print JSON on stdout (keys in README)", NULL},
+                      CLI_PLOT_OPTS,
                       {NULL, NULL, NULL, NULL}};
     const char *file;
-    int rc = cli_parse(argc, argv, "ringup poles FILE [--loop PART] [--json]",
+    int rc = cli_parse(argc, argv, "ringup poles FILE [--loop PART] [--amplitude] [--json]",
                        "Finds the DC operating point (supplies at their final values), the "
                        "poles of the\nlinearized circuit there, the dominant pair and, for "
                        "a named amplifier, the loop gain\nwith its zero-phase crossover "
                        "(Barkhausen criterion).",
                        opts, &file);
     if (rc >= 0)
+        return rc;
+    cli_plot_req plots;
+    if ((rc = cli_plot_check(opts, &plots)) != 0)
         return rc;
     ru_circuit *c = NULL;
     if ((rc = cli_load(file, cli_get(opts, "json") != NULL, &c)) != 0)
@@ -241,6 +271,8 @@ int cmd_poles(int argc, char **argv)
         print_json(c, &p);
     else
         print_text(c, &p);
+    if (st == RU_OK)
+        rc = plot_poles(&plots, c, &p);
     free(p.x);
     free(p.poles);
     free(p.curve);

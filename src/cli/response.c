@@ -4,6 +4,7 @@
 
 #include "ringup/format.h"
 #include "ringup/json.h"
+#include "ringup/plot.h"
 #include "ringup/smallsig.h"
 #include "ringup/system.h"
 
@@ -158,6 +159,7 @@ int cmd_response(int argc, char **argv)
                       {"fmax", "F", "highest frequency (default: from the poles)", NULL},
                       {"points", "N", "number of log-spaced points (default 201)", NULL},
                       {"json", NULL, "print JSON on stdout (keys in README)", NULL},
+                      CLI_PLOT_OPTS,
                       {NULL, NULL, NULL, NULL}};
     const char *file;
     int rc = cli_parse(argc, argv, "ringup response FILE --from NODE --to NODE [options]",
@@ -176,6 +178,9 @@ int cmd_response(int argc, char **argv)
         fprintf(stderr, "ringup response: --points takes a whole number from 2 to 100000\n");
         return 1;
     }
+    cli_plot_req plots;
+    if ((rc = cli_plot_check(opts, &plots)) != 0)
+        return rc;
     ru_circuit *c = NULL;
     if ((rc = cli_load(file, cli_get(opts, "json") != NULL, &c)) != 0)
         return rc;
@@ -235,6 +240,14 @@ int cmd_response(int argc, char **argv)
         print_json(&d);
     else
         print_text(c, cli_get(opts, "from"), cli_get(opts, "to"), &d);
+    char what[2 * RU_NAME_MAX + 16];
+    snprintf(what, sizeof what, "v(%s)/v(%s)", cli_get(opts, "to"), cli_get(opts, "from"));
+    ru_plot_bode bode = {0, what, d.npts, d.f_hz, d.mag, d.phase_deg, d.peak_f_hz,
+                         d.peak_mag};
+    ru_plot_set set = {0};
+    set.response = &bode;
+    if (plots.dir || plots.report)
+        rc = cli_plot_set(&plots, ru_circuit_title(c), &set);
 done:
     free(x);
     free(d.f_hz);
