@@ -449,11 +449,11 @@ int cmd_run(int argc, char **argv)
     }
     if (json)
         print_json(r, st == RU_ENUMERIC, rq.wav_path);
+    else
+        print_text(c, r, auto_sample);
     if (json && r->have_wav)
         fprintf(stderr, "caution: the start-up can be loud and sudden; turn the volume "
                         "down before playing the file\n");
-    else
-        print_text(c, r, auto_sample);
     if (st == RU_OK && !json && rq.out_dir) {
         printf("wrote %s/wave.csv\n", rq.out_dir);
     }
