@@ -524,7 +524,7 @@ ru_status ru_ld_preset_into(const char *models_dir, const char *name, ru_part *p
         s = ru_ld_preset_values(&pd, who, &tmp, &pk, NULL, err);
     if (s == RU_OK && pk_type(pk) != part->type) {
         *missing = 2; /* a preset for another part type */
-        snprintf(why, whylen, "preset %s is a %s model, which does not fit a part of type %s",
+        snprintf(why, whylen, "preset %s (law %s) does not fit a part of type %s",
                  name, pk_name(pk), ru_part_type_name(part->type));
         s = RU_EINPUT;
     }

@@ -6,6 +6,7 @@
  * the loader) and a key word of the message. SI scale factors: Source: BIPM SI
  * Brochure, 9th ed., Table 7. Doubles are compared with a relative 1e-15 (a few
  * ulp: "15n" is 15 * 1e-9 in double arithmetic). */
+#define _POSIX_C_SOURCE 200809L /* mkdtemp */
 #include "ru_test.h"
 
 #include "ringup/circuit.h"
@@ -14,6 +15,7 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <unistd.h>
 
 #define NAME "t.yaml"
 #define DATA RU_SOURCE_DIR "/tests/data/loader"
@@ -581,6 +583,245 @@ static void test_default_models_dir(void **state)
     ru_circuit_destroy(c);
 }
 
+
+/* ---- new laws and parts -------------------------------------------------------- */
+
+/* Reference: README draft (docs-draft/laws.md): keys, units and defaults of the
+ * new laws and parts. */
+static void test_new_parts(void **state)
+{
+    (void)state;
+    ru_circuit *c = load_ok(
+        "parts:\n"
+        "  A1: {type: amplifier, in: p, inv: m, out: o, law: diff-pair-tanh, itail: 2mA,"
+        " n: 1.2, temp: 40C, rout: 47k, sign: -1}\n"
+        "  A2: {type: amplifier, in: p, inv: o2, out: o2, law: opamp, gain: 200k, gbw: 1MHz,"
+        " vmax: 13V, vmin: -12V, knee: 0.2V, slew: 500kV/s, rout: 75ohm}\n"
+        "  A3: {type: amplifier, in: o2, out: t, law: table, rout: 1k,"
+        " points: [[-1, -0.5], [0, 0], [1V, 0.6V]]}\n"
+        "  D1: {type: diode, nodes: [t, gnd], is: 2n, n: 1.9, rs: 3ohm, temp: 30C}\n"
+        "  RT1: {type: thermal-resistor, nodes: [o, gnd], kind: lamp, r0: 40ohm, alpha: 4m,"
+        " t0: 20C, tamb: 30C, rth: 10kK/W, cth: 20uJ/K}\n"
+        "  RT2: {type: thermal-resistor, nodes: [m, gnd], kind: ntc, r0: 4.7k, bth: 3900K}\n"
+        "  R1: {type: resistor, nodes: [p, gnd], value: 1k}\n",
+        NULL);
+    const ru_part *p = part(c, "A1");
+    assert_int_equal(p->amp.law, RU_LAW_DIFF_PAIR_TANH);
+    assert_string_equal(ru_circuit_node_name(c, p->node[3]), "m");
+    RU_ASSERT_REL(p->amp.itail_a, 2e-3, REL);
+    RU_ASSERT_REL(p->amp.n, 1.2, REL);
+    RU_ASSERT_REL(p->amp.temp_c, 40.0, REL);
+    RU_ASSERT_REL(p->amp.rout_ohm, 47e3, REL);
+    RU_ASSERT_REL(p->amp.sign, -1.0, REL);
+    p = part(c, "A2");
+    assert_int_equal(p->amp.law, RU_LAW_OPAMP);
+    assert_int_equal(p->node[3], p->node[1]); /* inverting input on the output */
+    RU_ASSERT_REL(p->amp.gain, 2e5, REL);
+    RU_ASSERT_REL(p->amp.gbw_hz, 1e6, REL);
+    RU_ASSERT_REL(p->amp.vmax_v, 13.0, REL);
+    RU_ASSERT_REL(p->amp.vmin_v, -12.0, REL);
+    RU_ASSERT_REL(p->amp.knee_v, 0.2, REL);
+    RU_ASSERT_REL(p->amp.slew_v_per_s, 5e5, REL);
+    RU_ASSERT_REL(p->amp.rout_ohm, 75.0, REL);
+    p = part(c, "A3");
+    assert_int_equal(p->amp.npoints, 3);
+    assert_int_equal(p->node[3], -1); /* inv not given: ref */
+    RU_ASSERT_REL(p->amp.pt_vin[2], 1.0, REL);
+    RU_ASSERT_REL(p->amp.pt_vout[0], -0.5, REL);
+    p = part(c, "D1");
+    assert_int_equal(p->type, RU_PART_DIODE);
+    assert_nodes(c, p, "t", "gnd");
+    RU_ASSERT_REL(p->diode.is_a, 2e-9, REL);
+    RU_ASSERT_REL(p->diode.n, 1.9, REL);
+    RU_ASSERT_REL(p->diode.rs_ohm, 3.0, REL);
+    RU_ASSERT_REL(p->diode.temp_c, 30.0, REL);
+    p = part(c, "RT1");
+    assert_int_equal(p->thermal.kind, RU_THERMAL_LAMP);
+    RU_ASSERT_REL(p->thermal.r0_ohm, 40.0, REL);
+    RU_ASSERT_REL(p->thermal.alpha_per_k, 4e-3, REL);
+    RU_ASSERT_REL(p->thermal.t0_c, 20.0, REL);
+    RU_ASSERT_REL(p->thermal.tamb_c, 30.0, REL);
+    RU_ASSERT_REL(p->thermal.rth_k_per_w, 1e4, REL);
+    RU_ASSERT_REL(p->thermal.cth_j_per_k, 2e-5, REL);
+    p = part(c, "RT2");
+    assert_int_equal(p->thermal.kind, RU_THERMAL_NTC);
+    RU_ASSERT_REL(p->thermal.beta_k, 3900.0, REL);
+    ru_thermal def;
+    ru_thermal_defaults(&def, RU_THERMAL_NTC);
+    RU_ASSERT_REL(p->thermal.rth_k_per_w, def.rth_k_per_w, REL); /* default kept */
+    /* Reference: circuit.h find_floating_node: diodes and thermal resistors
+     * conduct, the opamp output conducts to ref, inputs do not: every node here
+     * reaches ground (p by R1; m by RT2; o by RT1; o2 by A2's output; t by D1). */
+    int fl;
+    assert_int_equal(ru_circuit_find_floating_node(c, &fl), 0);
+    ru_circuit_destroy(c);
+}
+
+static void test_new_part_errors(void **state)
+{
+    (void)state;
+    const char *t = "parts:\n  A1: {type: amplifier, in: a, out: b, law: table, "
+                    "points: [[0, 0], [1, 1], [1, 2]]}\n";
+    expect_tok(t, 2, "[1, 2]", "part A1: key points, item 3: vin 1 does not increase");
+    t = "parts:\n  A1: {type: amplifier, in: a, out: b, law: table, points: [[0, 0]]}\n";
+    expect_tok(t, 2, "[[0", "key points needs a list of 2 to 64 pairs");
+    t = "parts:\n  A1: {type: amplifier, in: a, out: b, law: table, points: [[0, 0], 5]}\n";
+    expect_tok(t, 2, "5]", "item 2: needs a pair");
+    t = "parts:\n  A1: {type: amplifier, in: a, out: b, law: table, points: [[0, 0], [1, 2A]]}\n";
+    expect_tok(t, 2, "2A", "unit A does not fit, expected V");
+    t = "parts:\n  A1: {type: amplifier, in: a, out: b, law: table}\n";
+    expect_tok(t, 2, "A1", "part A1: missing required key points");
+    t = "parts:\n  A1: {type: amplifier, in: a, out: b, law: opamp, slew: 5V}\n";
+    expect_tok(t, 2, "5V", "part A1: key slew: unit V does not fit, expected V/s");
+    t = "parts:\n  A1: {type: amplifier, in: a, out: b, law: opamp, vmax: 1V, vmin: 2V}\n";
+    expect_tok(t, 2, "A1", "part A1: vmax must be above vmin");
+    t = "parts:\n  A1: {type: amplifier, in: a, out: b, law: diff-pair-tanh, sign: 2}\n";
+    expect_tok(t, 2, "A1", "part A1: sign must be 1 or -1");
+    t = "parts:\n  A1: {type: amplifier, in: a, inv: a, out: b, law: opamp}\n";
+    expect_tok(t, 2, "A1", "part A1: in and inv must differ");
+    t = "parts:\n  A1: {type: amplifier, in: a, out: b, law: opamp, beta: 100}\n";
+    expect_tok(t, 2, "beta", "key beta does not apply to law opamp");
+    t = "parts:\n  A1: {type: amplifier, in: a, out: b, law: opamp2}\n";
+    expect_tok(t, 2, "opamp2", "not one of follower-tanh, exp-stage, diff-pair-tanh, opamp");
+    t = "parts:\n  D1: {type: diode, nodes: [a, gnd], gain: 2}\n";
+    expect_tok(t, 2, "gain", "part D1: key gain does not apply to type diode");
+    t = "parts:\n  D1: {type: diode, nodes: [a, gnd], rs: -1}\n";
+    expect_tok(t, 2, "D1", "part D1: rs must not be negative");
+    t = "parts:\n  D1: {type: diode, nodes: [a, gnd], model: general-opamp}\n";
+    expect_tok(t, 2, "general-opamp",
+               "part D1: key model: preset general-opamp (law opamp) does not fit a part "
+               "of type diode");
+    t = "parts:\n  RT1: {type: thermal-resistor, nodes: [a, gnd], kind: ntc, alpha: 4m}\n";
+    expect_tok(t, 2, "alpha", "key alpha does not apply to kind ntc");
+    t = "parts:\n  RT1: {type: thermal-resistor, nodes: [a, gnd], kind: hot}\n";
+    expect_tok(t, 2, "hot", "key kind: 'hot' is not one of lamp, ntc");
+    t = "parts:\n  RT1: {type: thermal-resistor, nodes: [a, gnd], rth: 5K}\n";
+    expect_tok(t, 2, "5K", "key rth: unexpected text 'K'");
+    t = "parts:\n  RT1: {type: thermal-resistor, nodes: [a, gnd], cth: 0}\n";
+    expect_tok(t, 2, "RT1", "part RT1: cth must be positive");
+    t = "parts:\n  A1: {type: amplifier, in: a, out: b, model: pilot-lamp}\n";
+    expect_tok(t, 2, "pilot-lamp", "(law thermal-resistor) does not fit a part of type "
+                                   "amplifier");
+}
+
+/* Every shipped preset: listed, loadable on a part of its type, law as named. */
+static void test_models_list(void **state)
+{
+    (void)state;
+    ru_model_info *m = NULL;
+    size_t n = 0;
+    ru_error err;
+    assert_int_equal(ru_models_list(RU_MODELS_DIR, &m, &n, &err), RU_OK);
+    assert_true(n >= 10);
+    int laws_seen[RU_LAW_COUNT + 2] = {0};
+    for (size_t i = 0; i < n; i++) {
+        if (i > 0)
+            assert_true(strcmp(m[i - 1].name, m[i].name) < 0); /* sorted */
+        assert_true(m[i].description[0] != '\0');
+        assert_true(m[i].nparams > 0);
+        const char *type = strcmp(m[i].law, "diode") == 0 ? "diode"
+                           : strcmp(m[i].law, "thermal-resistor") == 0 ? "thermal-resistor"
+                                                                       : "amplifier";
+        char text[512];
+        if (strcmp(type, "amplifier") == 0)
+            snprintf(text, sizeof text,
+                     "parts:\n  X1: {type: amplifier, in: i, out: o, model: %s}\n"
+                     "  R1: {type: resistor, nodes: [i, gnd], value: 1k}\n", m[i].name);
+        else
+            snprintf(text, sizeof text, "parts:\n  X1: {type: %s, nodes: [i, gnd], model: %s}\n",
+                     type, m[i].name);
+        ru_circuit *c = load_ok(text, NULL);
+        const ru_part *p = part(c, "X1");
+        if (p->type == RU_PART_AMPLIFIER) {
+            assert_string_equal(ru_law_name(p->amp.law), m[i].law);
+            assert_string_equal(p->amp.model, m[i].name);
+            laws_seen[p->amp.law] = 1;
+        } else if (p->type == RU_PART_DIODE) {
+            assert_string_equal(p->diode.model, m[i].name);
+            laws_seen[RU_LAW_COUNT] = 1;
+        } else {
+            assert_string_equal(p->thermal.model, m[i].name);
+            laws_seen[RU_LAW_COUNT + 1] = 1;
+        }
+        ru_circuit_destroy(c);
+    }
+    int nlaws = 0;
+    for (int k = 0; k < RU_LAW_COUNT + 2; k++)
+        nlaws += laws_seen[k];
+    assert_true(nlaws >= 6); /* the issue: presets over at least 6 laws */
+    for (size_t i = 0; i < n; i++) { /* one listing read back: general-opamp */
+        if (strcmp(m[i].name, "general-opamp") != 0)
+            continue;
+        assert_string_equal(m[i].law, "opamp");
+        int found = 0;
+        for (size_t k = 0; k < m[i].nparams; k++)
+            if (strcmp(m[i].params[k].name, "gbw") == 0) {
+                RU_ASSERT_REL(m[i].params[k].value, 1e6, REL);
+                assert_string_equal(m[i].params[k].unit, "Hz");
+                found = 1;
+            }
+        assert_true(found);
+    }
+    ru_models_free(m);
+    ru_models_free(NULL);
+    assert_int_equal(ru_models_list("/nonexistent-ringup-models", &m, &n, &err), RU_EIO);
+    assert_null(m);
+    /* a broken preset fails the listing with its place */
+    char dir[] = "/tmp/ringup-models-XXXXXX";
+    assert_non_null(mkdtemp(dir));
+    char path[256];
+    snprintf(path, sizeof path, "%s/broken.yaml", dir);
+    FILE *f = fopen(path, "w");
+    assert_non_null(f);
+    fputs("law: opamp\ngbw: 1MV\n", f);
+    fclose(f);
+    assert_int_equal(ru_models_list(dir, &m, &n, &err), RU_EINPUT);
+    assert_int_equal(err.line, 2);
+    assert_non_null(strstr(err.msg, "key gbw: unit V does not fit, expected Hz"));
+    remove(path);
+    rmdir(dir);
+}
+
+/* ru_circuit_apply_model: the preset replaces the law and every inline value. */
+static void test_apply_model(void **state)
+{
+    (void)state;
+    ru_circuit *c = load_ok(
+        "parts:\n"
+        "  A1: {type: amplifier, in: i, out: o, law: follower-tanh, gain: 0.5, rout: 3ohm}\n"
+        "  D1: {type: diode, nodes: [o, gnd], is: 1p}\n"
+        "  RT1: {type: thermal-resistor, nodes: [i, gnd]}\n"
+        "  R1: {type: resistor, nodes: [i, gnd], value: 1k}\n",
+        NULL);
+    ru_error err;
+    assert_int_equal(ru_circuit_apply_model(c, "A1", "general-opamp", NULL, &err), RU_OK);
+    const ru_part *p = part(c, "A1");
+    assert_int_equal(p->amp.law, RU_LAW_OPAMP);
+    assert_string_equal(p->amp.model, "general-opamp");
+    RU_ASSERT_REL(p->amp.gain, 2e5, REL);     /* the preset's, not the inline 0.5 */
+    RU_ASSERT_REL(p->amp.rout_ohm, 75.0, REL); /* the preset's, not the inline 3 */
+    assert_string_equal(ru_circuit_node_name(c, p->node[1]), "o");
+    assert_int_equal(ru_circuit_apply_model(c, "D1", "schottky-diode", NULL, &err), RU_OK);
+    RU_ASSERT_REL(part(c, "D1")->diode.is_a, 1e-6, REL);
+    assert_int_equal(ru_circuit_apply_model(c, "RT1", "bead-ntc", NULL, &err), RU_OK);
+    assert_int_equal(part(c, "RT1")->thermal.kind, RU_THERMAL_NTC);
+    /* errors leave the part as it was */
+    assert_int_equal(ru_circuit_apply_model(c, "A9", "general-opamp", NULL, &err), RU_EINPUT);
+    assert_non_null(strstr(err.msg, "no part A9"));
+    assert_int_equal(ru_circuit_apply_model(c, "R1", "general-opamp", NULL, &err), RU_EINPUT);
+    assert_non_null(strstr(err.msg, "part R1: a resistor takes no model"));
+    assert_int_equal(ru_circuit_apply_model(c, "A1", "no-such", NULL, &err), RU_EINPUT);
+    assert_non_null(strstr(err.msg, "part A1: no preset no-such"));
+    assert_int_equal(ru_circuit_apply_model(c, "A1", "../etc", NULL, &err), RU_EINPUT);
+    assert_non_null(strstr(err.msg, "not a preset name"));
+    assert_int_equal(ru_circuit_apply_model(c, "A1", "signal-diode", NULL, &err), RU_EINPUT);
+    assert_non_null(strstr(err.msg, "part A1: preset signal-diode (law diode) does not fit"));
+    assert_int_equal(part(c, "A1")->amp.law, RU_LAW_OPAMP);
+    assert_string_equal(part(c, "A1")->amp.model, "general-opamp");
+    assert_int_equal(err.line, 2); /* at the part's name */
+    ru_circuit_destroy(c);
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
@@ -593,6 +834,8 @@ int main(void)
         cmocka_unit_test(test_value_errors),     cmocka_unit_test(test_run_measure_errors),
         cmocka_unit_test(test_preset_errors),    cmocka_unit_test(test_io_errors),
         cmocka_unit_test(test_default_models_dir),
+        cmocka_unit_test(test_new_parts),        cmocka_unit_test(test_new_part_errors),
+        cmocka_unit_test(test_models_list),      cmocka_unit_test(test_apply_model),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }
