@@ -13,6 +13,8 @@ static const cli_command commands[] = {
     {"run", "simulate the start-up and measure it against the prediction", cmd_run},
     {"poles", "operating point, poles and loop gain (small-signal prediction)", cmd_poles},
     {"response", "frequency response of the network between two nodes", cmd_response},
+    {"compare", "the same circuit with several amplifier models, in parallel", cmd_compare},
+    {"models", "list the amplifier and part presets", cmd_models},
 };
 
 static void usage(FILE *fp)

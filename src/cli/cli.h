@@ -20,6 +20,8 @@ int cmd_check(int argc, char **argv);
 int cmd_run(int argc, char **argv);
 int cmd_poles(int argc, char **argv);
 int cmd_response(int argc, char **argv);
+int cmd_models(int argc, char **argv);
+int cmd_compare(int argc, char **argv);
 
 /* One option of a command: "--name VALUE" (or --name=VALUE) or a flag. */
 typedef struct cli_opt {
@@ -35,12 +37,20 @@ typedef struct cli_opt {
 int cli_parse(int argc, char **argv, const char *usage_line, const char *about,
               cli_opt *opts, const char **file);
 
+/* As cli_parse, for a command that takes no file (*file stays NULL). */
+int cli_parse_nofile(int argc, char **argv, const char *usage_line, const char *about,
+                     cli_opt *opts, const char **file);
+
 /* The value of an option, or NULL when it was not given. */
 const char *cli_get(const cli_opt *opts, const char *name);
 
 /* Parses a value option with ru_value_parse; prints an error naming the option and
  * returns 0 when it does not parse. */
 int cli_value(const cli_opt *opts, const char *name, const char *unit, double *out);
+
+/* --accuracy draft|normal|precise into *accuracy (an ru_accuracy; unchanged when
+ * the option is absent); returns 0, or 1 after a message. */
+int cli_accuracy(const cli_opt *opts, int *accuracy);
 
 /* Prints the error as FILE:LINE:COL: message and returns its exit status. */
 int cli_fail(const ru_error *err);

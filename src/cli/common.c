@@ -28,8 +28,23 @@ static cli_opt *find_opt(cli_opt *opts, const char *name, size_t len)
     return NULL;
 }
 
+static int parse_args(int argc, char **argv, const char *usage_line, const char *about,
+                      cli_opt *opts, const char **file, int need_file);
+
 int cli_parse(int argc, char **argv, const char *usage_line, const char *about,
               cli_opt *opts, const char **file)
+{
+    return parse_args(argc, argv, usage_line, about, opts, file, 1);
+}
+
+int cli_parse_nofile(int argc, char **argv, const char *usage_line, const char *about,
+                     cli_opt *opts, const char **file)
+{
+    return parse_args(argc, argv, usage_line, about, opts, file, 0);
+}
+
+static int parse_args(int argc, char **argv, const char *usage_line, const char *about,
+                      cli_opt *opts, const char **file, int need_file)
 {
     *file = NULL;
     for (int i = 1; i < argc; i++) {
@@ -39,6 +54,10 @@ int cli_parse(int argc, char **argv, const char *usage_line, const char *about,
             return 0;
         }
         if (strncmp(a, "--", 2) != 0) {
+            if (!need_file) {
+                fprintf(stderr, "ringup %s: unexpected argument '%s'\n", argv[0], a);
+                return 1;
+            }
             if (*file) {
                 fprintf(stderr, "ringup %s: more than one file given ('%s' and '%s')\n",
                         argv[0], *file, a);
@@ -71,7 +90,7 @@ int cli_parse(int argc, char **argv, const char *usage_line, const char *about,
             return 1;
         }
     }
-    if (!*file) {
+    if (!*file && need_file) {
         fprintf(stderr, "ringup %s: no circuit file given (usage: %s)\n", argv[0],
                 usage_line);
         return 1;
@@ -148,4 +167,19 @@ int cli_make_dir(const char *dir)
 fail:
     fprintf(stderr, "%s: cannot create output folder: %s\n", dir, strerror(errno));
     return 3;
+}
+
+int cli_accuracy(const cli_opt *opts, int *accuracy)
+{
+    static const char *const names[] = {"draft", "normal", "precise"};
+    const char *acc = cli_get(opts, "accuracy");
+    if (!acc)
+        return 0;
+    for (int i = 0; i < 3; i++)
+        if (!strcmp(acc, names[i])) {
+            *accuracy = i;
+            return 0;
+        }
+    fprintf(stderr, "ringup: option --accuracy takes draft, normal or precise\n");
+    return 1;
 }

@@ -364,19 +364,7 @@ static int set_request(const cli_opt *opts, ru_run_request *rq)
     }
     if (!set_wav(opts, rq))
         return 0;
-    const char *acc = cli_get(opts, "accuracy");
-    if (acc) {
-        static const char *const names[] = {"draft", "normal", "precise"};
-        rq->accuracy = -1;
-        for (int i = 0; i < 3; i++)
-            if (!strcmp(acc, names[i]))
-                rq->accuracy = i;
-        if (rq->accuracy < 0) {
-            fprintf(stderr, "ringup: option --accuracy takes draft, normal or precise\n");
-            return 0;
-        }
-    }
-    return 1;
+    return cli_accuracy(opts, &rq->accuracy) == 0;
 }
 
 int cmd_run(int argc, char **argv)

@@ -1,0 +1,237 @@
+/* compare.c: `ringup compare FILE --part A1 --models a,b,c`: the same circuit with
+ * each model in one part, analysed in parallel; one table (or JSON) of the figures.
+ * A model that fails is reported in its row and does not stop the others. */
+#include "cli.h"
+
+#include "ringup/batch.h"
+#include "ringup/format.h"
+#include "ringup/json.h"
+#include "ringup/loader.h"
+#include "ringup/plot.h"
+
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#define MAX_MODELS 64
+
+typedef struct variant {
+    char model[RU_NAME_MAX];
+    ru_circuit *circuit;  /* clone with the model applied; NULL when that failed */
+    ru_run_data *data;    /* kept for pictures, or NULL */
+} variant;
+
+static int split_models(const char *list, variant *v, size_t *n)
+{
+    *n = 0;
+    const char *p = list;
+    while (*p) {
+        const char *q = strchr(p, ',');
+        size_t len = q ? (size_t)(q - p) : strlen(p);
+        if (len == 0 || len >= RU_NAME_MAX || *n == MAX_MODELS) {
+            fprintf(stderr, "ringup compare: --models wants names separated by commas "
+                            "(at most %d, each shorter than %d characters)\n",
+                    MAX_MODELS, RU_NAME_MAX);
+            return 0;
+        }
+        memcpy(v[*n].model, p, len);
+        v[*n].model[len] = '\0';
+        (*n)++;
+        p += len + (q ? 1 : 0);
+    }
+    return *n > 0;
+}
+
+static void cell_si(double v, const char *unit, char *buf, size_t size)
+{
+    ru_format_si(v, unit, 4, buf, size);
+}
+
+static void print_row(const variant *v, const ru_batch_item *it)
+{
+    if (it->status != RU_OK) {
+        char msg[RU_ERROR_TEXT + RU_ERROR_FILE + 32];
+        ru_error_format(&it->error, msg, sizeof msg);
+        printf("  %-18s error: %s\n", v->model, msg);
+        return;
+    }
+    const ru_measure_result *m = &it->report.meas;
+    const ru_prediction *p = &it->report.pred;
+    char a[24], b[24], c[24], d[24], e[24];
+    cell_si(m->startup_time_s, "s", a, sizeof a);
+    cell_si(m->frequency_hz, "Hz", c, sizeof c);
+    cell_si(m->settled_amplitude_v, "V", d, sizeof d);
+    cell_si(p->settled_amplitude_v, "V", e, sizeof e);
+    if (isfinite(m->growth_rate_per_s))
+        snprintf(b, sizeof b, "%.4g /s", m->growth_rate_per_s);
+    else
+        snprintf(b, sizeof b, "-");
+    printf("  %-18s %-4s %-11s %-11s %-12s %-10s %-10s", v->model, m->started ? "yes" : "no",
+           a, b, c, d, e);
+    if (isfinite(m->thd_percent))
+        printf(" %-8.3g %-7.1f %-7.1f\n", m->thd_percent, m->harmonics_dbc[0],
+               m->harmonics_dbc[1]);
+    else
+        printf(" %-8s %-7s %-7s\n", "-", "-", "-");
+}
+
+static void print_table(const ru_circuit *c, const char *part, const variant *v,
+                        const ru_batch_item *items, size_t n)
+{
+    printf("%s: %s\nmodels in part %s, same circuit otherwise\n\n", ru_circuit_file(c),
+           ru_circuit_title(c), part);
+    printf("  %-18s %-4s %-11s %-11s %-12s %-10s %-10s %-8s %-7s %-7s\n", "model", "ok?",
+           "start-up", "growth", "frequency", "amplitude", "predicted", "THD %", "HD2 dB",
+           "HD3 dB");
+    for (size_t i = 0; i < n; i++)
+        print_row(&v[i], &items[i]);
+    for (size_t i = 0; i < n; i++)
+        for (int k = 0; k < items[i].report.nnotes && items[i].status == RU_OK; k++)
+            printf("note (%s): %s\n", v[i].model, items[i].report.notes[k]);
+}
+
+static void print_json(const char *part, const variant *v, const ru_batch_item *items,
+                       size_t n)
+{
+    ru_json j;
+    ru_json_init(&j, stdout, 1);
+    ru_json_begin_object(&j, NULL);
+    ru_json_string(&j, "part", part);
+    ru_json_begin_array(&j, "results");
+    for (size_t i = 0; i < n; i++) {
+        ru_json_begin_object(&j, NULL);
+        ru_json_string(&j, "model", v[i].model);
+        if (items[i].status != RU_OK) {
+            char msg[RU_ERROR_TEXT + RU_ERROR_FILE + 32];
+            ru_error_format(&items[i].error, msg, sizeof msg);
+            ru_json_string(&j, "error", msg);
+        } else {
+            cli_json_run_body(&j, &items[i].report);
+        }
+        ru_json_end_object(&j);
+    }
+    ru_json_end_array(&j);
+    ru_json_end_object(&j);
+    ru_json_finish(&j);
+}
+
+static int plot_compare(const cli_plot_req *pr, const ru_circuit *c, const variant *v,
+                        const ru_batch_item *items, size_t n)
+{
+    ru_plot_model pm[MAX_MODELS];
+    size_t k = 0;
+    for (size_t i = 0; i < n; i++) {
+        if (items[i].status != RU_OK || !v[i].data)
+            continue;
+        ru_run_data_view dv;
+        ru_run_data_get(v[i].data, &dv);
+        const ru_measure_result *m = &items[i].report.meas;
+        pm[k++] = (ru_plot_model){v[i].model, dv.nenv, dv.env_t_s, dv.env_v,
+                                  m->thd_percent, m->started ? m->startup_time_s : NAN};
+    }
+    if (k == 0)
+        return 0;
+    ru_plot_set set = {0};
+    set.models = pm;
+    set.nmodels = k;
+    return cli_plot_set(pr, ru_circuit_title(c), &set);
+}
+
+/* Clones the circuit with each model applied to the part; a failure goes into the
+ * item (its row), not to the caller. */
+static void prepare(const ru_circuit *c, const char *part, variant *v, ru_batch_item *it,
+                    const ru_run_request *rq, int keep)
+{
+    it->request = *rq;
+    if (ru_circuit_clone(c, &v->circuit) != RU_OK) {
+        it->status = ru_error_set(&it->error, RU_ENOMEM, NULL, 0, 0, "out of memory");
+        return;
+    }
+    if (ru_circuit_apply_model(v->circuit, part, v->model, NULL, &it->error) != RU_OK) {
+        it->status = it->error.code ? it->error.code : RU_EINPUT;
+        ru_circuit_destroy(v->circuit);
+        v->circuit = NULL;
+        return;
+    }
+    if (keep && ru_run_data_create(&v->data) == RU_OK)
+        it->request.keep = v->data;
+    it->circuit = v->circuit;
+}
+
+int cmd_compare(int argc, char **argv)
+{
+    cli_opt opts[] = {{"part", "PART", "the amplifier (or diode, thermal resistor) to vary",
+                       NULL},
+                      {"models", "A,B,C", "presets to put in that part", NULL},
+                      {"stop", "T", "run length (default: the file's)", NULL},
+                      {"accuracy", "LEVEL", "draft, normal or precise", NULL},
+                      {"threads", "N", "parallel runs (default: one per processor)", NULL},
+                      {"json", NULL, "print JSON on stdout (keys in README)", NULL},
+                      CLI_PLOT_OPTS,
+                      {NULL, NULL, NULL, NULL}};
+    const char *file;
+    int rc = cli_parse(argc, argv, "ringup compare FILE --part PART --models A,B,C [options]",
+                       "Runs the same circuit once per model in one part, in parallel over "
+                       "the processors,\nand prints start-up, growth, frequency, settled "
+                       "amplitude (measured and predicted),\nTHD, HD2 and HD3 side by side.",
+                       opts, &file);
+    if (rc >= 0)
+        return rc;
+    const char *part = cli_get(opts, "part"), *list = cli_get(opts, "models");
+    variant v[MAX_MODELS];
+    size_t n = 0;
+    memset(v, 0, sizeof v);
+    if (!part || !list) {
+        fprintf(stderr, "ringup compare: --part and --models are required\n");
+        return 1;
+    }
+    if (!split_models(list, v, &n))
+        return 1;
+    ru_run_request rq;
+    ru_run_request_default(&rq);
+    double threads = 0;
+    if (!cli_value(opts, "stop", "s", &rq.stop_s) || !cli_value(opts, "threads", NULL, &threads))
+        return 1;
+    if (cli_accuracy(opts, &rq.accuracy) != 0)
+        return 1;
+    cli_plot_req plots;
+    if ((rc = cli_plot_check(opts, &plots)) != 0)
+        return rc;
+    ru_circuit *c = NULL;
+    if ((rc = cli_load(file, cli_get(opts, "json") != NULL, &c)) != 0)
+        return rc;
+    ru_batch_item *items = calloc(n, sizeof *items);
+    if (!items) {
+        ru_circuit_destroy(c);
+        return 2;
+    }
+    for (size_t i = 0; i < n; i++)
+        prepare(c, part, &v[i], &items[i], &rq, plots.dir || plots.report);
+    /* items whose preparation failed keep their status; run the others */
+    ru_batch_item *todo[MAX_MODELS];
+    size_t ntodo = 0;
+    for (size_t i = 0; i < n; i++)
+        if (items[i].circuit)
+            todo[ntodo++] = &items[i];
+    ru_batch_item *run = calloc(ntodo ? ntodo : 1, sizeof *run);
+    for (size_t i = 0; run && i < ntodo; i++)
+        run[i] = *todo[i];
+    if (run)
+        ru_batch_run(run, ntodo, (int)threads);
+    for (size_t i = 0; run && i < ntodo; i++)
+        *todo[i] = run[i];
+    free(run);
+    if (cli_get(opts, "json"))
+        print_json(part, v, items, n);
+    else
+        print_table(c, part, v, items, n);
+    rc = plot_compare(&plots, c, v, items, n);
+    for (size_t i = 0; i < n; i++) {
+        ru_circuit_destroy(v[i].circuit);
+        ru_run_data_destroy(v[i].data);
+    }
+    free(items);
+    ru_circuit_destroy(c);
+    return rc;
+}
