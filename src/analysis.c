@@ -131,6 +131,19 @@ static ru_status wav_finish(ru_wav *w, const ru_run_request *rq, ru_run_report *
     return st;
 }
 
+/* Size of a preset kick on the probe: the dominant mode's share when the poles
+ * give it, else the largest preset voltage (a start with no small-signal mode, such
+ * as a relaxation oscillation, still begins from that level). */
+static double preset_level(const ru_run_opts *ro, const ru_run_report *rep)
+{
+    if (isfinite(rep->pred.kick_amplitude_v))
+        return rep->pred.kick_amplitude_v;
+    double v = 0;
+    for (int i = 0; i < ro->npreset; i++)
+        v = fmax(v, fabs(ro->preset_v[i]));
+    return v;
+}
+
 static ru_status keep_envelope(ru_run_data *d, const ru_measure *m)
 {
     const double *t, *a;
@@ -178,9 +191,7 @@ static ru_status run_transient(const ru_circuit *c, const ru_system *sys,
     /* A preset kick is a small-signal start whose size the modal projection gives;
      * power-on moves the bias through a large-signal transient, whose projection
      * says nothing about the envelope's floor, so it sets none. */
-    mc.kick_level_v = (ro->kick == RU_KICK_PRESET && isfinite(rep->pred.kick_amplitude_v))
-                          ? rep->pred.kick_amplitude_v
-                          : 0;
+    mc.kick_level_v = ro->kick == RU_KICK_PRESET ? preset_level(ro, rep) : 0;
     if ((st = ru_measure_create(&mc, &k.meas)) != RU_OK) {
         ru_error_set(err, st, NULL, 0, 0, "cannot set up the measurement");
         goto cleanup;
