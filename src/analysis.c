@@ -191,7 +191,10 @@ static ru_status run_transient(const ru_circuit *c, const ru_system *sys,
     /* A preset kick is a small-signal start whose size the modal projection gives;
      * power-on moves the bias through a large-signal transient, whose projection
      * says nothing about the envelope's floor, so it sets none. */
-    mc.kick_level_v = ro->kick == RU_KICK_PRESET ? preset_level(ro, rep) : 0;
+    mc.kick_level_v = ro->kick == RU_KICK_PRESET ? preset_level(ro, rep)
+                      : ro->kick == RU_KICK_NOISE && isfinite(rep->pred.kick_amplitude_v)
+                          ? rep->pred.kick_amplitude_v
+                          : 0;
     if ((st = ru_measure_create(&mc, &k.meas)) != RU_OK) {
         ru_error_set(err, st, NULL, 0, 0, "cannot set up the measurement");
         goto cleanup;
@@ -245,6 +248,27 @@ cleanup:
     return st;
 }
 
+static int has_noise_source(const ru_circuit *c)
+{
+    for (size_t i = 0; i < ru_circuit_part_count(c); i++) {
+        const ru_part *p = ru_circuit_part(c, i);
+        if (p->type == RU_PART_RESISTOR ||
+            (p->type == RU_PART_INDUCTOR && p->series_ohm > 0))
+            return 1;
+    }
+    return 0;
+}
+
+/* Band of the noise kick: 20x the predicted tone (flat to 0.5 dB up to about
+ * 2.6x the tone, see noise.h), or 20x the highest frequency the samples resolve
+ * when nothing is predicted. */
+static double noise_band(const ru_run_report *rep)
+{
+    if (rep->pred.have_poles && rep->pred.frequency_hz > 0)
+        return 20.0 * rep->pred.frequency_hz;
+    return 20.0 * 0.5 / rep->sample_s;
+}
+
 /* Refuses runs that would take hours or fill a disk: more than RU_MAX_SAMPLES
  * output samples, or more than RU_MAX_CYCLES cycles of the predicted tone (about
  * 170 solver steps each at normal accuracy). A long study can be split into runs. */
@@ -292,6 +316,17 @@ ru_status ru_analysis_run(const ru_circuit *c, const ru_run_request *rq,
     rep->sample_s = choose_sample(rq, ro, &rep->pred, rep->stop_s);
     if ((st = check_size(c, rep, err)) != RU_OK)
         goto done;
+    if (ro->kick == RU_KICK_NOISE && !has_noise_source(c)) {
+        st = ru_error_set(err, RU_EINPUT, ru_circuit_file(c), 0, 0,
+                          "kick: noise needs a resistor (or an inductor's series "
+                          "resistance): this circuit has no thermal noise source");
+        goto done;
+    }
+    if (ro->kick == RU_KICK_NOISE &&
+        (st = ru_system_set_noise(sys, ro->seed, noise_band(rep), RU_NOISE_TEMP_C)) != RU_OK) {
+        ru_error_set(err, st, NULL, 0, 0, "cannot set up the noise kick");
+        goto done;
+    }
     st = run_transient(c, sys, rq, rep, pos, neg, err);
     if (st == RU_OK || st == RU_ENUMERIC)
         ru_selfcheck(rep);

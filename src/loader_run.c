@@ -78,11 +78,8 @@ static ru_status read_kick(ld_doc *d, ru_circuit *c, struct fy_node_pair *p,
         return read_preset_kick(d, c, v, err);
     int k = 0;
     ru_status s = pick(d, p, "run", names, "power-on, noise or {preset: {...}}", err, &k);
-    if (s == RU_OK && k == 1) /* the thermal-noise kick is not built yet */
-        return ru_ld_fail(d, v, err, "run: kick noise is not available in this version; "
-                                     "use power-on or {preset: {node: voltage}}");
     if (s == RU_OK)
-        ru_circuit_run_opts(c)->kick = RU_KICK_POWER_ON;
+        ru_circuit_run_opts(c)->kick = k == 0 ? RU_KICK_POWER_ON : RU_KICK_NOISE;
     return s;
 }
 

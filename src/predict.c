@@ -53,6 +53,54 @@ done:
     return amp;
 }
 
+/* Phasor of node k in the mode (0 for ground and driven nodes). */
+static void node_phasor(const ru_system *s, const double *vre, const double *vim, int node,
+                        double *re, double *im)
+{
+    int k = ru_system_node_state(s, node);
+    *re = k >= 0 ? vre[k] : 0.0;
+    *im = k >= 0 ? vim[k] : 0.0;
+}
+
+/* The dominant mode's amplitude on the probe when it holds the thermal energy kT
+ * (equipartition: kT/2 for each of its two quadratic degrees of freedom). The mode
+ * scaled to a unit probe amplitude stores on average
+ *   E1 = sum over capacitors C |dv|^2 / 4 + sum over inductors L |i|^2 / 4,
+ * so A = sqrt(kT / E1): sqrt(2kT/C) for a plain LC tank. The noise keeps feeding
+ * the mode while it grows, so this is the order of the start level, not its value. */
+static double noise_amplitude(const ru_system *s, const double *x_op, ru_pole dom,
+                              int pos, int neg)
+{
+    size_t n = ru_system_size(s);
+    const ru_circuit *c = ru_system_circuit(s);
+    double *v = malloc(2 * n * sizeof *v), amp = NAN;
+    ru_pole lam;
+    if (!v || ru_mode_near(s, x_op, dom, &lam, v, v + n, NULL, NULL) != RU_OK)
+        goto done;
+    double pr, pi, qr, qi, e1 = 0;
+    node_phasor(s, v, v + n, pos, &pr, &pi);
+    node_phasor(s, v, v + n, neg, &qr, &qi);
+    double p2 = (pr - qr) * (pr - qr) + (pi - qi) * (pi - qi);
+    for (size_t i = 0; i < ru_circuit_part_count(c); i++) {
+        const ru_part *p = ru_circuit_part(c, i);
+        if (p->type == RU_PART_CAPACITOR) {
+            node_phasor(s, v, v + n, p->node[0], &pr, &pi);
+            node_phasor(s, v, v + n, p->node[1], &qr, &qi);
+            e1 += p->value * ((pr - qr) * (pr - qr) + (pi - qi) * (pi - qi)) / 4;
+        } else if (p->type == RU_PART_INDUCTOR) {
+            int k = ru_system_inductor_state(s, (int)i);
+            e1 += p->value * (v[k] * v[k] + v[n + k] * v[n + k]) / 4;
+        }
+    }
+    for (size_t k = 0; k < ru_system_free_nodes(s); k++)
+        e1 += ru_circuit_stray_f(c) * (v[k] * v[k] + v[n + k] * v[n + k]) / 4;
+    if (p2 > 0 && e1 > 0)
+        amp = sqrt(1.380649e-23 * (RU_NOISE_TEMP_C + 273.15) / (e1 / p2));
+done:
+    free(v);
+    return amp;
+}
+
 static void keep_poles(ru_run_data *keep, const ru_pole *poles, size_t n, int d)
 {
     if (!keep || !(keep->poles = malloc(n * sizeof *poles)))
@@ -88,7 +136,9 @@ static void predict_poles(const ru_system *s, const double *x_op, int pos, int n
     pr->dominant = poles[d];
     pr->growth_rate_per_s = poles[d].re_per_s;
     pr->frequency_hz = poles[d].im_rad_per_s / (2 * M_PI);
-    if (ru_system_initial_state(s, x0, NULL) == RU_OK) {
+    if (ru_circuit_run_opts_const(ru_system_circuit(s))->kick == RU_KICK_NOISE) {
+        pr->kick_amplitude_v = noise_amplitude(s, x_op, poles[d], pos, neg);
+    } else if (ru_system_initial_state(s, x0, NULL) == RU_OK) {
         for (size_t i = 0; i < n; i++)
             x0[i] -= x_op[i];
         pr->kick_amplitude_v =

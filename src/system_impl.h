@@ -9,11 +9,13 @@
  * capacitance matrix (column-major lower, L(i,j) = cfac[i + j*nfree]); internal
  * states (an opamp's vint, a thermal resistor's rise) follow the inductor
  * currents in part order, one per such part, with unit mass. Nothing changes after
- * ru_system_create returns. */
+ * ru_system_create returns except the noise settings, which ru_system_set_noise
+ * sets before the system is used. */
 #ifndef RINGUP_SYSTEM_IMPL_H
 #define RINGUP_SYSTEM_IMPL_H
 
 #include "ringup/system.h"
+#include "noise.h"
 
 #define RU_NS_GROUND (-1)
 #define RU_NS_DRIVEN (-2)
@@ -44,6 +46,7 @@ struct ru_system {
     double *cmat;          /* nfree*nfree capacitance matrix (F), symmetric */
     double *cfac;          /* its Cholesky factor (see above) */
     char (*names)[RU_STATE_NAME_MAX]; /* per state: its name */
+    ru_noise noise;        /* thermal noise of the resistors (off unless set) */
 };
 
 /* Evaluated sources: t, DC flag and scale (from ru_eval_point). */

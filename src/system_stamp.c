@@ -162,6 +162,11 @@ static void stamp_part(stamp_ctx *k, const ru_src_eval *e, size_t i)
     switch (p->type) {
     case RU_PART_RESISTOR:
         stamp_branch(k, a, b, (k->v[a] - k->v[b]) / p->value, 1.0 / p->value);
+        if (k->s->noise.on && !e->dc) /* Johnson-Nyquist current, 4kT/R one-sided */
+            stamp_branch(k, a, b,
+                         sqrt(2.0 * k->s->noise.kt_j / (p->value * k->s->noise.dt_s)) *
+                             ru_noise_unit(&k->s->noise, (uint64_t)i, e->t_s),
+                         0.0);
         break;
     case RU_PART_CAPACITOR: /* only the coupling to driven nodes (dv = 0 else) */
         add_r(k, a, p->value * k->dv[b]);
@@ -169,6 +174,10 @@ static void stamp_part(stamp_ctx *k, const ru_src_eval *e, size_t i)
         break;
     case RU_PART_INDUCTOR:
         stamp_inductor(k, p, k->s->part_state[i]);
+        if (k->s->noise.on && !e->dc && p->series_ohm > 0) /* 4kTR in the branch */
+            k->r[k->s->part_state[i]] +=
+                sqrt(2.0 * k->s->noise.kt_j * p->series_ohm / k->s->noise.dt_s) *
+                ru_noise_unit(&k->s->noise, (uint64_t)i, e->t_s) / p->value;
         break;
     case RU_PART_CURRENT:
         ru_sys_source(p, e, &w, &dw);
@@ -319,5 +328,18 @@ ru_status ru_system_loop_split(const ru_system *s, int part, const double *x,
                                             : "part %s: the residual is not finite "
                                               "at this state",
                             p->name);
+    return RU_OK;
+}
+
+ru_status ru_system_set_noise(ru_system *s, unsigned long seed, double bandwidth_hz,
+                              double temp_c)
+{
+    if (!(bandwidth_hz > 0) || !isfinite(bandwidth_hz) || !(temp_c > -273.15) ||
+        !isfinite(temp_c))
+        return RU_ERANGE;
+    s->noise.on = 1;
+    s->noise.seed = (uint64_t)seed;
+    s->noise.dt_s = 0.5 / bandwidth_hz;
+    s->noise.kt_j = 1.380649e-23 * (temp_c + 273.15); /* exact 2019 SI k */
     return RU_OK;
 }

@@ -118,7 +118,7 @@ static const char *const good_text =
     "  RX: {type: resistor, nodes: [x, t], value: 1}\n"
     "  RC: {type: resistor, nodes: [c, vcc], value: 4.7k}\n"
     "  RE: {type: resistor, nodes: [e, gnd], value: 470}\n"
-    "run:  {stop: 200m, sample: 5u, kick: power-on, accuracy: draft, seed: 42}\n"
+    "run:  {stop: 200m, sample: 5u, kick: noise, accuracy: draft, seed: 42}\n"
     "measure: {probe: out-a, loop: A1, startup-level: 90%, growth-window: [1%, 10%]}\n";
 
 /* Reference: README circuit-file format (title, stray, supplies and their waves). */
@@ -241,7 +241,7 @@ static void test_good_run_measure(void **state)
     const ru_run_opts *r = ru_circuit_run_opts_const(c);
     RU_ASSERT_REL(r->stop_s, 0.2, REL);
     RU_ASSERT_REL(r->sample_s, 5e-6, REL);
-    assert_int_equal(r->kick, RU_KICK_POWER_ON);
+    assert_int_equal(r->kick, RU_KICK_NOISE);
     assert_int_equal(r->accuracy, RU_ACCURACY_DRAFT);
     assert_int_equal(r->seed, 42);
     const ru_measure_opts *m = ru_circuit_measure_opts_const(c);
@@ -512,7 +512,6 @@ static void test_run_measure_errors(void **state)
         {"run: {kick: {preset: {zz: 1V}}}", "zz", "run: kick preset: node zz does not exist"},
         {"run: {kick: {preset: {a: 1A}}}", "1A", "unit A does not fit, expected V"},
         {"run: {kick: shake}", "shake", "not one of power-on, noise"},
-        {"run: {kick: noise}", "noise", "kick noise is not available in this version"},
         {"run: {accuracy: best}", "best", "not one of draft, normal, precise"},
         {"run: {seed: -3}", "-3", "run: key seed"},
         {"run: {stop: 0}", "0", "run: key stop must be positive"},

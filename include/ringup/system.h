@@ -94,9 +94,9 @@ void ru_system_mass(const ru_system *s, double *M);
 
 /* Loop breaking for the return ratio of one amplifier part (index into the
  * circuit's parts). At state x (DC evaluation), splits dr/dx = A0 + b g^T where
- * g^T x is the amplifier's control voltage (v_in - v_ref) and b holds the
- * derivatives of every quantity the amplifier controls (its output, not its input
- * loading) with respect to that voltage. A0 is n*n, b and g have n entries. */
+ * g^T x is the amplifier's control voltage (v_in - v_inv; inv is ref unless the
+ * part names one) and b holds the derivatives of every quantity the amplifier
+ * controls (its output, not its input loading) with respect to that voltage. A0 is n*n, b and g have n entries. */
 ru_status ru_system_loop_split(const ru_system *s, int part, const double *x,
                                double *A0, double *b, double *g, ru_error *err);
 
@@ -109,6 +109,15 @@ size_t ru_system_breakpoints(const ru_system *s, double t_stop, double *bp, size
 /* At a breakpoint t: adds to the free node voltages the charge-conserving share of
  * the driven nodes' jump from t- to t+. Does nothing when nothing jumps at t. */
 void ru_system_apply_jump(const ru_system *s, double t, double *x);
+
+/* Turns on the Johnson-Nyquist thermal noise of every resistor (a current of
+ * one-sided density 4kT/R across it) and of every inductor's series resistance (a
+ * voltage of density 4kTR in its branch) for time-domain evaluations (not for DC
+ * or small-signal ones), band-limited to about bandwidth_hz, at temp_c, from seed.
+ * The noise is a deterministic function of (seed, part, t): reruns repeat it and
+ * threads share nothing. Call before the system is used; RU_ERANGE on bad values. */
+ru_status ru_system_set_noise(ru_system *s, unsigned long seed, double bandwidth_hz,
+                              double temp_c);
 
 /* Typical magnitude of each state (volts for nodes, amperes for inductors) for
  * absolute tolerances: from the supplies, sources and presets. scale has n entries. */
