@@ -16,9 +16,9 @@
  *     before the settled window, or the kick level when given and lower), or no
  *     cycle at all in the first 3 periods (it emerged from below the visible level,
  *     e.g. under a bias transient after power-on), and
- *     drift >= -10 % (not clearly decaying); start-up time and growth fit look at
- *     the envelope from that lowest point on (a power-on transient before it is
- *     not part of the growth);
+ *     drift >= -10 % (not clearly decaying); the growth fit looks at the envelope
+ *     from that lowest point on (a power-on transient before it is not part of the
+ *     growth); the start-up time is the first time the level is reached from t = 0;
  *   - settling time: the band crossing interpolated linearly between the last point
  *     outside the band and the next point (the first point's time when none is
  *     outside); NAN when the last point is outside. */
@@ -423,7 +423,11 @@ ru_status ru_measure_finish(ru_measure *m, ru_measure_result *r)
     r->settled = fabs(drift) <= DRIFT_LIMIT && e->n_env - i0 >= 2;
     if (!r->settled)
         settle_hint(e, i0, tw, wlen, drift, r->settle_note);
-    r->startup_time_s = first_reach(e, trough, m->cfg.startup_level * mean);
+    /* Start-up time from t = 0 as defined (the first time the level is reached,
+     * an overshooting first burst included); the growth fit starts at the trough. */
+    r->startup_time_s = first_reach(e, 0, m->cfg.startup_level * mean);
+    for (size_t i = 0; i < e->n_env; i++)
+        r->peak_envelope_v = fmax(r->peak_envelope_v, e->env_a[i]);
     double tlim = isfinite(r->startup_time_s) ? r->startup_time_s : INFINITY;
     growth_fit(e, &m->cfg, trough, mean, tlim, r);
     r->settling_time_s = settling_time(e, mean, m->cfg.settle_band);

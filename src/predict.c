@@ -275,8 +275,9 @@ void ru_selfcheck(ru_run_report *rep)
             ru_report_note(rep,
                            "measured growth rate differs from the poles' by %+.1f %%: "
                            "the operating point may still move during start-up (bias "
-                           "settling after power-on), the fit window may reach into the "
-                           "nonlinear region, or the kick is large; try --verify",
+                           "settling after power-on, a lamp or thermistor warming), the "
+                           "fit window may reach into the nonlinear region, or the kick "
+                           "is large; try --verify",
                            100 * rep->growth_mismatch);
     }
     if (pr->have_poles && pr->growth_rate_per_s > 0 && !m->started)
@@ -295,6 +296,13 @@ void ru_selfcheck(ru_run_report *rep)
                             "(THD on the probe: %.2g %%) make it approximate",
                        100 * (m->settled_amplitude_v / pr->settled_amplitude_v - 1),
                        m->thd_percent);
+    if (m->started && m->peak_envelope_v > 1.2 * m->settled_amplitude_v)
+        ru_report_note(rep, "the envelope overshoots to %.3g V, %.2gx the settled "
+                            "amplitude, before it settles (an amplitude control with "
+                            "memory, such as a lamp or thermistor, or a loop that "
+                            "bounces): the settling time, not the start-up time, says "
+                            "when the tone is usable",
+                       m->peak_envelope_v, m->peak_envelope_v / m->settled_amplitude_v);
     if (m->started && !m->settled && m->settle_note[0])
         ru_report_note(rep, "%s", m->settle_note);
     double sn = rep->integrator_damping_per_s, sg = m->growth_rate_per_s;

@@ -67,6 +67,7 @@ typedef struct ru_measure_result {
     double harmonics_dbc[RU_HARMONICS - 1]; /* [0] is the 2nd harmonic */
     double dc_level_v;           /* mean over the settled window */
     double envelope_drift;       /* relative change over the settled window */
+    double peak_envelope_v;      /* largest envelope point (overshoot when > settled) */
     size_t cycles;               /* envelope points found */
     char growth_note[RU_NOTE_MAX];  /* why growth is NAN, or "" */
     char settle_note[RU_NOTE_MAX];  /* hint when not settled, or "" */

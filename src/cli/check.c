@@ -42,9 +42,33 @@ static void part_value(const ru_part *p, char *buf, size_t size)
         snprintf(buf, size, "%s%s%s", ru_law_name(p->amp.law), p->amp.model[0] ? " / " : "",
                  p->amp.model);
         break;
+    case RU_PART_DIODE:
+        snprintf(buf, size, "is %g A, n %g%s%s", p->diode.is_a, p->diode.n,
+                 p->diode.model[0] ? " / " : "", p->diode.model);
+        break;
+    case RU_PART_THERMAL:
+        snprintf(buf, size, "%s, %s cold%s%s",
+                 p->thermal.kind == RU_THERMAL_LAMP ? "lamp" : "ntc",
+                 ru_format_si(p->thermal.r0_ohm, "ohm", 3, v, sizeof v),
+                 p->thermal.model[0] ? " / " : "", p->thermal.model);
+        break;
     default:
         buf[0] = '\0';
     }
+}
+
+/* "a,b" for two-terminal parts; "in,out,ref" (",inv" when it differs from ref). */
+static void part_nodes(const ru_circuit *c, const ru_part *p, char *buf, size_t size)
+{
+    if (p->type != RU_PART_AMPLIFIER) {
+        snprintf(buf, size, "%s,%s", ru_circuit_node_name(c, p->node[0]),
+                 ru_circuit_node_name(c, p->node[1]));
+        return;
+    }
+    int inv = ru_part_inv_node(p);
+    snprintf(buf, size, "in %s, out %s, ref %s%s%s", ru_circuit_node_name(c, p->node[0]),
+             ru_circuit_node_name(c, p->node[1]), ru_circuit_node_name(c, p->node[2]),
+             inv != p->node[2] ? ", inv " : "", inv != p->node[2] ? ru_circuit_node_name(c, inv) : "");
 }
 
 static void print_text(const ru_circuit *c, const ru_system *s)
@@ -52,16 +76,15 @@ static void print_text(const ru_circuit *c, const ru_system *s)
     size_t np = ru_circuit_part_count(c), nn = ru_circuit_node_count(c);
     char sbuf[32];
     printf("%s: %s\n", ru_circuit_file(c), ru_circuit_title(c)[0] ? ru_circuit_title(c) : "(no title)");
-    printf("%zu parts, %zu nodes besides ground, %zu states\n", np, nn - 1, ru_system_size(s));
+    printf("%zu parts, %zu node%s besides ground, %zu states\n", np, nn - 1,
+           nn == 2 ? "" : "s", ru_system_size(s));
     for (size_t i = 0; i < np; i++) {
         const ru_part *p = ru_circuit_part(c, i);
-        char v[96];
+        char v[192];
         part_value(p, v, sizeof v);
-        int nt = p->type == RU_PART_AMPLIFIER ? 3 : 2;
-        printf("  %-8s %-17s", p->name, ru_part_type_name(p->type));
-        for (int k = 0; k < nt; k++)
-            printf("%s%s", k ? "," : " ", ru_circuit_node_name(c, p->node[k]));
-        printf("  %s\n", v);
+        char nodes[4 * RU_NAME_MAX + 16];
+        part_nodes(c, p, nodes, sizeof nodes);
+        printf("  %-8s %-17s %-22s %s\n", p->name, ru_part_type_name(p->type), nodes, v);
     }
     printf("states:");
     for (size_t i = 0; i < ru_system_size(s); i++)
@@ -90,6 +113,8 @@ static void print_json(const ru_circuit *c, const ru_system *s)
         ru_json_begin_array(&j, "nodes");
         for (int k = 0; k < nt; k++)
             ru_json_string(&j, NULL, ru_circuit_node_name(c, p->node[k]));
+        if (p->type == RU_PART_AMPLIFIER && ru_part_inv_node(p) != p->node[2])
+            ru_json_string(&j, NULL, ru_circuit_node_name(c, ru_part_inv_node(p)));
         ru_json_end_array(&j);
         ru_json_end_object(&j);
     }
