@@ -48,6 +48,9 @@ const char *cli_get(const cli_opt *opts, const char *name);
  * returns 0 when it does not parse. */
 int cli_value(const cli_opt *opts, const char *name, const char *unit, double *out);
 
+/* As cli_value, and the value (when given) must be positive. */
+int cli_positive(const cli_opt *opts, const char *name, const char *unit, double *out);
+
 /* --accuracy draft|normal|precise into *accuracy (an ru_accuracy; unchanged when
  * the option is absent); returns 0, or 1 after a message. */
 int cli_accuracy(const cli_opt *opts, int *accuracy);

@@ -183,3 +183,14 @@ int cli_accuracy(const cli_opt *opts, int *accuracy)
     fprintf(stderr, "ringup: option --accuracy takes draft, normal or precise\n");
     return 1;
 }
+
+int cli_positive(const cli_opt *opts, const char *name, const char *unit, double *out)
+{
+    if (!cli_value(opts, name, unit, out))
+        return 0;
+    if (cli_get(opts, name) && !(*out > 0)) {
+        fprintf(stderr, "ringup: option --%s must be positive\n", name);
+        return 0;
+    }
+    return 1;
+}

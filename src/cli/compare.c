@@ -191,7 +191,8 @@ int cmd_compare(int argc, char **argv)
     ru_run_request rq;
     ru_run_request_default(&rq);
     double threads = 0;
-    if (!cli_value(opts, "stop", "s", &rq.stop_s) || !cli_value(opts, "threads", NULL, &threads))
+    if (!cli_positive(opts, "stop", "s", &rq.stop_s) ||
+        !cli_positive(opts, "threads", NULL, &threads))
         return 1;
     if (cli_accuracy(opts, &rq.accuracy) != 0)
         return 1;

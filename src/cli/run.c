@@ -301,19 +301,11 @@ static int set_wav(const cli_opt *opts, ru_run_request *rq)
     ru_wav_opts *w = &rq->wav;
     if (!cli_value(opts, "wav-rate", "Hz", &w->rate_hz) ||
         !cli_value(opts, "wav-level", NULL, &w->level_dbfs) ||
-        !cli_value(opts, "wav-pitch", "Hz", &w->pitch_hz) ||
-        !cli_value(opts, "wav-seconds", "s", &w->max_seconds))
+        !cli_positive(opts, "wav-pitch", "Hz", &w->pitch_hz) ||
+        !cli_positive(opts, "wav-seconds", "s", &w->max_seconds))
         return 0;
     if (cli_get(opts, "wav-float"))
         w->format = RU_WAV_FLOAT;
-    if (cli_get(opts, "wav-pitch") && !(w->pitch_hz > 0)) {
-        fprintf(stderr, "ringup: option --wav-pitch must be positive\n");
-        return 0;
-    }
-    if (cli_get(opts, "wav-seconds") && !(w->max_seconds > 0)) {
-        fprintf(stderr, "ringup: option --wav-seconds must be positive\n");
-        return 0;
-    }
     if (!rq->wav_path && (cli_get(opts, "wav-rate") || cli_get(opts, "wav-level") ||
                           cli_get(opts, "wav-pitch") || cli_get(opts, "wav-seconds") ||
                           cli_get(opts, "wav-float"))) {
@@ -352,16 +344,9 @@ static int set_request(const cli_opt *opts, ru_run_request *rq)
     ru_run_request_default(rq);
     rq->out_dir = cli_get(opts, "out");
     rq->loop_part = cli_get(opts, "loop");
-    if (!cli_value(opts, "stop", "s", &rq->stop_s) || !cli_value(opts, "sample", "s", &rq->sample_s))
+    if (!cli_positive(opts, "stop", "s", &rq->stop_s) ||
+        !cli_positive(opts, "sample", "s", &rq->sample_s))
         return 0;
-    if (cli_get(opts, "stop") && !(rq->stop_s > 0)) {
-        fprintf(stderr, "ringup: option --stop must be positive\n");
-        return 0;
-    }
-    if (cli_get(opts, "sample") && !(rq->sample_s > 0)) {
-        fprintf(stderr, "ringup: option --sample must be positive\n");
-        return 0;
-    }
     if (!set_wav(opts, rq))
         return 0;
     return cli_accuracy(opts, &rq->accuracy) == 0;
