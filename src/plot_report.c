@@ -88,28 +88,17 @@ ru_status ru_plot_report_check(const char *path, ru_error *err)
 }
 
 #ifdef RU_HAVE_PLPLOT
-/* Summary page: title, summary lines, then the table in columns sized by their
- * longest cell (characters are about 0.0095 of the page width at scale 0.95). */
-static void report_page(const char *title, const char *summary, const ru_plot_table *t)
+/* Summary page: the title, the table in columns sized by their longest cell
+ * (characters are about 0.0115 of the page width at scale 0.95, wide enough for
+ * digits in the proportional font), then the summary lines, each wrapped at word
+ * boundaries to RU_REPORT_WRAP characters. Lines that do not fit are dropped. */
+#define RU_REPORT_WRAP 80
+
+static double report_table(const ru_plot_table *t, double y)
 {
     char line[256];
-    double y = 0.90;
-    pladv(0);
-    plvpor(0, 1, 0, 1);
-    plwind(0, 1, 0, 1);
-    plot_escape(line, sizeof line, title ? title : "ringup report");
-    plot_text(0.06, 0.94, 0.0, PC_INK, 1.5, line);
-    for (const char *p = summary; p && *p && y > 0.1;) {
-        size_t len = strcspn(p, "\n");
-        char raw[256];
-        snprintf(raw, sizeof raw, "%.*s", (int)(len < 255 ? len : 255), p);
-        plot_escape(line, sizeof line, raw);
-        y -= 0.035;
-        plot_text(0.06, y, 0.0, PC_INK, 0.95, line);
-        p += len + (p[len] == '\n');
-    }
     if (!t || !t->cells || t->ncols == 0)
-        return;
+        return y;
     double x[32], w = 0.06;
     for (size_t c = 0; c < t->ncols && c < 32; c++) {
         size_t mx = 4;
@@ -118,9 +107,8 @@ static void report_page(const char *title, const char *summary, const ru_plot_ta
             mx = s && strlen(s) > mx ? strlen(s) : mx;
         }
         x[c] = w;
-        w += 0.0095 * (double)mx + 0.03;
+        w += 0.0115 * (double)mx + 0.03;
     }
-    y -= 0.03;
     for (size_t r = 0; r < t->nrows && y > 0.05; r++) {
         y -= 0.035;
         for (size_t c = 0; c < t->ncols && c < 32; c++) {
@@ -132,6 +120,38 @@ static void report_page(const char *title, const char *summary, const ru_plot_ta
             double lx[2] = {0.06, fmin(w, 0.97)}, ly[2] = {y - 0.018, y - 0.018};
             plot_line(2, lx, ly, PC_GRID, 1.0, 1);
         }
+    }
+    return y - 0.03;
+}
+
+static void report_page(const char *title, const char *summary, const ru_plot_table *t)
+{
+    char line[256];
+    double y = 0.90;
+    pladv(0);
+    plvpor(0, 1, 0, 1);
+    plwind(0, 1, 0, 1);
+    plot_escape(line, sizeof line, title ? title : "ringup report");
+    plot_text(0.06, 0.94, 0.0, PC_INK, 1.5, line);
+    y = report_table(t, y);
+    for (const char *p = summary; p && *p && y > 0.05;) {
+        size_t len = strcspn(p, "\n"), cut = len;
+        if (cut > RU_REPORT_WRAP) { /* wrap at the last space before the limit */
+            cut = RU_REPORT_WRAP;
+            while (cut > 20 && p[cut] != ' ')
+                cut--;
+        }
+        char raw[256];
+        snprintf(raw, sizeof raw, "%.*s", (int)(cut < 255 ? cut : 255), p);
+        plot_escape(line, sizeof line, raw);
+        y -= 0.035;
+        plot_text(0.06, y, 0.0, PC_INK, 0.95, line);
+        p += cut;
+        if (cut == len && *p == '\n')
+            p++; /* the end of a line */
+        else
+            while (*p == ' ')
+                p++; /* a wrap inside a line */
     }
 }
 

@@ -89,6 +89,12 @@ int cli_plot_run(const cli_plot_req *pr, const ru_circuit *c, const ru_run_repor
 /* Figures and a report of any prepared set. */
 int cli_plot_set(const cli_plot_req *pr, const char *title, const ru_plot_set *set);
 
+/* "NAME TYPE NODES VALUE" for a listing (no newline). */
+void cli_part_line(const ru_circuit *c, const ru_part *p, char *buf, size_t size);
+
+/* "NAME, TYPE (NODES): VALUE" for running text (a report), no padding. */
+void cli_part_text(const ru_circuit *c, const ru_part *p, char *buf, size_t size);
+
 /* Creates folder dir (and parents) if missing; returns 0 or exit status 3. */
 int cli_make_dir(const char *dir);
 

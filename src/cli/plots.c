@@ -87,13 +87,20 @@ static int write_report(const cli_plot_req *pr, const ru_circuit *c, const ru_ru
         cells[(i + 1) * 3 + 2] = buf[(i + 1) * 3 + 2];
     }
     ru_plot_table table = {TROWS + 1, 3, cells};
-    char summary[2048];
+    char summary[8192], a[32], b[32];
     int len = snprintf(summary, sizeof summary,
-                       "circuit file: %s\n%zu parts, %zu nodes besides ground\n"
-                       "probe %s, run %g s sampled every %g s\nstarted: %s, settled: %s\n",
-                       ru_circuit_file(c), ru_circuit_part_count(c),
-                       ru_circuit_node_count(c) - 1, r->probe, r->stop_s, r->sample_s,
+                       "circuit file: %s\nprobe %s, run %s sampled every %s\n"
+                       "started: %s, settled: %s\n",
+                       ru_circuit_file(c), r->probe, ru_format_si(r->stop_s, "s", 4, a, sizeof a),
+                       ru_format_si(r->sample_s, "s", 4, b, sizeof b),
                        m->started ? "yes" : "no", m->settled ? "yes" : "no");
+    for (size_t i = 0; i < ru_circuit_part_count(c) && len > 0 &&
+                       (size_t)len < sizeof summary;
+         i++) {
+        char line[512];
+        cli_part_text(c, ru_circuit_part(c, i), line, sizeof line);
+        len += snprintf(summary + len, sizeof summary - (size_t)len, "%s\n", line);
+    }
     for (int i = 0; i < r->nnotes && len > 0 && (size_t)len < sizeof summary; i++)
         len += snprintf(summary + len, sizeof summary - (size_t)len, "note: %s\n",
                         r->notes[i]);
