@@ -130,5 +130,37 @@ if [ -x /usr/bin/python3 ]; then
     done
 fi
 
+# --verify reruns at 10x tighter tolerances and says how much each figure moved.
+"$ru" run "$vdp" --verify >"$tmp/out" 2>"$tmp/err"
+check "verify" 0 $?
+grepcheck "verify table" "verify: rerun at 10x tighter tolerances" "$tmp/out"
+
+# compare: three models on the follower example in parallel, one row each; a model
+# that does not exist is reported in its row and does not stop the others.
+col=$src/examples/follower-colpitts.yaml
+"$ru" compare "$col" --part A1 --models soft-follower,emitter-follower,nonesuch --json \
+    >"$tmp/cmp.json" 2>"$tmp/err"
+check "compare" 0 $?
+if [ -x /usr/bin/python3 ]; then
+    /usr/bin/python3 - "$tmp/cmp.json" <<'PY'
+import json, sys
+d = json.load(open(sys.argv[1]))
+r = {x["model"]: x for x in d["results"]}
+assert d["part"] == "A1", d
+assert len(d["results"]) == 3, d
+for m in ("soft-follower", "emitter-follower"):
+    assert r[m]["started"] is True, r[m]
+    assert r[m]["settled_amplitude_v"] > 0.5, r[m]
+assert "error" in r["nonesuch"], r["nonesuch"]
+# the emitter follower's wider swing (3 V against 1.5 V) settles higher
+assert r["emitter-follower"]["settled_amplitude_v"] > r["soft-follower"]["settled_amplitude_v"]
+PY
+    check "compare json" 0 $?
+    "$ru" models --json >"$tmp/m.json" 2>"$tmp/err"
+    check "models" 0 $?
+    /usr/bin/python3 -c 'import json,sys; m=json.load(open(sys.argv[1])); assert len(m) >= 10 and len({x["law"] for x in m}) >= 6 and all("name" in x and "params" in x for x in m)' "$tmp/m.json"
+    check "models json: 10 presets over 6 laws" 0 $?
+fi
+
 echo "$passes passed, $fails failed"
 [ "$fails" -eq 0 ]
