@@ -195,6 +195,7 @@ static ru_status spectrum(const ru_window *w, const double *tc, size_t nc, doubl
     if (st != RU_OK)
         return st;
     r->thd_percent = thd;
+    r->fundamental_v = amp[0];
     for (int k = 2; k <= RU_HARMONICS; k++) {
         double rel = amp[k - 1] / amp[0];
         /* floor at -300 dBc so an exactly zero harmonic stays a finite number */

@@ -346,7 +346,7 @@ static void result_init(ru_measure_result *r)
     r->startup_time_s = r->growth_rate_per_s = NAN;
     r->growth_fit_t0_s = r->growth_fit_t1_s = r->growth_fit_rms = NAN;
     r->frequency_hz = r->settled_amplitude_v = r->settling_time_s = NAN;
-    r->thd_percent = r->dc_level_v = r->envelope_drift = NAN;
+    r->thd_percent = r->dc_level_v = r->envelope_drift = r->fundamental_v = NAN;
     for (int k = 0; k < RU_HARMONICS - 1; k++)
         r->harmonics_dbc[k] = NAN;
 }
@@ -357,7 +357,7 @@ static void not_started(ru_measure_result *r, const char *why)
 {
     r->started = 0;
     r->settled = 0;
-    r->frequency_hz = r->thd_percent = r->settled_amplitude_v = NAN;
+    r->frequency_hz = r->thd_percent = r->settled_amplitude_v = r->fundamental_v = NAN;
     for (int k = 0; k < RU_HARMONICS - 1; k++)
         r->harmonics_dbc[k] = NAN;
     snprintf(r->growth_note, RU_NOTE_MAX, "did not start: %s", why);

@@ -288,13 +288,14 @@ void ru_selfcheck(ru_run_report *rep)
     if (pr->have_poles && pr->growth_rate_per_s < 0 && m->started)
         ru_report_note(rep, "the poles are in the left half-plane yet the run started: "
                             "a large kick can start a hard-excited oscillator");
-    if (isfinite(pr->settled_amplitude_v) && isfinite(m->settled_amplitude_v) &&
-        fabs(m->settled_amplitude_v / pr->settled_amplitude_v - 1) > 0.05)
-        ru_report_note(rep, "measured amplitude differs from the describing-function "
+    /* the describing function predicts the fundamental: compare like with like */
+    if (isfinite(pr->settled_amplitude_v) && isfinite(m->fundamental_v) &&
+        fabs(m->fundamental_v / pr->settled_amplitude_v - 1) > 0.05)
+        ru_report_note(rep, "measured fundamental differs from the describing-function "
                             "prediction by %+.1f %%: that method keeps only the "
                             "fundamental at every node, so harmonics anywhere in the loop "
                             "(THD on the probe: %.2g %%) make it approximate",
-                       100 * (m->settled_amplitude_v / pr->settled_amplitude_v - 1),
+                       100 * (m->fundamental_v / pr->settled_amplitude_v - 1),
                        m->thd_percent);
     if (m->started && m->peak_envelope_v > 1.2 * m->settled_amplitude_v)
         ru_report_note(rep, "the envelope overshoots to %.3g V, %.2gx the settled "

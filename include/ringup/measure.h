@@ -63,6 +63,7 @@ typedef struct ru_measure_result {
     double frequency_hz;
     double settled_amplitude_v;
     double settling_time_s;
+    double fundamental_v;        /* peak amplitude of the settled tone's fundamental */
     double thd_percent;
     double harmonics_dbc[RU_HARMONICS - 1]; /* [0] is the 2nd harmonic */
     double dc_level_v;           /* mean over the settled window */

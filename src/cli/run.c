@@ -73,7 +73,8 @@ static void print_text(const ru_circuit *c, const ru_run_report *r, int auto_sam
     row("start-up time", m->startup_time_s, p->startup_time_s, "s");
     rate_row("growth rate", m->growth_rate_per_s, p->growth_rate_per_s);
     row("frequency", m->frequency_hz, p->frequency_hz, "Hz");
-    row("settled amplitude", m->settled_amplitude_v, p->settled_amplitude_v, "V");
+    row("settled amplitude", m->settled_amplitude_v, NAN, "V");
+    row("  fundamental", m->fundamental_v, p->settled_amplitude_v, "V");
     printf("  %-20s %s\n", "settled", m->started ? yes_no(m->settled) : "-");
     row("settling time", m->settling_time_s, NAN, "s");
     printf("  %-20s %s\n", "THD",
@@ -121,6 +122,7 @@ static void json_measured(ru_json *j, const ru_run_report *r)
     ru_json_number(j, "frequency_hz", m->frequency_hz);
     ru_json_number(j, "settled_amplitude_v", m->settled_amplitude_v);
     ru_json_number(j, "settling_time_s", m->settling_time_s);
+    ru_json_number(j, "fundamental_v", m->fundamental_v);
     ru_json_number(j, "thd_percent", m->thd_percent);
     ru_json_begin_array(j, "harmonics_dbc");
     for (int k = 0; k < RU_HARMONICS - 1; k++)
