@@ -24,7 +24,6 @@ check passes.
 import json
 import math
 import os
-import re
 import subprocess
 import sys
 

@@ -57,7 +57,6 @@ time with stop/sample. Exit 0 only when every check passes.
 """
 import csv
 import os
-import re
 import subprocess
 import sys
 import tempfile
