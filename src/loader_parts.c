@@ -27,13 +27,19 @@ static const char *const all_part_keys[] = {
 
 #define MAX_KEYS 20
 
-/* A value key read into a double at a byte offset of a struct. */
-typedef struct key_rec {
-    const char *key;  /* spelling in the file */
-    const char *unit; /* expected unit; "sig": V for a supply, A for a current */
-    size_t offset;    /* offset of the double in ru_wave or ru_amp */
-    int required;     /* 1: the key must be given */
-} key_rec;
+/* A value key read into a double at a byte offset of a struct (loader_impl.h). */
+typedef ru_ld_keyrec key_rec;
+
+#define P(f) offsetof(ru_part, f)
+static const key_rec rlc_keys[3][4] = {
+    {{"value", "ohm", P(value), 1}, {"tol", "%", P(tol), 0}, {NULL, NULL, 0, 0}},
+    {{"value", "F", P(value), 1}, {"tol", "%", P(tol), 0}, {NULL, NULL, 0, 0}},
+    {{"value", "H", P(value), 1},
+     {"tol", "%", P(tol), 0},
+     {"series", "ohm", P(series_ohm), 0},
+     {NULL, NULL, 0, 0}}};
+static const key_rec no_keys[] = {{NULL, NULL, 0, 0}};
+#undef P
 
 #define W(f) offsetof(ru_wave, f)
 static const key_rec wave_dc[] = {{"value", "sig", W(value), 1},
@@ -234,33 +240,19 @@ static ru_status read_nodes(ld_ctx *x, struct fy_node *map, struct fy_node *plac
     return s;
 }
 
-/* An optional plain or percentage tolerance. */
-static ru_status read_tol(ld_ctx *x, struct fy_node *map, const char *who, ru_part *part)
-{
-    struct fy_node_pair *p = ru_ld_find(map, "tol");
-    return p ? ru_ld_value(x->d, p, who, "%", x->err, &part->tol) : RU_OK;
-}
-
 static ru_status read_rlc(ld_ctx *x, struct fy_node *map, struct fy_node *place,
                           const char *who, ru_part *part)
 {
-    static const char *const units[] = {"ohm", "F", "H"};
-    const char *allowed[] = {"type", "nodes", "value", "tol",
-                             part->type == RU_PART_INDUCTOR ? "series" : NULL, NULL};
+    const key_rec *keys = rlc_keys[part->type];
+    const char *allowed[MAX_KEYS] = {"type", "nodes", NULL};
+    add_keys(allowed, keys);
     char what[48];
     snprintf(what, sizeof what, "type %s", ru_part_type_name(part->type));
     ru_status s = check_keys(x->d, map, who, allowed, what, x->err);
     if (s == RU_OK)
         s = read_nodes(x, map, place, who, part);
-    struct fy_node_pair *p = ru_ld_find(map, "value");
-    if (s == RU_OK && !p)
-        s = ru_ld_fail(x->d, place, x->err, "%s: missing required key value", who);
-    if (s == RU_OK)
-        s = ru_ld_value(x->d, p, who, units[part->type], x->err, &part->value);
-    if (s == RU_OK)
-        s = read_tol(x, map, who, part);
-    if (s == RU_OK && (p = ru_ld_find(map, "series")) != NULL)
-        s = ru_ld_value(x->d, p, who, "ohm", x->err, &part->series_ohm);
+    if (s == RU_OK) /* value (required), tol (% or fraction), series (inductor) */
+        s = read_keys(x->d, map, place, who, keys, NULL, part, x->err);
     return s;
 }
 
@@ -749,4 +741,31 @@ ru_status ru_ld_parts(ld_ctx *x, struct fy_node_pair *parts)
             s = read_part(x, p);
     }
     return s;
+}
+
+const ru_ld_keyrec *ru_ld_part_keys(const ru_part *p, size_t *base_offset, const char **sig)
+{
+    *sig = p->type == RU_PART_SUPPLY ? "V" : "A";
+    *base_offset = 0;
+    switch (p->type) {
+    case RU_PART_RESISTOR:
+    case RU_PART_CAPACITOR:
+    case RU_PART_INDUCTOR:
+        return rlc_keys[p->type];
+    case RU_PART_SUPPLY:
+    case RU_PART_CURRENT:
+        *base_offset = offsetof(ru_part, wave);
+        return (unsigned)p->wave.kind < 4 ? wave_keys[p->wave.kind] : no_keys;
+    case RU_PART_AMPLIFIER:
+        *base_offset = offsetof(ru_part, amp);
+        return (unsigned)p->amp.law < RU_LAW_COUNT ? law_keys[p->amp.law] : no_keys;
+    case RU_PART_DIODE:
+        *base_offset = offsetof(ru_part, diode);
+        return diode_keys;
+    case RU_PART_THERMAL:
+        *base_offset = offsetof(ru_part, thermal);
+        return p->thermal.kind == RU_THERMAL_NTC ? ntc_keys : lamp_keys;
+    default:
+        return no_keys;
+    }
 }
