@@ -1,0 +1,131 @@
+/* ringup/montecarlo.h: Monte Carlo over part tolerances: does the oscillator start
+ * on every unit, and how do start-up time, growth rate, frequency, settled
+ * amplitude and THD spread?
+ *
+ * Each sample (unit) draws, for every part with a tolerance `tol` > 0 (resistors,
+ * capacitors, inductors: their `value` only), value*(1 + d) with d
+ *   - uniform in [-tol, tol] (RU_MC_UNIFORM, the default: every value in the band
+ *     equally likely, worst-case-like), or
+ *   - normal with sigma = tol/3 truncated at +-tol (RU_MC_NORMAL: the tolerance
+ *     taken as a 3-sigma bound, common practice; the truncated variance is
+ *     0.97334 sigma^2).
+ * Sample 0 is the nominal circuit (nothing drawn). The generator is counter-based:
+ * d is a pure function of (seed, sample index, part index), splitmix64 used as a
+ * hash as in the noise kick (src/noise.c), so a result does not depend on the
+ * number of threads or their scheduling and any unit can be rebuilt alone.
+ *
+ * Memory: only the figures of each unit and its drawn values are kept (a few
+ * hundred bytes per unit); the runs go through ru_batch_run in chunks. At most
+ * RU_MC_MAX_SAMPLES samples. Nothing here prints. */
+#ifndef RINGUP_MONTECARLO_H
+#define RINGUP_MONTECARLO_H
+
+#include "ringup/analysis.h"
+#include "ringup/circuit.h"
+#include "ringup/status.h"
+
+#include <stddef.h>
+#include <stdint.h>
+
+#ifdef __cplusplus
+extern "C" {
+#endif
+
+#define RU_MC_MAX_SAMPLES 10000
+
+typedef enum {
+    RU_MC_UNIFORM, /* d uniform in [-tol, tol] */
+    RU_MC_NORMAL   /* d normal, sigma tol/3, truncated at +-tol */
+} ru_mc_dist;
+
+/* The figures summarised over the started units (index into the arrays below). */
+typedef enum {
+    RU_MC_STARTUP,   /* start-up time (s) */
+    RU_MC_GROWTH,    /* measured growth rate (1/s) */
+    RU_MC_FREQUENCY, /* frequency (Hz) */
+    RU_MC_AMPLITUDE, /* settled amplitude (V peak) */
+    RU_MC_THD,       /* THD (%) */
+    RU_MC_NFIG
+} ru_mc_figure;
+
+/* The JSON key of a figure ("startup_time_s", "growth_rate_per_s",
+ * "frequency_hz", "settled_amplitude_v", "thd_percent"). */
+const char *ru_mc_figure_key(ru_mc_figure f);
+
+/* The relative deviation d of part `part` in sample `sample` (see above); 0 when
+ * tol <= 0. |d| <= tol always. */
+double ru_mc_deviation(uint64_t seed, uint64_t sample, uint64_t part, ru_mc_dist dist,
+                       double tol);
+
+/* Constructor: a clone of c with the values of sample `sample` drawn (sample 0:
+ * the nominal values). On error *out is NULL. */
+ru_status ru_mc_sample_circuit(const ru_circuit *c, uint64_t seed, size_t sample,
+                               ru_mc_dist dist, ru_circuit **out, ru_error *err);
+
+typedef struct ru_mc_opts {
+    size_t samples;          /* units, 1..RU_MC_MAX_SAMPLES (sample 0 is nominal) */
+    uint64_t seed;           /* generator seed */
+    ru_mc_dist dist;         /* how deviations are drawn */
+    int threads;             /* parallel runs (<= 0: one per processor) */
+    ru_run_request request;  /* how each unit runs (stop, accuracy; keep, out_dir
+                                and wav_path must be NULL) */
+} ru_mc_opts;
+
+/* Fills o with: 100 samples, seed 1, uniform, one thread per processor, the
+ * file's run settings. */
+void ru_mc_opts_default(ru_mc_opts *o);
+
+/* What is kept of one unit. */
+typedef struct ru_mc_unit {
+    size_t index;                   /* sample index (0: nominal) */
+    ru_status status;               /* RU_OK, or why the run failed */
+    char error[256];                /* the message when status is not RU_OK */
+    int started;                    /* 1: it started (0 also when the run failed) */
+    double fig[RU_MC_NFIG];         /* measured figures (NAN: not known) */
+    double predicted_growth_per_s;  /* dominant poles' real part (NAN: none) */
+} ru_mc_unit;
+
+/* Summary of one figure over the started units whose figure is known. */
+typedef struct ru_mc_stats {
+    size_t n;        /* values summarised (0: the rest is NAN) */
+    double min, mean, max;
+    double std;      /* sample standard deviation (n - 1 in the denominator) */
+    double p05, p95; /* 5th and 95th percentiles, linear between order statistics
+                        (position q (n - 1), as numpy.percentile's default) */
+} ru_mc_stats;
+
+/* Fills s from x[0..n-1] (NAN entries skipped). */
+void ru_mc_stats_of(const double *x, size_t n, ru_mc_stats *s);
+
+typedef struct ru_mc_result ru_mc_result;
+
+/* Runs the Monte Carlo. RU_ERANGE for a sample count out of range or a request
+ * that would write files; RU_EINPUT when no part has a tolerance; RU_ENOMEM.
+ * A unit whose run fails is recorded as not started with its message; it does
+ * not stop the others. */
+ru_status ru_mc_run(const ru_circuit *c, const ru_mc_opts *o, ru_mc_result **out,
+                    ru_error *err);
+
+/* Destructor; NULL is harmless. */
+void ru_mc_result_destroy(ru_mc_result *r);
+
+size_t ru_mc_sample_count(const ru_mc_result *r);
+size_t ru_mc_started_count(const ru_mc_result *r);
+size_t ru_mc_failed_count(const ru_mc_result *r); /* runs that ended in an error */
+const ru_mc_unit *ru_mc_get_unit(const ru_mc_result *r, size_t i);
+const ru_mc_stats *ru_mc_get_stats(const ru_mc_result *r, ru_mc_figure f);
+
+/* The parts with a tolerance, in circuit order: their count, the k-th's name, and
+ * the value drawn for it in unit i (in the part's unit). */
+size_t ru_mc_tol_count(const ru_mc_result *r);
+const char *ru_mc_tol_name(const ru_mc_result *r, size_t k);
+double ru_mc_value(const ru_mc_result *r, size_t i, size_t k);
+
+/* The indices of the started units, latest start-up first (NAN start-up times
+ * last); at most max of them into idx; returns how many. */
+size_t ru_mc_latest(const ru_mc_result *r, size_t *idx, size_t max);
+
+#ifdef __cplusplus
+}
+#endif
+#endif
