@@ -47,17 +47,46 @@ void ru_sys_csolve(const ru_system *s, double *b)
 {
     size_t n = s->nfree;
     const double *L = s->cfac;
-    for (size_t i = 0; i < n; i++) { /* L y = b */
+    for (size_t i = 0; i < n; i++) { /* L y = b; L(i,j) = 0 for j < crow0[i] */
         double acc = b[i];
-        for (size_t j = 0; j < i; j++)
+        for (size_t j = s->crow0[i]; j < i; j++)
             acc -= L[i + j * n] * b[j];
         b[i] = acc / L[i + i * n];
     }
-    for (size_t i = n; i-- > 0;) { /* L^T x = y */
+    for (size_t i = n; i-- > 0;) { /* L^T x = y; L(j,i) = 0 for j > ccol1[i] */
         double acc = b[i];
-        for (size_t j = i + 1; j < n; j++)
-            acc -= L[j + i * n] * b[j];
-        b[i] = acc / L[i + i * n];
+        const double *col = L + i * n;
+        for (size_t j = i + 1; j <= s->ccol1[i]; j++)
+            acc -= col[j] * b[j];
+        b[i] = acc / col[i];
+    }
+}
+
+/* row_i -= l * row_j over ncols entries. */
+static void row_axpy(double *ri, const double *rj, double l, size_t ncols)
+{
+    for (size_t c = 0; c < ncols; c++)
+        ri[c] -= l * rj[c];
+}
+
+void ru_sys_csolve_rows(const ru_system *s, double *B, size_t ncols)
+{
+    size_t n = s->nfree;
+    const double *L = s->cfac;
+    for (size_t i = 0; i < n; i++) {
+        double *ri = B + i * ncols;
+        for (size_t j = s->crow0[i]; j < i; j++)
+            row_axpy(ri, B + j * ncols, L[i + j * n], ncols);
+        for (size_t c = 0; c < ncols; c++)
+            ri[c] /= L[i + i * n];
+    }
+    for (size_t i = n; i-- > 0;) {
+        double *ri = B + i * ncols;
+        const double *col = L + i * n;
+        for (size_t j = i + 1; j <= s->ccol1[i]; j++)
+            row_axpy(ri, B + j * ncols, col[j], ncols);
+        for (size_t c = 0; c < ncols; c++)
+            ri[c] /= col[i];
     }
 }
 
@@ -186,6 +215,24 @@ static void count_states(ru_system *s)
     s->n = s->nfree + s->nind + s->nint;
 }
 
+/* crow0 and ccol1 of the factor's lower triangle (see system_impl.h); the upper
+ * triangle of cfac is not part of L and is ignored. */
+static void factor_envelope(ru_system *s)
+{
+    size_t nf = s->nfree;
+    const double *L = s->cfac;
+    for (size_t i = 0; i < nf; i++) {
+        size_t j = 0;
+        while (j < i && L[i + j * nf] == 0.0)
+            j++;
+        s->crow0[i] = j;
+        size_t k = nf - 1;
+        while (k > i && L[k + i * nf] == 0.0)
+            k--;
+        s->ccol1[i] = k;
+    }
+}
+
 static ru_status build_cmat(ru_system *s, ru_error *err)
 {
     size_t nf = s->nfree;
@@ -215,6 +262,7 @@ static ru_status build_cmat(ru_system *s, ru_error *err)
         return ru_error_set(err, RU_ENUMERIC, ru_circuit_file(s->c), 0, 0,
                             "the capacitance matrix is not positive definite "
                             "(Cholesky failed at column %d)", (int)info);
+    factor_envelope(s);
     return RU_OK;
 }
 
@@ -234,8 +282,10 @@ static ru_status alloc_states(ru_system *s)
     size_t nf = s->nfree ? s->nfree : 1;
     s->cmat = calloc(nf * nf, sizeof *s->cmat);
     s->cfac = calloc(nf * nf, sizeof *s->cfac);
+    s->crow0 = calloc(nf, sizeof *s->crow0);
+    s->ccol1 = calloc(nf, sizeof *s->ccol1);
     s->names = calloc(s->n ? s->n : 1, sizeof *s->names);
-    return (s->cmat && s->cfac && s->names) ? RU_OK : RU_ENOMEM;
+    return (s->cmat && s->cfac && s->crow0 && s->ccol1 && s->names) ? RU_OK : RU_ENOMEM;
 }
 
 ru_status ru_system_create(const ru_circuit *c, ru_system **out, ru_error *err)
@@ -282,6 +332,8 @@ void ru_system_destroy(ru_system *s)
     free(s->part_state);
     free(s->cmat);
     free(s->cfac);
+    free(s->crow0);
+    free(s->ccol1);
     free(s->names);
     free(s);
 }

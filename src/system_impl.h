@@ -6,7 +6,9 @@
  * drive[k] whose `from` node is ground or a driven node listed earlier in
  * drive_order; free node states are 0..nfree-1 in node order; inductor states
  * follow in part order; cfac holds the Cholesky factor of the nfree x nfree
- * capacitance matrix (column-major lower, L(i,j) = cfac[i + j*nfree]); internal
+ * capacitance matrix (column-major lower, L(i,j) = cfac[i + j*nfree]) whose
+ * entries outside its envelope are exact zeros: L(i,j) == 0 for j < crow0[i]
+ * (row i) and for i > ccol1[j] (column j), so solves may skip them; internal
  * states (an opamp's vint, a thermal resistor's rise) follow the inductor
  * currents in part order, one per such part, with unit mass. Nothing changes after
  * ru_system_create returns except the noise settings, which ru_system_set_noise
@@ -45,6 +47,8 @@ struct ru_system {
     int *part_state;       /* per part: inductor current or internal state, else -1 */
     double *cmat;          /* nfree*nfree capacitance matrix (F), symmetric */
     double *cfac;          /* its Cholesky factor (see above) */
+    size_t *crow0;         /* per row i of the factor: first column with L(i,j) != 0 */
+    size_t *ccol1;         /* per column j of the factor: last row with L(i,j) != 0 */
     char (*names)[RU_STATE_NAME_MAX]; /* per state: its name */
     ru_noise noise;        /* thermal noise of the resistors (off unless set) */
 };
@@ -69,5 +73,14 @@ int ru_sys_part_nstates(const ru_part *p);
 
 /* Solves C y = b in place (b has nfree entries). */
 void ru_sys_csolve(const ru_system *s, double *b);
+
+/* Solves C Y = B in place for the first nfree rows of a row-major matrix B with
+ * ncols columns (row i at B + i*ncols): every column as ru_sys_csolve would, with
+ * the same operations in the same order, rows at a time. */
+void ru_sys_csolve_rows(const ru_system *s, double *B, size_t ncols);
+
+/* Scratch doubles on the stack for a residual evaluation; larger circuits use the
+ * heap (the caller's own buffer either way: nothing is shared between calls). */
+#define RU_SYS_STACK_DOUBLES 256
 
 #endif

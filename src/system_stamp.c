@@ -4,9 +4,11 @@
  * Rows: a free node's row is the net current into the node from every part but
  * the capacitors (plus C * dv/dt of a driven node at a capacitor's far end); an
  * inductor's row is di/dt. Rows and columns of ground and driven nodes do not
- * exist and are skipped by the stamp helpers. Every call allocates its own
- * scratch, so one system serves many threads. An internal state's row is its
- * rate (unit mass): an opamp's dvint/dt, a thermal resistor's d rise/dt. */
+ * exist and are skipped by the stamp helpers. Every call keeps its own scratch
+ * (on its stack, or on the heap beyond RU_SYS_STACK_DOUBLES), so one system serves
+ * many threads. An internal state's row is its rate (unit mass): an opamp's
+ * dvint/dt, a thermal resistor's d rise/dt. Without dr (the rhs), the stamps add
+ * only residual terms. */
 #include "system_impl.h"
 
 #include "laws.h"
@@ -47,6 +49,8 @@ static void stamp_branch(stamp_ctx *k, int a, int b, double i, double g)
     int ra = k->s->node_state[a], rb = k->s->node_state[b];
     add_r(k, a, -i);
     add_r(k, b, i);
+    if (!k->dr)
+        return;
     add_dn(k, ra, a, -g);
     add_dn(k, ra, b, g);
     add_dn(k, rb, a, g);
@@ -116,6 +120,10 @@ static void stamp_amp(stamp_ctx *k, const ru_part *p, int index)
     add_r(k, nd[2], -e.i_out);
     add_r(k, nd[0], e.i_in);
     add_r(k, nd[3], -e.i_in);
+    if (st >= 0)
+        k->r[st] = e.dxs;
+    if (!k->dr)
+        return;
     int skip = index == k->skip_part;
     double gout = skip ? 0.0 : e.di_out_dvc;
     stamp_amp_dv(k, ns[nd[1]], nd, gout, e.di_out_dvo);
@@ -126,7 +134,6 @@ static void stamp_amp(stamp_ctx *k, const ru_part *p, int index)
         return;
     add_ds(k, ns[nd[1]], st, e.di_out_dxs);
     add_ds(k, ns[nd[2]], st, -e.di_out_dxs);
-    k->r[st] = e.dxs;
     stamp_amp_dv(k, st, nd, skip ? 0.0 : e.ddxs_dvc, e.ddxs_dvo);
     add_ds(k, st, st, e.ddxs_dxs);
 }
@@ -146,9 +153,11 @@ static void stamp_thermal(stamp_ctx *k, const ru_part *p, int st)
     ru_thermal_eval e;
     ru_thermal_eval_at(&p->thermal, k->v[a] - k->v[b], k->x[st], &e);
     stamp_branch(k, a, b, e.i, e.di_dv);
+    k->r[st] = e.dx;
+    if (!k->dr)
+        return;
     add_ds(k, ns[a], st, -e.di_dx);
     add_ds(k, ns[b], st, e.di_dx);
-    k->r[st] = e.dx;
     add_dn(k, st, a, e.ddx_dv);
     add_dn(k, st, b, -e.ddx_dv);
     add_ds(k, st, st, e.ddx_dx);
@@ -205,7 +214,10 @@ static ru_status residual_core(const ru_system *s, const ru_src_eval *e,
                                const double *x, double *r, double *dr, int skip_part)
 {
     size_t n = s->n;
-    double *v = malloc(2 * (s->nnodes ? s->nnodes : 1) * sizeof *v);
+    double local[RU_SYS_STACK_DOUBLES];
+    double *v = 2 * s->nnodes <= RU_SYS_STACK_DOUBLES
+                    ? local
+                    : malloc(2 * s->nnodes * sizeof *v);
     if (!v)
         return RU_ENOMEM;
     stamp_ctx k = {s, x, v, v + s->nnodes, r, dr, skip_part};
@@ -215,7 +227,8 @@ static ru_status residual_core(const ru_system *s, const ru_src_eval *e,
         memset(dr, 0, n * n * sizeof *dr);
     for (size_t i = 0; i < s->nparts; i++)
         stamp_part(&k, e, i);
-    free(v);
+    if (v != local)
+        free(v);
     for (size_t i = 0; i < n; i++)
         if (!isfinite(r[i]))
             return RU_ENUMERIC;
@@ -226,11 +239,12 @@ ru_status ru_system_residual(const ru_system *s, const ru_eval_point *ep,
                              const double *x, double *r, double *dr)
 {
     ru_src_eval e = {ep->t_s, ep->dc, ep->source_scale};
-    double *rr = r ? r : malloc((s->n ? s->n : 1) * sizeof *rr);
+    double local[RU_SYS_STACK_DOUBLES];
+    double *rr = r ? r : s->n <= RU_SYS_STACK_DOUBLES ? local : malloc(s->n * sizeof *rr);
     if (!rr)
         return RU_ENOMEM;
     ru_status st = residual_core(s, &e, x, rr, dr, -1);
-    if (!r)
+    if (rr != r && rr != local)
         free(rr);
     return st;
 }
@@ -246,21 +260,17 @@ ru_status ru_system_rhs(const ru_system *s, double t, const double *x, double *f
 
 ru_status ru_system_jacobian(const ru_system *s, double t, const double *x, double *J)
 {
-    size_t n = s->n, nf = s->nfree;
+    size_t n = s->n;
     ru_src_eval e = {t, 0, 1.0};
-    double *tmp = malloc((n + nf + 1) * sizeof *tmp);
-    if (!tmp)
+    double local[RU_SYS_STACK_DOUBLES];
+    double *r = n <= RU_SYS_STACK_DOUBLES ? local : malloc(n * sizeof *r);
+    if (!r)
         return RU_ENOMEM;
-    ru_status st = residual_core(s, &e, x, tmp, J, -1);
-    double *col = tmp + n;
-    for (size_t j = 0; st == RU_OK && j < n; j++) { /* J[:nf, j] = C^{-1} dr[:nf, j] */
-        for (size_t i = 0; i < nf; i++)
-            col[i] = J[i * n + j];
-        ru_sys_csolve(s, col);
-        for (size_t i = 0; i < nf; i++)
-            J[i * n + j] = col[i];
-    }
-    free(tmp);
+    ru_status st = residual_core(s, &e, x, r, J, -1);
+    if (st == RU_OK) /* J[:nf, :] = C^{-1} dr[:nf, :], all columns at once */
+        ru_sys_csolve_rows(s, J, n);
+    if (r != local)
+        free(r);
     return st;
 }
 
