@@ -180,12 +180,11 @@ ru_status ru_sweep_parse(const ru_circuit *c, const char *text, int log,
     if (s != RU_OK)
         return s;
     snprintf(buf, sizeof buf, "%s", eq + 1);
-    int nf = 0;
-    for (char *q = buf, *sep; nf < 3; q = sep + 1) {
-        f[nf++] = q;
-        if (!(sep = strchr(q, ':')))
-            break;
+    int nf = 1;
+    f[0] = buf;
+    for (char *sep; nf < 3 && (sep = strchr(f[nf - 1], ':')) != NULL; nf++) {
         *sep = '\0';
+        f[nf] = sep + 1;
     }
     if (nf != 3 || strchr(f[2], ':'))
         return ru_error_set(err, RU_EINPUT, NULL, 0, 0,
