@@ -1,6 +1,11 @@
 /* energy.c: the energy balance that estimates the integrator's numerical damping
- * from the output samples alone (see analysis_impl.h for the formula). */
+ * from the output samples alone (see analysis_impl.h for the formula).
+ *
+ * Per sample: one rhs, every node voltage at t at once, and only when a capacitor
+ * touches a driven node, every node voltage at t + h for the forward difference
+ * of the driven nodes' slopes. Scratch is allocated at create. */
 #include "analysis_impl.h"
+#include "system_impl.h"
 
 #include <math.h>
 #include <stdlib.h>
@@ -22,6 +27,9 @@ struct ru_energy_balance {
     store_ind *inds;
     size_t ninds;
     double *f;         /* x' at a sample */
+    double *v, *vh;    /* nnodes: node voltages at t and at t + h (V) */
+    double *dvs;       /* nnodes: dv/dt from the sources (unused, V/s) */
+    int driven_caps;   /* a capacitor has a driven terminal: vh is needed */
     double t_from_s;   /* accumulate from the last breakpoint on */
     int started;       /* a first sample has been taken */
     double t_prev, e_prev, p_prev; /* previous sample: time, energy, dE/dt */
@@ -30,34 +38,37 @@ struct ru_energy_balance {
     double int_e;      /* integral of E (J s) */
 };
 
-static double node_v(const ru_energy_balance *e, int node, double t, const double *x)
-{
-    return ru_system_node_voltage(e->sys, node, t, x);
-}
+/* Forward-difference step for the driven nodes' slopes at t. */
+static double slope_step(double t) { return 1e-9 * (fabs(t) + 1e-6); }
 
 /* d v(node)/dt: from x' for a free node, by a forward difference for a driven one
  * (its voltage depends on t only and is right-continuous, so a forward difference
  * at a jump's time gives the slope after the jump), 0 for ground. */
-static double node_dv(const ru_energy_balance *e, int node, double t, const double *x)
+static double node_dv(const ru_energy_balance *e, int node, double h)
 {
-    int k = ru_system_node_state(e->sys, node);
+    int k = e->sys->node_state[node];
     if (k >= 0)
         return e->f[k];
-    if (k == -1)
+    if (k == RU_NS_GROUND)
         return 0.0;
-    double h = 1e-9 * (fabs(t) + 1e-6);
-    return (node_v(e, node, t + h, x) - node_v(e, node, t, x)) / h;
+    return (e->vh[node] - e->v[node]) / h;
 }
 
 static void energy_and_rate(ru_energy_balance *e, double t, const double *x, double *en,
                             double *rate)
 {
-    double E = 0, P = 0;
+    double E = 0, P = 0, h = slope_step(t);
+    ru_src_eval se = {t, 0, 1.0};
     ru_system_rhs(e->sys, t, x, e->f);
+    ru_sys_node_values(e->sys, &se, x, e->v, e->dvs);
+    if (e->driven_caps) {
+        se.t_s = t + h;
+        ru_sys_node_values(e->sys, &se, x, e->vh, e->dvs);
+    }
     for (size_t i = 0; i < e->ncaps; i++) {
         const store_cap *c = &e->caps[i];
-        double v = node_v(e, c->a, t, x) - node_v(e, c->b, t, x);
-        double dv = node_dv(e, c->a, t, x) - node_dv(e, c->b, t, x);
+        double v = e->v[c->a] - e->v[c->b];
+        double dv = node_dv(e, c->a, h) - node_dv(e, c->b, h);
         E += 0.5 * c->c_f * v * v;
         P += c->c_f * v * dv;
     }
@@ -79,8 +90,12 @@ static ru_status collect_parts(ru_energy_balance *e, const ru_circuit *c)
         return RU_ENOMEM;
     for (size_t i = 0; i < np; i++) {
         const ru_part *p = ru_circuit_part(c, i);
-        if (p->type == RU_PART_CAPACITOR)
+        if (p->type == RU_PART_CAPACITOR) {
             e->caps[e->ncaps++] = (store_cap){p->node[0], p->node[1], p->value};
+            if (e->sys->node_state[p->node[0]] == RU_NS_DRIVEN ||
+                e->sys->node_state[p->node[1]] == RU_NS_DRIVEN)
+                e->driven_caps = 1;
+        }
         else if (p->type == RU_PART_INDUCTOR)
             e->inds[e->ninds++] =
                 (store_ind){ru_system_inductor_state(e->sys, (int)i), p->value};
@@ -100,8 +115,13 @@ ru_status ru_energy_balance_create(const ru_system *s, double stop_s,
         return RU_ENOMEM;
     e->sys = s;
     size_t n = ru_system_size(s);
+    size_t nn = ru_circuit_node_count(ru_system_circuit(s));
     e->f = calloc(n ? n : 1, sizeof *e->f);
-    ru_status st = e->f ? collect_parts(e, ru_system_circuit(s)) : RU_ENOMEM;
+    e->v = calloc(nn ? nn : 1, sizeof *e->v);
+    e->vh = calloc(nn ? nn : 1, sizeof *e->vh);
+    e->dvs = calloc(nn ? nn : 1, sizeof *e->dvs);
+    ru_status st = e->f && e->v && e->vh && e->dvs ? collect_parts(e, ru_system_circuit(s))
+                                                   : RU_ENOMEM;
     if (st != RU_OK) {
         ru_energy_balance_destroy(e);
         return st;
@@ -122,6 +142,9 @@ void ru_energy_balance_destroy(ru_energy_balance *e)
     free(e->caps);
     free(e->inds);
     free(e->f);
+    free(e->v);
+    free(e->vh);
+    free(e->dvs);
     free(e);
 }
 
