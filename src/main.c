@@ -14,6 +14,9 @@ static const cli_command commands[] = {
     {"poles", "operating point, poles and loop gain (small-signal prediction)", cmd_poles},
     {"response", "frequency response of the network between two nodes", cmd_response},
     {"compare", "the same circuit with several amplifier models, in parallel", cmd_compare},
+    {"sweep", "one part value over a range, in parallel: one row per value", cmd_sweep},
+    {"montecarlo", "part values drawn within their tolerances: does every unit start?",
+     cmd_montecarlo},
     {"models", "list the amplifier and part presets", cmd_models},
 };
 

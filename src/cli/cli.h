@@ -22,6 +22,8 @@ int cmd_poles(int argc, char **argv);
 int cmd_response(int argc, char **argv);
 int cmd_models(int argc, char **argv);
 int cmd_compare(int argc, char **argv);
+int cmd_sweep(int argc, char **argv);
+int cmd_montecarlo(int argc, char **argv);
 
 /* One option of a command: "--name VALUE" (or --name=VALUE) or a flag. */
 typedef struct cli_opt {

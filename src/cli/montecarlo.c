@@ -1,0 +1,299 @@
+/* montecarlo.c (CLI): `ringup montecarlo FILE --samples N`: draws every toleranced
+ * part value per unit (ringup/montecarlo.h), runs the units in parallel, and says
+ * whether the oscillator starts on every unit, the spread of each figure over the
+ * started units, and the worst units with the values drawn for them. */
+#include "cli.h"
+
+#include "ringup/batch.h"
+#include "ringup/format.h"
+#include "ringup/json.h"
+#include "ringup/montecarlo.h"
+#include "ringup/plot.h"
+
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#define WORST_SHOWN 5     /* latest start-ups listed */
+#define NOSTART_SHOWN 10  /* units that did not start, listed */
+
+static const char *const fig_label[RU_MC_NFIG] = {"start-up time", "growth rate",
+                                                  "frequency", "settled amplitude", "THD"};
+
+static void cell(double v, ru_mc_figure f, char *buf, size_t size)
+{
+    static const char *const unit[RU_MC_NFIG] = {"s", "/s", "Hz", "V", "%"};
+    if (!isfinite(v))
+        snprintf(buf, size, "-");
+    else if (f == RU_MC_GROWTH || f == RU_MC_THD)
+        snprintf(buf, size, "%.4g %s", v, unit[f]);
+    else
+        ru_format_si(v, unit[f], 4, buf, size);
+}
+
+static void print_stats(const ru_mc_result *r)
+{
+    printf("\nover the started units:\n  %-18s %-11s %-11s %-11s %-11s %-11s %-11s %s\n",
+           "figure", "min", "p05", "mean", "p95", "max", "std", "n");
+    for (int f = 0; f < RU_MC_NFIG; f++) {
+        const ru_mc_stats *s = ru_mc_get_stats(r, (ru_mc_figure)f);
+        double v[6] = {s->min, s->p05, s->mean, s->p95, s->max, s->std};
+        char b[6][24];
+        for (int k = 0; k < 6; k++)
+            cell(v[k], (ru_mc_figure)f, b[k], sizeof b[k]);
+        printf("  %-18s %-11s %-11s %-11s %-11s %-11s %-11s %zu\n", fig_label[f], b[0], b[1],
+               b[2], b[3], b[4], b[5], s->n);
+    }
+}
+
+/* One unit: its figures (or error) and the values drawn for it. */
+static void print_unit(const ru_mc_result *r, const ru_circuit *c, size_t i)
+{
+    const ru_mc_unit *u = ru_mc_get_unit(r, i);
+    char a[24], b[24], g[24];
+    cell(u->fig[RU_MC_STARTUP], RU_MC_STARTUP, a, sizeof a);
+    cell(u->fig[RU_MC_AMPLITUDE], RU_MC_AMPLITUDE, b, sizeof b);
+    cell(u->predicted_growth_per_s, RU_MC_GROWTH, g, sizeof g);
+    if (u->status != RU_OK)
+        printf("  unit %zu%s: error: %s\n   ", i, i ? "" : " (nominal)", u->error);
+    else
+        printf("  unit %zu%s: %s, start-up %s, amplitude %s, poles' growth %s\n   ", i,
+               i ? "" : " (nominal)", u->started ? "started" : "did not start", a, b, g);
+    for (size_t k = 0; k < ru_mc_tol_count(r); k++) {
+        const char *name = ru_mc_tol_name(r, k);
+        int pi = ru_circuit_find_part(c, name);
+        const ru_part *p = ru_circuit_part(c, (size_t)pi);
+        static const char *const units[] = {"ohm", "F", "H"};
+        char v[24];
+        ru_format_si(ru_mc_value(r, i, k), units[p->type], 4, v, sizeof v);
+        printf(" %s %s (%+.2f%%)", name, v, 100.0 * (ru_mc_value(r, i, k) / p->value - 1.0));
+    }
+    printf("\n");
+}
+
+static void print_table(const ru_circuit *c, const ru_mc_opts *o, const ru_mc_result *r)
+{
+    size_t n = ru_mc_sample_count(r), k = ru_mc_started_count(r);
+    printf("%s: %s\nMonte Carlo: %zu units (unit 0 nominal), seed %llu, %s\n",
+           ru_circuit_file(c), ru_circuit_title(c), n, (unsigned long long)o->seed,
+           o->dist == RU_MC_NORMAL ? "normal deviations, sigma = tol/3, truncated at +-tol"
+                                   : "uniform deviations within +-tol");
+    printf("\nstarts on every unit: %s (%zu of %zu started", k == n ? "yes" : "no", k, n);
+    if (ru_mc_failed_count(r))
+        printf(", %zu runs failed", ru_mc_failed_count(r));
+    printf(")\n");
+    print_stats(r);
+    size_t idx[WORST_SHOWN], nw = ru_mc_latest(r, idx, WORST_SHOWN);
+    if (nw)
+        printf("\nlatest start-up:\n");
+    for (size_t i = 0; i < nw; i++)
+        print_unit(r, c, idx[i]);
+    size_t shown = 0;
+    for (size_t i = 0; i < n; i++)
+        if (!ru_mc_get_unit(r, i)->started && shown++ < NOSTART_SHOWN) {
+            if (shown == 1)
+                printf("\ndid not start:\n");
+            print_unit(r, c, i);
+        }
+    if (shown > NOSTART_SHOWN)
+        printf("  ... and %zu more (--json lists every unit)\n", shown - NOSTART_SHOWN);
+}
+
+static void json_stats(ru_json *j, const ru_mc_result *r)
+{
+    ru_json_begin_object(j, "stats");
+    for (int f = 0; f < RU_MC_NFIG; f++) {
+        const ru_mc_stats *s = ru_mc_get_stats(r, (ru_mc_figure)f);
+        ru_json_begin_object(j, ru_mc_figure_key((ru_mc_figure)f));
+        ru_json_int(j, "n", (long)s->n);
+        ru_json_number(j, "min", s->min);
+        ru_json_number(j, "mean", s->mean);
+        ru_json_number(j, "max", s->max);
+        ru_json_number(j, "std", s->std);
+        ru_json_number(j, "p05", s->p05);
+        ru_json_number(j, "p95", s->p95);
+        ru_json_end_object(j);
+    }
+    ru_json_end_object(j);
+}
+
+static void json_unit(ru_json *j, const ru_mc_result *r, size_t i)
+{
+    const ru_mc_unit *u = ru_mc_get_unit(r, i);
+    ru_json_begin_object(j, NULL);
+    ru_json_int(j, "index", (long)i);
+    ru_json_bool(j, "started", u->started);
+    if (u->status != RU_OK)
+        ru_json_string(j, "error", u->error);
+    for (int f = 0; f < RU_MC_NFIG; f++)
+        ru_json_number(j, ru_mc_figure_key((ru_mc_figure)f), u->fig[f]);
+    ru_json_number(j, "predicted_growth_rate_per_s", u->predicted_growth_per_s);
+    ru_json_begin_object(j, "values");
+    for (size_t k = 0; k < ru_mc_tol_count(r); k++)
+        ru_json_number(j, ru_mc_tol_name(r, k), ru_mc_value(r, i, k));
+    ru_json_end_object(j);
+    ru_json_end_object(j);
+}
+
+static void print_json(const ru_mc_opts *o, const ru_mc_result *r)
+{
+    ru_json j;
+    ru_json_init(&j, stdout, 1);
+    ru_json_begin_object(&j, NULL);
+    ru_json_int(&j, "samples", (long)ru_mc_sample_count(r));
+    ru_json_number(&j, "seed", (double)o->seed);
+    ru_json_string(&j, "distribution", o->dist == RU_MC_NORMAL ? "normal" : "uniform");
+    ru_json_int(&j, "started_count", (long)ru_mc_started_count(r));
+    ru_json_int(&j, "failed_count", (long)ru_mc_failed_count(r));
+    ru_json_bool(&j, "all_started", ru_mc_started_count(r) == ru_mc_sample_count(r));
+    json_stats(&j, r);
+    ru_json_begin_array(&j, "units");
+    for (size_t i = 0; i < ru_mc_sample_count(r); i++)
+        json_unit(&j, r, i);
+    ru_json_end_array(&j);
+    ru_json_end_object(&j);
+    ru_json_finish(&j);
+}
+
+#define PLOT_UNITS 8
+
+/* Pictures: the nominal unit, the latest start-ups and units that did not start
+ * are run again with their traces kept (the Monte Carlo keeps figures only) and
+ * drawn as the comparison figures: envelopes overlaid, THD and start-up per unit. */
+static int plot_units(const cli_plot_req *pr, const ru_circuit *c, const ru_mc_opts *o,
+                      const ru_mc_result *r)
+{
+    if (!pr->dir && !pr->report)
+        return 0;
+    size_t pick[PLOT_UNITS], n = 1;
+    pick[0] = 0;
+    size_t late[PLOT_UNITS / 2], nl = ru_mc_latest(r, late, PLOT_UNITS / 2);
+    for (size_t i = 0; i < nl; i++)
+        if (late[i] != 0)
+            pick[n++] = late[i];
+    for (size_t i = 1; i < ru_mc_sample_count(r) && n < PLOT_UNITS; i++)
+        if (!ru_mc_get_unit(r, i)->started)
+            pick[n++] = i;
+    ru_batch_item items[PLOT_UNITS];
+    ru_circuit *cv[PLOT_UNITS] = {0};
+    ru_run_data *data[PLOT_UNITS] = {0};
+    ru_plot_model pm[PLOT_UNITS];
+    char label[PLOT_UNITS][32];
+    memset(items, 0, sizeof items);
+    size_t m = 0;
+    for (size_t i = 0; i < n; i++) {
+        ru_error err;
+        if (ru_mc_sample_circuit(c, o->seed, pick[i], o->dist, &cv[m], &err) != RU_OK)
+            continue;
+        if (ru_run_data_create(&data[m]) != RU_OK) {
+            ru_circuit_destroy(cv[m]);
+            cv[m] = NULL;
+            continue;
+        }
+        items[m].circuit = cv[m];
+        items[m].request = o->request;
+        items[m].request.keep = data[m];
+        snprintf(label[m], sizeof label[m], pick[i] ? "unit %zu" : "unit 0 (nominal)", pick[i]);
+        m++;
+    }
+    ru_batch_run(items, m, o->threads);
+    size_t k = 0;
+    for (size_t i = 0; i < m; i++) {
+        if (items[i].status != RU_OK)
+            continue;
+        ru_run_data_view dv;
+        ru_run_data_get(data[i], &dv);
+        const ru_measure_result *me = &items[i].report.meas;
+        pm[k++] = (ru_plot_model){label[i], dv.nenv, dv.env_t_s, dv.env_v, me->thd_percent,
+                                  me->started ? me->startup_time_s : NAN};
+    }
+    ru_plot_set set = {0};
+    set.models = pm;
+    set.nmodels = k;
+    int rc = k ? cli_plot_set(pr, ru_circuit_title(c), &set) : 0;
+    for (size_t i = 0; i < PLOT_UNITS; i++) {
+        ru_circuit_destroy(cv[i]);
+        ru_run_data_destroy(data[i]);
+    }
+    return rc;
+}
+
+/* --samples, --seed, --distribution, --stop, --accuracy, --threads into o. */
+static int read_opts(const cli_opt *opts, ru_mc_opts *o)
+{
+    ru_mc_opts_default(o);
+    double samples = (double)o->samples, seed = (double)o->seed, threads = 0;
+    if (!cli_positive(opts, "samples", NULL, &samples) || !cli_value(opts, "seed", NULL, &seed) ||
+        !cli_positive(opts, "threads", NULL, &threads) ||
+        !cli_positive(opts, "stop", "s", &o->request.stop_s))
+        return 1;
+    if (samples != floor(samples) || samples > RU_MC_MAX_SAMPLES) {
+        fprintf(stderr, "ringup montecarlo: --samples wants a whole number from 1 to %d "
+                        "(each unit is a full run; only its figures are kept)\n",
+                RU_MC_MAX_SAMPLES);
+        return 1;
+    }
+    if (seed < 0 || seed != floor(seed) || seed > 9007199254740992.0 ||
+        threads != floor(threads) || threads > 1024) {
+        fprintf(stderr, "ringup montecarlo: --seed and --threads want whole numbers "
+                        "(seed >= 0, threads up to 1024)\n");
+        return 1;
+    }
+    const char *dist = cli_get(opts, "distribution");
+    if (dist && strcmp(dist, "uniform") && strcmp(dist, "normal")) {
+        fprintf(stderr, "ringup montecarlo: --distribution takes uniform or normal\n");
+        return 1;
+    }
+    o->dist = dist && !strcmp(dist, "normal") ? RU_MC_NORMAL : RU_MC_UNIFORM;
+    o->samples = (size_t)samples;
+    o->seed = (uint64_t)seed;
+    o->threads = (int)threads;
+    return cli_accuracy(opts, &o->request.accuracy);
+}
+
+int cmd_montecarlo(int argc, char **argv)
+{
+    cli_opt opts[] = {{"samples", "N", "units to simulate (unit 0 is nominal; default 100)", NULL},
+                      {"seed", "S", "seed of the draws (default 1)", NULL},
+                      {"distribution", "D", "uniform (default) or normal (sigma tol/3, "
+                                            "truncated at tol)", NULL},
+                      {"stop", "T", "run length (default: the file's)", NULL},
+                      {"accuracy", "LEVEL", "draft, normal or precise", NULL},
+                      {"threads", "N", "parallel runs (default: one per processor)", NULL},
+                      {"json", NULL, "print JSON on stdout (keys in README)", NULL},
+                      CLI_PLOT_OPTS,
+                      {NULL, NULL, NULL, NULL}};
+    const char *file;
+    int rc = cli_parse(argc, argv, "ringup montecarlo FILE --samples N [options]",
+                       "Draws every part value that has a tol once per unit, runs the units "
+                       "in parallel,\nand says whether the oscillator starts on every unit, "
+                       "how start-up time,\ngrowth rate, frequency, settled amplitude and "
+                       "THD spread, and which units\nstart last or not at all, with the "
+                       "values drawn for them.",
+                       opts, &file);
+    if (rc >= 0)
+        return rc;
+    ru_mc_opts o;
+    cli_plot_req plots;
+    if ((rc = read_opts(opts, &o)) != 0 || (rc = cli_plot_check(opts, &plots)) != 0)
+        return rc;
+    ru_circuit *c = NULL;
+    if ((rc = cli_load(file, cli_get(opts, "json") != NULL, &c)) != 0)
+        return rc;
+    ru_mc_result *r = NULL;
+    ru_error err;
+    ru_error_clear(&err);
+    if (ru_mc_run(c, &o, &r, &err) != RU_OK) {
+        rc = cli_fail(&err);
+    } else {
+        if (cli_get(opts, "json"))
+            print_json(&o, r);
+        else
+            print_table(c, &o, r);
+        rc = plot_units(&plots, c, &o, r);
+    }
+    ru_mc_result_destroy(r);
+    ru_circuit_destroy(c);
+    return rc;
+}
