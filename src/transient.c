@@ -255,6 +255,10 @@ static ru_status setup_solver(tr_run *r, const double *x0, ru_error *err)
     r->cv = CVodeCreate(CV_BDF, r->ctx);
     if (!r->y || !r->ys || !r->atol || !r->A || !r->jrow || !r->cv)
         return ru_error_set(err, RU_ENOMEM, NULL, 0, 0, "transient: out of memory");
+    /* Fused vector operations (CVODE clones y, so its own vectors get them too):
+     * one loop where the generic fallback calls N_VLinearSum term by term. */
+    if (N_VEnableFusedOps_Serial(r->y, SUNTRUE) || N_VEnableFusedOps_Serial(r->ys, SUNTRUE))
+        return ru_error_set(err, RU_ENOMEM, NULL, 0, 0, "transient: vector setup failed");
     r->LS = SUNLinSol_Dense(r->y, r->A, r->ctx);
     if (!r->LS)
         return ru_error_set(err, RU_ENOMEM, NULL, 0, 0, "transient: out of memory");
