@@ -72,6 +72,23 @@ static void print_unit(const ru_mc_result *r, const ru_circuit *c, size_t i)
     printf("\n");
 }
 
+/* The units that did not start (failed = 0) or whose run failed (failed = 1). */
+static void print_not_started(const ru_mc_result *r, const ru_circuit *c, int failed)
+{
+    size_t shown = 0;
+    for (size_t i = 0; i < ru_mc_sample_count(r); i++) {
+        const ru_mc_unit *u = ru_mc_get_unit(r, i);
+        if (u->started || (u->status != RU_OK) != failed || shown++ >= NOSTART_SHOWN)
+            continue;
+        if (shown == 1)
+            printf(failed ? "\nruns that failed (not counted as started):\n"
+                          : "\ndid not start:\n");
+        print_unit(r, c, i);
+    }
+    if (shown > NOSTART_SHOWN)
+        printf("  ... and %zu more (--json lists every unit)\n", shown - NOSTART_SHOWN);
+}
+
 static void print_table(const ru_circuit *c, const ru_mc_opts *o, const ru_mc_result *r)
 {
     size_t n = ru_mc_sample_count(r), k = ru_mc_started_count(r);
@@ -89,15 +106,8 @@ static void print_table(const ru_circuit *c, const ru_mc_opts *o, const ru_mc_re
         printf("\nlatest start-up:\n");
     for (size_t i = 0; i < nw; i++)
         print_unit(r, c, idx[i]);
-    size_t shown = 0;
-    for (size_t i = 0; i < n; i++)
-        if (!ru_mc_get_unit(r, i)->started && shown++ < NOSTART_SHOWN) {
-            if (shown == 1)
-                printf("\ndid not start:\n");
-            print_unit(r, c, i);
-        }
-    if (shown > NOSTART_SHOWN)
-        printf("  ... and %zu more (--json lists every unit)\n", shown - NOSTART_SHOWN);
+    print_not_started(r, c, 0);
+    print_not_started(r, c, 1);
 }
 
 static void json_stats(ru_json *j, const ru_mc_result *r)
