@@ -8,7 +8,8 @@
  * keys; every part is added through ru_circuit_add_part with line/col at its
  * name, so the builder's value checks carry the place. Nodes are created in order
  * of first mention. A preset's `law` is an amplifier law, `diode` or
- * `thermal-resistor`, and only fits a part of that type. */
+ * `thermal-resistor`, and only fits a part of that type. The key tables are the
+ * one list of value keys: ru_ld_part_keys hands them to params.c (PART.KEY). */
 #include "loader_impl.h"
 
 #include <stddef.h>
