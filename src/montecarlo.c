@@ -6,6 +6,8 @@
  * only with the compact per-unit records; the result owns everything it returns. */
 #include "ringup/montecarlo.h"
 
+#include "hash.h"
+
 #include "ringup/batch.h"
 
 #include <math.h>
@@ -28,25 +30,9 @@ struct ru_mc_result {
     ru_mc_stats stats[RU_MC_NFIG]; /* over started units */
 };
 
-/* splitmix64 (Steele, Lea and Flood, OOPSLA 2014; constants from memory), the
- * mixer of src/noise.c, used as a hash of a counter. */
-static uint64_t splitmix64(uint64_t z)
-{
-    z += 0x9e3779b97f4a7c15ULL;
-    z = (z ^ (z >> 30)) * 0xbf58476d1ce4e5b9ULL;
-    z = (z ^ (z >> 27)) * 0x94d049bb133111ebULL;
-    return z ^ (z >> 31);
-}
-
-/* Uniform in (0, 1), never 0 or 1 (53 bits). */
-static double unit_uniform(uint64_t h)
-{
-    return ((double)(h >> 11) + 0.5) * (1.0 / 9007199254740992.0);
-}
-
 static uint64_t draw_hash(uint64_t seed, uint64_t sample, uint64_t part, uint64_t k)
 {
-    return splitmix64(seed ^ splitmix64(sample ^ splitmix64(part ^ splitmix64(k))));
+    return ru_hash4(seed, sample, part, k);
 }
 
 double ru_mc_deviation(uint64_t seed, uint64_t sample, uint64_t part, ru_mc_dist dist,
@@ -55,11 +41,9 @@ double ru_mc_deviation(uint64_t seed, uint64_t sample, uint64_t part, ru_mc_dist
     if (!(tol > 0))
         return 0.0;
     if (dist == RU_MC_UNIFORM)
-        return tol * (2.0 * unit_uniform(draw_hash(seed, sample, part, 0)) - 1.0);
+        return tol * (2.0 * ru_hash_uniform(draw_hash(seed, sample, part, 0)) - 1.0);
     for (uint64_t k = 0; k < NORMAL_TRIES; k++) { /* Box-Muller, rejected beyond 3 sigma */
-        uint64_t h = draw_hash(seed, sample, part, k);
-        double u1 = unit_uniform(h), u2 = unit_uniform(splitmix64(h));
-        double z = sqrt(-2.0 * log(u1)) * cos(2.0 * M_PI * u2);
+        double z = ru_hash_normal(draw_hash(seed, sample, part, k));
         if (fabs(z) <= 3.0)
             return tol * z / 3.0;
     }

@@ -1,30 +1,14 @@
 /* noise.c: counter-based Gaussian knots and their linear interpolation (see
- * noise.h). The generator is splitmix64 (Steele, Lea and Flood, "Fast splittable
- * pseudorandom number generators", OOPSLA 2014; constants from memory), used as a
- * hash of (seed, source, knot); Box-Muller turns two uniforms into a Gaussian. */
+ * noise.h); the knots come from hash.h, a hash of (seed, source, knot). */
 #include "noise.h"
+
+#include "hash.h"
 
 #include <math.h>
 
-static uint64_t splitmix64(uint64_t z)
-{
-    z += 0x9e3779b97f4a7c15ULL;
-    z = (z ^ (z >> 30)) * 0xbf58476d1ce4e5b9ULL;
-    z = (z ^ (z >> 27)) * 0x94d049bb133111ebULL;
-    return z ^ (z >> 31);
-}
-
-/* Uniform in (0, 1), never 0 (53 bits). */
-static double uniform(uint64_t h)
-{
-    return ((double)(h >> 11) + 0.5) * (1.0 / 9007199254740992.0);
-}
-
 static double knot(const ru_noise *nz, uint64_t id, int64_t k)
 {
-    uint64_t h = splitmix64(nz->seed ^ splitmix64(id ^ splitmix64((uint64_t)k)));
-    double u1 = uniform(h), u2 = uniform(splitmix64(h));
-    return sqrt(-2.0 * log(u1)) * cos(2.0 * M_PI * u2);
+    return ru_hash_normal(ru_hash4(nz->seed, id, (uint64_t)k, 0));
 }
 
 double ru_noise_unit(const ru_noise *nz, uint64_t id, double t_s)
