@@ -304,6 +304,11 @@ void ru_selfcheck(ru_run_report *rep)
                             "bounces): the settling time, not the start-up time, says "
                             "when the tone is usable",
                        m->peak_envelope_v, m->peak_envelope_v / m->settled_amplitude_v);
+    if (isfinite(m->frequency_hz) && m->frequency_hz * rep->sample_s > 1.0 / 16)
+        ru_report_note(rep, "only %.1f samples per period of the measured tone: the "
+                            "envelope, THD and even the frequency may be wrong; set "
+                            "--sample to %.3g s or less",
+                       1.0 / (m->frequency_hz * rep->sample_s), 1.0 / (64 * m->frequency_hz));
     if (m->started && !m->settled && m->settle_note[0])
         ru_report_note(rep, "%s", m->settle_note);
     double sn = rep->integrator_damping_per_s, sg = m->growth_rate_per_s;
