@@ -269,13 +269,19 @@ static double noise_band(const ru_run_report *rep)
     return 20.0 * 0.5 / rep->sample_s;
 }
 
-/* Refuses runs that would take hours or fill a disk: more than RU_MAX_SAMPLES
+/* Refuses a sample spacing not shorter than the run (nothing to measure), and
+ * runs that would take hours or fill a disk: more than RU_MAX_SAMPLES
  * output samples, or more than RU_MAX_CYCLES cycles of the predicted tone (about
  * 170 solver steps each at normal accuracy). A long study can be split into runs. */
 #define RU_MAX_SAMPLES 5e7
 #define RU_MAX_CYCLES 2e6
 static ru_status check_size(const ru_circuit *c, const ru_run_report *rep, ru_error *err)
 {
+    if (!(rep->sample_s < rep->stop_s))
+        return ru_error_set(err, RU_EINPUT, ru_circuit_file(c), 0, 0,
+                            "the sample spacing (%g s) is not shorter than the run (stop "
+                            "%g s): lengthen the run or shorten the sample spacing",
+                            rep->sample_s, rep->stop_s);
     double samples = rep->stop_s / rep->sample_s;
     double cycles = rep->pred.have_poles ? rep->stop_s * rep->pred.frequency_hz : 0;
     if (samples > RU_MAX_SAMPLES)

@@ -1,0 +1,51 @@
+#!/usr/bin/env bash
+# cli_review.sh: command-line behaviour found in a correctness review: odd run
+# lengths and sample spacings, figures that are null with their reason in the
+# notes, messages that say what is wrong.
+# Usage: cli_review.sh RINGUP_BINARY SOURCE_DIR
+set -u
+ru=$1
+src=$2
+tmp=$(mktemp -d)
+trap 'rm -rf "$tmp"' EXIT
+fails=0
+passes=0
+export RINGUP_MODELS=${RINGUP_MODELS:-$src/models}
+
+check() { # check NAME WANT GOT
+    if [ "$2" = "$3" ]; then
+        passes=$((passes + 1))
+    else
+        echo "FAIL: $1: got $3, want $2"
+        fails=$((fails + 1))
+    fi
+}
+
+grepcheck() { # grepcheck NAME PATTERN FILE
+    if grep -Eq -- "$2" "$3"; then
+        passes=$((passes + 1))
+    else
+        echo "FAIL: $1: no match for '$2' in:"
+        cat "$3"
+        fails=$((fails + 1))
+    fi
+}
+
+vdp=$src/examples/vdp-tank.yaml
+
+# A sample spacing not shorter than the run is bad input (exit 1) and the message
+# names the file and both times, whether the spacing is given, written in the file
+# or automatic (72 per period of the 5 kHz tone is 2.8 us, longer than 1 ns).
+"$ru" run "$vdp" --sample 30m >"$tmp/out" 2>"$tmp/err"
+check "sample longer than stop: status" 1 $?
+grepcheck "sample longer than stop: message" "vdp-tank.yaml: .*sample spacing .*0.03 s.*stop 0.02 s" "$tmp/err"
+"$ru" run "$vdp" --stop 1n >"$tmp/out" 2>"$tmp/err"
+check "stop shorter than the auto spacing: status" 1 $?
+grepcheck "stop shorter than the auto spacing: message" "vdp-tank.yaml: .*not shorter than the run" "$tmp/err"
+printf 'parts:\n  L1: {type: inductor, nodes: [t, gnd], value: 10mH}\n  C1: {type: capacitor, nodes: [t, gnd], value: 100n}\nrun: {stop: 1m, sample: 2m}\n' >"$tmp/s.yaml"
+"$ru" run "$tmp/s.yaml" --json >"$tmp/out" 2>"$tmp/err"
+check "file sample longer than stop: status" 1 $?
+grepcheck "file sample longer than stop: message" "s.yaml: .*not shorter than the run" "$tmp/err"
+
+echo "cli_review: $passes passed, $fails failed"
+[ "$fails" = 0 ]
