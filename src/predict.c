@@ -311,6 +311,15 @@ void ru_selfcheck(ru_run_report *rep)
                        1.0 / (m->frequency_hz * rep->sample_s), 1.0 / (64 * m->frequency_hz));
     if (m->started && !m->settled && m->settle_note[0])
         ru_report_note(rep, "%s", m->settle_note);
+    /* a figure that cannot be had is null: say why (the measurement's own notes) */
+    if (!m->started && m->growth_note[0])
+        ru_report_note(rep, "%s", m->growth_note);
+    else if (!isfinite(m->growth_rate_per_s) && m->growth_note[0])
+        ru_report_note(rep, "no growth rate: %s", m->growth_note);
+    if (m->started && !isfinite(m->thd_percent) && m->thd_note[0])
+        ru_report_note(rep, "no %sTHD: %s",
+                       isfinite(m->frequency_hz) ? "" : "frequency, fundamental or ",
+                       m->thd_note);
     double sn = rep->integrator_damping_per_s, sg = m->growth_rate_per_s;
     if (isfinite(sn) && isfinite(sg) && fabs(sn) > 0.01 * fabs(sg))
         ru_report_note(rep, "the integrator's own damping (%.3g /s) is %.1f %% of the "

@@ -47,5 +47,33 @@ printf 'parts:\n  L1: {type: inductor, nodes: [t, gnd], value: 10mH}\n  C1: {typ
 check "file sample longer than stop: status" 1 $?
 grepcheck "file sample longer than stop: message" "s.yaml: .*not shorter than the run" "$tmp/err"
 
+# A figure that cannot be had is null and the notes say why (README, JSON keys).
+# The tank at 7.5 mH rings at 1/(2 pi sqrt(7.5 mH * 100 nF)) = 5.81 kHz; a 5 ms run
+# leaves 0.5 ms, under 3 periods, as the settled window: fewer than the 4 the THD
+# needs. (Reference: LC resonance formula.)
+sed 's/value: 10mH/value: 7.5mH/' "$vdp" >"$tmp/vdp75.yaml"
+"$ru" run "$tmp/vdp75.yaml" --stop 5m --json >"$tmp/j75" 2>"$tmp/err"
+check "short window: status" 0 $?
+/usr/bin/python3 - "$tmp/j75" >"$tmp/out" 2>&1 <<'PY'
+import json, sys
+d = json.load(open(sys.argv[1]))
+assert d["started"] and d["thd_percent"] is None, d
+assert any("THD" in n and "whole periods" in n for n in d["notes"]), d["notes"]
+print("ok")
+PY
+grepcheck "null THD has its reason in notes" "^ok$" "$tmp/out"
+# Stopped long before the tank grows (100 us, half a period): not started, and the
+# notes say why.
+"$ru" run "$vdp" --stop 100u --json >"$tmp/j1" 2>"$tmp/err"
+check "not started: status" 0 $?
+/usr/bin/python3 - "$tmp/j1" >"$tmp/out" 2>&1 <<'PY'
+import json, sys
+d = json.load(open(sys.argv[1]))
+assert not d["started"] and d["growth_rate_per_s"] is None, d
+assert any(n.startswith("did not start:") for n in d["notes"]), d["notes"]
+print("ok")
+PY
+grepcheck "not started has its reason in notes" "^ok$" "$tmp/out"
+
 echo "cli_review: $passes passed, $fails failed"
 [ "$fails" = 0 ]

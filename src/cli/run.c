@@ -86,8 +86,8 @@ static void print_text(const ru_circuit *c, const ru_run_report *r, int auto_sam
         printf("\ngrowth fit: %d cycles from %s to %s, rms residual %.2g\n",
                m->growth_fit_points, ru_format_si(m->growth_fit_t0_s, "s", 3, a, sizeof a),
                ru_format_si(m->growth_fit_t1_s, "s", 3, b, sizeof b), m->growth_fit_rms);
-    else if (m->growth_note[0])
-        printf("\ngrowth rate: %s\n", m->growth_note);
+    else
+        printf("\n"); /* why the growth rate is missing is among the notes */
     if (isfinite(p->startup_time_s))
         printf("kick: %s on the probe in the dominant mode\n",
                ru_format_si(p->kick_amplitude_v, "V", 3, a, sizeof a));
