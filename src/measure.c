@@ -421,7 +421,11 @@ ru_status ru_measure_finish(ru_measure *m, ru_measure_result *r)
     r->started = 1;
     r->settled_amplitude_v = mean;
     r->settled = fabs(drift) <= DRIFT_LIMIT && e->n_env - i0 >= 2;
-    if (!r->settled)
+    if (!r->settled && e->n_env - i0 < 2)
+        snprintf(r->settle_note, RU_NOTE_MAX,
+                 "only one cycle in the last 10 %% of the run: too few to tell whether "
+                 "the envelope still moves; run longer");
+    else if (!r->settled)
         settle_hint(e, i0, tw, wlen, drift, r->settle_note);
     /* Start-up time from t = 0 as defined (the first time the level is reached,
      * an overshooting first burst included); the growth fit starts at the trough. */
