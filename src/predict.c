@@ -304,11 +304,18 @@ void ru_selfcheck(ru_run_report *rep)
                             "bounces): the settling time, not the start-up time, says "
                             "when the tone is usable",
                        m->peak_envelope_v, m->peak_envelope_v / m->settled_amplitude_v);
-    if (isfinite(m->frequency_hz) && m->frequency_hz * rep->sample_s > 1.0 / 16)
-        ru_report_note(rep, "only %.1f samples per period of the measured tone: the "
+    /* the measured tone, else the predicted one (a tone sampled too coarsely may
+     * show no cycle at all, and then "run longer" would be the wrong advice) */
+    int measured_f = isfinite(m->frequency_hz) && m->frequency_hz > 0;
+    double f_hz = measured_f ? m->frequency_hz
+                  : pr->have_poles && pr->frequency_hz > 0 ? pr->frequency_hz
+                                                            : NAN;
+    if (isfinite(f_hz) && f_hz * rep->sample_s > 1.0 / 16)
+        ru_report_note(rep, "only %.1f samples per period of the %s tone: the "
                             "envelope, THD and even the frequency may be wrong; set "
                             "--sample to %.3g s or less",
-                       1.0 / (m->frequency_hz * rep->sample_s), 1.0 / (64 * m->frequency_hz));
+                       1.0 / (f_hz * rep->sample_s), measured_f ? "measured" : "predicted",
+                       1.0 / (64 * f_hz));
     if (m->started && !m->settled && m->settle_note[0])
         ru_report_note(rep, "%s", m->settle_note);
     /* a figure that cannot be had is null: say why (the measurement's own notes) */

@@ -91,5 +91,19 @@ print("ok")
 PY
 grepcheck "one window cycle note" "^ok$" "$tmp/out"
 
+# A spacing of 1 ms on the 5 kHz tank (period 1/(2 pi sqrt(10 mH * 100 nF)) = 0.199 ms,
+# LC resonance) gives 0.2 samples per period: no cycle is seen, and the notes must
+# warn about the spacing from the predicted tone (not only say "run longer").
+"$ru" run "$vdp" --sample 1m --json >"$tmp/js" 2>"$tmp/err"
+check "undersampled: status" 0 $?
+/usr/bin/python3 - "$tmp/js" >"$tmp/out" 2>&1 <<'PY'
+import json, sys
+d = json.load(open(sys.argv[1]))
+assert d["frequency_hz"] is None, d
+assert any("0.2 samples per period of the predicted tone" in n for n in d["notes"]), d["notes"]
+print("ok")
+PY
+grepcheck "undersampled note from the predicted tone" "^ok$" "$tmp/out"
+
 echo "cli_review: $passes passed, $fails failed"
 [ "$fails" = 0 ]
