@@ -26,6 +26,34 @@ static ru_status pick(ld_doc *d, struct fy_node_pair *p, const char *who,
                       who, ru_ld_sep(who), ru_ld_key(p), text, choices);
 }
 
+/* The supply that holds node k (through a chain of supplies from ground), or NULL
+ * when the node is free: the same rule the system applies, so a preset on a held
+ * node is refused here, at the preset's own place. */
+static const ru_part *holding_supply(const ru_circuit *c, int k)
+{
+    size_t np = ru_circuit_part_count(c), nn = ru_circuit_node_count(c);
+    const ru_part **by = calloc(nn ? nn : 1, sizeof *by);
+    if (!by)
+        return NULL;
+    for (int progress = 1; progress;) {
+        progress = 0;
+        for (size_t i = 0; i < np; i++) {
+            const ru_part *p = ru_circuit_part(c, i);
+            if (p->type != RU_PART_SUPPLY)
+                continue;
+            int a = p->node[0], b = p->node[1];
+            int fa = a == 0 || by[a], fb = b == 0 || by[b];
+            if (fa != fb) {
+                by[fa ? b : a] = p;
+                progress = 1;
+            }
+        }
+    }
+    const ru_part *p = by[k];
+    free(by);
+    return p;
+}
+
 /* kick: {preset: {node: voltage, ...}} */
 static ru_status read_preset_kick(ld_doc *d, ru_circuit *c, struct fy_node *kmap,
                                   ru_error *err)
@@ -53,6 +81,12 @@ static ru_status read_preset_kick(ld_doc *d, ru_circuit *c, struct fy_node *kmap
         if (k == 0)
             return ru_ld_fail(d, fy_node_pair_key(p), err,
                               "run: kick preset: ground cannot be preset");
+        const ru_part *held = holding_supply(c, k);
+        if (held)
+            return ru_ld_fail(d, fy_node_pair_key(p), err,
+                              "run: kick preset: node %s is held by supply %s; only free "
+                              "nodes can be preset",
+                              name, held->name);
         if (run->npreset == RU_PRESET_MAX)
             return ru_ld_fail(d, fy_node_pair_key(p), err,
                               "run: kick preset: at most %d nodes", RU_PRESET_MAX);

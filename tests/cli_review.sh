@@ -105,5 +105,24 @@ print("ok")
 PY
 grepcheck "undersampled note from the predicted tone" "^ok$" "$tmp/out"
 
+# A preset kick on a node a supply holds (here through two stacked supplies) is
+# refused by `check` as well as `run`, at the preset's own place (line 6, col 40),
+# naming the supply; it used to pass `check` and fail `run` at the node's first
+# mention.
+cat >"$tmp/kick.yaml" <<'YAML'
+parts:
+  V1: {type: supply, nodes: [v1, gnd], value: 5}
+  V2: {type: supply, nodes: [v2, v1], value: 3}
+  R1: {type: resistor, nodes: [v2, a], value: 100k}
+  C1: {type: capacitor, nodes: [a, gnd], value: 100nF}
+run: {stop: 10m, kick: {preset: {a: 1, v2: 2}}}
+YAML
+"$ru" check "$tmp/kick.yaml" >"$tmp/out" 2>"$tmp/err"
+check "preset on a held node: check status" 1 $?
+grepcheck "preset on a held node: place" "kick.yaml:6:40: run: kick preset: node v2 is held by supply V2" "$tmp/err"
+sed -i 's/v2: 2/a: 1/; s/{a: 1, a: 1}/{a: 1}/' "$tmp/kick.yaml"
+"$ru" check "$tmp/kick.yaml" >"$tmp/out" 2>"$tmp/err"
+check "preset on a free node beside stacked supplies" 0 $?
+
 echo "cli_review: $passes passed, $fails failed"
 [ "$fails" = 0 ]
