@@ -67,6 +67,9 @@ int cli_load(const char *file, int quiet, ru_circuit **out);
 /* The run keys of DESIGN.md (measured, predicted, solver) into an open object. */
 void cli_json_run_body(ru_json *j, const ru_run_report *r);
 
+/* The run's `notes` array (why a figure is null, self-checks) into an open object. */
+void cli_json_notes(ru_json *j, const ru_run_report *r);
+
 /* --plots DIR, --plot-format FMT, --report FILE of a command. */
 typedef struct cli_plot_req {
     const char *dir;     /* NULL: no figure files */

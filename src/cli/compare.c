@@ -108,6 +108,7 @@ static void print_json(const char *part, const variant *v, const ru_batch_item *
             ru_json_string(&j, "error", msg);
         } else {
             cli_json_run_body(&j, &items[i].report);
+            cli_json_notes(&j, &items[i].report);
         }
         ru_json_end_object(&j);
     }

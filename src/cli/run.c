@@ -149,6 +149,14 @@ void cli_json_run_body(ru_json *j, const ru_run_report *r)
     ru_json_end_object(j);
 }
 
+void cli_json_notes(ru_json *j, const ru_run_report *r)
+{
+    ru_json_begin_array(j, "notes");
+    for (int i = 0; i < r->nnotes; i++)
+        ru_json_string(j, NULL, r->notes[i]);
+    ru_json_end_array(j);
+}
+
 static void json_wav(ru_json *j, const char *path, const ru_run_report *r)
 {
     if (!r->have_wav)
@@ -191,10 +199,7 @@ static void print_json(const ru_run_report *r, int partial, const char *wav_path
     json_wav(&j, wav_path, r);
     ru_json_bool(&j, "partial", partial);
     ru_json_number(&j, "t_reached_s", r->solver.t_reached_s);
-    ru_json_begin_array(&j, "notes");
-    for (int i = 0; i < r->nnotes; i++)
-        ru_json_string(&j, NULL, r->notes[i]);
-    ru_json_end_array(&j);
+    cli_json_notes(&j, r);
     ru_json_end_object(&j);
     ru_json_finish(&j);
 }

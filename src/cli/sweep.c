@@ -100,6 +100,7 @@ static void print_json(const ru_sweep_spec *s, const point *p, const ru_batch_it
             ru_json_string(&j, "error", msg);
         } else {
             cli_json_run_body(&j, &items[i].report);
+            cli_json_notes(&j, &items[i].report);
         }
         ru_json_end_object(&j);
     }
