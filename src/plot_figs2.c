@@ -120,8 +120,9 @@ static void poles_subtitle(const ru_plot_poles *p, char *sub, size_t size)
     const ru_pole *d = &p->poles[p->dominant];
     snprintf(sub, size, "dominant pair σ = %+.4g /s, im/2π = %s: %s", d->re_per_s,
              ru_format_si(d->im_rad_per_s / TWO_PI, "Hz", 4, a, sizeof a),
-             d->re_per_s > 0 ? "right of the axis, the oscillation grows"
-                             : "left of the axis, it decays");
+             d->re_per_s > 0   ? "right of the axis, the oscillation grows"
+             : d->re_per_s < 0 ? "left of the axis, it decays"
+                               : "on the axis, it neither grows nor decays");
 }
 
 /* Shading of the right half plane, the axes and their labels. */

@@ -143,5 +143,16 @@ check "compare: status" 0 $?
 /usr/bin/python3 -c 'import json,sys; r=json.load(open(sys.argv[1]))["results"][0]; assert isinstance(r["notes"], list); print("ok")' "$tmp/cmp" >"$tmp/out" 2>&1
 grepcheck "compare row has notes in JSON" "^ok$" "$tmp/out"
 
+# A lone inductor with the 1 pF stray is a lossless tank: its poles sit on the jw
+# axis (real part 0 exactly, zero trace), at 1/(2 pi sqrt(10 mH * 1 pF)) = 1.59 MHz
+# (LC resonance). The verdict must not say "left of the jw axis".
+printf 'parts:\n  L1: {type: inductor, nodes: [a, gnd], value: 10mH}\n' >"$tmp/ideal.yaml"
+"$ru" poles "$tmp/ideal.yaml" >"$tmp/out" 2>"$tmp/err"
+check "lossless tank poles: status" 0 $?
+grepcheck "lossless tank: on the axis (poles)" "dominant pair: growth rate 0 /s at 1.59.. MHz: on the jw axis" "$tmp/out"
+"$ru" run "$tmp/ideal.yaml" --stop 10u >"$tmp/out" 2>"$tmp/err"
+check "lossless tank run: status" 0 $?
+grepcheck "lossless tank: on the axis (run)" "started +no +no \(poles on the jw axis\)" "$tmp/out"
+
 echo "cli_review: $passes passed, $fails failed"
 [ "$fails" = 0 ]

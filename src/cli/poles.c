@@ -69,8 +69,10 @@ static void print_text(const ru_circuit *c, const poles_result *p)
         const ru_pole *d = &p->poles[p->dom];
         printf("\ndominant pair: growth rate %.6g /s at %s: %s\n", d->re_per_s,
                ru_format_si(d->im_rad_per_s / (2 * M_PI), "Hz", 5, a, sizeof a),
-               d->re_per_s > 0 ? "right of the jw axis, it starts"
-                               : "left of the jw axis, it does not start");
+               d->re_per_s > 0   ? "right of the jw axis, it starts"
+               : d->re_per_s < 0 ? "left of the jw axis, it does not start"
+                                 : "on the jw axis (no loss, no gain): it neither grows "
+                                   "nor decays");
         if (d->re_per_s > 0)
             printf("  grows 10x every %s\n",
                    ru_format_si(log(10.0) / d->re_per_s, "s", 3, b, sizeof b));

@@ -67,9 +67,10 @@ static void print_text(const ru_circuit *c, const ru_run_report *r, int auto_sam
            ru_format_si(r->sample_s, "s", 4, b, sizeof b), auto_sample ? " (auto)" : "");
     printf("  %-20s %-16s %s\n", "", "measured", "predicted");
     printf("  %-20s %-16s %s\n", "started", yes_no(m->started),
-           p->have_poles ? (p->growth_rate_per_s > 0 ? "yes (poles right of jw axis)"
-                                                     : "no (poles left of jw axis)")
-                         : "-");
+           !p->have_poles              ? "-"
+           : p->growth_rate_per_s > 0 ? "yes (poles right of jw axis)"
+           : p->growth_rate_per_s < 0 ? "no (poles left of jw axis)"
+                                      : "no (poles on the jw axis)");
     row("start-up time", m->startup_time_s, p->startup_time_s, "s");
     rate_row("growth rate", m->growth_rate_per_s, p->growth_rate_per_s);
     row("frequency", m->frequency_hz, p->frequency_hz, "Hz");
