@@ -426,8 +426,9 @@ static ru_status warn_floating(ru_circuit *c, const char *file)
     ru_circuit_node_place(c, node, &line, &col);
     char text[RU_ERROR_TEXT + RU_ERROR_FILE];
     snprintf(text, sizeof text,
-             "%s:%d:%d: warning: node %s has no DC path to ground (only capacitors or "
-             "current sources reach it, so its DC level is undefined)",
+             "%s:%d:%d: warning: node %s has no DC path to ground (no chain of "
+             "conducting parts joins it to ground: only capacitors or current sources, "
+             "or nothing, lie between; its DC level is undefined)",
              file, line, col, ru_circuit_node_name(c, node));
     return ru_circuit_add_warning(c, text);
 }

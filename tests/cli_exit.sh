@@ -134,6 +134,16 @@ fi
 "$ru" run "$vdp" --verify >"$tmp/out" 2>"$tmp/err"
 check "verify" 0 $?
 grepcheck "verify table" "verify: rerun at 10x tighter tolerances" "$tmp/out"
+"$ru" run "$vdp" --verify --json >"$tmp/vj" 2>"$tmp/err"
+check "verify json" 0 $?
+if [ -x /usr/bin/python3 ]; then
+    /usr/bin/python3 -c 'import json,sys; v=json.load(open(sys.argv[1]))["verify"]; assert v["rtol"] < 1e-8 and abs(v["moved_percent"]["settled_amplitude_v"]) < 0.1, v' "$tmp/vj"
+    check "verify json content" 0 $?
+fi
+# a refused plot option leaves no new output folder behind
+"$ru" run "$vdp" --out "$tmp/newdir" --plots "$tmp/pl" --plot-format bmp >"$tmp/out" 2>"$tmp/err"
+check "refused plot format" 1 $?
+[ ! -e "$tmp/newdir" ] && passes=$((passes + 1)) || { echo "FAIL: output folder made before the refusal"; fails=$((fails + 1)); }
 
 # compare: three models on the follower example in parallel, one row each; a model
 # that does not exist is reported in its row and does not stop the others.

@@ -13,7 +13,7 @@ static void print_text(const ru_circuit *c, const ru_system *s)
     size_t np = ru_circuit_part_count(c), nn = ru_circuit_node_count(c);
     char sbuf[32];
     printf("%s: %s\n", ru_circuit_file(c), ru_circuit_title(c)[0] ? ru_circuit_title(c) : "(no title)");
-    printf("%zu parts, %zu node%s besides ground, %zu states\n", np, nn - 1,
+    printf("%zu part%s, %zu node%s besides ground, %zu states\n", np, np == 1 ? "" : "s", nn - 1,
            nn == 2 ? "" : "s", ru_system_size(s));
     for (size_t i = 0; i < np; i++) {
         const ru_part *p = ru_circuit_part(c, i);

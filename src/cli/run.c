@@ -172,7 +172,10 @@ static void json_wav(ru_json *j, const char *path, const ru_run_report *r)
     ru_json_end_object(j);
 }
 
-static void print_json(const ru_run_report *r, int partial, const char *wav_path)
+static void json_verify(ru_json *j, const ru_run_report *r, const ru_run_report *r2);
+
+static void print_json(const ru_run_report *r, int partial, const char *wav_path,
+                       const ru_run_report *r2)
 {
     ru_json j;
     ru_json_init(&j, stdout, 1);
@@ -198,6 +201,7 @@ static void print_json(const ru_run_report *r, int partial, const char *wav_path
     }
     ru_json_number(&j, "integrator_damping_per_s", r->integrator_damping_per_s);
     json_wav(&j, wav_path, r);
+    json_verify(&j, r, r2);
     ru_json_bool(&j, "partial", partial);
     ru_json_number(&j, "t_reached_s", r->solver.t_reached_s);
     cli_json_notes(&j, r);
@@ -264,16 +268,32 @@ static int check_expectations(const expectations *e, const ru_measure_result *m)
     return ok;
 }
 
-static void verify_row(const char *label, double a, double b)
+/* The figures --verify compares, with their JSON keys. */
+#define NVERIFY 5
+static void verify_figures(const ru_run_report *r, double *v)
 {
-    if (isfinite(a) && isfinite(b) && a != 0)
-        printf("  %-20s moved %+.3g %%\n", label, 100 * (b - a) / fabs(a));
-    else
-        printf("  %-20s -\n", label);
+    v[0] = r->meas.startup_time_s;
+    v[1] = r->meas.growth_rate_per_s;
+    v[2] = r->meas.frequency_hz;
+    v[3] = r->meas.settled_amplitude_v;
+    v[4] = r->meas.thd_percent;
 }
 
-/* Reruns at 10x tighter tolerances and prints how much each figure moved. */
-static int verify(const ru_circuit *c, const ru_run_request *rq, const ru_run_report *r)
+static const char *const verify_label[NVERIFY] = {"start-up time", "growth rate",
+                                                  "frequency", "settled amplitude", "THD"};
+static const char *const verify_key[NVERIFY] = {"startup_time_s", "growth_rate_per_s",
+                                                "frequency_hz", "settled_amplitude_v",
+                                                "thd_percent"};
+
+/* How much a figure moved at the tighter tolerances, in percent (NAN: unknown). */
+static double moved_percent(double a, double b)
+{
+    return isfinite(a) && isfinite(b) && a != 0 ? 100 * (b - a) / fabs(a) : NAN;
+}
+
+/* Reruns at 10x tighter tolerances; NULL (and *rc set) when the rerun fails. */
+static ru_run_report *verify_run(const ru_circuit *c, const ru_run_request *rq,
+                                 const ru_run_report *r, int *rc)
 {
     ru_run_request tight = *rq;
     tight.tol_scale = rq->tol_scale * 0.1;
@@ -284,21 +304,48 @@ static int verify(const ru_circuit *c, const ru_run_request *rq, const ru_run_re
     ru_run_report *r2 = malloc(sizeof *r2);
     ru_error err;
     ru_error_clear(&err);
-    if (!r2)
-        return 2;
+    if (!r2) {
+        *rc = 2;
+        return NULL;
+    }
     ru_status st = ru_analysis_run(c, &tight, r2, &err);
     if (st != RU_OK) {
         free(r2);
-        return cli_fail(&err);
+        *rc = cli_fail(&err);
+        return NULL;
     }
+    return r2;
+}
+
+static void print_verify(const ru_run_report *r, const ru_run_report *r2)
+{
+    double a[NVERIFY], b[NVERIFY];
+    verify_figures(r, a);
+    verify_figures(r2, b);
     printf("\nverify: rerun at 10x tighter tolerances (rtol %.0e):\n", r2->solver.rtol);
-    verify_row("start-up time", r->meas.startup_time_s, r2->meas.startup_time_s);
-    verify_row("growth rate", r->meas.growth_rate_per_s, r2->meas.growth_rate_per_s);
-    verify_row("frequency", r->meas.frequency_hz, r2->meas.frequency_hz);
-    verify_row("settled amplitude", r->meas.settled_amplitude_v, r2->meas.settled_amplitude_v);
-    verify_row("THD", r->meas.thd_percent, r2->meas.thd_percent);
-    free(r2);
-    return 0;
+    for (int i = 0; i < NVERIFY; i++) {
+        double m = moved_percent(a[i], b[i]);
+        if (isfinite(m))
+            printf("  %-20s moved %+.3g %%\n", verify_label[i], m);
+        else
+            printf("  %-20s -\n", verify_label[i]);
+    }
+}
+
+static void json_verify(ru_json *j, const ru_run_report *r, const ru_run_report *r2)
+{
+    if (!r2)
+        return;
+    double a[NVERIFY], b[NVERIFY];
+    verify_figures(r, a);
+    verify_figures(r2, b);
+    ru_json_begin_object(j, "verify");
+    ru_json_number(j, "rtol", r2->solver.rtol);
+    ru_json_begin_object(j, "moved_percent");
+    for (int i = 0; i < NVERIFY; i++)
+        ru_json_number(j, verify_key[i], moved_percent(a[i], b[i]));
+    ru_json_end_object(j);
+    ru_json_end_object(j);
 }
 
 /* --wav and its options; range checks (level above -1 dBFS, ...) are the
@@ -398,10 +445,10 @@ int cmd_run(int argc, char **argv)
     ru_circuit *c = NULL;
     if ((rc = cli_load(file, 0, &c)) != 0)
         return rc;
-    if (rq.out_dir && (rc = cli_make_dir(rq.out_dir)) != 0)
-        goto done;
-    cli_plot_req plots;
+    cli_plot_req plots; /* checked first: a refused option leaves no new folder */
     if ((rc = cli_plot_check(opts, &plots)) != 0)
+        goto done;
+    if (rq.out_dir && (rc = cli_make_dir(rq.out_dir)) != 0)
         goto done;
     ru_run_data *data = NULL;
     if ((plots.dir || plots.report) && ru_run_data_create(&data) != RU_OK) {
@@ -428,10 +475,18 @@ int cmd_run(int argc, char **argv)
         fflush(stderr);
         rc = 2;
     }
+    ru_run_report *r2 = NULL;
+    if (st == RU_OK && cli_get(opts, "verify") && !(r2 = verify_run(c, &rq, r, &rc))) {
+        free(r);
+        ru_run_data_destroy(data);
+        goto done;
+    }
     if (json)
-        print_json(r, st == RU_ENUMERIC, rq.wav_path);
+        print_json(r, st == RU_ENUMERIC, rq.wav_path, r2);
     else
         print_text(c, r, auto_sample);
+    if (r2 && !json)
+        print_verify(r, r2);
     if (json && r->have_wav)
         fprintf(stderr, "caution: the start-up can be loud and sudden; turn the volume "
                         "down before playing the file\n");
@@ -450,11 +505,10 @@ int cmd_run(int argc, char **argv)
                    plots.report ? plots.report : "");
         ru_run_data_destroy(data);
     }
-    if (rc == 0 && cli_get(opts, "verify") && !json)
-        rc = verify(c, &rq, r);
     if (rc == 0 && !check_expectations(&ex, &r->meas))
         rc = 4;
     free(r);
+    free(r2);
 done:
     ru_circuit_destroy(c);
     return rc;
