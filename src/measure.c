@@ -15,7 +15,9 @@
  *   - started: settled amplitude >= 10x the reference (the lowest envelope point
  *     before the settled window, or the kick level when given and lower), or no
  *     cycle at all in the first 3 periods (it emerged from below the visible level,
- *     e.g. under a bias transient after power-on), and
+ *     e.g. under a bias transient after power-on), or it came down from at least
+ *     1.2x its settled size and holds flat there (a large kick above the limit
+ *     cycle), and
  *     drift >= -10 % (not clearly decaying); the growth fit looks at the envelope
  *     from that lowest point on (a power-on transient before it is not part of the
  *     growth); the start-up time is the first time the level is reached from t = 0;
@@ -45,6 +47,7 @@ struct ru_measure {
 #define DECAY_LIMIT (-0.10) /* started only if the window loses < 10 % */
 #define GROW_MIN 10.0       /* started: grew at least 10x */
 #define EMERGE_PERIODS 3.0  /* or: no cycle at all for the first 3 periods */
+#define FROM_ABOVE 1.2      /* or: came down from 1.2x the settled size and held */
 
 void ru_measure_cfg_default(ru_measure_cfg *cfg, double stop_s, double sample_s)
 {
@@ -405,8 +408,17 @@ ru_status ru_measure_finish(ru_measure *m, ru_measure_result *r)
     if (!(period > 0) && e->n_env - i0 >= 2)
         period = (e->env_t[e->n_env - 1] - e->env_t[i0]) / (double)(e->n_env - 1 - i0);
     int emerged = period > 0 && e->env_t[0] - m->t_first_s > EMERGE_PERIODS * period;
+    /* A large kick (or a power-on step) that starts the tone above its final size:
+     * the envelope came down by at least FROM_ABOVE and has gone flat, so an active
+     * limiter holds it there. A passive ring-down is still falling in the window,
+     * and a lossless tank never came down. */
+    double peak = m->cfg.kick_level_v; /* the kick itself may be the largest swing */
+    for (size_t i = 0; i < e->n_env; i++)
+        peak = fmax(peak, e->env_a[i]);
+    int from_above = peak >= FROM_ABOVE * mean && fabs(drift) <= DRIFT_LIMIT &&
+                     e->n_env - i0 >= 4;
     char why[RU_NOTE_MAX];
-    if (!(mean >= GROW_MIN * ref) && !emerged) {
+    if (!(mean >= GROW_MIN * ref) && !emerged && !from_above) {
         snprintf(why, sizeof why, "the envelope grew %.3gx, less than %gx", mean / ref,
                  GROW_MIN);
         not_started(r, why);

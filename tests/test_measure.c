@@ -234,6 +234,44 @@ static void test_decaying(void **state)
     ru_measure_destroy(m);
 }
 
+/* Started from above: a kick three times the limit cycle decays onto it, as
+ * a(t) = A (1 + 2 exp(-t/tau)) (the constructed signal), and holds flat: a sustained
+ * tone, so started; a passive ring-down a0 exp(-t/tau) with the same tau never
+ * flattens and a steady sine kicked at its own level never came down: neither is
+ * started. Reference: the constructed envelopes (FROM_ABOVE = 1.2x, drift 0.5 %). */
+static double env_from_above(double t) { return 1.0 + 2.0 * exp(-t / 0.02); }
+static double env_ringdown(double t) { return 3.0 * exp(-t / 0.5); }
+static double env_steady(double t) { (void)t; return 1.0; }
+
+static int started_with(double (*env)(double), double kick_v)
+{
+    const double f = 500.0, dt = 1.0 / (64 * f), stop = 0.3;
+    ru_measure_cfg cfg;
+    ru_measure_cfg_default(&cfg, stop, dt);
+    cfg.kick_level_v = kick_v;
+    ru_measure *m = NULL;
+    assert_int_equal(ru_measure_create(&cfg, &m), RU_OK);
+    for (size_t i = 0; i <= (size_t)llround(stop / dt); i++) {
+        double t = (double)i * dt;
+        assert_int_equal(ru_measure_push(m, t, env(t) * cos(2 * M_PI * f * t + PHASE0)),
+                         RU_OK);
+    }
+    ru_measure_result r;
+    assert_int_equal(ru_measure_finish(m, &r), RU_OK);
+    if (r.started) /* the settled figures are those of the held tone */
+        RU_ASSERT_REL(r.settled_amplitude_v, env(stop), 1e-3);
+    ru_measure_destroy(m);
+    return r.started;
+}
+
+static void test_started_from_above(void **state)
+{
+    (void)state;
+    assert_int_equal(started_with(env_from_above, 3.0), 1);
+    assert_int_equal(started_with(env_ringdown, 3.0), 0);
+    assert_int_equal(started_with(env_steady, 1.0), 0);
+}
+
 /* A steady sine with no growth never "starts" either (grew 1x). */
 static void test_constant_not_started(void **state)
 {
@@ -672,6 +710,7 @@ int main(void)
         cmocka_unit_test(test_vdp_fast),
         cmocka_unit_test(test_frequency_incommensurate),
         cmocka_unit_test(test_decaying),
+        cmocka_unit_test(test_started_from_above),
         cmocka_unit_test(test_constant_not_started),
         cmocka_unit_test(test_dc_offset),
         cmocka_unit_test(test_drift_and_noise),
