@@ -177,7 +177,7 @@ ru_status ru_ld_run(ld_doc *d, ru_circuit *c, struct fy_node_pair *rp,
     return s;
 }
 
-/* One probe node name (an existing node other than ground). */
+/* One probe node name: an existing node, ground only as one side of a difference. */
 static ru_status probe_node(ld_doc *d, ru_circuit *c, struct fy_node *v,
                             const char *name, int allow_gnd, ru_error *err, int *node)
 {
@@ -205,7 +205,7 @@ static ru_status read_probe(ld_doc *d, ru_circuit *c, struct fy_node_pair *p,
         *minus = '\0';
     struct fy_node *v = ru_ld_val(p);
     ru_measure_opts *m = ru_circuit_measure_opts(c);
-    s = probe_node(d, c, v, pos, 0, err, &m->probe_pos);
+    s = probe_node(d, c, v, pos, minus != NULL, err, &m->probe_pos); /* gnd-a: -v(a) */
     m->probe_neg = 0;
     if (s == RU_OK && minus)
         s = probe_node(d, c, v, minus + 1, 1, err, &m->probe_neg);

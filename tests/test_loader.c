@@ -504,6 +504,7 @@ static void test_run_measure_errors(void **state)
         {"measure: {probe: zz}", "zz", "measure: key probe: node zz does not exist"},
         {"measure: {probe: a-zz}", "a-zz", "node zz does not exist"},
         {"measure: {probe: gnd}", "gnd", "ground"},
+        {"measure: {probe: gnd-gnd}", "gnd-gnd", "the two nodes are the same"},
         {"measure: {loop: X9}", "X9", "measure: key loop: there is no part X9"},
         {"measure: {loop: R1}", "R1", "part R1 is not an amplifier"},
         {"measure: {startup-level: 150%}", "150%", "between 0 and 100%"},
