@@ -8,6 +8,40 @@
 #include <stdio.h>
 #include <string.h>
 
+/* The run and measure sections as they will be used (defaults filled in). */
+static void print_settings(const ru_circuit *c)
+{
+    static const char *const acc[] = {"draft", "normal", "precise"};
+    const ru_run_opts *ro = ru_circuit_run_opts_const(c);
+    const ru_measure_opts *mo = ru_circuit_measure_opts_const(c);
+    char a[32], b[32];
+    printf("run: stop %s, sample %s, accuracy %s, kick ",
+           ru_format_si(ro->stop_s, "s", 4, a, sizeof a),
+           ro->sample_s > 0 ? ru_format_si(ro->sample_s, "s", 4, b, sizeof b) : "auto",
+           acc[ro->accuracy]);
+    if (ro->kick == RU_KICK_PRESET) {
+        printf("preset");
+        for (int i = 0; i < ro->npreset; i++)
+            printf(" %s=%s", ru_circuit_node_name(c, ro->preset_node[i]),
+                   ru_format_si(ro->preset_v[i], "V", 4, a, sizeof a));
+    } else {
+        printf("%s", ro->kick == RU_KICK_NOISE ? "noise" : "power-on");
+        if (ro->kick == RU_KICK_NOISE)
+            printf(" (seed %lu)", ro->seed);
+    }
+    printf("\nmeasure: probe ");
+    if (mo->probe_pos < 0)
+        printf("(the first free node)");
+    else if (mo->probe_neg > 0)
+        printf("%s-%s", ru_circuit_node_name(c, mo->probe_pos),
+               ru_circuit_node_name(c, mo->probe_neg));
+    else
+        printf("%s", ru_circuit_node_name(c, mo->probe_pos));
+    printf(", loop %s, start-up level %g %%, growth window %g %% to %g %%\n",
+           mo->loop[0] ? mo->loop : "(none)", 100 * mo->startup_level, 100 * mo->growth_lo,
+           100 * mo->growth_hi);
+}
+
 static void print_text(const ru_circuit *c, const ru_system *s)
 {
     size_t np = ru_circuit_part_count(c), nn = ru_circuit_node_count(c);
@@ -26,6 +60,7 @@ static void print_text(const ru_circuit *c, const ru_system *s)
         printf(" %s", ru_system_state_name(s, i));
     printf("\nstray capacitance: %s from every free node to ground (set `stray:` to change)\n",
            ru_format_si(ru_circuit_stray_f(c), "F", 3, sbuf, sizeof sbuf));
+    print_settings(c);
     if (ru_circuit_warning_count(c) == 0)
         printf("no warnings\n");
 }
