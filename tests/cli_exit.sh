@@ -166,6 +166,12 @@ assert "error" in r["nonesuch"], r["nonesuch"]
 assert r["emitter-follower"]["settled_amplitude_v"] > r["soft-follower"]["settled_amplitude_v"]
 PY
     check "compare json" 0 $?
+    "$ru" compare "$col" --part A1 --models soft-follower,emitter-follower --stop 1m \
+        --out "$tmp/cmpout" >"$tmp/out" 2>"$tmp/err"
+    check "compare --out" 0 $?
+    for m in soft-follower emitter-follower; do
+        [ -s "$tmp/cmpout/$m/wave.csv" ] && passes=$((passes + 1)) || { echo "FAIL: no $m/wave.csv"; fails=$((fails + 1)); }
+    done
     "$ru" models --json >"$tmp/m.json" 2>"$tmp/err"
     check "models" 0 $?
     /usr/bin/python3 -c 'import json,sys; m=json.load(open(sys.argv[1])); assert len(m) >= 10 and len({x["law"] for x in m}) >= 6 and all("name" in x and "params" in x for x in m)' "$tmp/m.json"

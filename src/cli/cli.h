@@ -100,6 +100,10 @@ void cli_part_line(const ru_circuit *c, const ru_part *p, char *buf, size_t size
 /* "NAME, TYPE (NODES): VALUE" for running text (a report), no padding. */
 void cli_part_text(const ru_circuit *c, const ru_part *p, char *buf, size_t size);
 
+/* BASE/NAME (NAME with '/', '\\' and spaces made '_') into buf, created; returns 0 or
+ * an exit status. For batch commands' --out: one folder per variant. */
+int cli_variant_dir(const char *base, const char *name, char *buf, size_t size);
+
 /* Creates folder dir (and parents) if missing; returns 0 or exit status 3. */
 int cli_make_dir(const char *dir);
 

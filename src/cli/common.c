@@ -194,3 +194,17 @@ int cli_positive(const cli_opt *opts, const char *name, const char *unit, double
     }
     return 1;
 }
+
+int cli_variant_dir(const char *base, const char *name, char *buf, size_t size)
+{
+    char clean[RU_NAME_MAX * 2];
+    size_t k = 0;
+    for (const char *q = name; *q && k + 1 < sizeof clean; q++)
+        clean[k++] = (*q == '/' || *q == ' ' || *q == '\\') ? '_' : *q;
+    clean[k] = '\0';
+    if ((size_t)snprintf(buf, size, "%s/%s", base, clean) >= size) {
+        fprintf(stderr, "%s: output folder name too long\n", base);
+        return 3;
+    }
+    return cli_make_dir(buf);
+}

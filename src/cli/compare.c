@@ -20,6 +20,7 @@ typedef struct variant {
     char model[RU_NAME_MAX];
     ru_circuit *circuit;  /* clone with the model applied; NULL when that failed */
     ru_run_data *data;    /* kept for pictures, or NULL */
+    char out[1024];       /* --out: this model's folder for wave.csv */
 } variant;
 
 static int split_models(const char *list, variant *v, size_t *n)
@@ -142,7 +143,7 @@ static int plot_compare(const cli_plot_req *pr, const ru_circuit *c, const varia
 /* Clones the circuit with each model applied to the part; a failure goes into the
  * item (its row), not to the caller. */
 static void prepare(const ru_circuit *c, const char *part, variant *v, ru_batch_item *it,
-                    const ru_run_request *rq, int keep)
+                    const ru_run_request *rq, int keep, const char *out_dir)
 {
     it->request = *rq;
     if (ru_circuit_clone(c, &v->circuit) != RU_OK) {
@@ -157,6 +158,17 @@ static void prepare(const ru_circuit *c, const char *part, variant *v, ru_batch_
     }
     if (keep && ru_run_data_create(&v->data) == RU_OK)
         it->request.keep = v->data;
+    if (out_dir) { /* DIR/MODEL/wave.csv */
+        int rc = cli_variant_dir(out_dir, v->model, v->out, sizeof v->out);
+        if (rc) {
+            it->status = ru_error_set(&it->error, RU_EIO, out_dir, 0, 0,
+                                      "cannot create the folder for model %s", v->model);
+            ru_circuit_destroy(v->circuit);
+            v->circuit = NULL;
+            return;
+        }
+        it->request.out_dir = v->out;
+    }
     it->circuit = v->circuit;
 }
 
@@ -165,6 +177,7 @@ int cmd_compare(int argc, char **argv)
     cli_opt opts[] = {{"part", "PART", "the amplifier (or diode, thermal resistor) to vary",
                        NULL},
                       {"models", "A,B,C", "presets to put in that part", NULL},
+                      {"out", "DIR", "write DIR/MODEL/wave.csv for every model", NULL},
                       {"stop", "T", "run length (default: the file's)", NULL},
                       {"accuracy", "LEVEL", "draft, normal or precise", NULL},
                       {"threads", "N", "parallel runs (default: one per processor)", NULL},
@@ -209,7 +222,8 @@ int cmd_compare(int argc, char **argv)
         return 2;
     }
     for (size_t i = 0; i < n; i++)
-        prepare(c, part, &v[i], &items[i], &rq, plots.dir || plots.report);
+        prepare(c, part, &v[i], &items[i], &rq, plots.dir || plots.report,
+                cli_get(opts, "out"));
     /* items whose preparation failed keep their status; run the others */
     ru_batch_item *todo[MAX_MODELS];
     size_t ntodo = 0;

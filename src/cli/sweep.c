@@ -20,6 +20,7 @@ typedef struct point {
     char label[32];       /* the value as shown ("10.0 kohm") */
     ru_circuit *circuit;  /* the variant; NULL when it could not be made */
     ru_run_data *data;    /* kept for pictures, or NULL */
+    char out[1024];       /* --out: this variant's folder for wave.csv */
 } point;
 
 /* The key's value for people: SI prefix and unit, % keys in percent. */
@@ -138,13 +139,22 @@ static int plot_sweep(const cli_plot_req *pr, const ru_circuit *c, const point *
 }
 
 /* Makes every variant; one that cannot be made keeps its error in its item. */
-static void prepare(const ru_circuit *c, const ru_sweep_spec *s, point *p,
-                    ru_batch_item *items, const ru_run_request *rq, int keep)
+static int prepare(const ru_circuit *c, const ru_sweep_spec *s, point *p,
+                   ru_batch_item *items, const ru_run_request *rq, int keep,
+                   const char *out_dir)
 {
     for (size_t i = 0; i < s->n; i++) {
         p[i].value = ru_sweep_value(s, i);
         format_value(p[i].value, s->unit, p[i].label, sizeof p[i].label);
         items[i].request = *rq;
+        if (out_dir) { /* DIR/03-12.60_mH/wave.csv */
+            char name[64];
+            snprintf(name, sizeof name, "%02zu-%s", i, p[i].label);
+            int rc = cli_variant_dir(out_dir, name, p[i].out, sizeof p[i].out);
+            if (rc)
+                return rc;
+            items[i].request.out_dir = p[i].out;
+        }
         items[i].status = ru_sweep_variant(c, s, i, &p[i].circuit, &items[i].error);
         if (items[i].status != RU_OK)
             continue;
@@ -152,6 +162,7 @@ static void prepare(const ru_circuit *c, const ru_sweep_spec *s, point *p,
             items[i].request.keep = p[i].data;
         items[i].circuit = p[i].circuit;
     }
+    return 0;
 }
 
 /* Runs the items that were made (compacted, so ru_batch_run sees only those). */
@@ -203,6 +214,7 @@ int cmd_sweep(int argc, char **argv)
 {
     cli_opt opts[] = {{"vary", "PART.KEY=LO:HI:N", "the value to sweep, e.g. R1.value=8k:12k:5",
                        NULL},
+                      {"out", "DIR", "write DIR/NN-VALUE/wave.csv for every value", NULL},
                       {"log", NULL, "geometric spacing between LO and HI", NULL},
                       {"stop", "T", "run length (default: the file's)", NULL},
                       {"accuracy", "LEVEL", "draft, normal or precise", NULL},
@@ -246,8 +258,11 @@ int cmd_sweep(int argc, char **argv)
     ru_batch_item *items = calloc(s.n, sizeof *items);
     rc = 2;
     if (p && items) {
-        prepare(c, &s, p, items, &rq, plots.dir || plots.report);
-        if (run_all(items, s.n, (int)threads)) {
+        int prc = prepare(c, &s, p, items, &rq, plots.dir || plots.report,
+                          cli_get(opts, "out"));
+        if (prc)
+            rc = prc;
+        else if (run_all(items, s.n, (int)threads)) {
             if (cli_get(opts, "json"))
                 print_json(&s, p, items);
             else
