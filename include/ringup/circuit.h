@@ -224,7 +224,7 @@ void ru_part_init(ru_part *p, ru_part_type type, const char *name);
 typedef enum {
     RU_KICK_POWER_ON, /* everything at 0 V; supplies ramp from 0 */
     RU_KICK_PRESET,   /* as power-on, plus the preset node voltages at t = 0 */
-    RU_KICK_NOISE     /* thermal noise of the resistors (a later addition) */
+    RU_KICK_NOISE     /* Johnson-Nyquist noise of the resistors (ru_system_set_noise) */
 } ru_kick;
 
 typedef enum {
