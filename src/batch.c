@@ -18,6 +18,8 @@ typedef struct batch_ctx {
 
 static void run_item(ru_batch_item *it)
 {
+    if (!it->circuit)
+        return; /* could not be made: its status and error stand */
     ru_error_clear(&it->error);
     it->status = ru_analysis_run(it->circuit, &it->request, &it->report, &it->error);
     if (it->status != RU_OK && it->error.code == RU_OK)

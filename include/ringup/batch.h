@@ -14,7 +14,9 @@ extern "C" {
 #endif
 
 typedef struct ru_batch_item {
-    const ru_circuit *circuit; /* in: the variant to run (owned by the caller) */
+    const ru_circuit *circuit; /* in: the variant to run (owned by the caller); NULL:
+                                  skipped, status and error left as the caller set
+                                  them (a variant that could not be made) */
     ru_run_request request;    /* in: how to run it */
     ru_run_report report;      /* out */
     ru_status status;          /* out: RU_OK, or why this item failed */

@@ -104,6 +104,10 @@ void cli_part_text(const ru_circuit *c, const ru_part *p, char *buf, size_t size
  * an exit status. For batch commands' --out: one folder per variant. */
 int cli_variant_dir(const char *base, const char *name, char *buf, size_t size);
 
+/* One batch row's keys: `error` when it failed, else the run keys and notes. */
+struct ru_batch_item;
+void cli_json_item(ru_json *j, const struct ru_batch_item *it);
+
 /* Creates folder dir (and parents) if missing; returns 0 or exit status 3. */
 int cli_make_dir(const char *dir);
 

@@ -103,14 +103,7 @@ static void print_json(const char *part, const variant *v, const ru_batch_item *
     for (size_t i = 0; i < n; i++) {
         ru_json_begin_object(&j, NULL);
         ru_json_string(&j, "model", v[i].model);
-        if (items[i].status != RU_OK) {
-            char msg[RU_ERROR_TEXT + RU_ERROR_FILE + 32];
-            ru_error_format(&items[i].error, msg, sizeof msg);
-            ru_json_string(&j, "error", msg);
-        } else {
-            cli_json_run_body(&j, &items[i].report);
-            cli_json_notes(&j, &items[i].report);
-        }
+        cli_json_item(&j, &items[i]);
         ru_json_end_object(&j);
     }
     ru_json_end_array(&j);
@@ -224,20 +217,8 @@ int cmd_compare(int argc, char **argv)
     for (size_t i = 0; i < n; i++)
         prepare(c, part, &v[i], &items[i], &rq, plots.dir || plots.report,
                 cli_get(opts, "out"));
-    /* items whose preparation failed keep their status; run the others */
-    ru_batch_item *todo[MAX_MODELS];
-    size_t ntodo = 0;
-    for (size_t i = 0; i < n; i++)
-        if (items[i].circuit)
-            todo[ntodo++] = &items[i];
-    ru_batch_item *run = calloc(ntodo ? ntodo : 1, sizeof *run);
-    for (size_t i = 0; run && i < ntodo; i++)
-        run[i] = *todo[i];
-    if (run)
-        ru_batch_run(run, ntodo, (int)threads);
-    for (size_t i = 0; run && i < ntodo; i++)
-        *todo[i] = run[i];
-    free(run);
+    /* items whose preparation failed keep their status; ru_batch_run skips them */
+    ru_batch_run(items, n, (int)threads);
     if (cli_get(opts, "json"))
         print_json(part, v, items, n);
     else

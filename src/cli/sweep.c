@@ -95,14 +95,7 @@ static void print_json(const ru_sweep_spec *s, const point *p, const ru_batch_it
     for (size_t i = 0; i < s->n; i++) {
         ru_json_begin_object(&j, NULL);
         ru_json_number(&j, "value", p[i].value);
-        if (items[i].status != RU_OK) {
-            char msg[RU_ERROR_TEXT + RU_ERROR_FILE + 32];
-            ru_error_format(&items[i].error, msg, sizeof msg);
-            ru_json_string(&j, "error", msg);
-        } else {
-            cli_json_run_body(&j, &items[i].report);
-            cli_json_notes(&j, &items[i].report);
-        }
+        cli_json_item(&j, &items[i]);
         ru_json_end_object(&j);
     }
     ru_json_end_array(&j);
@@ -163,27 +156,6 @@ static int prepare(const ru_circuit *c, const ru_sweep_spec *s, point *p,
         items[i].circuit = p[i].circuit;
     }
     return 0;
-}
-
-/* Runs the items that were made (compacted, so ru_batch_run sees only those). */
-static int run_all(ru_batch_item *items, size_t n, int threads)
-{
-    ru_batch_item *run = calloc(n, sizeof *run);
-    size_t *where = calloc(n, sizeof *where);
-    size_t m = 0;
-    for (size_t i = 0; run && where && i < n; i++)
-        if (items[i].circuit) {
-            where[m] = i;
-            run[m++] = items[i];
-        }
-    if (run && where)
-        ru_batch_run(run, m, threads);
-    for (size_t k = 0; run && where && k < m; k++)
-        items[where[k]] = run[k];
-    int ok = run && where;
-    free(run);
-    free(where);
-    return ok;
 }
 
 static void free_points(point *p, size_t n)
@@ -260,9 +232,12 @@ int cmd_sweep(int argc, char **argv)
     if (p && items) {
         int prc = prepare(c, &s, p, items, &rq, plots.dir || plots.report,
                           cli_get(opts, "out"));
-        if (prc)
+        if (prc) {
             rc = prc;
-        else if (run_all(items, s.n, (int)threads)) {
+        } else {
+            /* every item runs, in threads or one after another; variants that could
+             * not be made keep their status (ru_batch_run skips them) */
+            ru_batch_run(items, s.n, (int)threads);
             if (cli_get(opts, "json"))
                 print_json(&s, p, items);
             else
