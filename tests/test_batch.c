@@ -71,10 +71,30 @@ static void test_parallel_equals_serial(void **state)
     free(ser);
 }
 
+/* An item with no circuit (a variant the caller could not make) is skipped and
+ * keeps the status and error the caller gave it; the others run. */
+static void test_skips_unmade(void **state)
+{
+    (void)state;
+    ru_batch_item it[2];
+    memset(it, 0, sizeof it);
+    ru_circuit *c = vdp(1e-3, 30e-3);
+    it[0].circuit = c;
+    ru_run_request_default(&it[0].request);
+    it[1].status = ru_error_set(&it[1].error, RU_EINPUT, "x.yaml", 3, 4, "no preset zz");
+    assert_int_equal(ru_batch_run(it, 2, 2), RU_OK);
+    assert_int_equal(it[0].status, RU_OK);
+    assert_true(it[0].report.meas.started);
+    assert_int_equal(it[1].status, RU_EINPUT);
+    assert_string_equal(it[1].error.msg, "no preset zz");
+    ru_circuit_destroy(c);
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
         cmocka_unit_test(test_parallel_equals_serial),
+        cmocka_unit_test(test_skips_unmade),
     };
     return cmocka_run_group_tests_name("batch", tests, NULL, NULL);
 }
