@@ -368,6 +368,19 @@ static void not_started(ru_measure_result *r, const char *why)
     snprintf(r->thd_note, RU_NOTE_MAX, "did not start: %s", why);
 }
 
+/* Not a start-up, but a steady tone in the settled window (a driven circuit, or a
+ * tank kicked at its final size): the tone's figures (amplitude, frequency, THD,
+ * DC level) are kept; start-up, growth and settling stay unknown. */
+static void steady_tone(ru_measure_result *r, double mean, const char *why)
+{
+    r->started = 0;
+    r->settled = 1;
+    r->settled_amplitude_v = mean;
+    snprintf(r->growth_note, RU_NOTE_MAX,
+             "did not start (%.80s); the tone was steady (driven, or kicked at its final "
+             "size): its amplitude, frequency and THD are given", why);
+}
+
 ru_status ru_measure_finish(ru_measure *m, ru_measure_result *r)
 {
     if (!m || !r)
@@ -421,6 +434,10 @@ ru_status ru_measure_finish(ru_measure *m, ru_measure_result *r)
     if (!(mean >= GROW_MIN * ref) && !emerged && !from_above) {
         snprintf(why, sizeof why, "the envelope grew %.3gx, less than %gx", mean / ref,
                  GROW_MIN);
+        if (fabs(drift) <= DRIFT_LIMIT && e->n_env - i0 >= 2) {
+            steady_tone(r, mean, why);
+            return RU_OK;
+        }
         not_started(r, why);
         return RU_OK;
     }

@@ -76,7 +76,7 @@ static void print_text(const ru_circuit *c, const ru_run_report *r, int auto_sam
     row("frequency", m->frequency_hz, p->frequency_hz, "Hz");
     row("settled amplitude", m->settled_amplitude_v, NAN, "V");
     row("  fundamental", m->fundamental_v, p->settled_amplitude_v, "V");
-    printf("  %-20s %s\n", "settled", m->started ? yes_no(m->settled) : "-");
+    printf("  %-20s %s\n", "settled", isfinite(m->settled_amplitude_v) ? yes_no(m->settled) : "-");
     row("settling time", m->settling_time_s, NAN, "s");
     printf("  %-20s %s\n", "THD",
            isfinite(m->thd_percent) ? (snprintf(a, sizeof a, "%.4g %%", m->thd_percent), a)
