@@ -74,6 +74,8 @@ static void print_text(const ru_circuit *c, const ru_run_report *r, int auto_sam
     row("start-up time", m->startup_time_s, p->startup_time_s, "s");
     rate_row("growth rate", m->growth_rate_per_s, p->growth_rate_per_s);
     row("frequency", m->frequency_hz, p->frequency_hz, "Hz");
+    if (isfinite(p->df_frequency_hz))
+        row("  at settled size", NAN, p->df_frequency_hz, "Hz");
     row("settled amplitude", m->settled_amplitude_v, NAN, "V");
     row("  fundamental", m->fundamental_v, p->settled_amplitude_v, "V");
     printf("  %-20s %s\n", "settled", isfinite(m->settled_amplitude_v) ? yes_no(m->settled) : "-");
@@ -141,6 +143,7 @@ void cli_json_run_body(ru_json *j, const ru_run_report *r)
     ru_json_number(j, "frequency_hz", p->frequency_hz);
     ru_json_number(j, "startup_time_s", p->startup_time_s);
     ru_json_number(j, "settled_amplitude_v", p->settled_amplitude_v);
+    ru_json_number(j, "settled_frequency_hz", p->df_frequency_hz);
     ru_json_end_object(j);
     ru_json_begin_object(j, "solver");
     ru_json_int(j, "steps", r->solver.steps);
