@@ -21,7 +21,10 @@ The figures are measured here with our own code from the README's definitions
 ("What is measured, exactly"), but without ringup's sampling: every extremum is
 the root (scipy brentq) of the probe's exact derivative p^T M^-1 r(x(t)) on the
 dense output, so no parabola through samples is needed.
-  - envelope point: (maximum - following minimum)/2 at the mid time;
+  - envelope point: (maximum - following minimum)/2 at the mid time, with the
+    README's moving-DC rule (extrema of the probe less the DC slope read from the
+    midpoints of the last four extrema; see envelope()); the plain envelope
+    without that rule is computed too and its start-up time printed;
   - settled amplitude: mean of the envelope points with time >= 0.9 stop;
   - start-up time: first time the envelope reaches 90 % of it, linear between
     envelope points;
