@@ -168,6 +168,26 @@ static void drop_early(ru_envelope *e)
     e->n_env = keep;
 }
 
+/* A growing tone moves the midpoints by itself: with growth g = sigma T per period
+ * the midpoint of a maximum and the next minimum sits about a g/4 off the DC line,
+ * and that offset grows with a, so two midpoints a period apart read a slope of
+ * about g^2 a / (4 T) with no DC movement at all. Removing it would bias every
+ * envelope point by about a g^2/16 (1.9 % at g = 0.55). A slope within 3x of that
+ * is taken as growth, not DC movement (0); a real ramp or a settling bias is far
+ * above it once the tone is large enough to show extrema, and a settled tone
+ * (g = 0) keeps any slope. g comes from the half swings of the first and the last
+ * pair of the four extrema. */
+static double growth_guard(const ru_envelope *e, double slope_v_s, double period_s)
+{
+    /* half swings of the first and the last pair of the four extrema, a period apart */
+    double a0 = 0.5 * fabs(e->ext_v[1] - e->ext_v[0]);
+    double a1 = 0.5 * fabs(e->ext_v[3] - e->ext_v[2]);
+    if (!(period_s > 0) || !(a1 > 0 && a0 > 0))
+        return slope_v_s;
+    double g = log(a1 / a0), spurious = g * g * a1 / (4.0 * period_s);
+    return fabs(slope_v_s) < 3.0 * spurious ? 0.0 : slope_v_s;
+}
+
 /* Keeps the last four extrema and, once there are four, re-reads the DC slope from
  * the midpoints of the first and the last pair (one period apart). */
 static void ext_record(ru_envelope *e, double t_s, double v)
@@ -185,7 +205,7 @@ static void ext_record(ru_envelope *e, double t_s, double v)
     double ta = 0.5 * (e->ext_t[0] + e->ext_t[1]), va = 0.5 * (e->ext_v[0] + e->ext_v[1]);
     double tb = 0.5 * (e->ext_t[2] + e->ext_t[3]), vb = 0.5 * (e->ext_v[2] + e->ext_v[3]);
     if (tb > ta)
-        e->slope_v_s = (vb - va) / (tb - ta);
+        e->slope_v_s = growth_guard(e, (vb - va) / (tb - ta), tb - ta);
 }
 
 /* The candidate of s is confirmed: record it, and continue seeking the opposite
