@@ -91,6 +91,12 @@ int cli_plot_check(const cli_opt *opts, cli_plot_req *pr);
 int cli_plot_run(const cli_plot_req *pr, const ru_circuit *c, const ru_run_report *r,
                  const ru_run_data *data);
 
+/* The comparison figures of batch items (one envelope per item, THD and start-up
+ * bars), each labelled labels[i]; items without kept data are left out. */
+struct ru_batch_item;
+int cli_plot_items(const cli_plot_req *pr, const ru_circuit *c,
+                   const struct ru_batch_item *items, size_t n, const char *const *labels);
+
 /* Figures and a report of any prepared set. */
 int cli_plot_set(const cli_plot_req *pr, const char *title, const ru_plot_set *set);
 

@@ -111,28 +111,6 @@ static void print_json(const char *part, const variant *v, const ru_batch_item *
     ru_json_finish(&j);
 }
 
-static int plot_compare(const cli_plot_req *pr, const ru_circuit *c, const variant *v,
-                        const ru_batch_item *items, size_t n)
-{
-    ru_plot_model pm[MAX_MODELS];
-    size_t k = 0;
-    for (size_t i = 0; i < n; i++) {
-        if (items[i].status != RU_OK || !v[i].data)
-            continue;
-        ru_run_data_view dv;
-        ru_run_data_get(v[i].data, &dv);
-        const ru_measure_result *m = &items[i].report.meas;
-        pm[k++] = (ru_plot_model){v[i].model, dv.nenv, dv.env_t_s, dv.env_v,
-                                  m->thd_percent, m->started ? m->startup_time_s : NAN};
-    }
-    if (k == 0)
-        return 0;
-    ru_plot_set set = {0};
-    set.models = pm;
-    set.nmodels = k;
-    return cli_plot_set(pr, ru_circuit_title(c), &set);
-}
-
 /* Clones the circuit with each model applied to the part; a failure goes into the
  * item (its row), not to the caller. */
 static void prepare(const ru_circuit *c, const char *part, variant *v, ru_batch_item *it,
@@ -223,7 +201,10 @@ int cmd_compare(int argc, char **argv)
         print_json(part, v, items, n);
     else
         print_table(c, part, v, items, n);
-    rc = plot_compare(&plots, c, v, items, n);
+    const char *labels[MAX_MODELS];
+    for (size_t i = 0; i < n; i++)
+        labels[i] = v[i].model;
+    rc = cli_plot_items(&plots, c, items, n, labels);
     for (size_t i = 0; i < n; i++) {
         ru_circuit_destroy(v[i].circuit);
         ru_run_data_destroy(v[i].data);

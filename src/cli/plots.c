@@ -2,6 +2,7 @@
  * command computed into the plot library's plain-array figures (ringup/plot.h). */
 #include "cli.h"
 
+#include "ringup/batch.h"
 #include "ringup/format.h"
 #include "ringup/plot.h"
 
@@ -160,4 +161,33 @@ int cli_plot_set(const cli_plot_req *pr, const char *title, const ru_plot_set *s
     if (pr->report && ru_plot_report(pr->report, title, "", NULL, set, &err) != RU_OK)
         return cli_fail(&err);
     return 0;
+}
+
+int cli_plot_items(const cli_plot_req *pr, const ru_circuit *c,
+                   const struct ru_batch_item *items, size_t n, const char *const *labels)
+{
+    if (!pr->dir && !pr->report)
+        return 0;
+    ru_plot_model *pm = calloc(n ? n : 1, sizeof *pm);
+    if (!pm)
+        return 2;
+    size_t k = 0;
+    for (size_t i = 0; i < n; i++) {
+        if (items[i].status != RU_OK || !items[i].request.keep)
+            continue;
+        ru_run_data_view dv;
+        ru_run_data_get(items[i].request.keep, &dv);
+        const ru_measure_result *m = &items[i].report.meas;
+        pm[k++] = (ru_plot_model){labels[i], dv.nenv, dv.env_t_s, dv.env_v,
+                                  m->thd_percent, m->started ? m->startup_time_s : NAN};
+    }
+    int rc = 0;
+    if (k > 0) {
+        ru_plot_set set = {0};
+        set.models = pm;
+        set.nmodels = k;
+        rc = cli_plot_set(pr, ru_circuit_title(c), &set);
+    }
+    free(pm);
+    return rc;
 }

@@ -103,33 +103,6 @@ static void print_json(const ru_sweep_spec *s, const point *p, const ru_batch_it
     ru_json_finish(&j);
 }
 
-/* The comparison figures (envelopes overlaid, THD and start-up per value). */
-static int plot_sweep(const cli_plot_req *pr, const ru_circuit *c, const point *p,
-                      const ru_batch_item *items, size_t n)
-{
-    if (!pr->dir && !pr->report)
-        return 0;
-    ru_plot_model *pm = calloc(n, sizeof *pm);
-    size_t k = 0;
-    for (size_t i = 0; pm && i < n; i++) {
-        if (items[i].status != RU_OK || !p[i].data)
-            continue;
-        ru_run_data_view dv;
-        ru_run_data_get(p[i].data, &dv);
-        const ru_measure_result *m = &items[i].report.meas;
-        pm[k++] = (ru_plot_model){p[i].label, dv.nenv, dv.env_t_s, dv.env_v,
-                                  m->thd_percent, m->started ? m->startup_time_s : NAN};
-    }
-    int rc = pm ? 0 : 2;
-    if (k > 0) {
-        ru_plot_set set = {0};
-        set.models = pm;
-        set.nmodels = k;
-        rc = cli_plot_set(pr, ru_circuit_title(c), &set);
-    }
-    free(pm);
-    return rc;
-}
 
 /* Makes every variant; one that cannot be made keeps its error in its item. */
 static int prepare(const ru_circuit *c, const ru_sweep_spec *s, point *p,
@@ -242,7 +215,11 @@ int cmd_sweep(int argc, char **argv)
                 print_json(&s, p, items);
             else
                 print_table(c, &s, p, items);
-            rc = plot_sweep(&plots, c, p, items, s.n);
+            const char **labels = calloc(s.n, sizeof *labels);
+            for (size_t i = 0; labels && i < s.n; i++)
+                labels[i] = p[i].label;
+            rc = labels ? cli_plot_items(&plots, c, items, s.n, labels) : 2;
+            free(labels);
         }
     }
     if (rc == 2)
