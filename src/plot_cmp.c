@@ -91,8 +91,8 @@ static void draw_cmp_env(const void *data)
         vmax = 1;
     double kt = plot_si_scale(tmax, &tp), kv = plot_si_scale(vmax, &vp);
     pladv(0);
-    plot_titles("Envelopes of the models compared",
-                "amplitude of the probe per cycle; a dot marks each model's start-up time");
+    plot_titles("Envelopes compared (one per model or value)",
+                "amplitude of the probe per cycle; a dot marks each start-up time");
     plot_axis_label(xl, sizeof xl, "time from power-on", tp, kt, "s");
     plot_axis_label(yl, sizeof yl, "envelope amplitude", vp, kv, "V peak");
     plot_frame(PLOT_VX0, PLOT_VX1, PLOT_VY0, PLOT_VY1 - 0.04, 0, tmax * kt, 0,
@@ -147,7 +147,7 @@ static void draw_cmp_fig(const void *data)
     const plot_models *pm = data;
     char name[80];
     pladv(0);
-    plot_titles("Distortion and start-up time per model",
+    plot_titles("Distortion and start-up time, per model or value",
                 "THD of the settled tone; start-up time from power-on");
     cmp_bars(pm, 0, 0.22, 0.57);
     plvpor(0.22, 0.57, PLOT_VY0, PLOT_VY1 - 0.04); /* names left of the first panel */
