@@ -6,31 +6,7 @@
 set -u
 ru=$1
 src=$2
-tmp=$(mktemp -d)
-trap 'rm -rf "$tmp"' EXIT
-fails=0
-passes=0
-
-check() { # check NAME WANT_STATUS GOT_STATUS
-    if [ "$2" = "$3" ]; then
-        passes=$((passes + 1))
-    else
-        echo "FAIL: $1: exit status $3, want $2"
-        fails=$((fails + 1))
-    fi
-}
-
-grepcheck() { # grepcheck NAME PATTERN FILE
-    if grep -Eq -- "$2" "$3"; then
-        passes=$((passes + 1))
-    else
-        echo "FAIL: $1: no match for '$2' in:"
-        cat "$3"
-        fails=$((fails + 1))
-    fi
-}
-
-vdp=$src/examples/vdp-tank.yaml
+. "$(dirname "$0")/clitest.sh"
 
 "$ru" --version >"$tmp/out" 2>&1
 check "--version" 0 $?
@@ -178,5 +154,4 @@ PY
     check "models json: 10 presets over 6 laws" 0 $?
 fi
 
-echo "$passes passed, $fails failed"
-[ "$fails" -eq 0 ]
+finish

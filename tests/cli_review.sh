@@ -6,32 +6,8 @@
 set -u
 ru=$1
 src=$2
-tmp=$(mktemp -d)
-trap 'rm -rf "$tmp"' EXIT
-fails=0
-passes=0
+. "$(dirname "$0")/clitest.sh"
 export RINGUP_MODELS=${RINGUP_MODELS:-$src/models}
-
-check() { # check NAME WANT GOT
-    if [ "$2" = "$3" ]; then
-        passes=$((passes + 1))
-    else
-        echo "FAIL: $1: got $3, want $2"
-        fails=$((fails + 1))
-    fi
-}
-
-grepcheck() { # grepcheck NAME PATTERN FILE
-    if grep -Eq -- "$2" "$3"; then
-        passes=$((passes + 1))
-    else
-        echo "FAIL: $1: no match for '$2' in:"
-        cat "$3"
-        fails=$((fails + 1))
-    fi
-}
-
-vdp=$src/examples/vdp-tank.yaml
 
 # A sample spacing not shorter than the run is bad input (exit 1) and the message
 # names the file and both times, whether the spacing is given, written in the file
@@ -154,5 +130,4 @@ grepcheck "lossless tank: on the axis (poles)" "dominant pair: growth rate 0 /s 
 check "lossless tank run: status" 0 $?
 grepcheck "lossless tank: on the axis (run)" "started +no +no \(poles on the jw axis\)" "$tmp/out"
 
-echo "cli_review: $passes passed, $fails failed"
-[ "$fails" = 0 ]
+finish

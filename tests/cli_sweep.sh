@@ -9,32 +9,8 @@
 set -u
 ru=$1
 src=$2
-tmp=$(mktemp -d)
-trap 'rm -rf "$tmp"' EXIT
-fails=0
-passes=0
+. "$(dirname "$0")/clitest.sh"
 py=/usr/bin/python3
-
-check() { # check NAME WANT_STATUS GOT_STATUS
-    if [ "$2" = "$3" ]; then
-        passes=$((passes + 1))
-    else
-        echo "FAIL: $1: exit status $3, want $2"
-        fails=$((fails + 1))
-    fi
-}
-
-grepcheck() { # grepcheck NAME PATTERN FILE
-    if grep -Eq -- "$2" "$3"; then
-        passes=$((passes + 1))
-    else
-        echo "FAIL: $1: no match for '$2' in:"
-        cat "$3"
-        fails=$((fails + 1))
-    fi
-}
-
-vdp=$src/examples/vdp-tank.yaml
 
 # A table with one row per value.
 "$ru" sweep "$vdp" --vary L1.value=5m:20m:3 --threads 2 >"$tmp/out" 2>"$tmp/err"
@@ -155,5 +131,4 @@ if [ -x /usr/bin/python3 ]; then
     check "no numerical failure while clipping" 0 $?
 fi
 
-echo "$passes passed, $fails failed"
-[ "$fails" -eq 0 ]
+finish
