@@ -31,7 +31,7 @@ dense output, so no parabola through samples is needed.
   - DC level: mean over whole periods (first to last upward crossing of the mean
     in the window); frequency: (crossings - 1)/(last - first crossing), crossings
     by brentq on the dense output (ringup reads the window's DC level over whole
-    periods too, src/harmonics.c; over all window samples a partial period would
+    periods too, src/measure/harmonics.c; over all window samples a partial period would
     bias it by up to A/(2 pi cycles));
   - fundamental, THD and harmonics 2..10 in dBc: the dense output evaluated
     directly on K whole periods (K <= 64, ending at the last crossing), 256 points
@@ -98,7 +98,7 @@ TOL_STARTUP_PERIODS = 0.15
 # THD, relative, and each harmonic as an absolute error in units of the
 # fundamental. The spectrum here has no resampling error (the dense output is
 # evaluated on K whole periods). ringup's 8-point Lagrange resampling is exact to
-# ~1e-11 on the fundamental (src/harmonics.c); what dominates is its frequency
+# ~1e-11 on the fundamental (src/measure/harmonics.c); what dominates is its frequency
 # error delta (<= TOL_FREQ, above): K periods of 1/f(1 + delta) leak the
 # fundamental into bin kK with ~A delta/(k - 1), so each harmonic may be off by up
 # to 1e-5 A (measured: H6 of vdp_asym_tank at -78.9 dBc, 0.077 dB apart; with
@@ -111,7 +111,7 @@ TOL_HARM_OF_FUND = 1e-5
 HARM_FLOOR_DBC = -90.0
 # DC level, absolute, as a fraction of the settled amplitude: both are means over
 # whole periods (ringup: trapezoid over linearly interpolated samples between its
-# first and last crossing, src/harmonics.c; here exact). Its crossing-time error
+# first and last crossing, src/measure/harmonics.c; here exact). Its crossing-time error
 # (<= 3e-5 period, above) at each end shifts the mean by ~3e-5 A/8 periods plus the
 # trapezoid's O(h^2) error of ~1e-6 A: a few 1e-6 of A. Tolerance 1e-4 of A (0.2 mV
 # on 2 V), well below the DC levels checked (-4 mV and 68 mV).

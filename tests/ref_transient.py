@@ -35,7 +35,7 @@ reference (all node columns), and for the inductor current below 1e-6 of its
 current scale: the larger of its largest |current| and Vpeak sqrt(C_total/L),
 the current an LC tank of that inductor and all the circuit's capacitance
 (capacitors plus strays) carries at the voltage peak. That is the scale the
-engine's tolerances are stated in (src/system.c, ru_system_state_scale); a
+engine's tolerances are stated in (src/system/system.c, ru_system_state_scale); a
 current far below it (the ramp case: peak 0.96 mA, scale 19 mA) is held to 1e-6
 of that scale, not of its own peak.
 

@@ -4,7 +4,7 @@
  * sin^3 x = (3 sin x - sin 3x)/4, and the Lagrange interpolation error bound. */
 #include "ru_test.h"
 
-#include "measure_impl.h"
+#include "measure/measure_impl.h"
 #include "ringup/measure.h"
 
 #include <pthread.h>

@@ -1,4 +1,4 @@
-/* test_laws.c: the amplifier laws (src/laws.c): values against their defining
+/* test_laws.c: the amplifier laws (src/parts/laws.c): values against their defining
  * formulas, derivatives against central finite differences in every region
  * (cut-off, active, junction limiting, vo < 0), the exp-stage transconductance
  * against gm = Ic/(n Vt), the thermal voltage against NIST's k/e, and the law
@@ -10,7 +10,7 @@
  * R(T) laws and the thermal RC heat balance. */
 #include "ru_test.h"
 
-#include "laws.h"
+#include "parts/laws.h"
 
 #include <stdio.h>
 

@@ -7,7 +7,7 @@
  * a level L*A inverts in closed form: t_L = ln((A^2/a0^2 - 1)/(1/L^2 - 1))/(2 sigma). */
 #include "ru_test.h"
 
-#include "measure_impl.h"
+#include "measure/measure_impl.h"
 #include "ringup/measure.h"
 
 #include <stdint.h>

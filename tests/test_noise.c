@@ -5,7 +5,7 @@
 #include "ringup/circuit.h"
 #include "ringup/system.h"
 #include "ringup/transient.h"
-#include "noise.h"
+#include "system/noise.h"
 
 #include <stdlib.h>
 

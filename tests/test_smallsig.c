@@ -8,7 +8,7 @@
 #include "ringup/circuit.h"
 #include "ringup/smallsig.h"
 #include "ringup/system.h"
-#include "smallsig_impl.h"
+#include "engines/smallsig_impl.h"
 
 #include <complex.h>
 #include <lapacke.h>

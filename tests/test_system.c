@@ -1,4 +1,4 @@
-/* test_system.c: the circuit compiled to an ODE (src/system*.c, src/wave.c).
+/* test_system.c: the circuit compiled to an ODE (src/system/).
  * Checked against references outside the code under test: central finite
  * differences of rhs for the analytic Jacobian, hand-solved DC points (Ohm's
  * and Kirchhoff's laws), charge conservation Q = C V at supply jumps, KVL along
@@ -9,7 +9,7 @@
 #include "ru_test.h"
 
 #include "ringup/system.h"
-#include "wave.h"
+#include "system/wave.h"
 
 #include <stdio.h>
 #include <stdlib.h>

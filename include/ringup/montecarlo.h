@@ -11,7 +11,7 @@
  *     0.97334 sigma^2).
  * Sample 0 is the nominal circuit (nothing drawn). The generator is counter-based:
  * d is a pure function of (seed, sample index, part index), splitmix64 used as a
- * hash as in the noise kick (src/noise.c), so a result does not depend on the
+ * hash as in the noise kick (src/system/noise.c), so a result does not depend on the
  * number of threads or their scheduling and any unit can be rebuilt alone.
  *
  * Memory: only the figures of each unit and its drawn values are kept (a few

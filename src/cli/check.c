@@ -1,5 +1,5 @@
 /* check.c: `ringup check FILE`: validate a circuit file and list what it holds. */
-#include "cli.h"
+#include "cli/cli.h"
 
 #include "ringup/format.h"
 #include "ringup/json.h"

@@ -1,5 +1,5 @@
 /* cli.h: pieces shared by the CLI's commands: option tables, loading, printing
- * errors. Only src/main.c and src/cli/ use it; the library never does. */
+ * errors. Only src/cli/ uses it; the library never does. */
 #ifndef RU_CLI_H
 #define RU_CLI_H
 

@@ -1,5 +1,5 @@
 /* common.c: option parsing, loading and error printing shared by the commands. */
-#include "cli.h"
+#include "cli/cli.h"
 
 #include "ringup/batch.h"
 #include "ringup/loader.h"
@@ -208,16 +208,4 @@ int cli_variant_dir(const char *base, const char *name, char *buf, size_t size)
         return 3;
     }
     return cli_make_dir(buf);
-}
-
-void cli_json_item(ru_json *j, const ru_batch_item *it)
-{
-    if (it->status != RU_OK) {
-        char msg[RU_ERROR_TEXT + RU_ERROR_FILE + 32];
-        ru_error_format(&it->error, msg, sizeof msg);
-        ru_json_string(j, "error", msg);
-        return;
-    }
-    cli_json_run_body(j, &it->report);
-    cli_json_notes(j, &it->report);
 }

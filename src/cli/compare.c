@@ -1,7 +1,7 @@
 /* compare.c: `ringup compare FILE --part A1 --models a,b,c`: the same circuit with
  * each model in one part, analysed in parallel; one table (or JSON) of the figures.
  * A model that fails is reported in its row and does not stop the others. */
-#include "cli.h"
+#include "cli/cli.h"
 
 #include "ringup/batch.h"
 #include "ringup/format.h"

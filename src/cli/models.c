@@ -1,6 +1,6 @@
 /* models.c: `ringup models`: the presets in the models folder, with their law and
  * parameters. */
-#include "cli.h"
+#include "cli/cli.h"
 
 #include "ringup/format.h"
 #include "ringup/json.h"

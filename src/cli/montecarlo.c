@@ -2,7 +2,7 @@
  * part value per unit (ringup/montecarlo.h), runs the units in parallel, and says
  * whether the oscillator starts on every unit, the spread of each figure over the
  * started units, and the worst units with the values drawn for them. */
-#include "cli.h"
+#include "cli/cli.h"
 
 #include "ringup/batch.h"
 #include "ringup/format.h"

@@ -1,6 +1,6 @@
 /* parts.c: one line per part for the CLI's listings and reports: name, type,
  * nodes and the value that matters (SI prefixes). */
-#include "cli.h"
+#include "cli/cli.h"
 
 #include "ringup/format.h"
 

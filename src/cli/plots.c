@@ -1,6 +1,6 @@
 /* plots.c: the CLI's --plots DIR, --plot-format and --report FILE: it turns what a
  * command computed into the plot library's plain-array figures (ringup/plot.h). */
-#include "cli.h"
+#include "cli/cli.h"
 
 #include "ringup/batch.h"
 #include "ringup/format.h"

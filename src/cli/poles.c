@@ -1,5 +1,5 @@
 /* poles.c: `ringup poles FILE`: operating point, poles, dominant pair, loop gain. */
-#include "cli.h"
+#include "cli/cli.h"
 
 #include "ringup/descfn.h"
 #include "ringup/format.h"

@@ -1,6 +1,6 @@
 /* response.c: `ringup response FILE --from N --to M`: the network's transfer from
  * an ideal source at node N to node M over log-spaced frequencies. */
-#include "cli.h"
+#include "cli/cli.h"
 
 #include "ringup/format.h"
 #include "ringup/json.h"

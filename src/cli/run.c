@@ -1,6 +1,6 @@
 /* run.c: `ringup run FILE`: simulate the start-up, measure it, compare with the
  * small-signal prediction, check the designer's expectations. */
-#include "cli.h"
+#include "cli/cli.h"
 
 #include "ringup/analysis.h"
 #include "ringup/format.h"
@@ -113,52 +113,6 @@ static void print_text(const ru_circuit *c, const ru_run_report *r, int auto_sam
         printf("integrator damping (energy balance): %.3g /s\n", r->integrator_damping_per_s);
     for (int i = 0; i < r->nnotes; i++)
         printf("note: %s\n", r->notes[i]);
-}
-
-static void json_measured(ru_json *j, const ru_run_report *r)
-{
-    const ru_measure_result *m = &r->meas;
-    ru_json_bool(j, "started", m->started);
-    ru_json_bool(j, "settled", m->settled);
-    ru_json_number(j, "startup_time_s", m->startup_time_s);
-    ru_json_number(j, "growth_rate_per_s", m->growth_rate_per_s);
-    ru_json_number(j, "frequency_hz", m->frequency_hz);
-    ru_json_number(j, "settled_amplitude_v", m->settled_amplitude_v);
-    ru_json_number(j, "settling_time_s", m->settling_time_s);
-    ru_json_number(j, "fundamental_v", m->fundamental_v);
-    ru_json_number(j, "thd_percent", m->thd_percent);
-    ru_json_begin_array(j, "harmonics_dbc");
-    for (int k = 0; k < RU_HARMONICS - 1; k++)
-        ru_json_number(j, NULL, m->harmonics_dbc[k]);
-    ru_json_end_array(j);
-    ru_json_number(j, "dc_level_v", m->dc_level_v);
-}
-
-void cli_json_run_body(ru_json *j, const ru_run_report *r)
-{
-    json_measured(j, r);
-    const ru_prediction *p = &r->pred;
-    ru_json_begin_object(j, "predicted");
-    ru_json_number(j, "growth_rate_per_s", p->growth_rate_per_s);
-    ru_json_number(j, "frequency_hz", p->frequency_hz);
-    ru_json_number(j, "startup_time_s", p->startup_time_s);
-    ru_json_number(j, "settled_amplitude_v", p->settled_amplitude_v);
-    ru_json_number(j, "settled_frequency_hz", p->df_frequency_hz);
-    ru_json_end_object(j);
-    ru_json_begin_object(j, "solver");
-    ru_json_int(j, "steps", r->solver.steps);
-    ru_json_int(j, "rhs_evals", r->solver.rhs_evals);
-    ru_json_number(j, "rtol", r->solver.rtol);
-    ru_json_number(j, "wall_s", r->solver.wall_s);
-    ru_json_end_object(j);
-}
-
-void cli_json_notes(ru_json *j, const ru_run_report *r)
-{
-    ru_json_begin_array(j, "notes");
-    for (int i = 0; i < r->nnotes; i++)
-        ru_json_string(j, NULL, r->notes[i]);
-    ru_json_end_array(j);
 }
 
 static void json_wav(ru_json *j, const char *path, const ru_run_report *r)

@@ -2,7 +2,7 @@
  * N values of one part's key, analysed in parallel; one table row (or JSON entry)
  * per value. A value the part refuses (a negative resistance) or a run that fails
  * is reported in its row and does not stop the others. */
-#include "cli.h"
+#include "cli/cli.h"
 
 #include "ringup/batch.h"
 #include "ringup/format.h"

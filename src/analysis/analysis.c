@@ -1,0 +1,331 @@
+/* analysis.c: one start-up analysis end to end (see ringup/analysis.h).
+ *
+ * Order: compile -> operating point -> poles -> loop gain -> choose the sample
+ * spacing -> transient streamed to the CSV writer, the measurement and the energy
+ * balance -> predictions and self-checks. Every stage that cannot run leaves its
+ * figures NAN and a note; only input errors and I/O errors stop the analysis. */
+#include "ringup/analysis.h"
+
+#include "ringup/system.h"
+#include "ringup/wavefile.h"
+#include "analysis/analysis_impl.h"
+
+#include <math.h>
+#include <stdarg.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+void ru_run_request_default(ru_run_request *rq)
+{
+    memset(rq, 0, sizeof *rq);
+    rq->accuracy = -1;
+    rq->tol_scale = 1.0;
+    ru_wav_opts_default(&rq->wav);
+}
+
+/* What the transient sink needs: the probe, the writers and the energy balance. */
+typedef struct run_sink {
+    const ru_system *sys;
+    int probe_pos, probe_neg;
+    ru_csv *csv;            /* NULL when no file is written */
+    ru_measure *meas;
+    ru_energy_balance *energy;
+    ru_wav *wav;            /* NULL when no audio is written */
+    ru_trace *trace;        /* NULL when no picture is wanted */
+} run_sink;
+
+static ru_status sink_sample(void *user, double t_s, const double *x, size_t n)
+{
+    run_sink *k = user;
+    ru_status st = RU_OK;
+    if (k->csv && (st = ru_csv_sample(k->csv, t_s, x, n)) != RU_OK)
+        return st;
+    double v = ru_system_node_voltage(k->sys, k->probe_pos, t_s, x) -
+               ru_system_node_voltage(k->sys, k->probe_neg, t_s, x);
+    if ((st = ru_measure_push(k->meas, t_s, v)) != RU_OK)
+        return st;
+    if (k->wav && (st = ru_wav_push(k->wav, t_s, v)) != RU_OK)
+        return st;
+    if (k->trace && (st = ru_trace_push(k->trace, t_s, v)) != RU_OK)
+        return st;
+    if (k->energy)
+        ru_energy_balance_push(k->energy, t_s, x);
+    return RU_OK;
+}
+
+static ru_status resolve_probe(const ru_circuit *c, const ru_system *sys,
+                               ru_run_report *rep, int *pos, int *neg, ru_error *err)
+{
+    const ru_measure_opts *mo = ru_circuit_measure_opts_const(c);
+    *pos = mo->probe_pos;
+    *neg = mo->probe_neg;
+    if (*pos < 0) { /* no probe named: the first free node */
+        *neg = 0;
+        for (size_t i = 1; i < ru_circuit_node_count(c); i++) {
+            if (ru_system_node_state(sys, (int)i) >= 0) {
+                *pos = (int)i;
+                break;
+            }
+        }
+        if (*pos < 0)
+            return ru_error_set(err, RU_EINPUT, ru_circuit_file(c), 0, 0,
+                                "the circuit has no free node to probe");
+    }
+    if (*neg > 0)
+        snprintf(rep->probe, sizeof rep->probe, "%s-%s", ru_circuit_node_name(c, *pos),
+                 ru_circuit_node_name(c, *neg));
+    else
+        snprintf(rep->probe, sizeof rep->probe, "%s", ru_circuit_node_name(c, *pos));
+    return RU_OK;
+}
+
+/* Sample spacing: the request's, the file's, or 72 samples per predicted period
+ * (at least 64 even if the tone settles 10 % higher), else 20000 over the run. */
+static double choose_sample(const ru_run_request *rq, const ru_run_opts *ro,
+                            const ru_prediction *pr, double stop_s)
+{
+    if (rq->sample_s > 0)
+        return rq->sample_s;
+    if (ro->sample_s > 0)
+        return ro->sample_s;
+    if (pr->have_poles && pr->frequency_hz > 0)
+        return 1.0 / (72.0 * pr->frequency_hz);
+    return stop_s / 20000.0;
+}
+
+/* The WAV sink, planned from the run's spacing, length and predicted tone. */
+static ru_status wav_open(const ru_run_request *rq, const ru_run_report *rep,
+                          ru_wav **out, ru_error *err)
+{
+    ru_wav_opts wo = rq->wav;
+    wo.sample_s = rep->sample_s;
+    wo.stop_s = rep->stop_s;
+    wo.tone_hint_hz = rep->pred.have_poles && rep->pred.frequency_hz > 0
+                          ? rep->pred.frequency_hz
+                          : 0;
+    return ru_wav_create(&wo, out, err);
+}
+
+/* Writes the audio with the measured tone (the predicted one when none was
+ * measured): a pitch maps that tone onto the asked pitch. */
+static ru_status wav_finish(ru_wav *w, const ru_run_request *rq, ru_run_report *rep,
+                            ru_error *err)
+{
+    double tone = rep->meas.frequency_hz;
+    if (!(isfinite(tone) && tone > 0) && rep->pred.have_poles)
+        tone = rep->pred.frequency_hz;
+    ru_status st = ru_wav_finish(w, tone, rq->wav_path, &rep->wav, err);
+    rep->have_wav = st == RU_OK;
+    return st;
+}
+
+/* Size of a preset kick on the probe: the dominant mode's share when the poles
+ * give it, else the largest preset voltage (a start with no small-signal mode, such
+ * as a relaxation oscillation, still begins from that level). */
+static double preset_level(const ru_run_opts *ro, const ru_run_report *rep)
+{
+    if (isfinite(rep->pred.kick_amplitude_v))
+        return rep->pred.kick_amplitude_v;
+    double v = 0;
+    for (int i = 0; i < ro->npreset; i++)
+        v = fmax(v, fabs(ro->preset_v[i]));
+    return v;
+}
+
+static ru_status keep_envelope(ru_run_data *d, const ru_measure *m)
+{
+    const double *t, *a;
+    size_t n;
+    ru_measure_envelope(m, &t, &a, &n);
+    d->env_t_s = malloc((n ? n : 1) * sizeof *t);
+    d->env_v = malloc((n ? n : 1) * sizeof *a);
+    if (!d->env_t_s || !d->env_v)
+        return RU_ENOMEM;
+    memcpy(d->env_t_s, t, n * sizeof *t);
+    memcpy(d->env_v, a, n * sizeof *a);
+    d->nenv = n;
+    return RU_OK;
+}
+
+static ru_status run_transient(const ru_circuit *c, const ru_system *sys,
+                               const ru_run_request *rq, ru_run_report *rep,
+                               int probe_pos, int probe_neg, ru_error *err)
+{
+    const ru_run_opts *ro = ru_circuit_run_opts_const(c);
+    size_t n = ru_system_size(sys);
+    ru_status st = RU_OK;
+    run_sink k = {.sys = sys, .probe_pos = probe_pos, .probe_neg = probe_neg};
+    double *x0 = calloc(n ? n : 1, sizeof *x0);
+    char path[4096];
+    if (!x0)
+        return ru_error_set(err, RU_ENOMEM, NULL, 0, 0, "out of memory");
+    if ((st = ru_system_initial_state(sys, x0, err)) != RU_OK)
+        goto cleanup;
+    ru_transient_opts to;
+    ru_transient_opts_for(rq->accuracy >= 0 ? (ru_accuracy)rq->accuracy : ro->accuracy,
+                          &to);
+    to.stop_s = rep->stop_s;
+    to.sample_s = rep->sample_s;
+    to.rtol *= rq->tol_scale;
+    to.atol_rel *= rq->tol_scale;
+    ru_measure_cfg mc;
+    ru_measure_cfg_default(&mc, rep->stop_s, rep->sample_s);
+    const ru_measure_opts *mo = ru_circuit_measure_opts_const(c);
+    mc.startup_level = mo->startup_level;
+    mc.growth_lo = mo->growth_lo;
+    mc.growth_hi = mo->growth_hi;
+    if (rep->pred.have_poles && rep->pred.frequency_hz > 0)
+        mc.period_hint_s = 1.0 / rep->pred.frequency_hz;
+    /* A preset kick is a small-signal start whose size the modal projection gives;
+     * power-on moves the bias through a large-signal transient, whose projection
+     * says nothing about the envelope's floor, so it sets none. */
+    mc.kick_level_v = ro->kick == RU_KICK_PRESET ? preset_level(ro, rep)
+                      : ro->kick == RU_KICK_NOISE && isfinite(rep->pred.kick_amplitude_v)
+                          ? rep->pred.kick_amplitude_v
+                          : 0;
+    if ((st = ru_measure_create(&mc, &k.meas)) != RU_OK) {
+        ru_error_set(err, st, NULL, 0, 0, "cannot set up the measurement");
+        goto cleanup;
+    }
+    if (ru_energy_balance_create(sys, rep->stop_s, &k.energy) != RU_OK)
+        k.energy = NULL; /* the estimate is optional */
+    if (rq->wav_path && (st = wav_open(rq, rep, &k.wav, err)) != RU_OK)
+        goto cleanup;
+    if (rq->keep) {
+        if ((st = ru_trace_create(rep->stop_s, 0, &rq->keep->trace)) != RU_OK) {
+            ru_error_set(err, st, NULL, 0, 0, "cannot set up the waveform trace");
+            goto cleanup;
+        }
+        k.trace = rq->keep->trace;
+    }
+    if (rq->out_dir) {
+        snprintf(path, sizeof path, "%s/wave.csv", rq->out_dir);
+        if ((st = ru_csv_open(sys, path, &k.csv, err)) != RU_OK)
+            goto cleanup;
+    }
+    st = ru_transient_run(sys, &to, x0, sink_sample, &k, &rep->solver, err);
+    if (st == RU_ENUMERIC)
+        rep->partial = 1;
+    if (k.csv) {
+        ru_error cerr;
+        ru_status cs = ru_csv_close(k.csv, st == RU_OK ? 1 : (st == RU_ENUMERIC ? 2 : 0),
+                                    &cerr);
+        k.csv = NULL;
+        if (st == RU_OK && cs != RU_OK) {
+            if (err)
+                *err = cerr;
+            st = cs;
+        }
+    }
+    if (st == RU_OK || st == RU_ENUMERIC) {
+        ru_measure_finish(k.meas, &rep->meas);
+        if (rq->keep && keep_envelope(rq->keep, k.meas) != RU_OK)
+            st = ru_error_set(err, RU_ENOMEM, NULL, 0, 0, "out of memory");
+        if (k.energy)
+            rep->integrator_damping_per_s = ru_energy_balance_damping(k.energy);
+    }
+    if (st == RU_OK && k.wav)
+        st = wav_finish(k.wav, rq, rep, err);
+cleanup:
+    ru_wav_destroy(k.wav);
+    if (k.csv)
+        ru_csv_close(k.csv, 0, NULL);
+    ru_energy_balance_destroy(k.energy);
+    ru_measure_destroy(k.meas);
+    free(x0);
+    return st;
+}
+
+static int has_noise_source(const ru_circuit *c)
+{
+    for (size_t i = 0; i < ru_circuit_part_count(c); i++) {
+        const ru_part *p = ru_circuit_part(c, i);
+        if (p->type == RU_PART_RESISTOR ||
+            (p->type == RU_PART_INDUCTOR && p->series_ohm > 0))
+            return 1;
+    }
+    return 0;
+}
+
+/* Band of the noise kick: 20x the predicted tone (flat to 0.5 dB up to about
+ * 2.6x the tone, see noise.h), or 20x the highest frequency the samples resolve
+ * when nothing is predicted. */
+static double noise_band(const ru_run_report *rep)
+{
+    if (rep->pred.have_poles && rep->pred.frequency_hz > 0)
+        return 20.0 * rep->pred.frequency_hz;
+    return 20.0 * 0.5 / rep->sample_s;
+}
+
+/* Refuses a sample spacing not shorter than the run (nothing to measure), and
+ * runs that would take hours or fill a disk: more than RU_MAX_SAMPLES
+ * output samples, or more than RU_MAX_CYCLES cycles of the predicted tone (about
+ * 170 solver steps each at normal accuracy). A long study can be split into runs. */
+#define RU_MAX_SAMPLES 5e7
+#define RU_MAX_CYCLES 2e6
+static ru_status check_size(const ru_circuit *c, const ru_run_report *rep, ru_error *err)
+{
+    if (!(rep->sample_s < rep->stop_s))
+        return ru_error_set(err, RU_EINPUT, ru_circuit_file(c), 0, 0,
+                            "the sample spacing (%g s) is not shorter than the run (stop "
+                            "%g s): lengthen the run or shorten the sample spacing",
+                            rep->sample_s, rep->stop_s);
+    double samples = rep->stop_s / rep->sample_s;
+    double cycles = rep->pred.have_poles ? rep->stop_s * rep->pred.frequency_hz : 0;
+    if (samples > RU_MAX_SAMPLES)
+        return ru_error_set(err, RU_EINPUT, ru_circuit_file(c), 0, 0,
+                            "the run would make %.3g output samples (stop %g s at a "
+                            "spacing of %g s), more than %.0e: lengthen the sample "
+                            "spacing or shorten the run",
+                            samples, rep->stop_s, rep->sample_s, RU_MAX_SAMPLES);
+    if (cycles > RU_MAX_CYCLES)
+        return ru_error_set(err, RU_EINPUT, ru_circuit_file(c), 0, 0,
+                            "the run spans %.3g cycles of the %.4g Hz tone, more than "
+                            "%.0e (hours of solver time): shorten the run",
+                            cycles, rep->pred.frequency_hz, RU_MAX_CYCLES);
+    return RU_OK;
+}
+
+ru_status ru_analysis_run(const ru_circuit *c, const ru_run_request *rq,
+                          ru_run_report *rep, ru_error *err)
+{
+    memset(rep, 0, sizeof *rep);
+    rep->integrator_damping_per_s = NAN;
+    rep->growth_mismatch = NAN;
+    ru_system *sys = NULL;
+    ru_status st = ru_system_create(c, &sys, err);
+    if (st != RU_OK)
+        return st;
+    int pos = -1, neg = 0;
+    if ((st = resolve_probe(c, sys, rep, &pos, &neg, err)) != RU_OK)
+        goto done;
+    const ru_run_opts *ro = ru_circuit_run_opts_const(c);
+    rep->stop_s = rq->stop_s > 0 ? rq->stop_s : ro->stop_s;
+    rep->startup_level = ru_circuit_measure_opts_const(c)->startup_level;
+    const char *loop = rq->loop_part ? rq->loop_part : ru_circuit_measure_opts_const(c)->loop;
+    if (rq->keep)
+        ru_run_data_reset(rq->keep);
+    if ((st = ru_predict(c, sys, loop, pos, neg, rep, rq->keep, err)) != RU_OK)
+        goto done;
+    rep->sample_s = choose_sample(rq, ro, &rep->pred, rep->stop_s);
+    if ((st = check_size(c, rep, err)) != RU_OK)
+        goto done;
+    if (ro->kick == RU_KICK_NOISE && !has_noise_source(c)) {
+        st = ru_error_set(err, RU_EINPUT, ru_circuit_file(c), 0, 0,
+                          "kick: noise needs a resistor (or an inductor's series "
+                          "resistance): this circuit has no thermal noise source");
+        goto done;
+    }
+    if (ro->kick == RU_KICK_NOISE &&
+        (st = ru_system_set_noise(sys, ro->seed, noise_band(rep), RU_NOISE_TEMP_C)) != RU_OK) {
+        ru_error_set(err, st, NULL, 0, 0, "cannot set up the noise kick");
+        goto done;
+    }
+    st = run_transient(c, sys, rq, rep, pos, neg, err);
+    if (st == RU_OK || st == RU_ENUMERIC)
+        ru_selfcheck(rep);
+done:
+    ru_system_destroy(sys);
+    return st;
+}

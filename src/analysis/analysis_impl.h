@@ -1,0 +1,49 @@
+/* analysis_impl.h: private pieces of the start-up analysis: the kept data, the
+ * notes, the small-signal prediction and the self-checks that compare prediction
+ * with measurement. */
+#ifndef RU_ANALYSIS_IMPL_H
+#define RU_ANALYSIS_IMPL_H
+
+#include "ringup/analysis.h"
+#include "ringup/system.h"
+#include "measure/energy.h"
+
+
+struct ru_run_data {
+    ru_trace *trace;          /* probe waveform, decimated (NULL before a run) */
+    double *env_t_s, *env_v;  /* copy of the envelope */
+    size_t nenv;
+    ru_pole *poles;           /* every pole */
+    size_t npoles;
+    int dominant;
+    double loop_f_hz[RU_RUN_DATA_LOOP_POINTS], loop_mag[RU_RUN_DATA_LOOP_POINTS],
+        loop_phase_deg[RU_RUN_DATA_LOOP_POINTS];
+    size_t nloop;
+    ru_df_point df[RU_RUN_DATA_DF_MAX];
+    size_t ndf;
+};
+
+/* Temperature of the noise kick's resistors (deg C). */
+#define RU_NOISE_TEMP_C 27.0
+
+/* Empties d for a new run (frees what the last run kept). */
+void ru_run_data_reset(ru_run_data *d);
+
+/* Appends a self-check remark (printf format) to the report; extra ones are dropped. */
+void ru_report_note(ru_run_report *rep, const char *fmt, ...)
+#if defined(__GNUC__)
+    __attribute__((format(printf, 2, 3)))
+#endif
+    ;
+
+/* Operating point, poles, kick size on the probe and loop gain into rep->pred.
+ * Failures of the small-signal engine become notes; RU_EINPUT only for a loop
+ * part that is not an amplifier. */
+ru_status ru_predict(const ru_circuit *c, const ru_system *s, const char *loop_part,
+                     int probe_pos, int probe_neg, ru_run_report *rep, ru_run_data *keep,
+                     ru_error *err);
+
+/* After the transient: start-up prediction and the comparison notes. */
+void ru_selfcheck(ru_run_report *rep);
+
+#endif

@@ -1,0 +1,335 @@
+/* predict.c: the small-signal side of a run and the self-checks.
+ *
+ * Before the transient: operating point, poles, the dominant pair, the size of the
+ * kick as seen by the dominant mode on the probe (modal projection with left and
+ * right eigenvectors), and the loop gain. After it: the predicted start-up time and
+ * the comparison of measured against predicted figures. */
+#include "analysis/analysis_impl.h"
+
+#include "ringup/descfn.h"
+#include "ringup/smallsig.h"
+#include "engines/modes.h"
+
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+/* Amplitude on the probe of the dominant mode excited by dx: 2 |c| |v_probe| with
+ * c = u^H dx / (u^H v) for the right (v) and left (u) eigenvectors of lambda. */
+static double modal_amplitude(const ru_system *s, const double *x_op, const double *dx,
+                              ru_pole dom, int kpos, int kneg)
+{
+    size_t n = ru_system_size(s);
+    double amp = NAN;
+    double *v = malloc(4 * n * sizeof *v);
+    ru_pole lam;
+    if (!v || ru_mode_near(s, x_op, dom, &lam, v, v + n, v + 2 * n, v + 3 * n) != RU_OK)
+        goto done;
+    const double *vre = v, *vim = v + n, *ure = v + 2 * n, *uim = v + 3 * n;
+    double uh_dx_re = 0, uh_dx_im = 0, uh_v_re = 0, uh_v_im = 0;
+    for (size_t i = 0; i < n; i++) {
+        uh_dx_re += ure[i] * dx[i];
+        uh_dx_im += -uim[i] * dx[i];
+        uh_v_re += ure[i] * vre[i] + uim[i] * vim[i]; /* conj(u) * v */
+        uh_v_im += ure[i] * vim[i] - uim[i] * vre[i];
+    }
+    double den = uh_v_re * uh_v_re + uh_v_im * uh_v_im;
+    if (!(den > 0))
+        goto done;
+    double c_abs = hypot(uh_dx_re, uh_dx_im) / sqrt(den);
+    double pr = 0, pi = 0;
+    if (kpos >= 0) {
+        pr += vre[kpos];
+        pi += vim[kpos];
+    }
+    if (kneg >= 0) {
+        pr -= vre[kneg];
+        pi -= vim[kneg];
+    }
+    amp = 2.0 * c_abs * hypot(pr, pi);
+done:
+    free(v);
+    return amp;
+}
+
+/* Phasor of node k in the mode (0 for ground and driven nodes). */
+static void node_phasor(const ru_system *s, const double *vre, const double *vim, int node,
+                        double *re, double *im)
+{
+    int k = ru_system_node_state(s, node);
+    *re = k >= 0 ? vre[k] : 0.0;
+    *im = k >= 0 ? vim[k] : 0.0;
+}
+
+/* The dominant mode's amplitude on the probe when it holds the thermal energy kT
+ * (equipartition: kT/2 for each of its two quadratic degrees of freedom). The mode
+ * scaled to a unit probe amplitude stores on average
+ *   E1 = sum over capacitors C |dv|^2 / 4 + sum over inductors L |i|^2 / 4,
+ * so A = sqrt(kT / E1): sqrt(2kT/C) for a plain LC tank. The noise keeps feeding
+ * the mode while it grows, so this is the order of the start level, not its value. */
+static double noise_amplitude(const ru_system *s, const double *x_op, ru_pole dom,
+                              int pos, int neg)
+{
+    size_t n = ru_system_size(s);
+    const ru_circuit *c = ru_system_circuit(s);
+    double *v = malloc(2 * n * sizeof *v), amp = NAN;
+    ru_pole lam;
+    if (!v || ru_mode_near(s, x_op, dom, &lam, v, v + n, NULL, NULL) != RU_OK)
+        goto done;
+    double pr, pi, qr, qi, e1 = 0;
+    node_phasor(s, v, v + n, pos, &pr, &pi);
+    node_phasor(s, v, v + n, neg, &qr, &qi);
+    double p2 = (pr - qr) * (pr - qr) + (pi - qi) * (pi - qi);
+    for (size_t i = 0; i < ru_circuit_part_count(c); i++) {
+        const ru_part *p = ru_circuit_part(c, i);
+        if (p->type == RU_PART_CAPACITOR) {
+            node_phasor(s, v, v + n, p->node[0], &pr, &pi);
+            node_phasor(s, v, v + n, p->node[1], &qr, &qi);
+            e1 += p->value * ((pr - qr) * (pr - qr) + (pi - qi) * (pi - qi)) / 4;
+        } else if (p->type == RU_PART_INDUCTOR) {
+            int k = ru_system_inductor_state(s, (int)i);
+            e1 += p->value * (v[k] * v[k] + v[n + k] * v[n + k]) / 4;
+        }
+    }
+    for (size_t k = 0; k < ru_system_free_nodes(s); k++)
+        e1 += ru_circuit_stray_f(c) * (v[k] * v[k] + v[n + k] * v[n + k]) / 4;
+    if (p2 > 0 && e1 > 0)
+        amp = sqrt(1.380649e-23 * (RU_NOISE_TEMP_C + 273.15) / (e1 / p2));
+done:
+    free(v);
+    return amp;
+}
+
+static void keep_poles(ru_run_data *keep, const ru_pole *poles, size_t n, int d)
+{
+    if (!keep || !(keep->poles = malloc(n * sizeof *poles)))
+        return;
+    memcpy(keep->poles, poles, n * sizeof *poles);
+    keep->npoles = n;
+    keep->dominant = d;
+}
+
+static void predict_poles(const ru_system *s, const double *x_op, int pos, int neg,
+                          ru_run_report *rep, ru_run_data *keep)
+{
+    size_t n = ru_system_size(s);
+    ru_prediction *pr = &rep->pred;
+    ru_pole *poles = malloc(n * sizeof *poles);
+    double *x0 = malloc(n * sizeof *x0);
+    ru_error e;
+    ru_error_clear(&e);
+    if (!poles || !x0)
+        goto done;
+    if (ru_poles_compute(s, x_op, poles, &e) != RU_OK) {
+        ru_report_note(rep, "poles not computed: %s", e.msg);
+        goto done;
+    }
+    int d = ru_poles_dominant(poles, n);
+    keep_poles(keep, poles, n, d);
+    if (d < 0) {
+        ru_report_note(rep, "no complex pole pair at the operating point: the "
+                            "small-signal model has no oscillation to predict");
+        goto done;
+    }
+    pr->have_poles = 1;
+    pr->dominant = poles[d];
+    pr->growth_rate_per_s = poles[d].re_per_s;
+    pr->frequency_hz = poles[d].im_rad_per_s / (2 * M_PI);
+    if (ru_circuit_run_opts_const(ru_system_circuit(s))->kick == RU_KICK_NOISE) {
+        pr->kick_amplitude_v = noise_amplitude(s, x_op, poles[d], pos, neg);
+    } else if (ru_system_initial_state(s, x0, NULL) == RU_OK) {
+        for (size_t i = 0; i < n; i++)
+            x0[i] -= x_op[i];
+        pr->kick_amplitude_v =
+            modal_amplitude(s, x_op, x0, poles[d], ru_system_node_state(s, pos),
+                            neg > 0 ? ru_system_node_state(s, neg) : -1);
+    }
+done:
+    free(poles);
+    free(x0);
+}
+
+/* Settled amplitude by the describing-function method (ringup/descfn.h). */
+static void predict_amplitude(const ru_system *s, const double *x_op, int pos, int neg,
+                              ru_run_report *rep, ru_run_data *keep)
+{
+    ru_df_result df;
+    size_t npts = 0;
+    ru_error e;
+    ru_error_clear(&e);
+    ru_status st = ru_df_analyse(s, x_op, pos, neg, 0, keep ? keep->df : NULL,
+                                 keep ? RU_RUN_DATA_DF_MAX : 0, &npts, &df, &e);
+    if (keep)
+        keep->ndf = npts;
+    if (st != RU_OK) {
+        ru_report_note(rep, "no amplitude prediction: %s", e.msg);
+        return;
+    }
+    if (!df.found) {
+        ru_report_note(rep, "no amplitude prediction: %s", df.note);
+        return;
+    }
+    rep->pred.settled_amplitude_v = df.settled_amplitude_v;
+    rep->pred.df_frequency_hz = df.frequency_hz;
+}
+
+static ru_status predict_loop(const ru_circuit *c, const ru_system *s, const char *loop,
+                              const double *x_op, ru_run_report *rep, ru_run_data *keep,
+                              ru_error *err)
+{
+    int part = ru_circuit_find_part(c, loop);
+    if (part < 0 || ru_circuit_part(c, (size_t)part)->type != RU_PART_AMPLIFIER)
+        return ru_error_set(err, RU_EINPUT, ru_circuit_file(c), 0, 0,
+                            "loop part %s is not an amplifier of this circuit", loop);
+    ru_prediction *pr = &rep->pred;
+    double f0 = pr->have_poles ? pr->frequency_hz : 0;
+    double fmin = f0 > 0 ? f0 / 30 : 1.0, fmax = f0 > 0 ? f0 * 30 : 1e9;
+    ru_error e;
+    ru_error_clear(&e);
+    snprintf(pr->loop_part, sizeof pr->loop_part, "%s", loop);
+    if (ru_loopgain_sweep(s, part, x_op, fmin, fmax, RU_RUN_DATA_LOOP_POINTS,
+                          keep ? keep->loop_f_hz : NULL, keep ? keep->loop_mag : NULL,
+                          keep ? keep->loop_phase_deg : NULL, &pr->loop, &e) != RU_OK) {
+        ru_report_note(rep, "loop gain of %s not evaluated: %s", loop, e.msg);
+        return RU_OK;
+    }
+    pr->have_loop = 1;
+    if (keep)
+        keep->nloop = RU_RUN_DATA_LOOP_POINTS;
+    return RU_OK;
+}
+
+ru_status ru_predict(const ru_circuit *c, const ru_system *s, const char *loop_part,
+                     int probe_pos, int probe_neg, ru_run_report *rep, ru_run_data *keep,
+                     ru_error *err)
+{
+    ru_prediction *pr = &rep->pred;
+    pr->growth_rate_per_s = pr->frequency_hz = NAN;
+    pr->kick_amplitude_v = pr->startup_time_s = pr->settled_amplitude_v = NAN;
+    pr->df_frequency_hz = NAN;
+    int floating;
+    if (ru_circuit_find_floating_node(c, &floating)) {
+        ru_report_note(rep, "no prediction: node %s has no DC path to ground, so there "
+                            "is no operating point",
+                       ru_circuit_node_name(c, floating));
+        return RU_OK;
+    }
+    size_t n = ru_system_size(s);
+    double *x_op = calloc(n ? n : 1, sizeof *x_op);
+    if (!x_op)
+        return ru_error_set(err, RU_ENOMEM, NULL, 0, 0, "out of memory");
+    ru_error e;
+    ru_error_clear(&e);
+    ru_status st = RU_OK;
+    if (ru_oppoint_solve(s, x_op, 0, &pr->op, &e) != RU_OK) {
+        ru_report_note(rep, "no prediction: operating point not found: %s", e.msg);
+        goto done;
+    }
+    pr->have_op = 1;
+    predict_poles(s, x_op, probe_pos, probe_neg, rep, keep);
+    if (pr->have_poles && pr->growth_rate_per_s > 0)
+        predict_amplitude(s, x_op, probe_pos, probe_neg, rep, keep);
+    if (loop_part && loop_part[0])
+        st = predict_loop(c, s, loop_part, x_op, rep, keep, err);
+done:
+    free(x_op);
+    return st;
+}
+
+/* Start-up time of an envelope that grows as exp(sigma t) at first and levels off
+ * like the averaged van der Pol envelope a^2 = A^2 / (1 + (A^2/a0^2 - 1) e^{-2 sigma t}):
+ * t = ln((A^2/a0^2 - 1) / (1/level^2 - 1)) / (2 sigma). Exact for a cubic limiter
+ * (van der Pol, method of averaging); a model for other laws. */
+static double startup_model(double sigma, double a0, double amp, double level)
+{
+    if (!(sigma > 0) || !(a0 > 0) || !(amp > a0) || !(level > 0 && level < 1))
+        return NAN;
+    double r = amp * amp / (a0 * a0) - 1.0;
+    return log(r / (1.0 / (level * level) - 1.0)) / (2.0 * sigma);
+}
+
+void ru_selfcheck(ru_run_report *rep)
+{
+    if (rep->partial) {
+        ru_report_note(rep, "the run stopped early, so its figures cover only the part "
+                            "that was computed; no comparison with the prediction");
+        return;
+    }
+    const ru_measure_result *m = &rep->meas;
+    ru_prediction *pr = &rep->pred;
+    double amp = isfinite(pr->settled_amplitude_v) ? pr->settled_amplitude_v
+                                                   : m->settled_amplitude_v;
+    if (pr->have_poles && pr->kick_amplitude_v < 0.1 * amp)
+        pr->startup_time_s = startup_model(pr->growth_rate_per_s, pr->kick_amplitude_v,
+                                           amp, rep->startup_level);
+    else if (pr->have_poles && isfinite(amp))
+        ru_report_note(rep, "no start-up prediction: the kick (%.3g V in the dominant "
+                            "mode) is not small against the settled amplitude, so the "
+                            "start is not a small-signal growth",
+                       pr->kick_amplitude_v);
+    if (pr->have_poles && isfinite(m->growth_rate_per_s) && pr->growth_rate_per_s != 0) {
+        rep->growth_mismatch =
+            (m->growth_rate_per_s - pr->growth_rate_per_s) / fabs(pr->growth_rate_per_s);
+        if (fabs(rep->growth_mismatch) > 0.02)
+            ru_report_note(rep,
+                           "measured growth rate differs from the poles' by %+.1f %%: "
+                           "the operating point may still move during start-up (bias "
+                           "settling after power-on, a lamp or thermistor warming), the "
+                           "fit window may reach into the nonlinear region, or the kick "
+                           "is large; try --verify",
+                           100 * rep->growth_mismatch);
+    }
+    if (pr->have_poles && pr->growth_rate_per_s > 0 && !m->started)
+        ru_report_note(rep, "the poles say it grows (%.4g /s) but the run shows no "
+                            "start: run longer (the growth needs about %.3g s per "
+                            "decade)",
+                       pr->growth_rate_per_s, log(10.0) / pr->growth_rate_per_s);
+    if (pr->have_poles && pr->growth_rate_per_s < 0 && m->started)
+        ru_report_note(rep, "the poles are in the left half-plane yet the run started: "
+                            "a large kick can start a hard-excited oscillator");
+    /* the describing function predicts the fundamental: compare like with like */
+    if (isfinite(pr->settled_amplitude_v) && isfinite(m->fundamental_v) &&
+        fabs(m->fundamental_v / pr->settled_amplitude_v - 1) > 0.05)
+        ru_report_note(rep, "measured fundamental differs from the describing-function "
+                            "prediction by %+.1f %%: that method keeps only the "
+                            "fundamental at every node, so harmonics anywhere in the loop "
+                            "(THD on the probe: %.2g %%) make it approximate",
+                       100 * (m->fundamental_v / pr->settled_amplitude_v - 1),
+                       m->thd_percent);
+    if (m->started && m->peak_envelope_v > 1.2 * m->settled_amplitude_v)
+        ru_report_note(rep, "the envelope overshoots to %.3g V, %.2gx the settled "
+                            "amplitude, before it settles (an amplitude control with "
+                            "memory, such as a lamp or thermistor, or a loop that "
+                            "bounces): the settling time, not the start-up time, says "
+                            "when the tone is usable",
+                       m->peak_envelope_v, m->peak_envelope_v / m->settled_amplitude_v);
+    /* the measured tone, else the predicted one (a tone sampled too coarsely may
+     * show no cycle at all, and then "run longer" would be the wrong advice) */
+    int measured_f = isfinite(m->frequency_hz) && m->frequency_hz > 0;
+    double f_hz = measured_f ? m->frequency_hz
+                  : pr->have_poles && pr->frequency_hz > 0 ? pr->frequency_hz
+                                                            : NAN;
+    if (isfinite(f_hz) && f_hz * rep->sample_s > 1.0 / 16)
+        ru_report_note(rep, "only %.1f samples per period of the %s tone: the "
+                            "envelope, THD and even the frequency may be wrong; set "
+                            "--sample to %.3g s or less",
+                       1.0 / (f_hz * rep->sample_s), measured_f ? "measured" : "predicted",
+                       1.0 / (64 * f_hz));
+    if (m->started && !m->settled && m->settle_note[0])
+        ru_report_note(rep, "%s", m->settle_note);
+    /* a figure that cannot be had is null: say why (the measurement's own notes) */
+    if (!m->started && m->growth_note[0])
+        ru_report_note(rep, "%s", m->growth_note);
+    else if (!isfinite(m->growth_rate_per_s) && m->growth_note[0])
+        ru_report_note(rep, "no growth rate: %s", m->growth_note);
+    if (m->started && !isfinite(m->thd_percent) && m->thd_note[0])
+        ru_report_note(rep, "no %sTHD: %s",
+                       isfinite(m->frequency_hz) ? "" : "frequency, fundamental or ",
+                       m->thd_note);
+    double sn = rep->integrator_damping_per_s, sg = m->growth_rate_per_s;
+    if (isfinite(sn) && isfinite(sg) && fabs(sn) > 0.01 * fabs(sg))
+        ru_report_note(rep, "the integrator's own damping (%.3g /s) is %.1f %% of the "
+                            "growth rate: use accuracy precise or --verify",
+                       sn, 100 * fabs(sn / sg));
+}

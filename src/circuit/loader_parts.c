@@ -1,0 +1,772 @@
+/* loader_parts.c: reads the `parts:` section of a circuit file, and presets
+ * (models/NAME.yaml) of amplifiers, diodes and thermal resistors, into ru_part
+ * records.
+ *
+ * Invariants: a part's keys are checked against its type (and wave, law or kind)
+ * before any value is read, so a misplaced key is named, not ignored; amplifier,
+ * diode and thermal-resistor values are layered defaults < preset < the part's own
+ * keys; every part is added through ru_circuit_add_part with line/col at its
+ * name, so the builder's value checks carry the place. Nodes are created in order
+ * of first mention. A preset's `law` is an amplifier law, `diode` or
+ * `thermal-resistor`, and only fits a part of that type. The key tables are the
+ * one list of value keys: ru_ld_part_keys hands them to params.c (PART.KEY). */
+#include "circuit/loader_impl.h"
+
+#include <stddef.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+/* Every key a part may carry under some type, wave or law. */
+static const char *const all_part_keys[] = {
+    "type", "nodes", "value", "tol",   "series", "coeffs", "wave",   "rise", "from",
+    "to",   "at",    "edge",  "width", "period", "offset", "amplitude", "freq", "phase",
+    "in",   "out",   "ref",   "model", "law",    "gain",   "swing",  "center", "rout",
+    "is",   "n",     "beta",  "vsat",  "temp",   "inv",    "itail",  "sign", "gbw",
+    "vmax", "vmin",  "knee",  "slew",  "points", "rs",     "kind",   "r0",   "alpha",
+    "bth",  "t0",    "tamb",  "rth",   "cth",    NULL};
+
+#define MAX_KEYS 20
+
+/* A value key read into a double at a byte offset of a struct (loader_impl.h). */
+typedef ru_ld_keyrec key_rec;
+
+#define P(f) offsetof(ru_part, f)
+static const key_rec rlc_keys[3][4] = {
+    {{"value", "ohm", P(value), 1}, {"tol", "%", P(tol), 0}, {NULL, NULL, 0, 0}},
+    {{"value", "F", P(value), 1}, {"tol", "%", P(tol), 0}, {NULL, NULL, 0, 0}},
+    {{"value", "H", P(value), 1},
+     {"tol", "%", P(tol), 0},
+     {"series", "ohm", P(series_ohm), 0},
+     {NULL, NULL, 0, 0}}};
+static const key_rec no_keys[] = {{NULL, NULL, 0, 0}};
+#undef P
+
+#define W(f) offsetof(ru_wave, f)
+static const key_rec wave_dc[] = {{"value", "sig", W(value), 1},
+                                  {"rise", "s", W(rise_s), 0},
+                                  {NULL, NULL, 0, 0}};
+static const key_rec wave_step[] = {{"from", "sig", W(v0), 0}, {"to", "sig", W(v1), 1},
+                                    {"at", "s", W(at_s), 0},   {"edge", "s", W(edge_s), 0},
+                                    {NULL, NULL, 0, 0}};
+static const key_rec wave_sine[] = {
+    {"offset", "sig", W(offset), 0}, {"amplitude", "sig", W(amplitude), 1},
+    {"freq", "Hz", W(freq_hz), 1},   {"phase", NULL, W(phase_deg), 0},
+    {"at", "s", W(at_s), 0},         {NULL, NULL, 0, 0}};
+static const key_rec wave_pulse[] = {
+    {"from", "sig", W(v0), 0},      {"to", "sig", W(v1), 1},
+    {"at", "s", W(at_s), 0},        {"width", "s", W(width_s), 1},
+    {"period", "s", W(period_s), 0}, {"edge", "s", W(edge_s), 0},
+    {NULL, NULL, 0, 0}};
+#undef W
+static const char *const wave_names[] = {"dc", "step", "sine", "pulse", NULL};
+static const key_rec *const wave_keys[] = {wave_dc, wave_step, wave_sine, wave_pulse};
+
+#define A(f) offsetof(ru_amp, f)
+static const key_rec law_follower[] = {{"gain", NULL, A(gain), 0},
+                                       {"swing", "V", A(swing_v), 0},
+                                       {"center", "V", A(center_v), 0},
+                                       {"rout", "ohm", A(rout_ohm), 0},
+                                       {NULL, NULL, 0, 0}};
+static const key_rec law_exp[] = {{"is", "A", A(is_a), 0},     {"n", NULL, A(n), 0},
+                                  {"beta", NULL, A(beta), 0},  {"vsat", "V", A(vsat_v), 0},
+                                  {"temp", "C", A(temp_c), 0}, {NULL, NULL, 0, 0}};
+static const key_rec law_diff[] = {{"itail", "A", A(itail_a), 0}, {"n", NULL, A(n), 0},
+                                   {"temp", "C", A(temp_c), 0},   {"rout", "ohm", A(rout_ohm), 0},
+                                   {"sign", NULL, A(sign), 0},    {NULL, NULL, 0, 0}};
+static const key_rec law_opamp[] = {{"gain", NULL, A(gain), 0},     {"gbw", "Hz", A(gbw_hz), 0},
+                                    {"vmax", "V", A(vmax_v), 0},    {"vmin", "V", A(vmin_v), 0},
+                                    {"knee", "V", A(knee_v), 0},
+                                    {"slew", "V/s", A(slew_v_per_s), 0},
+                                    {"rout", "ohm", A(rout_ohm), 0}, {NULL, NULL, 0, 0}};
+/* table: `points` is read apart (a list of pairs) */
+static const key_rec law_tab[] = {{"rout", "ohm", A(rout_ohm), 0}, {"points", NULL, 0, 0},
+                                  {NULL, NULL, 0, 0}};
+#undef A
+static const key_rec *const law_keys[RU_LAW_COUNT] = {law_follower, law_exp, law_diff,
+                                                      law_opamp, law_tab};
+
+#define DI(f) offsetof(ru_diode, f)
+static const key_rec diode_keys[] = {{"is", "A", DI(is_a), 0},      {"n", NULL, DI(n), 0},
+                                     {"rs", "ohm", DI(rs_ohm), 0},  {"temp", "C", DI(temp_c), 0},
+                                     {NULL, NULL, 0, 0}};
+#undef DI
+#define TH(f) offsetof(ru_thermal, f)
+static const key_rec lamp_keys[] = {
+    {"r0", "ohm", TH(r0_ohm), 0},       {"alpha", NULL, TH(alpha_per_k), 0},
+    {"t0", "C", TH(t0_c), 0},           {"tamb", "C", TH(tamb_c), 0},
+    {"rth", "K/W", TH(rth_k_per_w), 0}, {"cth", "J/K", TH(cth_j_per_k), 0},
+    {NULL, NULL, 0, 0}};
+static const key_rec ntc_keys[] = {
+    {"r0", "ohm", TH(r0_ohm), 0},       {"bth", "K", TH(beta_k), 0},
+    {"t0", "C", TH(t0_c), 0},           {"tamb", "C", TH(tamb_c), 0},
+    {"rth", "K/W", TH(rth_k_per_w), 0}, {"cth", "J/K", TH(cth_j_per_k), 0},
+    {NULL, NULL, 0, 0}};
+#undef TH
+static const char *const thermal_kinds[] = {"lamp", "ntc", NULL};
+
+/* Preset kinds: the amplifier laws 0..RU_LAW_COUNT-1, then these two. */
+enum { PK_DIODE = RU_LAW_COUNT, PK_THERMAL, PK_COUNT };
+
+static const char *pk_name(int pk)
+{
+    return pk == PK_DIODE ? "diode" : pk == PK_THERMAL ? "thermal-resistor"
+                                                       : ru_law_name((ru_law)pk);
+}
+
+/* The key list of a preset kind (thermal: by its kind). */
+static const key_rec *pk_keys(int pk, ru_thermal_kind tk)
+{
+    if (pk == PK_DIODE)
+        return diode_keys;
+    if (pk == PK_THERMAL)
+        return tk == RU_THERMAL_NTC ? ntc_keys : lamp_keys;
+    return law_keys[pk];
+}
+
+/* The part type a preset kind fits. */
+static ru_part_type pk_type(int pk)
+{
+    return pk == PK_DIODE ? RU_PART_DIODE : pk == PK_THERMAL ? RU_PART_THERMAL
+                                                             : RU_PART_AMPLIFIER;
+}
+
+/* Appends the keys of recs to list (NULL-terminated, at most MAX_KEYS). */
+static void add_keys(const char **list, const key_rec *recs)
+{
+    size_t n = 0;
+    while (list[n])
+        n++;
+    for (size_t i = 0; recs[i].key && n + 1 < MAX_KEYS; i++)
+        list[n++] = recs[i].key;
+    list[n] = NULL;
+}
+
+static int in_list(const char *const *list, const char *s)
+{
+    for (size_t i = 0; list[i]; i++)
+        if (strcmp(list[i], s) == 0)
+            return 1;
+    return 0;
+}
+
+/* Every key of map must be in allowed; a key of another type/wave/law "does not
+ * apply to `what`", anything else is unknown. */
+static ru_status check_keys(ld_doc *d, struct fy_node *map, const char *who,
+                            const char *const *allowed, const char *what, ru_error *err)
+{
+    void *it = NULL;
+    struct fy_node_pair *p;
+    while ((p = fy_node_mapping_iterate(map, &it)) != NULL) {
+        struct fy_node *k = fy_node_pair_key(p);
+        const char *key = ru_ld_key(p);
+        if (!k || fy_node_get_type(k) != FYNT_SCALAR)
+            return ru_ld_fail(d, k, err, "%s: keys must be plain names", who);
+        if (in_list(allowed, key))
+            continue;
+        if (in_list(all_part_keys, key) || strcmp(key, "description") == 0)
+            return ru_ld_fail(d, k, err, "%s: key %s does not apply to %s", who, key,
+                              what);
+        return ru_ld_fail(d, k, err, "%s: unknown key %s", who, key);
+    }
+    return RU_OK;
+}
+
+/* Reads the keys of recs present in map into the struct at base. */
+static ru_status read_keys(ld_doc *d, struct fy_node *map, struct fy_node *place,
+                           const char *who, const key_rec *recs, const char *sig,
+                           void *base, ru_error *err)
+{
+    for (size_t i = 0; recs[i].key; i++) {
+        if (strcmp(recs[i].key, "points") == 0)
+            continue; /* read by read_points */
+        struct fy_node_pair *p = ru_ld_find(map, recs[i].key);
+        if (!p) {
+            if (recs[i].required)
+                return ru_ld_fail(d, place, err, "%s: missing required key %s", who,
+                                  recs[i].key);
+            continue;
+        }
+        const char *unit = recs[i].unit;
+        if (unit && strcmp(unit, "sig") == 0)
+            unit = sig;
+        double *dst = (double *)((char *)base + recs[i].offset);
+        ru_status s = ru_ld_value(d, p, who, unit, err, dst);
+        if (s != RU_OK)
+            return s;
+    }
+    return RU_OK;
+}
+
+/* A node name from a scalar, added to the circuit at its place. */
+static ru_status node_of(ld_ctx *x, struct fy_node *v, struct fy_node *place,
+                         const char *who, const char *key, int *node)
+{
+    if (!v || fy_node_get_type(v) != FYNT_SCALAR)
+        return ru_ld_fail(x->d, v ? v : place, x->err, "%s: key %s needs a node name", who,
+                          key);
+    const char *name = fy_node_get_scalar0(v);
+    if (!name || !ru_ld_valid_name(name))
+        return ru_ld_fail(x->d, v, x->err,
+                          "%s: key %s: '%s' is not a node name (letters, digits, _ and ., "
+                          "up to %d characters)",
+                          who, key, name ? name : "", RU_NAME_MAX - 1);
+    int line, col;
+    ru_ld_place(x->d, v, &line, &col);
+    *node = ru_circuit_node(x->c, name, line, col);
+    if (*node < 0)
+        return ru_error_set(x->err, RU_ENOMEM, x->d->file, line, col,
+                            "%s: out of memory adding node %s", who, name);
+    return RU_OK;
+}
+
+/* nodes: [a, b] of a two-terminal part. */
+static ru_status read_nodes(ld_ctx *x, struct fy_node *map, struct fy_node *place,
+                            const char *who, ru_part *part)
+{
+    struct fy_node_pair *p = ru_ld_find(map, "nodes");
+    if (!p)
+        return ru_ld_fail(x->d, place, x->err, "%s: missing required key nodes", who);
+    struct fy_node *v = ru_ld_val(p);
+    if (!v || fy_node_get_type(v) != FYNT_SEQUENCE)
+        return ru_ld_fail(x->d, v ? v : fy_node_pair_key(p), x->err,
+                          "%s: key nodes needs a list of 2 nodes, e.g. [a, gnd]", who);
+    int n = fy_node_sequence_item_count(v);
+    if (n != 2)
+        return ru_ld_fail(x->d, v, x->err, "%s: key nodes needs 2 nodes, got %d", who, n);
+    ru_status s = RU_OK;
+    for (int i = 0; i < 2 && s == RU_OK; i++)
+        s = node_of(x, fy_node_sequence_get_by_index(v, i), v, who, "nodes",
+                    &part->node[i]);
+    return s;
+}
+
+static ru_status read_rlc(ld_ctx *x, struct fy_node *map, struct fy_node *place,
+                          const char *who, ru_part *part)
+{
+    const key_rec *keys = rlc_keys[part->type];
+    const char *allowed[MAX_KEYS] = {"type", "nodes", NULL};
+    add_keys(allowed, keys);
+    char what[48];
+    snprintf(what, sizeof what, "type %s", ru_part_type_name(part->type));
+    ru_status s = check_keys(x->d, map, who, allowed, what, x->err);
+    if (s == RU_OK)
+        s = read_nodes(x, map, place, who, part);
+    if (s == RU_OK) /* value (required), tol (% or fraction), series (inductor) */
+        s = read_keys(x->d, map, place, who, keys, NULL, part, x->err);
+    return s;
+}
+
+static ru_status read_poly(ld_ctx *x, struct fy_node *map, struct fy_node *place,
+                           const char *who, ru_part *part)
+{
+    static const char *const allowed[] = {"type", "nodes", "coeffs", NULL};
+    ru_status s = check_keys(x->d, map, who, allowed, "type poly-conductance", x->err);
+    if (s == RU_OK)
+        s = read_nodes(x, map, place, who, part);
+    if (s != RU_OK)
+        return s;
+    struct fy_node_pair *p = ru_ld_find(map, "coeffs");
+    if (!p)
+        return ru_ld_fail(x->d, place, x->err, "%s: missing required key coeffs", who);
+    struct fy_node *v = ru_ld_val(p);
+    int n = v && fy_node_get_type(v) == FYNT_SEQUENCE ? fy_node_sequence_item_count(v) : 0;
+    if (n < 1 || n > RU_POLY_MAX)
+        return ru_ld_fail(x->d, v ? v : fy_node_pair_key(p), x->err,
+                          "%s: key coeffs needs a list of 1 to %d numbers (c0 first)", who,
+                          RU_POLY_MAX);
+    for (int i = 0; i < n; i++) {
+        struct fy_node *item = fy_node_sequence_get_by_index(v, i);
+        const char *text = fy_node_get_type(item) == FYNT_SCALAR
+                               ? fy_node_get_scalar0(item) : NULL;
+        char why[160];
+        if (!text || ru_value_parse(text, NULL, &part->coeffs[i], why, sizeof why) != RU_OK)
+            return ru_ld_fail(x->d, item, x->err, "%s: key coeffs, item %d: %s", who, i + 1,
+                              text ? why : "needs a number");
+    }
+    part->ncoeffs = n;
+    return RU_OK;
+}
+
+/* supply or current: wave kind, its keys, nodes. */
+static ru_status read_source(ld_ctx *x, struct fy_node *map, struct fy_node *place,
+                             const char *who, ru_part *part)
+{
+    int kind = RU_WAVE_DC;
+    struct fy_node_pair *p = ru_ld_find(map, "wave");
+    const char *text = "dc";
+    ru_status s = p ? ru_ld_scalar(x->d, p, who, x->err, &text) : RU_OK;
+    if (s != RU_OK)
+        return s;
+    for (kind = 0; wave_names[kind] && strcmp(wave_names[kind], text) != 0; kind++)
+        ;
+    if (!wave_names[kind])
+        return ru_ld_fail(x->d, ru_ld_val(p), x->err,
+                          "%s: key wave: '%s' is not one of dc, step, sine, pulse", who,
+                          text);
+    const char *allowed[MAX_KEYS] = {"type", "nodes", "wave", NULL};
+    add_keys(allowed, wave_keys[kind]);
+    char what[32];
+    snprintf(what, sizeof what, "wave %s", wave_names[kind]);
+    s = check_keys(x->d, map, who, allowed, what, x->err);
+    if (s == RU_OK)
+        s = read_nodes(x, map, place, who, part);
+    part->wave.kind = (ru_wave_kind)kind;
+    const char *sig = part->type == RU_PART_SUPPLY ? "V" : "A";
+    if (s == RU_OK)
+        s = read_keys(x->d, map, place, who, wave_keys[kind], sig, &part->wave, x->err);
+    return s;
+}
+
+/* One of the preset kinds for the scalar value of p; amplifier laws only when
+ * amp_only is set (a part's `law:` key). */
+static ru_status read_kind(ld_doc *d, struct fy_node_pair *p, const char *who,
+                          int amp_only, ru_error *err, int *pk)
+{
+    const char *text;
+    ru_status s = ru_ld_scalar(d, p, who, err, &text);
+    if (s != RU_OK)
+        return s;
+    int n = amp_only ? RU_LAW_COUNT : PK_COUNT;
+    for (int i = 0; i < n; i++)
+        if (strcmp(text, pk_name(i)) == 0) {
+            *pk = i;
+            return RU_OK;
+        }
+    return ru_ld_fail(d, ru_ld_val(p), err,
+                      "%s: key law: '%s' is not one of follower-tanh, exp-stage, "
+                      "diff-pair-tanh, opamp, table%s",
+                      who, text, amp_only ? "" : ", diode, thermal-resistor");
+}
+
+/* points: [[vin, vout], ...] (2..RU_TABLE_MAX pairs, vin strictly increasing). */
+static ru_status read_points(ld_doc *d, struct fy_node *map, struct fy_node *place,
+                             const char *who, int required, ru_amp *amp, ru_error *err)
+{
+    struct fy_node_pair *p = ru_ld_find(map, "points");
+    if (!p)
+        return required ? ru_ld_fail(d, place, err, "%s: missing required key points",
+                                     who)
+                        : RU_OK;
+    struct fy_node *v = ru_ld_val(p);
+    int n = v && fy_node_get_type(v) == FYNT_SEQUENCE ? fy_node_sequence_item_count(v) : 0;
+    if (n < 2 || n > RU_TABLE_MAX)
+        return ru_ld_fail(d, v ? v : fy_node_pair_key(p), err,
+                          "%s: key points needs a list of 2 to %d pairs [vin, vout]", who,
+                          RU_TABLE_MAX);
+    for (int i = 0; i < n; i++) {
+        struct fy_node *item = fy_node_sequence_get_by_index(v, i);
+        if (fy_node_get_type(item) != FYNT_SEQUENCE || fy_node_sequence_item_count(item) != 2)
+            return ru_ld_fail(d, item, err, "%s: key points, item %d: needs a pair [vin, vout]",
+                              who, i + 1);
+        double xy[2];
+        for (int k = 0; k < 2; k++) {
+            struct fy_node *e = fy_node_sequence_get_by_index(item, k);
+            const char *text = fy_node_get_type(e) == FYNT_SCALAR ? fy_node_get_scalar0(e)
+                                                                  : NULL;
+            char why[160];
+            if (!text || ru_value_parse(text, "V", &xy[k], why, sizeof why) != RU_OK)
+                return ru_ld_fail(d, e, err, "%s: key points, item %d: %s", who, i + 1,
+                                  text ? why : "needs a voltage");
+        }
+        if (i > 0 && !(xy[0] > amp->pt_vin[i - 1]))
+            return ru_ld_fail(d, item, err,
+                              "%s: key points, item %d: vin %g does not increase (after %g)",
+                              who, i + 1, xy[0], amp->pt_vin[i - 1]);
+        amp->pt_vin[i] = xy[0];
+        amp->pt_vout[i] = xy[1];
+    }
+    amp->npoints = n;
+    return RU_OK;
+}
+
+/* The thermal kind (lamp | ntc) of pair p. */
+static ru_status read_thermal_kind(ld_doc *d, struct fy_node_pair *p, const char *who,
+                                   ru_error *err, ru_thermal_kind *kind)
+{
+    const char *text;
+    ru_status s = ru_ld_scalar(d, p, who, err, &text);
+    for (int i = 0; s == RU_OK && thermal_kinds[i]; i++)
+        if (strcmp(text, thermal_kinds[i]) == 0) {
+            *kind = (ru_thermal_kind)i;
+            return RU_OK;
+        }
+    return s != RU_OK ? s : ru_ld_fail(d, ru_ld_val(p), err,
+                                       "%s: key kind: '%s' is not one of lamp, ntc", who,
+                                       text);
+}
+
+/* Base of the struct a preset kind's values go to. */
+static void *pk_base(ru_part *part, int pk)
+{
+    return pk == PK_DIODE ? (void *)&part->diode
+           : pk == PK_THERMAL ? (void *)&part->thermal : (void *)&part->amp;
+}
+
+/* The defaults of preset kind pk into part (thermal: of kind tk). */
+static void pk_defaults(ru_part *part, int pk, ru_thermal_kind tk)
+{
+    if (pk == PK_DIODE)
+        ru_diode_defaults(&part->diode);
+    else if (pk == PK_THERMAL)
+        ru_thermal_defaults(&part->thermal, tk);
+    else
+        ru_amp_defaults(&part->amp, (ru_law)pk);
+}
+
+/* The parameter list of a preset for ru_models_list: every key of its kind with
+ * the value in force (the preset's or the default). */
+static void fill_info(const ru_part *part, int pk, const char *desc, ru_model_info *info)
+{
+    ru_thermal_kind tk = part->thermal.kind;
+    snprintf(info->law, sizeof info->law, "%s", pk_name(pk));
+    snprintf(info->kind, sizeof info->kind, "%s", pk == PK_THERMAL ? thermal_kinds[tk] : "");
+    snprintf(info->description, sizeof info->description, "%s", desc);
+    const key_rec *recs = pk_keys(pk, tk);
+    const char *base = pk_base((ru_part *)part, pk);
+    info->nparams = 0;
+    for (size_t i = 0; recs[i].key && info->nparams < RU_MODEL_PARAMS_MAX; i++) {
+        ru_model_param *mp = &info->params[info->nparams++];
+        snprintf(mp->name, sizeof mp->name, "%s", recs[i].key);
+        int pts = strcmp(recs[i].key, "points") == 0;
+        mp->value = pts ? (double)part->amp.npoints
+                        : *(const double *)(base + recs[i].offset);
+        snprintf(mp->unit, sizeof mp->unit, "%s", pts ? "points"
+                                                      : recs[i].unit ? recs[i].unit : "");
+    }
+}
+
+ru_status ru_ld_preset_values(ld_doc *pd, const char *who, ru_part *part, int *kind,
+                              ru_model_info *info, ru_error *err)
+{
+    struct fy_node_pair *p = ru_ld_find(pd->root, "law");
+    if (!p)
+        return ru_ld_fail(pd, pd->root, err, "%s: missing required key law", who);
+    int pk;
+    ru_status s = read_kind(pd, p, who, 0, err, &pk);
+    if (s != RU_OK)
+        return s;
+    *kind = pk;
+    ru_thermal_kind tk = RU_THERMAL_LAMP;
+    struct fy_node_pair *pkind = ru_ld_find(pd->root, "kind");
+    if (pk == PK_THERMAL && pkind)
+        s = read_thermal_kind(pd, pkind, who, err, &tk);
+    const char *allowed[MAX_KEYS] = {"law", "description", pk == PK_THERMAL ? "kind" : NULL,
+                                     NULL};
+    add_keys(allowed, pk_keys(pk, tk));
+    char what[48];
+    snprintf(what, sizeof what, pk < RU_LAW_COUNT ? "law %s" : "a %s preset", pk_name(pk));
+    if (s == RU_OK)
+        s = check_keys(pd, pd->root, who, allowed, what, err);
+    const char *desc = "";
+    if (s == RU_OK && (p = ru_ld_find(pd->root, "description")) != NULL)
+        s = ru_ld_scalar(pd, p, who, err, &desc);
+    pk_defaults(part, pk, tk);
+    if (s == RU_OK)
+        s = read_keys(pd, pd->root, pd->root, who, pk_keys(pk, tk), NULL, pk_base(part, pk),
+                      err);
+    if (s == RU_OK && pk == RU_LAW_TABLE)
+        s = read_points(pd, pd->root, pd->root, who, 1, &part->amp, err);
+    if (s == RU_OK && info)
+        fill_info(part, pk, desc, info);
+    return s;
+}
+
+int ru_ld_valid_preset_name(const char *name)
+{
+    int ok = name[0] && name[0] != '.' && strlen(name) < RU_NAME_MAX;
+    for (const char *q = name; ok && *q; q++)
+        ok = ru_ld_valid_name((char[]){*q, '\0'}) || *q == '-';
+    return ok;
+}
+
+/* The model name into the part's sub-struct of its type. */
+static void set_model_name(ru_part *part, const char *name)
+{
+    char *dst = part->type == RU_PART_DIODE     ? part->diode.model
+                : part->type == RU_PART_THERMAL ? part->thermal.model
+                                                : part->amp.model;
+    snprintf(dst, RU_NAME_MAX, "%s", name);
+}
+
+ru_status ru_ld_preset_into(const char *models_dir, const char *name, ru_part *part,
+                            int *missing, char *why, size_t whylen, ru_error *err)
+{
+    char path[RU_ERROR_FILE];
+    snprintf(path, sizeof path, "%s/%s.yaml", models_dir, name);
+    char *text = NULL;
+    size_t len = 0;
+    ru_error io;
+    *missing = 0;
+    ru_status s = ru_ld_read_file(path, &text, &len, &io);
+    if (s == RU_EIO) {
+        *missing = 1;
+        snprintf(why, whylen, "%s: %s", path, io.msg);
+        return s;
+    }
+    if (s != RU_OK)
+        return ru_error_set(err, s, path, 0, 0, "%s", io.msg);
+    ld_doc pd;
+    memset(&pd, 0, sizeof pd);
+    s = ru_ld_open(&pd, text, len, path, err);
+    char who[RU_NAME_MAX * 2 + 40];
+    snprintf(who, sizeof who, "preset %s (used by part %s)", name, part->name);
+    ru_part tmp = *part;
+    int pk = 0;
+    if (s == RU_OK)
+        s = ru_ld_preset_values(&pd, who, &tmp, &pk, NULL, err);
+    if (s == RU_OK && pk_type(pk) != part->type) {
+        *missing = 2; /* a preset for another part type */
+        snprintf(why, whylen, "preset %s (law %s) does not fit a part of type %s",
+                 name, pk_name(pk), ru_part_type_name(part->type));
+        s = RU_EINPUT;
+    }
+    if (s == RU_OK) {
+        *part = tmp;
+        set_model_name(part, name);
+    }
+    ru_ld_close(&pd);
+    free(text);
+    return s;
+}
+
+/* model: NAME on part `who`: loads the preset, or says why it cannot. */
+static ru_status read_model(ld_ctx *x, struct fy_node_pair *p, const char *who,
+                            ru_part *part)
+{
+    const char *name;
+    ru_status s = ru_ld_scalar(x->d, p, who, x->err, &name);
+    if (s != RU_OK)
+        return s;
+    struct fy_node *v = ru_ld_val(p);
+    if (!ru_ld_valid_preset_name(name))
+        return ru_ld_fail(x->d, v, x->err,
+                          "%s: key model: '%s' is not a preset name (letters, digits, -, "
+                          "_ and .)",
+                          who, name);
+    int missing;
+    char why[RU_ERROR_TEXT];
+    s = ru_ld_preset_into(x->models_dir, name, part, &missing, why, sizeof why, x->err);
+    if (missing == 1)
+        return ru_ld_fail(x->d, v, x->err, "%s: key model: no preset %s (%s)", who, name, why);
+    if (missing == 2)
+        return ru_ld_fail(x->d, v, x->err, "%s: key model: %s", who, why);
+    return s;
+}
+
+/* in, out, ref (default gnd) and inv (default: ref) of an amplifier. */
+static ru_status read_amp_nodes(ld_ctx *x, struct fy_node *map, struct fy_node *place,
+                                const char *who, ru_part *part)
+{
+    static const char *const keys[] = {"in", "out", "ref", "inv"};
+    part->node[2] = 0;
+    part->node[3] = -1;
+    for (int i = 0; i < 4; i++) {
+        struct fy_node_pair *p = ru_ld_find(map, keys[i]);
+        if (!p && i < 2)
+            return ru_ld_fail(x->d, place, x->err, "%s: missing required key %s", who,
+                              keys[i]);
+        ru_status s = p ? node_of(x, ru_ld_val(p), fy_node_pair_key(p), who, keys[i],
+                                  &part->node[i])
+                        : RU_OK;
+        if (s != RU_OK)
+            return s;
+    }
+    return RU_OK;
+}
+
+/* Exactly one of model and law on an amplifier. */
+static ru_status model_or_law(ld_ctx *x, struct fy_node_pair *pm, struct fy_node_pair *pl,
+                              struct fy_node *place, const char *who)
+{
+    if (pm && pl) {
+        int l1, c1, l2, c2; /* point at whichever of the two comes second */
+        ru_ld_place(x->d, fy_node_pair_key(pm), &l1, &c1);
+        ru_ld_place(x->d, fy_node_pair_key(pl), &l2, &c2);
+        int law_later = l2 > l1 || (l2 == l1 && c2 > c1);
+        return ru_ld_fail(x->d, fy_node_pair_key(law_later ? pl : pm), x->err,
+                          "%s: give either model or law, not both", who);
+    }
+    if (!pm && !pl)
+        return ru_ld_fail(x->d, place, x->err,
+                          "%s: missing required key model or law (an amplifier needs one)",
+                          who);
+    return RU_OK;
+}
+
+static ru_status read_amp(ld_ctx *x, struct fy_node *map, struct fy_node *place,
+                          const char *who, ru_part *part)
+{
+    struct fy_node_pair *pm = ru_ld_find(map, "model"), *pl = ru_ld_find(map, "law");
+    ru_status s = model_or_law(x, pm, pl, place, who);
+    int pk = RU_LAW_FOLLOWER_TANH;
+    if (s == RU_OK && pl)
+        s = read_kind(x->d, pl, who, 1, x->err, &pk);
+    if (s == RU_OK && pl)
+        ru_amp_defaults(&part->amp, (ru_law)pk);
+    if (s == RU_OK && pm)
+        s = read_model(x, pm, who, part);
+    if (s != RU_OK)
+        return s;
+    ru_law law = part->amp.law;
+    const char *allowed[MAX_KEYS] = {"type", "in", "out", "ref", "inv", "model", "law", NULL};
+    add_keys(allowed, law_keys[law]);
+    char what[32];
+    snprintf(what, sizeof what, "law %s", ru_law_name(law));
+    s = check_keys(x->d, map, who, allowed, what, x->err);
+    if (s == RU_OK)
+        s = read_amp_nodes(x, map, place, who, part);
+    if (s == RU_OK)
+        s = read_keys(x->d, map, place, who, law_keys[law], NULL, &part->amp, x->err);
+    if (s == RU_OK && law == RU_LAW_TABLE)
+        s = read_points(x->d, map, place, who, part->amp.npoints < 2, &part->amp, x->err);
+    return s;
+}
+
+static ru_status read_diode(ld_ctx *x, struct fy_node *map, struct fy_node *place,
+                            const char *who, ru_part *part)
+{
+    struct fy_node_pair *pm = ru_ld_find(map, "model");
+    ru_status s = pm ? read_model(x, pm, who, part) : RU_OK;
+    const char *allowed[MAX_KEYS] = {"type", "nodes", "model", NULL};
+    add_keys(allowed, diode_keys);
+    if (s == RU_OK)
+        s = check_keys(x->d, map, who, allowed, "type diode", x->err);
+    if (s == RU_OK)
+        s = read_nodes(x, map, place, who, part);
+    if (s == RU_OK)
+        s = read_keys(x->d, map, place, who, diode_keys, NULL, &part->diode, x->err);
+    return s;
+}
+
+static ru_status read_thermal(ld_ctx *x, struct fy_node *map, struct fy_node *place,
+                              const char *who, ru_part *part)
+{
+    struct fy_node_pair *pm = ru_ld_find(map, "model"), *pk = ru_ld_find(map, "kind");
+    ru_status s = pm ? read_model(x, pm, who, part) : RU_OK;
+    ru_thermal_kind kind = part->thermal.kind;
+    if (s == RU_OK && pk)
+        s = read_thermal_kind(x->d, pk, who, x->err, &kind);
+    if (s != RU_OK)
+        return s;
+    if (!pm) /* the kind's defaults; with a preset its values stay */
+        ru_thermal_defaults(&part->thermal, kind);
+    part->thermal.kind = kind;
+    const key_rec *keys = kind == RU_THERMAL_NTC ? ntc_keys : lamp_keys;
+    const char *allowed[MAX_KEYS] = {"type", "nodes", "model", "kind", NULL};
+    add_keys(allowed, keys);
+    s = check_keys(x->d, map, who, allowed,
+                   kind == RU_THERMAL_NTC ? "kind ntc" : "kind lamp", x->err);
+    if (s == RU_OK)
+        s = read_nodes(x, map, place, who, part);
+    if (s == RU_OK)
+        s = read_keys(x->d, map, place, who, keys, NULL, &part->thermal, x->err);
+    return s;
+}
+
+/* The part type named by key `type`. */
+static ru_status read_type(ld_ctx *x, struct fy_node *map, struct fy_node *place,
+                           const char *who, ru_part_type *type)
+{
+    struct fy_node_pair *p = ru_ld_find(map, "type");
+    if (!p)
+        return ru_ld_fail(x->d, place, x->err, "%s: missing required key type", who);
+    const char *text;
+    ru_status s = ru_ld_scalar(x->d, p, who, x->err, &text);
+    if (s != RU_OK)
+        return s;
+    for (int t = 0; t < RU_PART_TYPE_COUNT; t++)
+        if (strcmp(text, ru_part_type_name((ru_part_type)t)) == 0) {
+            *type = (ru_part_type)t;
+            return RU_OK;
+        }
+    return ru_ld_fail(x->d, ru_ld_val(p), x->err,
+                      "%s: unknown type '%s' (resistor, capacitor, inductor, supply, "
+                      "current, poly-conductance, amplifier, diode or thermal-resistor)",
+                      who, text);
+}
+
+static ru_status read_part(ld_ctx *x, struct fy_node_pair *pair)
+{
+    struct fy_node *key = fy_node_pair_key(pair), *map = ru_ld_val(pair);
+    const char *name = ru_ld_key(pair);
+    if (!ru_ld_valid_name(name))
+        return ru_ld_fail(x->d, key, x->err,
+                          "part name '%s' is not valid (letters, digits, _ and ., up to %d "
+                          "characters)",
+                          name, RU_NAME_MAX - 1);
+    char who[RU_NAME_MAX + 8];
+    snprintf(who, sizeof who, "part %s", name);
+    if (!map || fy_node_get_type(map) != FYNT_MAPPING)
+        return ru_ld_fail(x->d, map ? map : key, x->err,
+                          "%s needs a mapping such as {type: resistor, nodes: [a, b], "
+                          "value: 1k}",
+                          who);
+    ru_part part;
+    ru_part_type type = RU_PART_RESISTOR;
+    ru_status s = read_type(x, map, key, who, &type);
+    if (s != RU_OK)
+        return s;
+    ru_part_init(&part, type, name);
+    ru_ld_place(x->d, key, &part.line, &part.col);
+    if (type <= RU_PART_INDUCTOR)
+        s = read_rlc(x, map, key, who, &part);
+    else if (type == RU_PART_SUPPLY || type == RU_PART_CURRENT)
+        s = read_source(x, map, key, who, &part);
+    else if (type == RU_PART_POLY)
+        s = read_poly(x, map, key, who, &part);
+    else if (type == RU_PART_DIODE)
+        s = read_diode(x, map, key, who, &part);
+    else if (type == RU_PART_THERMAL)
+        s = read_thermal(x, map, key, who, &part);
+    else
+        s = read_amp(x, map, key, who, &part);
+    if (s == RU_OK)
+        s = ru_circuit_add_part(x->c, &part, x->err);
+    return s;
+}
+
+ru_status ru_ld_parts(ld_ctx *x, struct fy_node_pair *parts)
+{
+    struct fy_node *map = ru_ld_val(parts);
+    if (!map || fy_node_get_type(map) != FYNT_MAPPING || fy_node_mapping_item_count(map) < 1)
+        return ru_ld_fail(x->d, map ? map : fy_node_pair_key(parts), x->err,
+                          "key parts needs a mapping of part names to parts");
+    void *it = NULL;
+    struct fy_node_pair *p;
+    ru_status s = RU_OK;
+    while (s == RU_OK && (p = fy_node_mapping_iterate(map, &it)) != NULL) {
+        if (!fy_node_pair_key(p) || fy_node_get_type(fy_node_pair_key(p)) != FYNT_SCALAR)
+            s = ru_ld_fail(x->d, fy_node_pair_key(p), x->err, "part names must be plain names");
+        else
+            s = read_part(x, p);
+    }
+    return s;
+}
+
+const ru_ld_keyrec *ru_ld_part_keys(const ru_part *p, size_t *base_offset, const char **sig)
+{
+    *sig = p->type == RU_PART_SUPPLY ? "V" : "A";
+    *base_offset = 0;
+    switch (p->type) {
+    case RU_PART_RESISTOR:
+    case RU_PART_CAPACITOR:
+    case RU_PART_INDUCTOR:
+        return rlc_keys[p->type];
+    case RU_PART_SUPPLY:
+    case RU_PART_CURRENT:
+        *base_offset = offsetof(ru_part, wave);
+        return (unsigned)p->wave.kind < 4 ? wave_keys[p->wave.kind] : no_keys;
+    case RU_PART_AMPLIFIER:
+        *base_offset = offsetof(ru_part, amp);
+        return (unsigned)p->amp.law < RU_LAW_COUNT ? law_keys[p->amp.law] : no_keys;
+    case RU_PART_DIODE:
+        *base_offset = offsetof(ru_part, diode);
+        return diode_keys;
+    case RU_PART_THERMAL:
+        *base_offset = offsetof(ru_part, thermal);
+        return p->thermal.kind == RU_THERMAL_NTC ? ntc_keys : lamp_keys;
+    default:
+        return no_keys;
+    }
+}

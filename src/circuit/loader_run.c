@@ -1,0 +1,296 @@
+/* loader_run.c: the `run:` and `measure:` sections of a circuit file (see README
+ * "Circuit file"). Both are read after the parts, so every node and part they
+ * name is checked against the circuit; each error carries the place of the
+ * offending key or value. */
+#include "circuit/loader_impl.h"
+
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+/* One of names (NULL-terminated) for the scalar value of p, as an index. */
+static ru_status pick(ld_doc *d, struct fy_node_pair *p, const char *who,
+                      const char *const *names, const char *choices, ru_error *err,
+                      int *index)
+{
+    const char *text;
+    ru_status s = ru_ld_scalar(d, p, who, err, &text);
+    if (s != RU_OK)
+        return s;
+    for (int i = 0; names[i]; i++)
+        if (strcmp(text, names[i]) == 0) {
+            *index = i;
+            return RU_OK;
+        }
+    return ru_ld_fail(d, ru_ld_val(p), err, "%s%skey %s: '%s' is not one of %s",
+                      who, ru_ld_sep(who), ru_ld_key(p), text, choices);
+}
+
+/* The supply that holds node k (through a chain of supplies from ground), or NULL
+ * when the node is free: the same rule the system applies, so a preset on a held
+ * node is refused here, at the preset's own place. */
+static const ru_part *holding_supply(const ru_circuit *c, int k)
+{
+    size_t np = ru_circuit_part_count(c), nn = ru_circuit_node_count(c);
+    const ru_part **by = calloc(nn ? nn : 1, sizeof *by);
+    if (!by)
+        return NULL;
+    for (int progress = 1; progress;) {
+        progress = 0;
+        for (size_t i = 0; i < np; i++) {
+            const ru_part *p = ru_circuit_part(c, i);
+            if (p->type != RU_PART_SUPPLY)
+                continue;
+            int a = p->node[0], b = p->node[1];
+            int fa = a == 0 || by[a], fb = b == 0 || by[b];
+            if (fa != fb) {
+                by[fa ? b : a] = p;
+                progress = 1;
+            }
+        }
+    }
+    const ru_part *p = by[k];
+    free(by);
+    return p;
+}
+
+/* kick: {preset: {node: voltage, ...}} */
+static ru_status read_preset_kick(ld_doc *d, ru_circuit *c, struct fy_node *kmap,
+                                  ru_error *err)
+{
+    static const char *const keys[] = {"preset", NULL};
+    struct fy_node *nodes;
+    ru_status s = ru_ld_only_keys(d, kmap, "run: kick", keys, err);
+    struct fy_node_pair *pp = ru_ld_find(kmap, "preset");
+    if (s == RU_OK && !pp)
+        s = ru_ld_fail(d, kmap, err, "run: kick needs power-on, noise or {preset: {...}}");
+    if (s == RU_OK)
+        s = ru_ld_need_mapping(d, pp, "run: kick", err, &nodes);
+    if (s != RU_OK)
+        return s;
+    ru_run_opts *run = ru_circuit_run_opts(c);
+    run->npreset = 0;
+    void *it = NULL;
+    struct fy_node_pair *p;
+    while ((p = fy_node_mapping_iterate(nodes, &it)) != NULL) {
+        const char *name = ru_ld_key(p);
+        int k = ru_circuit_find_node(c, name);
+        if (k < 0)
+            return ru_ld_fail(d, fy_node_pair_key(p), err,
+                              "run: kick preset: node %s does not exist", name);
+        if (k == 0)
+            return ru_ld_fail(d, fy_node_pair_key(p), err,
+                              "run: kick preset: ground cannot be preset");
+        const ru_part *held = holding_supply(c, k);
+        if (held)
+            return ru_ld_fail(d, fy_node_pair_key(p), err,
+                              "run: kick preset: node %s is held by supply %s; only free "
+                              "nodes can be preset",
+                              name, held->name);
+        if (run->npreset == RU_PRESET_MAX)
+            return ru_ld_fail(d, fy_node_pair_key(p), err,
+                              "run: kick preset: at most %d nodes", RU_PRESET_MAX);
+        double v;
+        s = ru_ld_value(d, p, "run: kick preset", "V", err, &v);
+        if (s != RU_OK)
+            return s;
+        run->preset_node[run->npreset] = k;
+        run->preset_v[run->npreset++] = v;
+    }
+    if (run->npreset == 0)
+        return ru_ld_fail(d, nodes, err, "run: kick preset names no node");
+    run->kick = RU_KICK_PRESET;
+    return RU_OK;
+}
+
+static ru_status read_kick(ld_doc *d, ru_circuit *c, struct fy_node_pair *p,
+                           ru_error *err)
+{
+    static const char *const names[] = {"power-on", "noise", NULL};
+    struct fy_node *v = ru_ld_val(p);
+    if (v && fy_node_get_type(v) == FYNT_MAPPING)
+        return read_preset_kick(d, c, v, err);
+    int k = 0;
+    ru_status s = pick(d, p, "run", names, "power-on, noise or {preset: {...}}", err, &k);
+    if (s == RU_OK)
+        ru_circuit_run_opts(c)->kick = k == 0 ? RU_KICK_POWER_ON : RU_KICK_NOISE;
+    return s;
+}
+
+static ru_status read_seed(ld_doc *d, struct fy_node_pair *p, ru_error *err,
+                           unsigned long *seed)
+{
+    const char *text;
+    ru_status s = ru_ld_scalar(d, p, "run", err, &text);
+    if (s != RU_OK)
+        return s;
+    int ok = text[0] != '\0' && strlen(text) < 20;
+    for (const char *q = text; ok && *q; q++)
+        ok = *q >= '0' && *q <= '9';
+    if (!ok)
+        return ru_ld_fail(d, ru_ld_val(p), err,
+                          "run: key seed: '%s' is not a whole number from 0 up", text);
+    *seed = strtoul(text, NULL, 10);
+    return RU_OK;
+}
+
+/* A positive time for key p of `run`. */
+static ru_status positive_time(ld_doc *d, struct fy_node_pair *p, ru_error *err,
+                               double *out)
+{
+    ru_status s = ru_ld_value(d, p, "run", "s", err, out);
+    if (s == RU_OK && !(*out > 0))
+        s = ru_ld_fail(d, ru_ld_val(p), err, "run: key %s must be positive",
+                       ru_ld_key(p));
+    return s;
+}
+
+ru_status ru_ld_run(ld_doc *d, ru_circuit *c, struct fy_node_pair *rp,
+                          ru_error *err)
+{
+    static const char *const keys[] = {"stop", "sample", "kick", "accuracy", "seed", NULL};
+    static const char *const acc[] = {"draft", "normal", "precise", NULL};
+    struct fy_node *map;
+    ru_status s = ru_ld_need_mapping(d, rp, "", err, &map);
+    if (s == RU_OK)
+        s = ru_ld_only_keys(d, map, "run", keys, err);
+    ru_run_opts *run = ru_circuit_run_opts(c);
+    struct fy_node_pair *p;
+    if (s == RU_OK && (p = ru_ld_find(map, "stop")) != NULL)
+        s = positive_time(d, p, err, &run->stop_s);
+    if (s == RU_OK && (p = ru_ld_find(map, "sample")) != NULL) {
+        const char *text;
+        s = ru_ld_scalar(d, p, "run", err, &text);
+        if (s == RU_OK && strcmp(text, "auto") == 0)
+            run->sample_s = 0;
+        else if (s == RU_OK)
+            s = positive_time(d, p, err, &run->sample_s);
+    }
+    if (s == RU_OK && (p = ru_ld_find(map, "kick")) != NULL)
+        s = read_kick(d, c, p, err);
+    int a = 0;
+    if (s == RU_OK && (p = ru_ld_find(map, "accuracy")) != NULL &&
+        (s = pick(d, p, "run", acc, "draft, normal, precise", err, &a)) == RU_OK)
+        run->accuracy = (ru_accuracy)a;
+    if (s == RU_OK && (p = ru_ld_find(map, "seed")) != NULL)
+        s = read_seed(d, p, err, &run->seed);
+    return s;
+}
+
+/* One probe node name: an existing node, ground only as one side of a difference. */
+static ru_status probe_node(ld_doc *d, ru_circuit *c, struct fy_node *v,
+                            const char *name, int allow_gnd, ru_error *err, int *node)
+{
+    *node = ru_circuit_find_node(c, name);
+    if (*node < 0)
+        return ru_ld_fail(d, v, err, "measure: key probe: node %s does not exist",
+                          name[0] ? name : "(empty)");
+    if (*node == 0 && !allow_gnd)
+        return ru_ld_fail(d, v, err, "measure: key probe: ground is always 0 V; probe "
+                                     "another node");
+    return RU_OK;
+}
+
+static ru_status read_probe(ld_doc *d, ru_circuit *c, struct fy_node_pair *p,
+                            ru_error *err)
+{
+    const char *text;
+    ru_status s = ru_ld_scalar(d, p, "measure", err, &text);
+    if (s != RU_OK)
+        return s;
+    char pos[RU_NAME_MAX * 2 + 2];
+    snprintf(pos, sizeof pos, "%s", text);
+    char *minus = strchr(pos, '-');
+    if (minus)
+        *minus = '\0';
+    struct fy_node *v = ru_ld_val(p);
+    ru_measure_opts *m = ru_circuit_measure_opts(c);
+    s = probe_node(d, c, v, pos, minus != NULL, err, &m->probe_pos); /* gnd-a: -v(a) */
+    m->probe_neg = 0;
+    if (s == RU_OK && minus)
+        s = probe_node(d, c, v, minus + 1, 1, err, &m->probe_neg);
+    if (s == RU_OK && m->probe_pos == m->probe_neg)
+        s = ru_ld_fail(d, v, err, "measure: key probe: the two nodes are the same");
+    return s;
+}
+
+static ru_status read_loop(ld_doc *d, ru_circuit *c, struct fy_node_pair *p,
+                           ru_error *err)
+{
+    const char *text;
+    ru_status s = ru_ld_scalar(d, p, "measure", err, &text);
+    if (s != RU_OK)
+        return s;
+    int k = ru_circuit_find_part(c, text);
+    if (k < 0)
+        return ru_ld_fail(d, ru_ld_val(p), err,
+                          "measure: key loop: there is no part %s", text);
+    if (ru_circuit_part(c, (size_t)k)->type != RU_PART_AMPLIFIER)
+        return ru_ld_fail(d, ru_ld_val(p), err,
+                          "measure: key loop: part %s is not an amplifier", text);
+    snprintf(ru_circuit_measure_opts(c)->loop, RU_NAME_MAX, "%s", text);
+    return RU_OK;
+}
+
+/* A fraction in (0, 1) written as a percentage or a plain number. */
+static ru_status fraction(ld_doc *d, struct fy_node *v, struct fy_node *place,
+                          const char *what, ru_error *err, double *out)
+{
+    char why[160];
+    const char *text = (v && fy_node_get_type(v) == FYNT_SCALAR) ? fy_node_get_scalar0(v)
+                                                                  : NULL;
+    if (!text)
+        return ru_ld_fail(d, v ? v : place, err, "measure: %s needs a single value", what);
+    if (ru_value_parse(text, "%", out, why, sizeof why) != RU_OK)
+        return ru_ld_fail(d, v, err, "measure: %s: %s", what, why);
+    if (!(*out > 0 && *out < 1))
+        return ru_ld_fail(d, v, err,
+                          "measure: %s must lie between 0 and 100%% (0 and 1), got %s",
+                          what, text);
+    return RU_OK;
+}
+
+static ru_status read_window(ld_doc *d, ru_circuit *c, struct fy_node_pair *p,
+                             ru_error *err)
+{
+    struct fy_node *v = ru_ld_val(p);
+    if (!v || fy_node_get_type(v) != FYNT_SEQUENCE || fy_node_sequence_item_count(v) != 2)
+        return ru_ld_fail(d, v ? v : fy_node_pair_key(p), err,
+                          "measure: key growth-window needs a list of two levels [lo, hi]");
+    double lo, hi;
+    ru_status s = fraction(d, fy_node_sequence_get_by_index(v, 0), v,
+                           "key growth-window", err, &lo);
+    if (s == RU_OK)
+        s = fraction(d, fy_node_sequence_get_by_index(v, 1), v, "key growth-window", err,
+                     &hi);
+    if (s == RU_OK && !(lo < hi))
+        s = ru_ld_fail(d, v, err, "measure: key growth-window: lo must be below hi");
+    if (s == RU_OK) {
+        ru_circuit_measure_opts(c)->growth_lo = lo;
+        ru_circuit_measure_opts(c)->growth_hi = hi;
+    }
+    return s;
+}
+
+ru_status ru_ld_measure(ld_doc *d, ru_circuit *c, struct fy_node_pair *mp,
+                              ru_error *err)
+{
+    static const char *const keys[] = {"probe", "loop", "startup-level", "growth-window",
+                                       NULL};
+    struct fy_node *map;
+    ru_status s = ru_ld_need_mapping(d, mp, "", err, &map);
+    if (s == RU_OK)
+        s = ru_ld_only_keys(d, map, "measure", keys, err);
+    struct fy_node_pair *p;
+    if (s == RU_OK && (p = ru_ld_find(map, "probe")) != NULL)
+        s = read_probe(d, c, p, err);
+    if (s == RU_OK && (p = ru_ld_find(map, "loop")) != NULL)
+        s = read_loop(d, c, p, err);
+    if (s == RU_OK && (p = ru_ld_find(map, "startup-level")) != NULL)
+        s = fraction(d, ru_ld_val(p), fy_node_pair_key(p), "key startup-level", err,
+                     &ru_circuit_measure_opts(c)->startup_level);
+    if (s == RU_OK && (p = ru_ld_find(map, "growth-window")) != NULL)
+        s = read_window(d, c, p, err);
+    return s;
+}
+

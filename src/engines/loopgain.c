@@ -1,0 +1,421 @@
+/* loopgain.c: loop gain (return ratio of one amplifier) and network response.
+ *
+ * Loop gain: dr/dx = A0 + b g^T (ru_system_loop_split), L(jw) = g^T (jwM - A0)^{-1} b
+ * by one complex LU solve (LAPACKE_zgesv) per frequency. The sweep unwraps the
+ * phase along log-spaced frequencies, brackets every crossing of a multiple of
+ * 360 degrees and refines it by bisection in log f; the summary reports the
+ * crossing with the largest |L|.
+ * Response: (jwM - dr/dx) v = 0 for every row but the driven input node's, which
+ * becomes v_in = 1; the answer is v_out. Ground and supply-driven output nodes
+ * carry no signal (0). Invariants: all work arrays belong to one call. */
+#include "engines/smallsig_impl.h"
+
+#include <complex.h>
+#include <lapacke.h>
+#include <math.h>
+#include <stdlib.h>
+#include <string.h>
+
+#define RU_PI 3.14159265358979323846
+#define BISECT_MAX 80        /* bisection steps on a phase crossing */
+#define BISECT_REL 1e-13     /* stop when the bracket is this narrow (relative) */
+#define GOLDEN_MAX 100       /* golden-section steps of the peak search */
+
+/* Linear pieces shared by the loop-gain and response solves. */
+typedef struct lin_ctx {
+    size_t n;
+    double *A;                 /* A0 (loop) or dr/dx (response), n*n */
+    double *M;                 /* mass matrix, n*n */
+    double *b, *g;             /* loop: injection and sensing vectors (n) */
+    lapack_complex_double *K;  /* jwM - A, n*n */
+    lapack_complex_double *v;  /* right-hand side, then solution (n) */
+    lapack_int *ipiv;          /* n */
+} lin_ctx;
+
+static void ctx_free(lin_ctx *c)
+{
+    free(c->A);
+    free(c->M);
+    free(c->b);
+    free(c->g);
+    free(c->K);
+    free(c->v);
+    free(c->ipiv);
+}
+
+static ru_status ctx_alloc(lin_ctx *c, size_t n, ru_error *err)
+{
+    memset(c, 0, sizeof *c);
+    c->n = n;
+    size_t m = n ? n : 1;
+    c->A = malloc(m * m * sizeof *c->A);
+    c->M = malloc(m * m * sizeof *c->M);
+    c->b = malloc(m * sizeof *c->b);
+    c->g = malloc(m * sizeof *c->g);
+    c->K = malloc(m * m * sizeof *c->K);
+    c->v = malloc(m * sizeof *c->v);
+    c->ipiv = malloc(m * sizeof *c->ipiv);
+    if (c->A && c->M && c->b && c->g && c->K && c->v && c->ipiv)
+        return RU_OK;
+    return ru_error_set(err, RU_ENOMEM, "", 0, 0, "small-signal: out of memory");
+}
+
+/* K = jwM - A. */
+static void fill_k(lin_ctx *c, double w)
+{
+    for (size_t i = 0; i < c->n * c->n; i++)
+        c->K[i] = CMPLX(-c->A[i], w * c->M[i]);
+}
+
+static ru_status solve_k(lin_ctx *c, double f_hz, ru_error *err)
+{
+    lapack_int n = (lapack_int)c->n;
+    lapack_int info = LAPACKE_zgesv(LAPACK_ROW_MAJOR, n, 1, c->K, n, c->ipiv, c->v, 1);
+    if (info != 0)
+        return ru_error_set(err, RU_ENUMERIC, "", 0, 0,
+                            "small-signal: the network matrix is singular at %g Hz",
+                            f_hz);
+    return RU_OK;
+}
+
+/* ---- loop gain ---- */
+
+static ru_status loop_setup(const ru_system *s, int part, const double *x, lin_ctx *c,
+                            ru_error *err)
+{
+    const ru_circuit *ci = ru_system_circuit(s);
+    if (part < 0 || (size_t)part >= ru_circuit_part_count(ci))
+        return ru_error_set(err, RU_EINPUT, "", 0, 0, "loop gain: no part number %d",
+                            part);
+    const ru_part *p = ru_circuit_part(ci, (size_t)part);
+    if (p->type != RU_PART_AMPLIFIER)
+        return ru_error_set(err, RU_EINPUT, ru_circuit_file(ci), p->line, p->col,
+                            "loop gain: part %s is a %s, not an amplifier", p->name,
+                            ru_part_type_name(p->type));
+    ru_status st = ctx_alloc(c, ru_system_size(s), err);
+    if (st != RU_OK)
+        return st;
+    if (c->n == 0)
+        return ru_error_set(err, RU_EINPUT, "", 0, 0, "loop gain: the system is empty");
+    st = ru_system_loop_split(s, part, x, c->A, c->b, c->g, err);
+    if (st != RU_OK)
+        return st;
+    ru_system_mass(s, c->M);
+    return RU_OK;
+}
+
+static ru_status loop_eval(lin_ctx *c, double f_hz, double complex *L, ru_error *err)
+{
+    fill_k(c, 2.0 * RU_PI * f_hz);
+    for (size_t i = 0; i < c->n; i++)
+        c->v[i] = c->b[i];
+    ru_status st = solve_k(c, f_hz, err);
+    if (st != RU_OK)
+        return st;
+    double complex sum = 0;
+    for (size_t i = 0; i < c->n; i++)
+        sum += c->g[i] * c->v[i];
+    *L = sum;
+    return RU_OK;
+}
+
+ru_status ru_loopgain_at(const ru_system *s, int part, const double *x, double f_hz,
+                         double *re, double *im, ru_error *err)
+{
+    lin_ctx c;
+    double complex L = 0;
+    ru_status st = RU_OK;
+    memset(&c, 0, sizeof c);
+    if (!(isfinite(f_hz) && f_hz >= 0)) {
+        st = ru_error_set(err, RU_ERANGE, "", 0, 0,
+                          "loop gain: frequency must be finite and >= 0 (got %g)", f_hz);
+        goto done;
+    }
+    st = loop_setup(s, part, x, &c, err);
+    if (st == RU_OK)
+        st = loop_eval(&c, f_hz, &L, err);
+done:
+    if (re)
+        *re = st == RU_OK ? creal(L) : NAN;
+    if (im)
+        *im = st == RU_OK ? cimag(L) : NAN;
+    ctx_free(&c);
+    return st;
+}
+
+static double deg_of(double complex z) { return atan2(cimag(z), creal(z)) * 180.0 / RU_PI; }
+
+/* d wrapped into (-180, 180]. */
+static double wrap180(double d)
+{
+    d = fmod(d, 360.0);
+    if (d > 180.0)
+        d -= 360.0;
+    else if (d <= -180.0)
+        d += 360.0;
+    return d;
+}
+
+/* Bisection in log f for the crossing of `target` degrees between f_lo (unwrapped
+ * phase p_lo) and f_hi; returns the frequency and |L| there. */
+static ru_status refine_crossing(lin_ctx *c, double f_lo, double p_lo, double f_hi,
+                                 double target, double *f_x, double *gain,
+                                 ru_error *err)
+{
+    double side_lo = p_lo - target;
+    double complex L = 0;
+    for (int k = 0; k < BISECT_MAX && f_hi - f_lo > BISECT_REL * f_hi; k++) {
+        double fm = sqrt(f_lo * f_hi);
+        ru_status st = loop_eval(c, fm, &L, err);
+        if (st != RU_OK)
+            return st;
+        double pm = p_lo + wrap180(deg_of(L) - p_lo);
+        if ((pm - target) * side_lo > 0) {
+            f_lo = fm;
+            p_lo = pm;
+        } else {
+            f_hi = fm;
+        }
+    }
+    *f_x = sqrt(f_lo * f_hi);
+    ru_status st = loop_eval(c, *f_x, &L, err);
+    *gain = cabs(L);
+    return st;
+}
+
+static void record_crossing(ru_loop_summary *sum, double f_hz, double gain)
+{
+    if (!sum->found || gain > sum->gain) {
+        sum->found = 1;
+        sum->crossover_hz = f_hz;
+        sum->gain = gain;
+        sum->margin_db = 20.0 * log10(gain);
+    }
+}
+
+/* A sweep point whose phase is exactly a multiple of 360 is a crossing itself. */
+static ru_status exact_crossing(lin_ctx *c, double f_hz, ru_loop_summary *sum,
+                                ru_error *err)
+{
+    double complex L;
+    ru_status st = loop_eval(c, f_hz, &L, err);
+    if (st == RU_OK)
+        record_crossing(sum, f_hz, cabs(L));
+    return st;
+}
+
+/* Every multiple of 360 crossed between unwrapped phases p0 (at f0) and p1 (at
+ * f1); one that p0 sits on was counted with the previous interval. */
+static ru_status crossings_in(lin_ctx *c, double f0, double p0, double f1, double p1,
+                              ru_loop_summary *sum, ru_error *err)
+{
+    double lo = p0 < p1 ? p0 : p1, hi = p0 < p1 ? p1 : p0;
+    ru_status st = RU_OK;
+    for (double k = ceil(lo / 360.0); st == RU_OK && k * 360.0 <= hi; k += 1.0) {
+        double target = k * 360.0, fx, gx;
+        if (target == p0)
+            continue;
+        if (target == p1) {
+            st = exact_crossing(c, f1, sum, err);
+            continue;
+        }
+        st = refine_crossing(c, f0, p0, f1, target, &fx, &gx, err);
+        if (st == RU_OK)
+            record_crossing(sum, fx, gx);
+    }
+    return st;
+}
+
+static ru_status sweep_args(double fmin_hz, double fmax_hz, size_t npts,
+                            size_t min_pts, ru_error *err)
+{
+    if (!(isfinite(fmin_hz) && isfinite(fmax_hz) && fmin_hz > 0 && fmax_hz > fmin_hz))
+        return ru_error_set(err, RU_ERANGE, "", 0, 0,
+                            "sweep: need 0 < fmin < fmax (got %g, %g)", fmin_hz, fmax_hz);
+    if (npts < min_pts)
+        return ru_error_set(err, RU_ERANGE, "", 0, 0,
+                            "sweep: need at least %zu points (got %zu)", min_pts, npts);
+    return RU_OK;
+}
+
+static double log_point(double fmin, double fmax, size_t k, size_t npts)
+{
+    if (k + 1 == npts)
+        return fmax;
+    return fmin * pow(fmax / fmin, (double)k / (double)(npts - 1));
+}
+
+ru_status ru_loopgain_sweep(const ru_system *s, int part, const double *x,
+                            double fmin_hz, double fmax_hz, size_t npts, double *f_hz,
+                            double *mag, double *phase_deg, ru_loop_summary *sum,
+                            ru_error *err)
+{
+    lin_ctx c;
+    ru_loop_summary res = {0, NAN, NAN, NAN};
+    double f_prev = 0.0, p_prev = 0.0;
+    memset(&c, 0, sizeof c);
+    ru_status st = sweep_args(fmin_hz, fmax_hz, npts, 2, err);
+    if (st == RU_OK)
+        st = loop_setup(s, part, x, &c, err);
+    for (size_t k = 0; st == RU_OK && k < npts; k++) {
+        double f = log_point(fmin_hz, fmax_hz, k, npts);
+        double complex L;
+        st = loop_eval(&c, f, &L, err);
+        if (st != RU_OK)
+            break;
+        double p = k == 0 ? deg_of(L) : p_prev + wrap180(deg_of(L) - p_prev);
+        if (f_hz)
+            f_hz[k] = f;
+        if (mag)
+            mag[k] = cabs(L);
+        if (phase_deg)
+            phase_deg[k] = p;
+        if (k == 0 && fmod(p, 360.0) == 0.0)
+            st = exact_crossing(&c, f, &res, err);
+        else if (k > 0)
+            st = crossings_in(&c, f_prev, p_prev, f, p, &res, err);
+        f_prev = f;
+        p_prev = p;
+    }
+    if (sum)
+        *sum = res;
+    ctx_free(&c);
+    return st;
+}
+
+/* ---- network response ---- */
+
+static ru_status response_setup(const ru_system *s, const double *x, int node_in,
+                                int node_out, lin_ctx *c, int *k_in, int *k_out,
+                                ru_error *err)
+{
+    const ru_circuit *ci = ru_system_circuit(s);
+    int nn = (int)ru_circuit_node_count(ci);
+    memset(c, 0, sizeof *c);
+    if (node_in < 0 || node_in >= nn || node_out < 0 || node_out >= nn)
+        return ru_error_set(err, RU_EINPUT, "", 0, 0,
+                            "response: node numbers %d, %d are not in the circuit",
+                            node_in, node_out);
+    *k_in = ru_system_node_state(s, node_in);
+    *k_out = ru_system_node_state(s, node_out);
+    if (*k_in < 0)
+        return ru_error_set(err, RU_EINPUT, "", 0, 0,
+                            "response: input node %s is %s; drive a free node",
+                            ru_circuit_node_name(ci, node_in),
+                            *k_in == -1 ? "ground" : "driven by a supply");
+    ru_status st = ctx_alloc(c, ru_system_size(s), err);
+    if (st == RU_OK)
+        st = ru_ss_linearize(s, x, c->A, c->M, err);
+    return st;
+}
+
+/* v(out)/v(in) at f_hz into *h. */
+static ru_status response_eval(lin_ctx *c, int k_in, int k_out, double f_hz,
+                               double complex *h, ru_error *err)
+{
+    if (k_out < 0) {
+        *h = 0; /* ground or a supply-driven node: no small signal */
+        return RU_OK;
+    }
+    fill_k(c, 2.0 * RU_PI * f_hz);
+    for (size_t j = 0; j < c->n; j++) {
+        c->K[(size_t)k_in * c->n + j] = j == (size_t)k_in ? 1.0 : 0.0;
+        c->v[j] = j == (size_t)k_in ? 1.0 : 0.0;
+    }
+    ru_status st = solve_k(c, f_hz, err);
+    if (st == RU_OK)
+        *h = c->v[k_out];
+    return st;
+}
+
+ru_status ru_response_at(const ru_system *s, const double *x, int node_in,
+                         int node_out, double f_hz, double *mag, double *phase_deg,
+                         ru_error *err)
+{
+    lin_ctx c;
+    int k_in = -1, k_out = -1;
+    double complex h = 0;
+    ru_status st = RU_OK;
+    memset(&c, 0, sizeof c);
+    if (!(isfinite(f_hz) && f_hz >= 0))
+        st = ru_error_set(err, RU_ERANGE, "", 0, 0,
+                          "response: frequency must be finite and >= 0 (got %g)", f_hz);
+    if (st == RU_OK)
+        st = response_setup(s, x, node_in, node_out, &c, &k_in, &k_out, err);
+    if (st == RU_OK)
+        st = response_eval(&c, k_in, k_out, f_hz, &h, err);
+    if (mag)
+        *mag = st == RU_OK ? cabs(h) : NAN;
+    if (phase_deg)
+        *phase_deg = st == RU_OK ? deg_of(h) : NAN;
+    ctx_free(&c);
+    return st;
+}
+
+/* Golden-section search for the largest |H| over log f in [a, b]. */
+static ru_status golden_peak(lin_ctx *c, int k_in, int k_out, double a, double b,
+                             double *f_best, double *m_best, ru_error *err)
+{
+    const double gr = 0.6180339887498949;
+    double la = log(a), lb = log(b);
+    double x1 = lb - gr * (lb - la), x2 = la + gr * (lb - la);
+    double complex h1, h2;
+    ru_status st = response_eval(c, k_in, k_out, exp(x1), &h1, err);
+    if (st == RU_OK)
+        st = response_eval(c, k_in, k_out, exp(x2), &h2, err);
+    for (int k = 0; st == RU_OK && k < GOLDEN_MAX && lb - la > 1e-12; k++) {
+        if (cabs(h1) > cabs(h2)) {
+            lb = x2, x2 = x1, h2 = h1;
+            x1 = lb - gr * (lb - la);
+            st = response_eval(c, k_in, k_out, exp(x1), &h1, err);
+        } else {
+            la = x1, x1 = x2, h1 = h2;
+            x2 = la + gr * (lb - la);
+            st = response_eval(c, k_in, k_out, exp(x2), &h2, err);
+        }
+    }
+    if (st == RU_OK && cabs(h1) > *m_best) {
+        *m_best = cabs(h1);
+        *f_best = exp(x1);
+    }
+    if (st == RU_OK && cabs(h2) > *m_best) {
+        *m_best = cabs(h2);
+        *f_best = exp(x2);
+    }
+    return st;
+}
+
+ru_status ru_response_peak(const ru_system *s, const double *x, int node_in,
+                           int node_out, double fmin_hz, double fmax_hz, size_t npts,
+                           double *f_peak_hz, double *mag_peak, ru_error *err)
+{
+    lin_ctx c;
+    int k_in = -1, k_out = -1;
+    size_t best = 0;
+    double f_best = NAN, m_best = -1.0;
+    memset(&c, 0, sizeof c);
+    ru_status st = sweep_args(fmin_hz, fmax_hz, npts, 3, err);
+    if (st == RU_OK)
+        st = response_setup(s, x, node_in, node_out, &c, &k_in, &k_out, err);
+    for (size_t k = 0; st == RU_OK && k < npts; k++) {
+        double f = log_point(fmin_hz, fmax_hz, k, npts);
+        double complex h;
+        st = response_eval(&c, k_in, k_out, f, &h, err);
+        if (st == RU_OK && cabs(h) > m_best) {
+            m_best = cabs(h);
+            f_best = f;
+            best = k;
+        }
+    }
+    if (st == RU_OK) {
+        double a = log_point(fmin_hz, fmax_hz, best > 0 ? best - 1 : 0, npts);
+        double b = log_point(fmin_hz, fmax_hz, best + 1 < npts ? best + 1 : best, npts);
+        st = golden_peak(&c, k_in, k_out, a, b, &f_best, &m_best, err);
+    }
+    if (f_peak_hz)
+        *f_peak_hz = st == RU_OK ? f_best : NAN;
+    if (mag_peak)
+        *mag_peak = st == RU_OK ? m_best : NAN;
+    ctx_free(&c);
+    return st;
+}

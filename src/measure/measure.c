@@ -1,0 +1,468 @@
+/* measure.c: start-up figures of a sampled probe waveform (ringup/measure.h).
+ *
+ * Samples stream in through ru_measure_push: the envelope tracker (envelope.c) keeps
+ * one point per cycle, and a ring buffer keeps the last part of the run (the last
+ * 10 % of stop_s, at most RU_RING_MAX samples) for frequency, DC level and spectrum.
+ * Memory is therefore O(cycles) + a capacity fixed at create time.
+ * ru_measure_finish works on a copy of the ring (so it briefly doubles that
+ * memory) and may be called more than once.
+ * Choices the header leaves open (to be stated in the README):
+ *   - "the run" is what was pushed: the settled window is the last 10 % of
+ *     [first t, last t] (= [0.9 stop, stop] for a run from 0 to stop); a run pushed
+ *     past stop_s keeps only the last 0.1 stop_s of samples for the sample figures;
+ *   - envelope drift = slope of a least-squares line through the window's envelope
+ *     points times the window length, over the mean; settled when |drift| <= 0.5 %;
+ *   - started: settled amplitude >= 10x the reference (the lowest envelope point
+ *     before the settled window, or the kick level when given and lower), or no
+ *     cycle at all in the first 3 periods (it emerged from below the visible level,
+ *     e.g. under a bias transient after power-on), or it came down from at least
+ *     1.2x its settled size and holds flat there (a large kick above the limit
+ *     cycle), and
+ *     drift >= -10 % (not clearly decaying); the growth fit looks at the envelope
+ *     from that lowest point on (a power-on transient before it is not part of the
+ *     growth); the start-up time is the first time the level is reached from t = 0;
+ *   - settling time: the band crossing interpolated linearly between the last point
+ *     outside the band and the next point (the first point's time when none is
+ *     outside); NAN when the last point is outside. */
+#include "measure/measure_impl.h"
+
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+struct ru_measure {
+    ru_measure_cfg cfg;   /* as given to create */
+    ru_envelope env;      /* envelope points so far */
+    double *ring;         /* last cap_ring samples (V), oldest at head when full */
+    size_t cap_ring;      /* ring capacity (samples), fixed at create */
+    size_t head;          /* next write position in ring */
+    uint64_t count;       /* samples pushed */
+    double t_first_s;     /* time of the first sample (s) */
+    double t_last_s;      /* time of the last sample (s) */
+    double v_last;        /* last sample (V) */
+};
+
+#define DRIFT_LIMIT 0.005   /* settled when the window's envelope moves <= 0.5 % */
+#define DECAY_LIMIT (-0.10) /* started only if the window loses < 10 % */
+#define GROW_MIN 10.0       /* started: grew at least 10x */
+#define EMERGE_PERIODS 3.0  /* or: no cycle at all for the first 3 periods */
+#define FROM_ABOVE 1.2      /* or: came down from 1.2x the settled size and held */
+
+void ru_measure_cfg_default(ru_measure_cfg *cfg, double stop_s, double sample_s)
+{
+    if (!cfg)
+        return;
+    memset(cfg, 0, sizeof *cfg);
+    cfg->stop_s = stop_s;
+    cfg->sample_s = sample_s;
+    cfg->startup_level = 0.9;
+    cfg->growth_lo = 0.01;
+    cfg->growth_hi = 0.10;
+    cfg->kick_level_v = 0.0;
+    cfg->settle_band = 0.01;
+}
+
+static int cfg_ok(const ru_measure_cfg *c)
+{
+    return isfinite(c->stop_s) && isfinite(c->sample_s) && c->stop_s > 0.0 &&
+           c->sample_s > 0.0 && c->sample_s < c->stop_s && c->startup_level > 0.0 &&
+           c->startup_level <= 1.0 && c->growth_lo > 0.0 &&
+           c->growth_hi > c->growth_lo && c->growth_hi <= 1.0 &&
+           c->kick_level_v >= 0.0 && isfinite(c->kick_level_v) &&
+           c->settle_band > 0.0 && c->settle_band < 1.0 && c->period_hint_s >= 0.0 &&
+           isfinite(c->period_hint_s);
+}
+
+ru_status ru_measure_create(const ru_measure_cfg *cfg, ru_measure **out)
+{
+    if (!cfg || !out)
+        return RU_EINPUT;
+    *out = NULL;
+    if (!cfg_ok(cfg))
+        return RU_ERANGE;
+    ru_measure *m = calloc(1, sizeof *m);
+    if (!m)
+        return RU_ENOMEM;
+    m->cfg = *cfg;
+    double w = ceil(0.1 * cfg->stop_s / cfg->sample_s) + 64.0;
+    m->cap_ring = w < (double)RU_RING_MAX ? (size_t)w : RU_RING_MAX;
+    m->ring = malloc(m->cap_ring * sizeof *m->ring);
+    if (!m->ring) {
+        free(m);
+        return RU_ENOMEM;
+    }
+    double hint = cfg->period_hint_s;
+    if (hint < RU_ENV_HINT_MIN_SAMPLES * cfg->sample_s)
+        hint = 0.0; /* too short to resolve: the hysteresis rule alone */
+    ru_envelope_init(&m->env, 0.25 * cfg->kick_level_v, hint);
+    *out = m;
+    return RU_OK;
+}
+
+void ru_measure_destroy(ru_measure *m)
+{
+    if (!m)
+        return;
+    ru_envelope_free(&m->env);
+    free(m->ring);
+    free(m);
+}
+
+ru_status ru_measure_push(ru_measure *m, double t_s, double v)
+{
+    if (!m || !isfinite(t_s) || !isfinite(v))
+        return RU_EINPUT;
+    if (m->count > 0 && !(t_s > m->t_last_s))
+        return RU_EINPUT;
+    ru_status st = ru_envelope_push(&m->env, m->count, t_s, v, m->t_last_s, m->v_last);
+    if (st != RU_OK)
+        return st;
+    if (m->count == 0)
+        m->t_first_s = t_s;
+    m->ring[m->head] = v;
+    m->head = (m->head + 1) % m->cap_ring;
+    m->count++;
+    m->t_last_s = t_s;
+    m->v_last = v;
+    return RU_OK;
+}
+
+void ru_measure_envelope(const ru_measure *m, const double **t_s, const double **amp_v,
+                         size_t *n)
+{
+    if (t_s)
+        *t_s = m ? m->env.env_t : NULL;
+    if (amp_v)
+        *amp_v = m ? m->env.env_a : NULL;
+    if (n)
+        *n = m ? m->env.n_env : 0;
+}
+
+size_t ru_measure_ring_capacity(const ru_measure *m)
+{
+    return m ? m->cap_ring : 0;
+}
+
+size_t ru_measure_envelope_capacity(const ru_measure *m)
+{
+    return m ? m->env.cap_env : 0;
+}
+
+/* ---- figures from the envelope ---------------------------------------------- */
+
+/* Least-squares line y = a + b t over points [i0, i1) with y = f(amp): slope b,
+ * rms residual. ln selects y = ln(amp). Returns 0 with fewer than 2 points. */
+static int line_fit(const double *t, const double *amp, size_t i0, size_t i1, int ln,
+                    double *slope, double *rms)
+{
+    size_t n = i1 - i0;
+    if (i1 <= i0 || n < 2)
+        return 0;
+    double tm = 0.0, ym = 0.0;
+    for (size_t i = i0; i < i1; i++) {
+        tm += t[i];
+        ym += ln ? log(amp[i]) : amp[i];
+    }
+    tm /= (double)n;
+    ym /= (double)n;
+    double stt = 0.0, sty = 0.0;
+    for (size_t i = i0; i < i1; i++) {
+        double y = ln ? log(amp[i]) : amp[i];
+        stt += (t[i] - tm) * (t[i] - tm);
+        sty += (t[i] - tm) * (y - ym);
+    }
+    if (!(stt > 0.0))
+        return 0;
+    double b = sty / stt, r2 = 0.0;
+    for (size_t i = i0; i < i1; i++) {
+        double y = ln ? log(amp[i]) : amp[i];
+        double e = y - (ym + b * (t[i] - tm));
+        r2 += e * e;
+    }
+    *slope = b;
+    if (rms)
+        *rms = sqrt(r2 / (double)n);
+    return 1;
+}
+
+/* Window statistics of the envelope: first point index in the window, mean and
+ * drift. Returns the number of window points. */
+static size_t settle_stats(const ru_envelope *e, double tw_s, double wlen_s, size_t *i0,
+                           double *mean, double *drift)
+{
+    size_t k = 0;
+    while (k < e->n_env && e->env_t[k] < tw_s)
+        k++;
+    *i0 = k;
+    size_t n = e->n_env - k;
+    if (n == 0)
+        return 0;
+    double s = 0.0;
+    for (size_t i = k; i < e->n_env; i++)
+        s += e->env_a[i];
+    *mean = s / (double)n;
+    double b = 0.0;
+    *drift = line_fit(e->env_t, e->env_a, k, e->n_env, 0, &b, NULL)
+                 ? b * wlen_s / *mean
+                 : 0.0;
+    return n;
+}
+
+/* Hint for a run that has not settled: how much longer, from the drift's decay
+ * between the two halves of the window. */
+static void settle_hint(const ru_envelope *e, size_t i0, double tw_s, double wlen_s,
+                        double drift, char *note)
+{
+    double tmid = tw_s + 0.5 * wlen_s, s1 = 0.0, s2 = 0.0;
+    size_t im = i0;
+    while (im < e->n_env && e->env_t[im] < tmid)
+        im++;
+    int ok = line_fit(e->env_t, e->env_a, i0, im, 0, &s1, NULL) &&
+             line_fit(e->env_t, e->env_a, im, e->n_env, 0, &s2, NULL) &&
+             s1 * s2 > 0.0 && fabs(s2) < fabs(s1);
+    if (ok) {
+        double rate = log(s1 / s2) / (0.5 * wlen_s); /* drift decays as exp(-rate t) */
+        double more = log(fabs(drift) / DRIFT_LIMIT) / rate;
+        snprintf(note, RU_NOTE_MAX,
+                 "envelope still moves %.2g %% over the last 10 %% of the run; "
+                 "run about %.3g s longer",
+                 100.0 * drift, more > 0.0 ? more : wlen_s);
+    } else {
+        snprintf(note, RU_NOTE_MAX,
+                 "envelope still moves %.2g %% over the last 10 %% of the run; "
+                 "run at least twice as long",
+                 100.0 * drift);
+    }
+}
+
+/* First time the envelope reaches level_v, linear between points; NAN if never. */
+static double first_reach(const ru_envelope *e, size_t from, double level_v)
+{
+    for (size_t i = from; i < e->n_env; i++) {
+        if (e->env_a[i] >= level_v) {
+            if (i == from)
+                return e->env_t[0];
+            double a0 = e->env_a[i - 1], a1 = e->env_a[i];
+            double f = (level_v - a0) / (a1 - a0);
+            return e->env_t[i - 1] + f * (e->env_t[i] - e->env_t[i - 1]);
+        }
+    }
+    return NAN;
+}
+
+static void growth_fit(const ru_envelope *e, const ru_measure_cfg *c, size_t from,
+                       double settled_v, double t_limit_s, ru_measure_result *r)
+{
+    double lo = c->growth_lo * settled_v, hi = c->growth_hi * settled_v;
+    double kick = 2.0 * c->kick_level_v;
+    /* the envelope rises through the window once before start-up ends, so the
+     * matching points are contiguous: fit from the first to the last of them */
+    size_t i0 = e->n_env, i1 = 0;
+    for (size_t i = from; i < e->n_env && e->env_t[i] <= t_limit_s; i++) {
+        double a = e->env_a[i];
+        if (a >= lo && a <= hi && a > kick) {
+            if (i0 == e->n_env)
+                i0 = i;
+            i1 = i + 1;
+        }
+    }
+    if (i0 == e->n_env)
+        i0 = i1 = 0;
+    double slope = NAN, rms = NAN;
+    if (i1 - i0 < 3 || !line_fit(e->env_t, e->env_a, i0, i1, 1, &slope, &rms)) {
+        const char *why = from < e->n_env && e->env_a[from] > lo
+                              ? "the first visible cycle is already above the window "
+                                "(a large kick, or growth hidden under a power-on "
+                                "transient); lower the kick or raise the window"
+                              : "the envelope grows too fast to put 3 cycles in the "
+                                "window; widen the window";
+        snprintf(r->growth_note, RU_NOTE_MAX,
+                 "fewer than 3 cycles between %g%% and %g%% of the settled amplitude: %s",
+                 100.0 * c->growth_lo, 100.0 * c->growth_hi, why);
+        r->growth_fit_points = (int)(i1 - i0);
+        return;
+    }
+    r->growth_rate_per_s = slope;
+    r->growth_fit_rms = rms;
+    r->growth_fit_t0_s = e->env_t[i0];
+    r->growth_fit_t1_s = e->env_t[i1 - 1];
+    r->growth_fit_points = (int)(i1 - i0);
+}
+
+static double settling_time(const ru_envelope *e, double settled_v, double band)
+{
+    double tol = band * settled_v;
+    size_t n = e->n_env;
+    if (n == 0 || fabs(e->env_a[n - 1] - settled_v) > tol)
+        return NAN;
+    size_t last_out = n; /* none */
+    for (size_t i = n; i-- > 0;) {
+        if (fabs(e->env_a[i] - settled_v) > tol) {
+            last_out = i;
+            break;
+        }
+    }
+    if (last_out == n)
+        return e->env_t[0];
+    double a0 = e->env_a[last_out], a1 = e->env_a[last_out + 1];
+    double edge = a0 < settled_v ? settled_v - tol : settled_v + tol;
+    double f = (edge - a0) / (a1 - a0);
+    return e->env_t[last_out] + f * (e->env_t[last_out + 1] - e->env_t[last_out]);
+}
+
+/* ---- the sample window -------------------------------------------------------- */
+
+static ru_status win_make(const ru_measure *m, double tw_s, ru_window *w)
+{
+    memset(w, 0, sizeof *w);
+    w->n = m->count < m->cap_ring ? (size_t)m->count : m->cap_ring;
+    w->x = malloc(w->n * sizeof *w->x);
+    if (!w->x)
+        return RU_ENOMEM;
+    size_t start = m->count < m->cap_ring ? 0 : m->head;
+    for (size_t i = 0; i < w->n; i++)
+        w->x[i] = m->ring[(start + i) % m->cap_ring];
+    w->dt_s = (m->t_last_s - m->t_first_s) / (double)(m->count - 1);
+    w->t0_s = m->t_last_s - w->dt_s * (double)(w->n - 1);
+    double k = ceil((tw_s - w->t0_s) / w->dt_s - 1e-9);
+    w->i_w = k <= 0.0 ? 0 : (k >= (double)w->n ? w->n : (size_t)k);
+    return RU_OK;
+}
+
+/* DC level, frequency, THD and harmonics from the settled window. */
+static ru_status window_figures(const ru_measure *m, double tw_s, ru_measure_result *r)
+{
+    ru_window w;
+    ru_status st = win_make(m, tw_s, &w);
+    if (st == RU_OK)
+        st = ru_window_figures(&w, r);
+    free(w.x);
+    return st;
+}
+
+/* ---- ru_measure_finish -------------------------------------------------------- */
+
+static void result_init(ru_measure_result *r)
+{
+    memset(r, 0, sizeof *r);
+    r->startup_time_s = r->growth_rate_per_s = NAN;
+    r->growth_fit_t0_s = r->growth_fit_t1_s = r->growth_fit_rms = NAN;
+    r->frequency_hz = r->settled_amplitude_v = r->settling_time_s = NAN;
+    r->thd_percent = r->dc_level_v = r->envelope_drift = r->fundamental_v = NAN;
+    for (int k = 0; k < RU_HARMONICS - 1; k++)
+        r->harmonics_dbc[k] = NAN;
+}
+
+/* Not started: every figure but dc_level_v and envelope_drift is NAN; the reason
+ * goes into all three notes. */
+static void not_started(ru_measure_result *r, const char *why)
+{
+    r->started = 0;
+    r->settled = 0;
+    r->frequency_hz = r->thd_percent = r->settled_amplitude_v = r->fundamental_v = NAN;
+    for (int k = 0; k < RU_HARMONICS - 1; k++)
+        r->harmonics_dbc[k] = NAN;
+    snprintf(r->growth_note, RU_NOTE_MAX, "did not start: %s", why);
+    snprintf(r->settle_note, RU_NOTE_MAX, "did not start: %s", why);
+    snprintf(r->thd_note, RU_NOTE_MAX, "did not start: %s", why);
+}
+
+/* Not a start-up, but a steady tone in the settled window (a driven circuit, or a
+ * tank kicked at its final size): the tone's figures (amplitude, frequency, THD,
+ * DC level) are kept; start-up, growth and settling stay unknown. */
+static void steady_tone(ru_measure_result *r, double mean, const char *why)
+{
+    r->started = 0;
+    r->settled = 1;
+    r->settled_amplitude_v = mean;
+    snprintf(r->growth_note, RU_NOTE_MAX,
+             "did not start (%.80s); the tone was steady (driven, or kicked at its final "
+             "size): its amplitude, frequency and THD are given", why);
+}
+
+ru_status ru_measure_finish(ru_measure *m, ru_measure_result *r)
+{
+    if (!m || !r)
+        return RU_EINPUT;
+    result_init(r);
+    const ru_envelope *e = &m->env;
+    r->cycles = e->n_env;
+    if (m->count < 2) {
+        not_started(r, "fewer than 2 samples");
+        return RU_OK;
+    }
+    double wlen = 0.1 * (m->t_last_s - m->t_first_s), tw = m->t_last_s - wlen;
+    ru_status st = window_figures(m, tw, r);
+    if (st != RU_OK)
+        return st;
+    size_t i0 = 0;
+    double mean = NAN, drift = NAN;
+    if (settle_stats(e, tw, wlen, &i0, &mean, &drift) == 0) {
+        not_started(r, "no cycle in the last 10 % of the run");
+        return RU_OK;
+    }
+    r->envelope_drift = drift;
+    /* The start is measured from the envelope's lowest point before the settled
+     * window: a power-on transient can leave a large first "cycle" (the bias
+     * moving) before the oscillation grows from a much smaller level. */
+    size_t trough = 0;
+    for (size_t i = 1; i < i0; i++)
+        if (e->env_a[i] < e->env_a[trough])
+            trough = i;
+    double ref = e->env_a[trough];
+    if (m->cfg.kick_level_v > 0.0 && m->cfg.kick_level_v < ref)
+        ref = m->cfg.kick_level_v;
+    /* An oscillation that shows no cycle for its first EMERGE_PERIODS periods and is
+     * sustained at the end grew from below what the probe shows: under a fast DC
+     * transient (a bias still settling) there are no extrema to measure, so the
+     * 10x rule cannot be applied and is not needed. */
+    double period = m->cfg.period_hint_s;
+    if (!(period > 0) && e->n_env - i0 >= 2)
+        period = (e->env_t[e->n_env - 1] - e->env_t[i0]) / (double)(e->n_env - 1 - i0);
+    int emerged = period > 0 && e->env_t[0] - m->t_first_s > EMERGE_PERIODS * period;
+    /* A large kick (or a power-on step) that starts the tone above its final size:
+     * the envelope came down by at least FROM_ABOVE and has gone flat, so an active
+     * limiter holds it there. A passive ring-down is still falling in the window,
+     * and a lossless tank never came down. */
+    double peak = m->cfg.kick_level_v; /* the kick itself may be the largest swing */
+    for (size_t i = 0; i < e->n_env; i++)
+        peak = fmax(peak, e->env_a[i]);
+    int from_above = peak >= FROM_ABOVE * mean && fabs(drift) <= DRIFT_LIMIT &&
+                     e->n_env - i0 >= 4;
+    char why[RU_NOTE_MAX];
+    if (!(mean >= GROW_MIN * ref) && !emerged && !from_above) {
+        snprintf(why, sizeof why, "the envelope grew %.3gx, less than %gx", mean / ref,
+                 GROW_MIN);
+        if (fabs(drift) <= DRIFT_LIMIT && e->n_env - i0 >= 2) {
+            steady_tone(r, mean, why);
+            return RU_OK;
+        }
+        not_started(r, why);
+        return RU_OK;
+    }
+    if (drift < DECAY_LIMIT) {
+        snprintf(why, sizeof why, "the envelope decays %.3g %% over the last 10 %%",
+                 -100.0 * drift);
+        not_started(r, why);
+        return RU_OK;
+    }
+    r->started = 1;
+    r->settled_amplitude_v = mean;
+    r->settled = fabs(drift) <= DRIFT_LIMIT && e->n_env - i0 >= 2;
+    if (!r->settled && e->n_env - i0 < 2)
+        snprintf(r->settle_note, RU_NOTE_MAX,
+                 "only one cycle in the last 10 %% of the run: too few to tell whether "
+                 "the envelope still moves; run longer");
+    else if (!r->settled)
+        settle_hint(e, i0, tw, wlen, drift, r->settle_note);
+    /* Start-up time from t = 0 as defined (the first time the level is reached,
+     * an overshooting first burst included); the growth fit starts at the trough. */
+    r->startup_time_s = first_reach(e, 0, m->cfg.startup_level * mean);
+    for (size_t i = 0; i < e->n_env; i++)
+        r->peak_envelope_v = fmax(r->peak_envelope_v, e->env_a[i]);
+    double tlim = isfinite(r->startup_time_s) ? r->startup_time_s : INFINITY;
+    growth_fit(e, &m->cfg, trough, mean, tlim, r);
+    r->settling_time_s = settling_time(e, mean, m->cfg.settle_band);
+    return RU_OK;
+}

@@ -1,0 +1,211 @@
+/* wave.c: source waveforms: value, slope, final value, jumps, breakpoints.
+ *
+ * Pulse timing: the n-th pulse (n = 0, 1, ... ; only n = 0 when period_s is 0)
+ * starts at at_s + n*period_s; within it the rising edge takes [0, edge), the top
+ * [edge, width - edge), the falling edge [width - edge, width), then v0 until the
+ * next pulse. Edge times are always computed by pulse_time() so that breakpoints
+ * and jump tests see the same doubles. */
+#include "system/wave.h"
+
+#include <math.h>
+
+#define RU_PI 3.14159265358979323846
+
+/* Relative time tolerance for "an edge falls on t". */
+#define WAVE_TTOL 1e-12
+
+static double pulse_time(const ru_wave *w, double k, double off)
+{
+    return w->at_s + k * w->period_s + off;
+}
+
+/* Time since the start of the current pulse (t >= at_s), robust to rounding at
+ * the period boundary. */
+static double pulse_tau(const ru_wave *w, double t)
+{
+    if (w->period_s <= 0)
+        return t - w->at_s;
+    double k = floor((t - w->at_s) / w->period_s);
+    double tau = t - pulse_time(w, k, 0.0);
+    if (t >= pulse_time(w, k + 1.0, 0.0))
+        tau = t - pulse_time(w, k + 1.0, 0.0);
+    return tau < 0 ? 0.0 : tau;
+}
+
+static double pulse_value(const ru_wave *w, double t, double *slope)
+{
+    *slope = 0.0;
+    if (t < w->at_s)
+        return w->v0;
+    double tau = pulse_tau(w, t), e = w->edge_s, wd = w->width_s;
+    if (tau < e) {
+        *slope = (w->v1 - w->v0) / e;
+        return w->v0 + (w->v1 - w->v0) * tau / e;
+    }
+    if (tau < wd - e)
+        return w->v1;
+    if (tau < wd) {
+        *slope = (w->v0 - w->v1) / e;
+        return w->v1 + (w->v0 - w->v1) * (tau - (wd - e)) / e;
+    }
+    return w->v0;
+}
+
+static double wave_eval(const ru_wave *w, double t, double *slope)
+{
+    *slope = 0.0;
+    if (t < 0)
+        return 0.0;
+    switch (w->kind) {
+    case RU_WAVE_DC:
+        if (w->rise_s > 0 && t < w->rise_s) {
+            *slope = w->value / w->rise_s;
+            return w->value * t / w->rise_s;
+        }
+        return w->value;
+    case RU_WAVE_STEP:
+        if (t < w->at_s)
+            return w->v0;
+        if (t < w->at_s + w->edge_s) {
+            *slope = (w->v1 - w->v0) / w->edge_s;
+            return w->v0 + (w->v1 - w->v0) * (t - w->at_s) / w->edge_s;
+        }
+        return w->v1;
+    case RU_WAVE_SINE: {
+        if (t < w->at_s)
+            return w->offset;
+        double om = 2.0 * RU_PI * w->freq_hz;
+        double ph = om * (t - w->at_s) + w->phase_deg * RU_PI / 180.0;
+        *slope = w->amplitude * om * cos(ph);
+        return w->offset + w->amplitude * sin(ph);
+    }
+    case RU_WAVE_PULSE:
+        return pulse_value(w, t, slope);
+    default:
+        return 0.0;
+    }
+}
+
+double ru_wave_value(const ru_wave *w, double t_s)
+{
+    double d;
+    return wave_eval(w, t_s, &d);
+}
+
+double ru_wave_slope(const ru_wave *w, double t_s)
+{
+    double d;
+    wave_eval(w, t_s, &d);
+    return d;
+}
+
+double ru_wave_final(const ru_wave *w)
+{
+    switch (w->kind) {
+    case RU_WAVE_DC: return w->value;
+    case RU_WAVE_STEP: return w->v1;
+    case RU_WAVE_SINE: return w->offset;
+    case RU_WAVE_PULSE: return w->v0;
+    default: return 0.0;
+    }
+}
+
+double ru_wave_peak(const ru_wave *w)
+{
+    switch (w->kind) {
+    case RU_WAVE_DC: return fabs(w->value);
+    case RU_WAVE_SINE: return fabs(w->offset) + fabs(w->amplitude);
+    case RU_WAVE_STEP:
+    case RU_WAVE_PULSE: return fmax(fabs(w->v0), fabs(w->v1));
+    default: return 0.0;
+    }
+}
+
+static int near_time(double t, double edge)
+{
+    return fabs(t - edge) <= WAVE_TTOL * fmax(fabs(t), fabs(edge));
+}
+
+static double pulse_jump(const ru_wave *w, double t)
+{
+    if (w->edge_s > 0 || t < w->at_s * (1.0 - WAVE_TTOL))
+        return 0.0;
+    double k = 0.0;
+    if (w->period_s > 0)
+        k = floor((t - w->at_s) / w->period_s + 0.5);
+    if (near_time(t, pulse_time(w, k, 0.0)))
+        return w->v1 - w->v0;
+    if (w->period_s > 0)
+        k = floor((t - w->at_s - w->width_s) / w->period_s + 0.5);
+    if (k >= 0 && near_time(t, pulse_time(w, k, w->width_s)))
+        return w->v0 - w->v1;
+    return 0.0;
+}
+
+double ru_wave_jump(const ru_wave *w, double t_s)
+{
+    if (!(t_s > 0))
+        return 0.0;
+    switch (w->kind) {
+    case RU_WAVE_STEP:
+        if (w->edge_s == 0 && near_time(t_s, w->at_s))
+            return w->v1 - w->v0;
+        return 0.0;
+    case RU_WAVE_SINE:
+        if (near_time(t_s, w->at_s))
+            return w->amplitude * sin(w->phase_deg * RU_PI / 180.0);
+        return 0.0;
+    case RU_WAVE_PULSE:
+        return pulse_jump(w, t_s);
+    default:
+        return 0.0;
+    }
+}
+
+/* Smallest of the candidates after t. */
+static double first_after(double t, const double *cand, int n)
+{
+    double best = INFINITY;
+    for (int i = 0; i < n; i++)
+        if (cand[i] > t && cand[i] < best)
+            best = cand[i];
+    return best;
+}
+
+static double pulse_next(const ru_wave *w, double t)
+{
+    double off[4] = {0.0, w->edge_s, w->width_s - w->edge_s, w->width_s};
+    double k0 = 0.0;
+    if (w->period_s > 0 && t > w->at_s)
+        k0 = floor((t - w->at_s) / w->period_s);
+    double cand[8];
+    int n = 0;
+    for (int j = 0; j < 4; j++)
+        cand[n++] = pulse_time(w, k0, off[j]);
+    if (w->period_s > 0)
+        for (int j = 0; j < 4; j++)
+            cand[n++] = pulse_time(w, k0 + 1.0, off[j]);
+    return first_after(t, cand, n);
+}
+
+double ru_wave_next_breakpoint(const ru_wave *w, double t_s)
+{
+    switch (w->kind) {
+    case RU_WAVE_DC: {
+        double c[1] = {w->rise_s};
+        return first_after(t_s, c, w->rise_s > 0 ? 1 : 0);
+    }
+    case RU_WAVE_STEP: {
+        double c[2] = {w->at_s, w->at_s + w->edge_s};
+        return first_after(t_s, c, 2);
+    }
+    case RU_WAVE_SINE: {
+        double c[1] = {w->at_s};
+        return first_after(t_s, c, 1);
+    }
+    case RU_WAVE_PULSE:
+        return pulse_next(w, t_s);
+    default:
+        return INFINITY;
+    }
+}
