@@ -28,6 +28,9 @@ typedef struct tones {
     double grow_s;                     /* > 0: the cosines start at 1e-3 and grow
                                           logistically with this time constant (s),
                                           as an oscillator does from a kick */
+    double bias_v, bias_tau_s;         /* > 0: a bias that steps from 0 at t = 0 and
+                                          settles to bias_v with this time constant,
+                                          as a biased stage's power-on */
 } tones;
 
 static double tone_at(const tones *s, double t)
@@ -35,7 +38,8 @@ static double tone_at(const tones *s, double t)
     double v = 0, env = s->grow_s > 0 ? 1.0 / (1.0 + 999.0 * exp(-t / s->grow_s)) : 1.0;
     for (int i = 0; i < s->n; i++)
         v += s->amp_v[i] * cos(2 * PI * s->f_hz[i] * t + s->ph[i]);
-    return s->dc_v + env * v;
+    double bias = s->bias_tau_s > 0 ? s->bias_v * (1.0 - exp(-t / s->bias_tau_s)) : 0.0;
+    return s->dc_v + bias + env * v;
 }
 
 typedef struct audio {
@@ -420,6 +424,7 @@ static void test_out_of_band(void **state)
     ru_wav_opts o;
     opts_for(&o, 1.0 / 192000, 0.5);
     o.format = RU_WAV_FLOAT;
+    o.auto_pitch = 0; /* real time asked for: the tone is out of the band */
     ru_wav_info info;
     ru_error err;
     assert_int_equal(export(&o, &s, 30000, path, &info, &err), RU_OK);
@@ -438,6 +443,80 @@ static void test_out_of_band(void **state)
     assert_true(rms_of(a.y + 2400, a.n - 3600) < 1e-5);
     free(a.y);
     cleanup_dir(dir, "o.wav");
+}
+
+/* A biased stage's power-on: the bias jumps to 9 V and settles over 40 periods
+ * while a 0.3 V, 1 kHz tone grows from a 0.3 mV kick (time constant 5 periods).
+ * Removing only the settled DC leaves the 9 V step as the file's peak and the tone
+ * about 30 dB down; with the moving DC removed the settled tone sits at the
+ * level. */
+static void test_bias_removed(void **state)
+{
+    (void)state;
+    char dir[] = "/tmp/ru_wav_XXXXXX", path[64];
+    assert_non_null(mkdtemp(dir));
+    snprintf(path, sizeof path, "%s/b.wav", dir);
+    tones s = {.n = 1, .amp_v = {0.3}, .f_hz = {1000}, .grow_s = 5e-3,
+               .bias_v = 9.0, .bias_tau_s = 40e-3};
+    ru_wav_opts o;
+    opts_for(&o, 1.0 / 96000, 0.5);
+    o.format = RU_WAV_FLOAT;
+    ru_wav_info info;
+    ru_error err;
+    assert_int_equal(export(&o, &s, 1000, path, &info, &err), RU_OK);
+    audio a;
+    read_back(path, &a);
+    assert_true(info.bias_removed);
+    assert_false(info.level_limited);
+    /* Reference: the settled tone's amplitude by a single-frequency DFT over 0.1 s
+     * (100 whole periods, so the DFT is exact for a steady tone) before the fade,
+     * against the level: the tone, settled to 0.3 V, should be the file's peak.
+     * The triangular running mean has double zeros at 1 kHz (a boxcar of one
+     * period: sin(pi f T)/(pi f T), zero at f = 1/T; Oppenheim & Schafer,
+     * "Discrete-Time Signal Processing", moving-average filter; from memory), so
+     * the tone passes unchanged; what is left of the bias after its first periods
+     * is its curvature over two periods, tau = 40 periods: below 1e-3 of 9 V. */
+    double amp = amp_at(a.y, 14400, 4800, 48000, 1000);
+    print_message("bias removed: settled tone %.2f dB of the level, peak %.2f dBFS\n",
+                  20 * log10(amp / LEVEL_12), info.peak_dbfs);
+    RU_ASSERT_REL(amp, LEVEL_12, 0.03);
+    /* The mean of the settled part is the tone's: zero (the bias is gone). */
+    double mean = 0;
+    for (size_t j = 14400; j < 19200; j++)
+        mean += a.y[j] / 4800.0;
+    assert_true(fabs(mean) < 1e-3 * LEVEL_12);
+    free(a.y);
+    cleanup_dir(dir, "b.wav");
+}
+
+/* A 30 kHz tone with no pitch asked for: the pitch is chosen (440 Hz) so the file
+ * is not silent; asking for real time (auto_pitch 0) keeps it out of the band
+ * (test_out_of_band). */
+static void test_auto_pitch(void **state)
+{
+    (void)state;
+    char dir[] = "/tmp/ru_wav_XXXXXX", path[64];
+    assert_non_null(mkdtemp(dir));
+    snprintf(path, sizeof path, "%s/p.wav", dir);
+    tones s = {.n = 1, .amp_v = {1.0}, .f_hz = {30000}, .ph = {1.0}, .grow_s = 5e-3};
+    ru_wav_opts o;
+    opts_for(&o, 1.0 / 480000, 0.05);
+    o.format = RU_WAV_FLOAT;
+    ru_wav_info info;
+    ru_error err;
+    assert_int_equal(export(&o, &s, 30000, path, &info, &err), RU_OK);
+    audio a;
+    read_back(path, &a);
+    assert_true(info.pitch_auto);
+    RU_ASSERT_NEAR(info.pitch_hz, 440.0, 1e-12);
+    /* Reference: time scaling f_audio = f_sim / k, k = 30 kHz / 440 Hz = 68.18; the
+     * 0.05 s run plays for 0.05 k = 3.41 s. */
+    RU_ASSERT_REL(info.time_scale, 30000.0 / 440.0, 1e-12);
+    RU_ASSERT_REL(info.seconds, 0.05 * 30000.0 / 440.0, 1e-3);
+    RU_ASSERT_REL(zero_cross_hz(&a, a.n / 2, a.n - 4800), 440.0, 1e-4);
+    RU_ASSERT_NEAR(info.peak_dbfs, -12.0, 0.01);
+    free(a.y);
+    cleanup_dir(dir, "p.wav");
 }
 
 /* With a length cap and a known time scale only the span the audio needs is kept:
@@ -504,6 +583,7 @@ int main(void)
     const struct CMUnitTest tests[] = {
         cmocka_unit_test(test_pcm24_round_trip), cmocka_unit_test(test_float_format),
         cmocka_unit_test(test_level_ceiling),    cmocka_unit_test(test_pitch_1mhz),
+        cmocka_unit_test(test_bias_removed),     cmocka_unit_test(test_auto_pitch),
         cmocka_unit_test(test_440_at_48k),       cmocka_unit_test(test_440_from_8k),
         cmocka_unit_test(test_alias_rejection),  cmocka_unit_test(test_out_of_band),
         cmocka_unit_test(test_memory_bound),

@@ -10,6 +10,10 @@
  *   time t = j / (rate_hz * k); a frequency f in the simulation plays at f / k.
  *
  * Processing in ru_wav_finish, in this order:
+ * 0. Pitch: without pitch_hz and with time scale 1, a tone below 20 Hz or above
+ *    the passband at real time would be inaudible or nearly silent, so a pitch is
+ *    chosen (opts.auto_pitch, on by default): 440 Hz, raised up to 4 kHz so that
+ *    the run plays in about a minute at most (info.pitch_auto, info.pitch_hz).
  * 1. Band-limited resampling onto the audio grid with a Kaiser-windowed sinc whose
  *    stopband starts at half the lower of the two rates (audio rate, stretched
  *    simulation rate): it is the anti-aliasing low-pass when the simulation is
@@ -18,21 +22,26 @@
  *    designed for 110 dB; see ru_wav_info.passband_hz. Outside the run the probe
  *    is mirrored about its first / last sample (even extension), so no step and
  *    no DC offset is invented at either end.
- * 2. DC removal: the mean over the last whole number of tone periods (at least one,
+ * 2. DC removal. With a tone in the audio band: the moving DC, the running mean
+ *    over one tone period taken twice (a triangular window two periods wide),
+ *    is subtracted: it passes a ramp exactly and has double zeros at the tone and
+ *    every harmonic, so the tone is untouched while a biased stage's power-on step
+ *    and its bias settling are taken out (a high-pass well below the tone), and
+ *    the normalization below follows the tone, not the bias (info.bias_removed).
+ *    Otherwise the mean over the last whole number of tone periods (at least one,
  *    about the last 10 % of the audio, ending a filter half-width before the end
  *    of the run's data) is subtracted; without a tone, the mean of the last 10 %.
- *    The settled tone is centred; a biased stage's power-on transient is kept (it
- *    is what a coupling capacitor would pass at first).
  * 3. Fade-out: a raised-cosine fade over the last fade_s (default 20 ms, at most
  *    half the file). Never a fade-in: the start-up stays as simulated.
  * 4. Peak normalization: the largest sample magnitude is set to level_dbfs
  *    (default -12 dBFS; above -1 dBFS is refused by ru_wav_create). The sample
  *    peak is set; inter-sample peaks of a band-limited tone sit at most a fraction
- *    of a dB higher, which the 1 dB ceiling leaves room for. One exception: the
- *    gain never exceeds the one that would put the unfiltered probe's own peak
- *    (after DC removal) at 0 dBFS, so a tone the filter removed (above the audio
- *    band: use a pitch) leaves a near-silent file instead of its residue
- *    amplified; info.level_limited and info.peak_dbfs say so.
+ *    of a dB higher, which the 1 dB ceiling leaves room for. One exception, only
+ *    when no tone lies in the audio band: the gain never exceeds the one that
+ *    would put the unfiltered probe's own peak (after DC removal) at 0 dBFS, so a
+ *    tone the filter removed (above the audio band with the automatic pitch
+ *    turned off) leaves a near-silent file instead of its residue amplified;
+ *    info.level_limited and info.peak_dbfs say so.
  * 5. Written as "<path>.tmp.<pid>-<i>" in the target folder, renamed onto path when
  *    complete; on any failure the temporary file is removed (RU_EIO names the path
  *    and libsndfile's or the system's reason).
@@ -80,6 +89,9 @@ typedef struct ru_wav_opts {
     double stop_s;       /* run length (s, > 0), required: bounds the buffer */
     double tone_hint_hz; /* expected tone (Hz; e.g. the predicted one) or 0: bounds
                             the buffer when both pitch_hz and max_seconds are set */
+    int auto_pitch;      /* 1 (default): without pitch_hz and with time_scale 1, a
+                            tone below 20 Hz or above the passband gets a pitch
+                            chosen by ru_wav_finish (see ru_wav_info.pitch_auto) */
 } ru_wav_opts;
 
 /* What ru_wav_finish did. */
@@ -99,6 +111,12 @@ typedef struct ru_wav_info {
                               audio band, e.g. tone_audio_hz > passband_hz) */
     int truncated;         /* 1: audio cut at RU_WAV_MAX_FRAMES */
     int silent;            /* 1: nothing left after DC removal; zeros written */
+    int pitch_auto;        /* 1: the pitch was chosen automatically (the tone lay
+                              outside the audio band at real time) */
+    double pitch_hz;       /* pitch the tone plays at (Hz), 0 without one */
+    int bias_removed;      /* 1: the moving DC (bias settling) was removed and it
+                              mattered: with only the settled DC removed the peak
+                              would have been more than 1 dB higher */
     size_t buffer_bytes;   /* memory of the probe buffer (bytes) */
     size_t audio_bytes;    /* memory of the audio buffer during finish (bytes) */
 } ru_wav_info;

@@ -126,6 +126,9 @@ static void json_wav(ru_json *j, const char *path, const ru_run_report *r)
     ru_json_number(j, "tone_audio_hz", r->wav.tone_audio_hz);
     ru_json_number(j, "peak_dbfs", r->wav.peak_dbfs);
     ru_json_bool(j, "level_limited", r->wav.level_limited);
+    ru_json_bool(j, "pitch_auto", r->wav.pitch_auto);
+    ru_json_number(j, "pitch_hz", r->wav.pitch_hz > 0 ? r->wav.pitch_hz : NAN);
+    ru_json_bool(j, "bias_removed", r->wav.bias_removed);
     ru_json_end_object(j);
 }
 
@@ -316,11 +319,18 @@ static int set_wav(const cli_opt *opts, ru_run_request *rq)
         !cli_positive(opts, "wav-pitch", "Hz", &w->pitch_hz) ||
         !cli_positive(opts, "wav-seconds", "s", &w->max_seconds))
         return 0;
+    if (cli_get(opts, "wav-real-time")) {
+        if (cli_get(opts, "wav-pitch")) {
+            fprintf(stderr, "ringup: --wav-pitch and --wav-real-time exclude each other\n");
+            return 0;
+        }
+        w->auto_pitch = 0;
+    }
     if (cli_get(opts, "wav-float"))
         w->format = RU_WAV_FLOAT;
     if (!rq->wav_path && (cli_get(opts, "wav-rate") || cli_get(opts, "wav-level") ||
                           cli_get(opts, "wav-pitch") || cli_get(opts, "wav-seconds") ||
-                          cli_get(opts, "wav-float"))) {
+                          cli_get(opts, "wav-float") || cli_get(opts, "wav-real-time"))) {
         fprintf(stderr, "ringup: the --wav-* options need --wav FILE\n");
         return 0;
     }
@@ -331,7 +341,7 @@ static int set_wav(const cli_opt *opts, ru_run_request *rq)
 static void print_wav(const ru_run_request *rq, const ru_run_report *r)
 {
     const ru_wav_info *w = &r->wav;
-    char a[40], b[40];
+    char a[40], b[40], c[40];
     printf("wrote %s: %.3f s, %s, %.0f Hz mono, peak %.1f dBFS", rq->wav_path,
            w->seconds, rq->wav.format == RU_WAV_FLOAT ? "32-bit float" : "24-bit PCM",
            rq->wav.rate_hz, w->peak_dbfs);
@@ -342,9 +352,22 @@ static void print_wav(const ru_run_request *rq, const ru_run_report *r)
     printf("\n");
     printf("caution: the start-up can be loud and sudden; turn the volume down "
            "before playing the file\n");
-    if (w->level_limited || (isfinite(w->tone_audio_hz) && w->tone_audio_hz > w->passband_hz))
+    if (w->pitch_auto)
+        printf("note: the tone (%s) is not audible at real time, so it plays at %s "
+               "(pitch chosen automatically; --wav-pitch HZ to choose, --wav-real-time "
+               "to keep real time)\n",
+               ru_format_si(w->tone_audio_hz * w->time_scale, "Hz", 4, a, sizeof a),
+               ru_format_si(w->pitch_hz, "Hz", 4, c, sizeof c));
+    if (isfinite(w->tone_audio_hz) && w->tone_audio_hz > w->passband_hz)
         printf("note: the tone lies above the audio band (%s): the file is nearly silent; "
                "use --wav-pitch\n", ru_format_si(w->passband_hz, "Hz", 3, b, sizeof b));
+    else if (w->level_limited)
+        printf("note: the level was held at %.1f dBFS: most of the probe's swing lies "
+               "outside the audio band (%s), and it is not amplified past full scale\n",
+               w->peak_dbfs, ru_format_si(w->passband_hz, "Hz", 3, b, sizeof b));
+    if (w->bias_removed)
+        printf("note: the bias movement (power-on step, bias settling) was removed with "
+               "the DC, so the level follows the tone\n");
     if (w->truncated)
         printf("note: the audio was cut at %.0f s; use --wav-seconds\n", w->seconds);
     if (w->silent)
@@ -377,7 +400,9 @@ int cmd_run(int argc, char **argv)
         {"wav-rate", "HZ", "audio sample rate (default 48000)", NULL},
         {"wav-float", NULL, "32-bit float samples instead of 24-bit PCM", NULL},
         {"wav-level", "DB", "peak level in dBFS, -1 at most (default -12)", NULL},
-        {"wav-pitch", "HZ", "stretch time so the settled tone plays at HZ", NULL},
+        {"wav-pitch", "HZ", "stretch time so the settled tone plays at HZ (default: "
+                            "440 Hz when the tone is outside the audio band)", NULL},
+        {"wav-real-time", NULL, "never choose a pitch: play the run at real time", NULL},
         {"wav-seconds", "T", "audio length cap (default: the whole run, stretched)", NULL},
         {"expect-start-within", "T", "exit 4 unless it starts within T", NULL},
         {"expect-amplitude", "LO:HI", "exit 4 unless the settled amplitude is in LO..HI", NULL},

@@ -27,6 +27,7 @@ void ru_wav_opts_default(ru_wav_opts *o)
     o->level_dbfs = -12.0;
     o->time_scale = 1.0;
     o->fade_s = 0.02;
+    o->auto_pitch = 1;
 }
 
 static ru_status check_audio(const ru_wav_opts *o, ru_error *err)
