@@ -70,6 +70,22 @@ void cli_json_run_body(ru_json *j, const ru_run_report *r);
 /* The run's `notes` array (why a figure is null, self-checks) into an open object. */
 void cli_json_notes(ru_json *j, const ru_run_report *r);
 
+/* The terminal text of a command, kept for its report (capture.c). Between begin
+ * and end, stdout goes to a temporary file when want is set (else straight to the
+ * terminal); end copies it to the terminal when echo is set and returns it
+ * (malloc'd; NULL when nothing was captured). Use:
+ *     cli_capture_begin(&cap, report != NULL, !json);
+ *     if (cli_capture_printing(&cap)) print_text(...);
+ *     char *text = cli_capture_end(&cap); */
+typedef struct cli_capture {
+    FILE *tmp;     /* the captured text, NULL when not capturing */
+    int saved_fd;  /* the terminal's descriptor while capturing */
+    int echo;      /* copy the text to the terminal at the end */
+} cli_capture;
+void cli_capture_begin(cli_capture *cap, int want, int echo);
+int cli_capture_printing(const cli_capture *cap); /* 1: print the text now */
+char *cli_capture_end(cli_capture *cap);
+
 /* --plots DIR, --plot-format FMT, --report FILE of a command. */
 typedef struct cli_plot_req {
     const char *dir;     /* NULL: no figure files */
@@ -87,18 +103,22 @@ typedef struct cli_plot_req {
  * format or an unwritable folder is refused at once); returns 0 or an exit status. */
 int cli_plot_check(const cli_opt *opts, cli_plot_req *pr);
 
-/* Figures and report of a run (data from ru_run_request.keep). */
+/* Figures and report of a run (data from ru_run_request.keep); text is the
+ * terminal text the report holds (cli_capture_end; NULL: none). */
 int cli_plot_run(const cli_plot_req *pr, const ru_circuit *c, const ru_run_report *r,
-                 const ru_run_data *data);
+                 const ru_run_data *data, const char *text);
 
 /* The comparison figures of batch items (one envelope per item, THD and start-up
  * bars), each labelled labels[i]; items without kept data are left out. */
 struct ru_batch_item;
 int cli_plot_items(const cli_plot_req *pr, const ru_circuit *c,
-                   const struct ru_batch_item *items, size_t n, const char *const *labels);
+                   const struct ru_batch_item *items, size_t n, const char *const *labels,
+                   const char *text);
 
-/* Figures and a report of any prepared set. */
-int cli_plot_set(const cli_plot_req *pr, const char *title, const ru_plot_set *set);
+/* Figures and a report of any prepared set; the report holds text (the command's
+ * terminal text, NULL: none) before the figures. */
+int cli_plot_set(const cli_plot_req *pr, const char *title, const ru_plot_set *set,
+                 const char *text);
 
 /* "NAME TYPE NODES VALUE" for a listing (no newline). */
 void cli_part_line(const ru_circuit *c, const ru_part *p, char *buf, size_t size);

@@ -197,14 +197,19 @@ int cmd_compare(int argc, char **argv)
                 cli_get(opts, "out"));
     /* items whose preparation failed keep their status; ru_batch_run skips them */
     ru_batch_run(items, n, (int)threads);
-    if (cli_get(opts, "json"))
+    int json = cli_get(opts, "json") != NULL;
+    if (json)
         print_json(part, v, items, n);
-    else
+    cli_capture cap; /* the text for the report, on the terminal unless --json */
+    cli_capture_begin(&cap, plots.report != NULL, !json);
+    if (cli_capture_printing(&cap))
         print_table(c, part, v, items, n);
+    char *text = cli_capture_end(&cap);
     const char *labels[MAX_MODELS];
     for (size_t i = 0; i < n; i++)
         labels[i] = v[i].model;
-    rc = cli_plot_items(&plots, c, items, n, labels);
+    rc = cli_plot_items(&plots, c, items, n, labels, text);
+    free(text);
     for (size_t i = 0; i < n; i++) {
         ru_circuit_destroy(v[i].circuit);
         ru_run_data_destroy(v[i].data);

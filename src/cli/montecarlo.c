@@ -172,7 +172,7 @@ static void print_json(const ru_mc_opts *o, const ru_mc_result *r)
  * are run again with their traces kept (the Monte Carlo keeps figures only) and
  * drawn as the comparison figures: envelopes overlaid, THD and start-up per unit. */
 static int plot_units(const cli_plot_req *pr, const ru_circuit *c, const ru_mc_opts *o,
-                      const ru_mc_result *r)
+                      const ru_mc_result *r, const char *text)
 {
     if (!pr->dir && !pr->report)
         return 0;
@@ -219,9 +219,10 @@ static int plot_units(const cli_plot_req *pr, const ru_circuit *c, const ru_mc_o
                                   me->started ? me->startup_time_s : NAN};
     }
     ru_plot_set set = {0};
-    set.models = pm;
+    set.models = k ? pm : NULL;
     set.nmodels = k;
-    int rc = k ? cli_plot_set(pr, ru_circuit_title(c), &set) : 0;
+    /* The report is written even when no unit could be redrawn: it holds the table. */
+    int rc = (k || pr->report) ? cli_plot_set(pr, ru_circuit_title(c), &set, text) : 0;
     for (size_t i = 0; i < PLOT_UNITS; i++) {
         ru_circuit_destroy(cv[i]);
         ru_run_data_destroy(data[i]);
@@ -297,11 +298,16 @@ int cmd_montecarlo(int argc, char **argv)
     if (ru_mc_run(c, &o, &r, &err) != RU_OK) {
         rc = cli_fail(&err);
     } else {
-        if (cli_get(opts, "json"))
+        int json = cli_get(opts, "json") != NULL;
+        if (json)
             print_json(&o, r);
-        else
+        cli_capture cap; /* the text for the report, on the terminal unless --json */
+        cli_capture_begin(&cap, plots.report != NULL, !json);
+        if (cli_capture_printing(&cap))
             print_table(c, &o, r);
-        rc = plot_units(&plots, c, &o, r);
+        char *text = cli_capture_end(&cap);
+        rc = plot_units(&plots, c, &o, r, text);
+        free(text);
     }
     ru_mc_result_destroy(r);
     ru_circuit_destroy(c);

@@ -53,67 +53,32 @@ static void fill_poles(const ru_run_data_view *v, ru_pole *drift, double *amp,
     p->drift_amp_v = amp;
 }
 
-static void cell(char *buf, size_t size, double v, const char *unit)
-{
-    if (!strcmp(unit, "/s"))
-        isfinite(v) ? snprintf(buf, size, "%.5g /s", v) : snprintf(buf, size, "-");
-    else if (!strcmp(unit, "%"))
-        isfinite(v) ? snprintf(buf, size, "%.4g %%", v) : snprintf(buf, size, "-");
-    else
-        ru_format_si(v, unit, 4, buf, size);
-}
-
-#define TROWS 7
-static int write_report(const cli_plot_req *pr, const ru_circuit *c, const ru_run_report *r,
+/* The run's report: the terminal text, then the parts of the circuit. */
+static int write_report(const cli_plot_req *pr, const ru_circuit *c, const char *text,
                         const ru_plot_set *set)
 {
-    static const char *const label[TROWS] = {"start-up time", "growth rate", "frequency",
-                                             "settled amplitude", "settling time", "THD",
-                                             "DC level"};
-    static const char *const unit[TROWS] = {"s", "/s", "Hz", "V", "s", "%", "V"};
-    const ru_measure_result *m = &r->meas;
-    const ru_prediction *p = &r->pred;
-    double meas[TROWS] = {m->startup_time_s, m->growth_rate_per_s, m->frequency_hz,
-                          m->settled_amplitude_v, m->settling_time_s, m->thd_percent,
-                          m->dc_level_v};
-    double pred[TROWS] = {p->startup_time_s, p->growth_rate_per_s, p->frequency_hz,
-                          p->settled_amplitude_v, NAN, NAN, NAN};
-    char buf[(TROWS + 1) * 3][48];
-    const char *cells[(TROWS + 1) * 3] = {"figure", "measured", "predicted"};
-    for (int i = 0; i < TROWS; i++) {
-        cells[(i + 1) * 3] = label[i];
-        cell(buf[(i + 1) * 3 + 1], sizeof buf[0], meas[i], unit[i]);
-        cell(buf[(i + 1) * 3 + 2], sizeof buf[0], pred[i], unit[i]);
-        cells[(i + 1) * 3 + 1] = buf[(i + 1) * 3 + 1];
-        cells[(i + 1) * 3 + 2] = buf[(i + 1) * 3 + 2];
-    }
-    ru_plot_table table = {TROWS + 1, 3, cells};
-    char summary[8192], a[32], b[32];
-    int len = snprintf(summary, sizeof summary,
-                       "circuit file: %s\nprobe %s, run %s sampled every %s\n"
-                       "started: %s, settled: %s\n",
-                       ru_circuit_file(c), r->probe, ru_format_si(r->stop_s, "s", 4, a, sizeof a),
-                       ru_format_si(r->sample_s, "s", 4, b, sizeof b),
-                       m->started ? "yes" : "no", m->settled ? "yes" : "no");
-    for (size_t i = 0; i < ru_circuit_part_count(c) && len > 0 &&
-                       (size_t)len < sizeof summary;
-         i++) {
+    size_t cap = (text ? strlen(text) : 0) + 64 + ru_circuit_part_count(c) * 512;
+    char *summary = malloc(cap);
+    if (!summary)
+        return 2;
+    size_t len = (size_t)snprintf(summary, cap, "%s%sparts:\n", text ? text : "",
+                                  text && *text ? "\n" : "");
+    for (size_t i = 0; i < ru_circuit_part_count(c) && len < cap; i++) {
         char line[512];
         cli_part_text(c, ru_circuit_part(c, i), line, sizeof line);
-        len += snprintf(summary + len, sizeof summary - (size_t)len, "%s\n", line);
+        len += (size_t)snprintf(summary + len, cap - len, "  %s\n", line);
     }
-    for (int i = 0; i < r->nnotes && len > 0 && (size_t)len < sizeof summary; i++)
-        len += snprintf(summary + len, sizeof summary - (size_t)len, "note: %s\n",
-                        r->notes[i]);
     ru_error err;
     ru_error_clear(&err);
-    if (ru_plot_report(pr->report, ru_circuit_title(c), summary, &table, set, &err) != RU_OK)
-        return cli_fail(&err);
-    return 0;
+    int rc = 0;
+    if (ru_plot_report(pr->report, ru_circuit_title(c), summary, NULL, set, &err) != RU_OK)
+        rc = cli_fail(&err);
+    free(summary);
+    return rc;
 }
 
 int cli_plot_run(const cli_plot_req *pr, const ru_circuit *c, const ru_run_report *r,
-                 const ru_run_data *data)
+                 const ru_run_data *data, const char *text)
 {
     if (!pr->dir && !pr->report)
         return 0;
@@ -148,23 +113,26 @@ int cli_plot_run(const cli_plot_req *pr, const ru_circuit *c, const ru_run_repor
     if (pr->dir && ru_plot_set_files(pr->dir, pr->format, &set, &err) != RU_OK)
         return cli_fail(&err);
     if (pr->report)
-        return write_report(pr, c, r, &set);
+        return write_report(pr, c, text, &set);
     return 0;
 }
 
-int cli_plot_set(const cli_plot_req *pr, const char *title, const ru_plot_set *set)
+int cli_plot_set(const cli_plot_req *pr, const char *title, const ru_plot_set *set,
+                 const char *text)
 {
     ru_error err;
     ru_error_clear(&err);
     if (pr->dir && ru_plot_set_files(pr->dir, pr->format, set, &err) != RU_OK)
         return cli_fail(&err);
-    if (pr->report && ru_plot_report(pr->report, title, "", NULL, set, &err) != RU_OK)
+    if (pr->report && ru_plot_report(pr->report, title, text ? text : "", NULL, set,
+                                     &err) != RU_OK)
         return cli_fail(&err);
     return 0;
 }
 
 int cli_plot_items(const cli_plot_req *pr, const ru_circuit *c,
-                   const struct ru_batch_item *items, size_t n, const char *const *labels)
+                   const struct ru_batch_item *items, size_t n, const char *const *labels,
+                   const char *text)
 {
     if (!pr->dir && !pr->report)
         return 0;
@@ -181,13 +149,11 @@ int cli_plot_items(const cli_plot_req *pr, const ru_circuit *c,
         pm[k++] = (ru_plot_model){labels[i], dv.nenv, dv.env_t_s, dv.env_v,
                                   m->thd_percent, m->started ? m->startup_time_s : NAN};
     }
-    int rc = 0;
-    if (k > 0) {
-        ru_plot_set set = {0};
-        set.models = pm;
-        set.nmodels = k;
-        rc = cli_plot_set(pr, ru_circuit_title(c), &set);
-    }
+    ru_plot_set set = {0};
+    set.models = k > 0 ? pm : NULL;
+    set.nmodels = k;
+    /* The report is written even when no item kept figures: it holds the table. */
+    int rc = (k > 0 || pr->report) ? cli_plot_set(pr, ru_circuit_title(c), &set, text) : 0;
     free(pm);
     return rc;
 }

@@ -210,7 +210,8 @@ static ru_status compute(const ru_circuit *c, const char *loop, poles_result *p,
     return st;
 }
 
-static int plot_poles(const cli_plot_req *pr, const ru_circuit *c, const poles_result *p)
+static int plot_poles(const cli_plot_req *pr, const ru_circuit *c, const poles_result *p,
+                      const char *text)
 {
     if (!pr->dir && !pr->report)
         return 0;
@@ -229,7 +230,7 @@ static int plot_poles(const cli_plot_req *pr, const ru_circuit *c, const poles_r
     ru_plot_set set = {0};
     set.poles = &pp;
     set.loop = p->have_loop ? &loop : NULL;
-    return cli_plot_set(pr, ru_circuit_title(c), &set);
+    return cli_plot_set(pr, ru_circuit_title(c), &set, text);
 }
 
 int cmd_poles(int argc, char **argv)
@@ -271,10 +272,16 @@ int cmd_poles(int argc, char **argv)
         rc = cli_fail(&err);
     else if (cli_get(opts, "json"))
         print_json(c, &p);
-    else
-        print_text(c, &p);
-    if (st == RU_OK)
-        rc = plot_poles(&plots, c, &p);
+    char *text = NULL;
+    if (st == RU_OK) {
+        cli_capture cap; /* the text for the report, on the terminal unless --json */
+        cli_capture_begin(&cap, plots.report != NULL, !cli_get(opts, "json"));
+        if (cli_capture_printing(&cap))
+            print_text(c, &p);
+        text = cli_capture_end(&cap);
+        rc = plot_poles(&plots, c, &p, text);
+    }
+    free(text);
     free(p.x);
     free(p.poles);
     free(p.curve);

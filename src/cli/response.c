@@ -238,8 +238,11 @@ int cmd_response(int argc, char **argv)
     ru_response_at(s, x, in, out, d.peak_f_hz, &pm, &d.peak_phase_deg, NULL);
     if (cli_get(opts, "json"))
         print_json(&d);
-    else
+    cli_capture cap; /* the text for the report, on the terminal unless --json */
+    cli_capture_begin(&cap, plots.report != NULL, !cli_get(opts, "json"));
+    if (cli_capture_printing(&cap))
         print_text(c, cli_get(opts, "from"), cli_get(opts, "to"), &d);
+    char *text = cli_capture_end(&cap);
     char what[2 * RU_NAME_MAX + 16];
     snprintf(what, sizeof what, "v(%s)/v(%s)", cli_get(opts, "to"), cli_get(opts, "from"));
     ru_plot_bode bode = {0, what, d.npts, d.f_hz, d.mag, d.phase_deg, d.peak_f_hz,
@@ -247,7 +250,8 @@ int cmd_response(int argc, char **argv)
     ru_plot_set set = {0};
     set.response = &bode;
     if (plots.dir || plots.report)
-        rc = cli_plot_set(&plots, ru_circuit_title(c), &set);
+        rc = cli_plot_set(&plots, ru_circuit_title(c), &set, text);
+    free(text);
 done:
     free(x);
     free(d.f_hz);

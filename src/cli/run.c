@@ -465,10 +465,14 @@ int cmd_run(int argc, char **argv)
     }
     if (json)
         print_json(r, st == RU_ENUMERIC, rq.wav_path, r2);
-    else
+    cli_capture cap; /* the text for the report, on the terminal too unless --json */
+    cli_capture_begin(&cap, plots.report != NULL, !json);
+    if (cli_capture_printing(&cap)) {
         print_text(c, r, auto_sample);
-    if (r2 && !json)
-        print_verify(r, r2);
+        if (r2)
+            print_verify(r, r2);
+    }
+    char *text = cli_capture_end(&cap);
     if (json && r->have_wav)
         fprintf(stderr, "caution: the start-up can be loud and sudden; turn the volume "
                         "down before playing the file\n");
@@ -478,7 +482,7 @@ int cmd_run(int argc, char **argv)
     if (st == RU_OK && !json && r->have_wav)
         print_wav(&rq, r);
     if (data) {
-        int prc = cli_plot_run(&plots, c, r, data);
+        int prc = cli_plot_run(&plots, c, r, data, text);
         if (prc && !rc)
             rc = prc;
         else if (!prc && !json)
@@ -487,6 +491,7 @@ int cmd_run(int argc, char **argv)
                    plots.report ? plots.report : "");
         ru_run_data_destroy(data);
     }
+    free(text);
     if (rc == 0 && !check_expectations(&ex, &r->meas))
         rc = 4;
     free(r);

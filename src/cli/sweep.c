@@ -211,15 +211,20 @@ int cmd_sweep(int argc, char **argv)
             /* every item runs, in threads or one after another; variants that could
              * not be made keep their status (ru_batch_run skips them) */
             ru_batch_run(items, s.n, (int)threads);
-            if (cli_get(opts, "json"))
+            int json = cli_get(opts, "json") != NULL;
+            if (json)
                 print_json(&s, p, items);
-            else
+            cli_capture cap; /* the text for the report, on the terminal unless --json */
+            cli_capture_begin(&cap, plots.report != NULL, !json);
+            if (cli_capture_printing(&cap))
                 print_table(c, &s, p, items);
+            char *text = cli_capture_end(&cap);
             const char **labels = calloc(s.n, sizeof *labels);
             for (size_t i = 0; labels && i < s.n; i++)
                 labels[i] = p[i].label;
-            rc = labels ? cli_plot_items(&plots, c, items, s.n, labels) : 2;
+            rc = labels ? cli_plot_items(&plots, c, items, s.n, labels, text) : 2;
             free(labels);
+            free(text);
         }
     }
     if (rc == 2)

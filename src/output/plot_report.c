@@ -88,11 +88,10 @@ ru_status ru_plot_report_check(const char *path, ru_error *err)
 }
 
 #ifdef RU_HAVE_PLPLOT
-/* Summary page: the title, the table in columns sized by their longest cell
- * (characters are about 0.0115 of the page width at scale 0.95, wide enough for
- * digits in the proportional font), then the summary lines, each wrapped at word
- * boundaries to RU_REPORT_WRAP characters. Lines that do not fit are dropped. */
-#define RU_REPORT_WRAP 80
+/* The table in columns sized by their longest cell (characters are about 0.0115
+ * of the page width at scale 0.95, wide enough for digits in the proportional
+ * font); rows that do not fit on the first page are dropped (callers with long
+ * tables put them in the summary text, which continues onto further pages). */
 
 static double report_table(const ru_plot_table *t, double y)
 {
@@ -124,35 +123,56 @@ static double report_table(const ru_plot_table *t, double y)
     return y - 0.03;
 }
 
-static void report_page(const char *title, const char *summary, const ru_plot_table *t)
+/* Text pages: the title on the first, then the table (if any), then the summary
+ * in a monospaced font exactly as the terminal shows it (columns line up), lines
+ * longer than RU_REPORT_COLS wrapped at a space (continuations indented), going on
+ * over as many pages as it needs: nothing is cut off. */
+#define RU_REPORT_COLS 110   /* characters per line of the monospaced text */
+#define RU_REPORT_LINE 0.0235 /* line spacing (fraction of the page height) */
+#define RU_REPORT_MONO 0.62  /* character scale of the monospaced text */
+
+static void report_new_page(double *y)
 {
-    char line[256];
-    double y = 0.90;
     pladv(0);
     plvpor(0, 1, 0, 1);
     plwind(0, 1, 0, 1);
+    *y = 0.95;
+}
+
+static void report_pages(const char *title, const char *summary, const ru_plot_table *t)
+{
+    char line[512], raw[RU_REPORT_COLS + 8];
+    double y;
+    report_new_page(&y);
     plot_escape(line, sizeof line, title ? title : "ringup report");
-    plot_text(0.06, 0.94, 0.0, PC_INK, 1.5, line);
-    y = report_table(t, y);
-    for (const char *p = summary; p && *p && y > 0.05;) {
+    plot_text(0.04, 0.94, 0.0, PC_INK, 1.5, line);
+    y = report_table(t, 0.90);
+    plsfont(PL_FCI_MONO, PL_FCI_UPRIGHT, PL_FCI_MEDIUM);
+    int cont = 0; /* 1: this line goes on from the last one */
+    for (const char *p = summary; p && *p;) {
+        size_t room = RU_REPORT_COLS - (cont ? 4 : 0);
         size_t len = strcspn(p, "\n"), cut = len;
-        if (cut > RU_REPORT_WRAP) { /* wrap at the last space before the limit */
-            cut = RU_REPORT_WRAP;
-            while (cut > 20 && p[cut] != ' ')
+        if (cut > room) {
+            cut = room;
+            while (cut > room / 3 && p[cut] != ' ')
                 cut--;
+            if (p[cut] != ' ')
+                cut = room; /* no space to wrap at: cut inside the word */
         }
-        char raw[256];
-        snprintf(raw, sizeof raw, "%.*s", (int)(cut < 255 ? cut : 255), p);
+        if (y - RU_REPORT_LINE < 0.03)
+            report_new_page(&y);
+        snprintf(raw, sizeof raw, "%s%.*s", cont ? "    " : "", (int)cut, p);
         plot_escape(line, sizeof line, raw);
-        y -= 0.035;
-        plot_text(0.06, y, 0.0, PC_INK, 0.95, line);
+        y -= RU_REPORT_LINE;
+        plot_text(0.04, y, 0.0, PC_INK, RU_REPORT_MONO, line);
         p += cut;
-        if (cut == len && *p == '\n')
-            p++; /* the end of a line */
-        else
-            while (*p == ' ')
-                p++; /* a wrap inside a line */
+        cont = cut < len;
+        if (!cont && *p == '\n')
+            p++;
+        while (cont && *p == ' ')
+            p++;
     }
+    plsfont(PL_FCI_SANS, PL_FCI_UPRIGHT, PL_FCI_MEDIUM);
 }
 
 static ru_status report_pdf(const char *tmp, const char *title, const char *summary,
@@ -162,7 +182,7 @@ static ru_status report_pdf(const char *tmp, const char *title, const char *summ
     ru_status st = plot_stream_begin("pdfcairo", tmp, err);
     if (st != RU_OK)
         return st;
-    report_page(title, summary, t);
+    report_pages(title, summary, t);
     for (size_t i = 0; i < n; i++)
         f[i].fig->draw(f[i].data);
     plot_stream_end();
