@@ -29,7 +29,7 @@ PUBLIC = {
     "circuit.h": "circuit", "loader.h": "circuit", "params.h": "circuit",
     "system.h": "system",
     "transient.h": "engines", "smallsig.h": "engines", "descfn.h": "engines",
-    "measure.h": "measure",
+    "measure.h": "measure", "verdict.h": "measure",
     "wavefile.h": "output", "plot.h": "output", "wav.h": "output",
     "json.h": "output",
     "analysis.h": "analysis",

@@ -83,7 +83,7 @@ YAML
 "$ru" montecarlo "$tmp/wien.yaml" --samples 12 --threads 2 >"$tmp/mc.txt" 2>"$tmp/err"
 check "montecarlo" 0 $?
 grepcheck "verdict" "^starts on every unit: no \([0-9]+ of 12 started" "$tmp/mc.txt"
-grepcheck "dead unit listed" "did not start, .*poles' growth -" "$tmp/mc.txt"
+grepcheck "dead unit listed" "unit [0-9]+: no-start, .*poles' growth -" "$tmp/mc.txt"
 grepcheck "drawn values listed" "CS [0-9.]+ nF \([+-][0-9.]+%\)" "$tmp/mc.txt"
 "$ru" montecarlo "$tmp/wien.yaml" --samples 12 --threads 1 --json >"$tmp/mc.json" 2>"$tmp/err"
 check "montecarlo json" 0 $?

@@ -13,6 +13,7 @@
 #include "ringup/smallsig.h"
 #include "ringup/status.h"
 #include "ringup/transient.h"
+#include "ringup/verdict.h"
 #include "ringup/descfn.h"
 #include "ringup/plot.h"
 #include "ringup/wav.h"
@@ -77,6 +78,7 @@ typedef struct ru_prediction {
     double growth_rate_per_s;     /* = dominant.re_per_s */
     double frequency_hz;          /* = dominant.im_rad_per_s / (2 pi) */
     double kick_amplitude_v;      /* dominant-mode amplitude on the probe at t = 0 */
+    double noise_amplitude_v;     /* the dominant mode's thermal level (kT) on the probe */
     double startup_time_s;        /* from growth rate, kick size and settled level */
     double settled_amplitude_v;   /* from the describing function (ringup/descfn.h) */
     double df_frequency_hz;       /* tone frequency where the describing function settles */
@@ -91,7 +93,10 @@ typedef struct ru_run_report {
     char probe[2 * RU_NAME_MAX + 2]; /* "out" or "a-b" */
     double startup_level;         /* start-up threshold used (fraction of settled) */
     ru_solver_stats solver;
-    ru_measure_result meas;
+    ru_measure_result meas;       /* figures, made to follow the verdict */
+    ru_verdict verdict;           /* started, no-start, latched, undecided, driven */
+    double seed_v;                /* physical start level on the probe (V; 0 unknown) */
+    double floor_v;               /* the solver's noise floor on the probe (V) */
     ru_prediction pred;
     double growth_mismatch;       /* (measured - predicted)/predicted growth rate */
     double integrator_damping_per_s; /* estimated numerical damping (NAN unknown) */

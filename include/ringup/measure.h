@@ -7,10 +7,14 @@
  *   envelope      per cycle, from extrema refined by a parabola through the three
  *                 samples around each: amplitude = (max - following min)/2, at the
  *                 time midway between them; ignores the DC level.
- *   settled       mean envelope over the last 10 % of the run; `settled` is false
- *                 when the envelope there still moves by more than 0.5 %.
- *   startup time  first time the envelope reaches startup_level * settled,
- *                 interpolated linearly between envelope points, from t = 0.
+ *   settled       mean envelope over the last 10 % of the run; `settled` is true
+ *                 when the envelope there moves by at most 0.5 % (fitted line) and
+ *                 the mean of each quarter of the window lies within 0.5 % of the
+ *                 window's mean, with at least RU_SETTLE_MIN_CYCLES cycles in it.
+ *   startup time  the first time the envelope enters the start-up band
+ *                 [L, 2 - L] * settled (L = startup_level: +-10 % for 90 %) and
+ *                 stays in it to the end, interpolated linearly between envelope
+ *                 points, from t = 0; NAN when the last point is outside.
  *   growth rate   least-squares slope of ln(envelope) over the points between
  *                 growth_lo and growth_hi of settled and above the kick's level.
  *   frequency     from interpolated crossings of the mean over the settled window.
@@ -51,9 +55,12 @@ void ru_measure_cfg_default(ru_measure_cfg *cfg, double stop_s, double sample_s)
 
 #define RU_NOTE_MAX 256
 
+/* Fewest envelope points in the settled window for `settled`. */
+#define RU_SETTLE_MIN_CYCLES 4
+
 typedef struct ru_measure_result {
-    int started;                 /* 1: the envelope grew at least 10x and did not decay */
-    int settled;                 /* 1: last-10 % envelope moves <= 0.5 % */
+    int started;                 /* set by the verdict (ringup/verdict.h), 0 here */
+    int settled;                 /* 1: the last-10 % envelope is settled (above) */
     double startup_time_s;
     double growth_rate_per_s;    /* sigma of exp(sigma t) */
     double growth_fit_t0_s;      /* fit window start and end times */
@@ -68,7 +75,19 @@ typedef struct ru_measure_result {
     double harmonics_dbc[RU_HARMONICS - 1]; /* [0] is the 2nd harmonic */
     double dc_level_v;           /* mean over the settled window */
     double envelope_drift;       /* relative change over the settled window */
+    double window_spread;        /* largest |quarter mean / window mean - 1| there */
+    double window_s;             /* length of the settled window (s) */
+    size_t window_points;        /* envelope points in it */
+    double t_first_s, t_last_s;  /* times of the first and the last sample pushed */
+    double first_cycle_t_s;      /* time of the first envelope point (NAN: none) */
+    double trough_v;             /* lowest envelope point before the window (NAN: none) */
+    double trough_t_s;           /* its time */
     double peak_envelope_v;      /* largest envelope point (overshoot when > settled) */
+    double peak_t_s;             /* its time */
+    double decay_before_per_s;   /* d ln(envelope)/dt from the peak to the window start
+                                    (NAN: the peak is in the window) */
+    double dc_motion_v;          /* mean of the window's last quarter of samples less
+                                    that of its first quarter (V) */
     size_t cycles;               /* envelope points found */
     char growth_note[RU_NOTE_MAX];  /* why growth is NAN, or "" */
     char settle_note[RU_NOTE_MAX];  /* hint when not settled, or "" */

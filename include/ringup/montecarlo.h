@@ -81,6 +81,8 @@ typedef struct ru_mc_unit {
     ru_status status;               /* RU_OK, or why the run failed */
     char error[256];                /* the message when status is not RU_OK */
     int started;                    /* 1: it started (0 also when the run failed) */
+    int settled;                    /* 1: its tone settled by the end of its run */
+    ru_verdict verdict;             /* the run's verdict (undecided when it failed) */
     double fig[RU_MC_NFIG];         /* measured figures (NAN: not known) */
     double predicted_growth_per_s;  /* dominant poles' real part (NAN: none) */
 } ru_mc_unit;
@@ -111,6 +113,7 @@ void ru_mc_result_destroy(ru_mc_result *r);
 
 size_t ru_mc_sample_count(const ru_mc_result *r);
 size_t ru_mc_started_count(const ru_mc_result *r);
+size_t ru_mc_settled_count(const ru_mc_result *r); /* started units that settled */
 size_t ru_mc_failed_count(const ru_mc_result *r); /* runs that ended in an error */
 const ru_mc_unit *ru_mc_get_unit(const ru_mc_result *r, size_t i);
 const ru_mc_stats *ru_mc_get_stats(const ru_mc_result *r, ru_mc_figure f);

@@ -33,6 +33,8 @@ typedef struct run_sink {
     ru_energy_balance *energy;
     ru_wav *wav;            /* NULL when no audio is written */
     ru_trace *trace;        /* NULL when no picture is wanted */
+    double *x_last;         /* the state at the last sample (n entries) */
+    int have_last;
 } run_sink;
 
 static ru_status sink_sample(void *user, double t_s, const double *x, size_t n)
@@ -51,6 +53,8 @@ static ru_status sink_sample(void *user, double t_s, const double *x, size_t n)
         return st;
     if (k->energy)
         ru_energy_balance_push(k->energy, t_s, x);
+    memcpy(k->x_last, x, n * sizeof *x);
+    k->have_last = 1;
     return RU_OK;
 }
 
@@ -150,16 +154,21 @@ static ru_status keep_envelope(ru_run_data *d, const ru_measure *m)
 
 static ru_status run_transient(const ru_circuit *c, const ru_system *sys,
                                const ru_run_request *rq, ru_run_report *rep,
-                               int probe_pos, int probe_neg, ru_error *err)
+                               int probe_pos, int probe_neg, const double *x_op,
+                               ru_error *err)
 {
     const ru_run_opts *ro = ru_circuit_run_opts_const(c);
     size_t n = ru_system_size(sys);
     ru_status st = RU_OK;
     run_sink k = {.sys = sys, .probe_pos = probe_pos, .probe_neg = probe_neg};
     double *x0 = calloc(n ? n : 1, sizeof *x0);
+    k.x_last = calloc(n ? n : 1, sizeof *k.x_last);
     char path[4096];
-    if (!x0)
+    if (!x0 || !k.x_last) {
+        free(x0);
+        free(k.x_last);
         return ru_error_set(err, RU_ENOMEM, NULL, 0, 0, "out of memory");
+    }
     if ((st = ru_system_initial_state(sys, x0, err)) != RU_OK)
         goto cleanup;
     ru_transient_opts to;
@@ -220,6 +229,13 @@ static ru_status run_transient(const ru_circuit *c, const ru_system *sys,
     }
     if (st == RU_OK || st == RU_ENUMERIC) {
         ru_measure_finish(k.meas, &rep->meas);
+        ru_predict_startup(rep);
+        ru_judge_ctx jc = {.c = c, .sys = sys, .probe_pos = probe_pos,
+                           .probe_neg = probe_neg, .x_op = x_op,
+                           .x_end = k.have_last ? k.x_last : NULL, .rtol = to.rtol,
+                           .atol_rel = to.atol_rel, .seed_v = mc.kick_level_v,
+                           .seed_is_kick = ro->kick == RU_KICK_PRESET};
+        ru_judge_final(&jc, rep);
         if (rq->keep && keep_envelope(rq->keep, k.meas) != RU_OK)
             st = ru_error_set(err, RU_ENOMEM, NULL, 0, 0, "out of memory");
         if (k.energy)
@@ -234,6 +250,7 @@ cleanup:
     ru_energy_balance_destroy(k.energy);
     ru_measure_destroy(k.meas);
     free(x0);
+    free(k.x_last);
     return st;
 }
 
@@ -294,6 +311,7 @@ ru_status ru_analysis_run(const ru_circuit *c, const ru_run_request *rq,
     rep->integrator_damping_per_s = NAN;
     rep->growth_mismatch = NAN;
     ru_system *sys = NULL;
+    double *x_op = NULL;
     ru_status st = ru_system_create(c, &sys, err);
     if (st != RU_OK)
         return st;
@@ -306,7 +324,12 @@ ru_status ru_analysis_run(const ru_circuit *c, const ru_run_request *rq,
     const char *loop = rq->loop_part ? rq->loop_part : ru_circuit_measure_opts_const(c)->loop;
     if (rq->keep)
         ru_run_data_reset(rq->keep);
-    if ((st = ru_predict(c, sys, loop, pos, neg, rep, rq->keep, err)) != RU_OK)
+    x_op = calloc(ru_system_size(sys) ? ru_system_size(sys) : 1, sizeof *x_op);
+    if (!x_op) {
+        st = ru_error_set(err, RU_ENOMEM, NULL, 0, 0, "out of memory");
+        goto done;
+    }
+    if ((st = ru_predict(c, sys, loop, pos, neg, rep, rq->keep, x_op, err)) != RU_OK)
         goto done;
     rep->sample_s = choose_sample(rq, ro, &rep->pred, rep->stop_s);
     if ((st = check_size(c, rep, err)) != RU_OK)
@@ -322,10 +345,11 @@ ru_status ru_analysis_run(const ru_circuit *c, const ru_run_request *rq,
         ru_error_set(err, st, NULL, 0, 0, "cannot set up the noise kick");
         goto done;
     }
-    st = run_transient(c, sys, rq, rep, pos, neg, err);
+    st = run_transient(c, sys, rq, rep, pos, neg, rep->pred.have_op ? x_op : NULL, err);
     if (st == RU_OK || st == RU_ENUMERIC)
         ru_selfcheck(rep);
 done:
+    free(x_op);
     ru_system_destroy(sys);
     return st;
 }

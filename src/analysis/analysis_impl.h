@@ -36,14 +36,38 @@ void ru_report_note(ru_run_report *rep, const char *fmt, ...)
 #endif
     ;
 
-/* Operating point, poles, kick size on the probe and loop gain into rep->pred.
+/* Operating point, poles, kick size on the probe and loop gain into rep->pred;
+ * the operating point into x_op (n states) when not NULL and it was found.
  * Failures of the small-signal engine become notes; RU_EINPUT only for a loop
  * part that is not an amplifier. */
 ru_status ru_predict(const ru_circuit *c, const ru_system *s, const char *loop_part,
                      int probe_pos, int probe_neg, ru_run_report *rep, ru_run_data *keep,
-                     ru_error *err);
+                     double *x_op, ru_error *err);
+
+/* The predicted start-up time into rep->pred (from the growth rate, the kick and
+ * the describing function's amplitude, else the measured one); quiet (no notes). */
+void ru_predict_startup(ru_run_report *rep);
 
 /* After the transient: start-up prediction and the comparison notes. */
 void ru_selfcheck(ru_run_report *rep);
+
+/* What the verdict needs to know about the run besides its figures (judge.c). */
+typedef struct ru_judge_ctx {
+    const ru_circuit *c;
+    const ru_system *sys;
+    int probe_pos, probe_neg;
+    const double *x_op;     /* operating point (n states), NULL when not found */
+    const double *x_end;    /* the state at the last sample, NULL when none */
+    double rtol, atol_rel;  /* the tolerances the transient used */
+    double seed_v;          /* physical start level on the probe (V; 0 unknown) */
+    int seed_is_kick;       /* 1: a preset kick */
+} ru_judge_ctx;
+
+/* Judges the run as it stands in rep->meas (final: the run ends here). */
+void ru_judge(const ru_judge_ctx *j, const ru_run_report *rep, int final,
+              ru_verdict_result *out);
+
+/* The final verdict: judged, applied to rep->meas, rep->verdict and its notes. */
+void ru_judge_final(const ru_judge_ctx *j, ru_run_report *rep);
 
 #endif

@@ -136,8 +136,9 @@ static void predict_poles(const ru_system *s, const double *x_op, int pos, int n
     pr->dominant = poles[d];
     pr->growth_rate_per_s = poles[d].re_per_s;
     pr->frequency_hz = poles[d].im_rad_per_s / (2 * M_PI);
+    pr->noise_amplitude_v = noise_amplitude(s, x_op, poles[d], pos, neg);
     if (ru_circuit_run_opts_const(ru_system_circuit(s))->kick == RU_KICK_NOISE) {
-        pr->kick_amplitude_v = noise_amplitude(s, x_op, poles[d], pos, neg);
+        pr->kick_amplitude_v = pr->noise_amplitude_v;
     } else if (ru_system_initial_state(s, x0, NULL) == RU_OK) {
         for (size_t i = 0; i < n; i++)
             x0[i] -= x_op[i];
@@ -202,11 +203,12 @@ static ru_status predict_loop(const ru_circuit *c, const ru_system *s, const cha
 
 ru_status ru_predict(const ru_circuit *c, const ru_system *s, const char *loop_part,
                      int probe_pos, int probe_neg, ru_run_report *rep, ru_run_data *keep,
-                     ru_error *err)
+                     double *x_op_out, ru_error *err)
 {
     ru_prediction *pr = &rep->pred;
     pr->growth_rate_per_s = pr->frequency_hz = NAN;
     pr->kick_amplitude_v = pr->startup_time_s = pr->settled_amplitude_v = NAN;
+    pr->noise_amplitude_v = NAN;
     pr->df_frequency_hz = NAN;
     int floating;
     if (ru_circuit_find_floating_node(c, &floating)) {
@@ -227,6 +229,8 @@ ru_status ru_predict(const ru_circuit *c, const ru_system *s, const char *loop_p
         goto done;
     }
     pr->have_op = 1;
+    if (x_op_out)
+        memcpy(x_op_out, x_op, n * sizeof *x_op);
     predict_poles(s, x_op, probe_pos, probe_neg, rep, keep);
     if (pr->have_poles && pr->growth_rate_per_s > 0)
         predict_amplitude(s, x_op, probe_pos, probe_neg, rep, keep);
@@ -249,6 +253,16 @@ static double startup_model(double sigma, double a0, double amp, double level)
     return log(r / (1.0 / (level * level) - 1.0)) / (2.0 * sigma);
 }
 
+void ru_predict_startup(ru_run_report *rep)
+{
+    ru_prediction *pr = &rep->pred;
+    double amp = isfinite(pr->settled_amplitude_v) ? pr->settled_amplitude_v
+                                                   : rep->meas.settled_amplitude_v;
+    if (pr->have_poles && pr->kick_amplitude_v < 0.1 * amp)
+        pr->startup_time_s = startup_model(pr->growth_rate_per_s, pr->kick_amplitude_v,
+                                           amp, rep->startup_level);
+}
+
 void ru_selfcheck(ru_run_report *rep)
 {
     if (rep->partial) {
@@ -260,10 +274,8 @@ void ru_selfcheck(ru_run_report *rep)
     ru_prediction *pr = &rep->pred;
     double amp = isfinite(pr->settled_amplitude_v) ? pr->settled_amplitude_v
                                                    : m->settled_amplitude_v;
-    if (pr->have_poles && pr->kick_amplitude_v < 0.1 * amp)
-        pr->startup_time_s = startup_model(pr->growth_rate_per_s, pr->kick_amplitude_v,
-                                           amp, rep->startup_level);
-    else if (pr->have_poles && isfinite(amp))
+    ru_predict_startup(rep);
+    if (pr->have_poles && isfinite(amp) && !(pr->kick_amplitude_v < 0.1 * amp))
         ru_report_note(rep, "no start-up prediction: the kick (%.3g V in the dominant "
                             "mode) is not small against the settled amplitude, so the "
                             "start is not a small-signal growth",
@@ -280,11 +292,6 @@ void ru_selfcheck(ru_run_report *rep)
                            "is large; try --verify",
                            100 * rep->growth_mismatch);
     }
-    if (pr->have_poles && pr->growth_rate_per_s > 0 && !m->started)
-        ru_report_note(rep, "the poles say it grows (%.4g /s) but the run shows no "
-                            "start: run longer (the growth needs about %.3g s per "
-                            "decade)",
-                       pr->growth_rate_per_s, log(10.0) / pr->growth_rate_per_s);
     if (pr->have_poles && pr->growth_rate_per_s < 0 && m->started)
         ru_report_note(rep, "the poles are in the left half-plane yet the run started: "
                             "a large kick can start a hard-excited oscillator");
@@ -301,8 +308,8 @@ void ru_selfcheck(ru_run_report *rep)
         ru_report_note(rep, "the envelope overshoots to %.3g V, %.2gx the settled "
                             "amplitude, before it settles (an amplitude control with "
                             "memory, such as a lamp or thermistor, or a loop that "
-                            "bounces): the settling time, not the start-up time, says "
-                            "when the tone is usable",
+                            "bounces): the start-up time is when it stays within the "
+                            "start-up band",
                        m->peak_envelope_v, m->peak_envelope_v / m->settled_amplitude_v);
     /* the measured tone, else the predicted one (a tone sampled too coarsely may
      * show no cycle at all, and then "run longer" would be the wrong advice) */
@@ -316,12 +323,9 @@ void ru_selfcheck(ru_run_report *rep)
                             "--sample to %.3g s or less",
                        1.0 / (f_hz * rep->sample_s), measured_f ? "measured" : "predicted",
                        1.0 / (64 * f_hz));
-    if (m->started && !m->settled && m->settle_note[0])
-        ru_report_note(rep, "%s", m->settle_note);
-    /* a figure that cannot be had is null: say why (the measurement's own notes) */
-    if (!m->started && m->growth_note[0])
-        ru_report_note(rep, "%s", m->growth_note);
-    else if (!isfinite(m->growth_rate_per_s) && m->growth_note[0])
+    /* a figure that cannot be had is null: say why (the measurement's own notes;
+     * the verdict's notes say why a run that did not start has none) */
+    if (m->started && !isfinite(m->growth_rate_per_s) && m->growth_note[0])
         ru_report_note(rep, "no growth rate: %s", m->growth_note);
     if (m->started && !isfinite(m->thd_percent) && m->thd_note[0])
         ru_report_note(rep, "no %sTHD: %s",

@@ -21,6 +21,7 @@
 struct ru_mc_result {
     size_t samples;          /* units */
     size_t started;          /* units that started */
+    size_t settled;          /* started units that settled */
     size_t failed;           /* units whose run ended in an error */
     size_t ntol;             /* parts with a tolerance */
     char (*tol_name)[RU_NAME_MAX]; /* their names, circuit order */
@@ -177,6 +178,7 @@ static void keep_unit(ru_mc_result *r, size_t index, const ru_batch_item *it)
         u->fig[f] = NAN;
     u->predicted_growth_per_s = it->report.pred.have_poles
                                     ? it->report.pred.growth_rate_per_s : NAN;
+    u->verdict = it->status == RU_OK ? it->report.verdict : RU_VERDICT_UNDECIDED;
     if (it->status != RU_OK) {
         ru_error_format(&it->error, u->error, sizeof u->error);
         r->failed++;
@@ -184,7 +186,9 @@ static void keep_unit(ru_mc_result *r, size_t index, const ru_batch_item *it)
     }
     const ru_measure_result *m = &it->report.meas;
     u->started = m->started != 0;
+    u->settled = m->settled != 0;
     r->started += (size_t)u->started;
+    r->settled += (size_t)(u->started && u->settled);
     double fig[RU_MC_NFIG] = {m->startup_time_s, m->growth_rate_per_s, m->frequency_hz,
                               m->settled_amplitude_v, m->thd_percent};
     memcpy(u->fig, fig, sizeof fig);
@@ -289,6 +293,7 @@ ru_status ru_mc_run(const ru_circuit *c, const ru_mc_opts *o, ru_mc_result **out
 
 size_t ru_mc_sample_count(const ru_mc_result *r) { return r->samples; }
 size_t ru_mc_started_count(const ru_mc_result *r) { return r->started; }
+size_t ru_mc_settled_count(const ru_mc_result *r) { return r->settled; }
 size_t ru_mc_failed_count(const ru_mc_result *r) { return r->failed; }
 size_t ru_mc_tol_count(const ru_mc_result *r) { return r->ntol; }
 

@@ -68,8 +68,8 @@ static void print_row(const variant *v, const ru_batch_item *it)
         snprintf(b, sizeof b, "%.4g /s", m->growth_rate_per_s);
     else
         snprintf(b, sizeof b, "-");
-    printf("  %-18s %-4s %-11s %-11s %-12s %-10s %-10s", v->model, m->started ? "yes" : "no",
-           a, b, c, d, e);
+    printf("  %-18s %-8s %-8s %-11s %-11s %-12s %-10s %-10s", v->model,
+           m->started ? "yes" : "no", m->settled ? "yes" : "no", a, b, c, d, e);
     if (isfinite(m->thd_percent))
         printf(" %-8.3g %-7.1f %-7.1f\n", m->thd_percent, m->harmonics_dbc[0],
                m->harmonics_dbc[1]);
@@ -82,8 +82,8 @@ static void print_table(const ru_circuit *c, const char *part, const variant *v,
 {
     printf("%s: %s\nmodels in part %s, same circuit otherwise\n\n", ru_circuit_file(c),
            ru_circuit_title(c), part);
-    printf("  %-18s %-4s %-11s %-11s %-12s %-10s %-10s %-8s %-7s %-7s\n", "model", "ok?",
-           "start-up", "growth", "frequency", "amplitude", "predicted", "THD %", "HD2 dB",
+    printf("  %-18s %-8s %-8s %-11s %-11s %-12s %-10s %-10s %-8s %-7s %-7s\n", "model",
+           "started", "settled", "start-up", "growth", "frequency", "amplitude", "predicted", "THD %", "HD2 dB",
            "HD3 dB");
     for (size_t i = 0; i < n; i++)
         print_row(&v[i], &items[i]);

@@ -10,6 +10,7 @@
 static void json_measured(ru_json *j, const ru_run_report *r)
 {
     const ru_measure_result *m = &r->meas;
+    ru_json_string(j, "verdict", ru_verdict_name(r->verdict));
     ru_json_bool(j, "started", m->started);
     ru_json_bool(j, "settled", m->settled);
     ru_json_number(j, "startup_time_s", m->startup_time_s);

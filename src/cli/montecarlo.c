@@ -58,8 +58,9 @@ static void print_unit(const ru_mc_result *r, const ru_circuit *c, size_t i)
     if (u->status != RU_OK)
         printf("  unit %zu%s: error: %s\n   ", i, i ? "" : " (nominal)", u->error);
     else
-        printf("  unit %zu%s: %s, start-up %s, amplitude %s, poles' growth %s\n   ", i,
-               i ? "" : " (nominal)", u->started ? "started" : "did not start", a, b, g);
+        printf("  unit %zu%s: %s%s, start-up %s, amplitude %s, poles' growth %s\n   ", i,
+               i ? "" : " (nominal)", ru_verdict_name(u->verdict),
+               u->started && !u->settled ? " (not settled)" : "", a, b, g);
     for (size_t k = 0; k < ru_mc_tol_count(r); k++) {
         const char *name = ru_mc_tol_name(r, k);
         int pi = ru_circuit_find_part(c, name);
@@ -96,7 +97,8 @@ static void print_table(const ru_circuit *c, const ru_mc_opts *o, const ru_mc_re
            ru_circuit_file(c), ru_circuit_title(c), n, (unsigned long long)o->seed,
            o->dist == RU_MC_NORMAL ? "normal deviations, sigma = tol/3, truncated at +-tol"
                                    : "uniform deviations within +-tol");
-    printf("\nstarts on every unit: %s (%zu of %zu started", k == n ? "yes" : "no", k, n);
+    printf("\nstarts on every unit: %s (%zu of %zu started, %zu of them settled", k == n ? "yes" : "no",
+           k, n, ru_mc_settled_count(r));
     if (ru_mc_failed_count(r))
         printf(", %zu runs failed", ru_mc_failed_count(r));
     printf(")\n");
@@ -133,7 +135,9 @@ static void json_unit(ru_json *j, const ru_mc_result *r, size_t i)
     const ru_mc_unit *u = ru_mc_get_unit(r, i);
     ru_json_begin_object(j, NULL);
     ru_json_int(j, "index", (long)i);
+    ru_json_string(j, "verdict", ru_verdict_name(u->verdict));
     ru_json_bool(j, "started", u->started);
+    ru_json_bool(j, "settled", u->settled);
     if (u->status != RU_OK)
         ru_json_string(j, "error", u->error);
     for (int f = 0; f < RU_MC_NFIG; f++)
@@ -155,6 +159,7 @@ static void print_json(const ru_mc_opts *o, const ru_mc_result *r)
     ru_json_number(&j, "seed", (double)o->seed);
     ru_json_string(&j, "distribution", o->dist == RU_MC_NORMAL ? "normal" : "uniform");
     ru_json_int(&j, "started_count", (long)ru_mc_started_count(r));
+    ru_json_int(&j, "settled_count", (long)ru_mc_settled_count(r));
     ru_json_int(&j, "failed_count", (long)ru_mc_failed_count(r));
     ru_json_bool(&j, "all_started", ru_mc_started_count(r) == ru_mc_sample_count(r));
     json_stats(&j, r);

@@ -66,7 +66,9 @@ static void print_text(const ru_circuit *c, const ru_run_report *r, int auto_sam
            ru_format_si(r->stop_s, "s", 4, a, sizeof a),
            ru_format_si(r->sample_s, "s", 4, b, sizeof b), auto_sample ? " (auto)" : "");
     printf("  %-20s %-16s %s\n", "", "measured", "predicted");
-    printf("  %-20s %-16s %s\n", "started", yes_no(m->started),
+    char vb[40];
+    snprintf(vb, sizeof vb, "%s (%s)", yes_no(m->started), ru_verdict_name(r->verdict));
+    printf("  %-20s %-16s %s\n", "started", vb,
            !p->have_poles              ? "-"
            : p->growth_rate_per_s > 0 ? "yes (poles right of jw axis)"
            : p->growth_rate_per_s < 0 ? "no (poles left of jw axis)"
@@ -199,29 +201,53 @@ static int parse_expectations(const cli_opt *opts, expectations *e)
     return 1;
 }
 
-/* Prints each missed expectation to stderr; returns 1 when all are met. */
-static int check_expectations(const expectations *e, const ru_measure_result *m)
+/* What an expectation got when the run gives no final figure: "not settled by T"
+ * for a tone whose envelope still moves at the end, else the verdict. NULL: final.
+ * A start-up time needs a settled start; an amplitude or THD a settled tone (a
+ * settled driven tone has them too). */
+static const char *not_final(const ru_run_report *r, int need_start, char *buf,
+                             size_t size)
 {
+    const ru_measure_result *m = &r->meas;
+    char t[40];
+    if (m->settled && (m->started || !need_start))
+        return NULL;
+    if (m->started || (!need_start && isfinite(m->settled_amplitude_v))) {
+        snprintf(buf, size, "not settled by %s", ru_format_si(m->t_last_s, "s", 4, t, sizeof t));
+        return buf;
+    }
+    snprintf(buf, size, "no start (%s)", ru_verdict_name(r->verdict));
+    return buf;
+}
+
+/* Prints each missed expectation to stderr; returns 1 when all are met. An
+ * expectation on a run that did not start, or that has not settled by its end, is
+ * not met: an unsettled figure is not final. */
+static int check_expectations(const expectations *e, const ru_run_report *r)
+{
+    const ru_measure_result *m = &r->meas;
     int ok = 1;
-    char a[40], b[40];
-    if (isfinite(e->start_within_s) &&
-        !(m->started && m->startup_time_s <= e->start_within_s)) {
+    char a[40], b[64], c[64];
+    const char *nf = not_final(r, 1, b, sizeof b);
+    if (isfinite(e->start_within_s) && (nf || !(m->startup_time_s <= e->start_within_s))) {
         fprintf(stderr, "expectation not met: start-up within %s (got %s)\n",
                 ru_format_si(e->start_within_s, "s", 4, a, sizeof a),
-                m->started ? ru_format_si(m->startup_time_s, "s", 4, b, sizeof b) : "no start");
+                nf ? nf : ru_format_si(m->startup_time_s, "s", 4, b, sizeof b));
         ok = 0;
     }
-    if (isfinite(e->amp_lo_v) && !(m->settled_amplitude_v >= e->amp_lo_v &&
-                                   m->settled_amplitude_v <= e->amp_hi_v && m->started)) {
+    nf = not_final(r, 0, c, sizeof c);
+    if (isfinite(e->amp_lo_v) && (nf || !(m->settled_amplitude_v >= e->amp_lo_v &&
+                                          m->settled_amplitude_v <= e->amp_hi_v))) {
         fprintf(stderr, "expectation not met: settled amplitude in %g V .. %g V (got %s)\n",
                 e->amp_lo_v, e->amp_hi_v,
-                ru_format_si(m->settled_amplitude_v, "V", 4, a, sizeof a));
+                nf ? nf : ru_format_si(m->settled_amplitude_v, "V", 4, a, sizeof a));
         ok = 0;
     }
-    if (isfinite(e->thd_below_percent) && !(m->thd_percent < e->thd_below_percent)) {
+    if (isfinite(e->thd_below_percent) && (nf || !(m->thd_percent < e->thd_below_percent))) {
         fprintf(stderr, "expectation not met: THD below %g %% (got %s)\n",
                 e->thd_below_percent,
-                isfinite(m->thd_percent) ? (snprintf(a, sizeof a, "%.4g %%", m->thd_percent), a)
+                nf                       ? nf
+                : isfinite(m->thd_percent) ? (snprintf(a, sizeof a, "%.4g %%", m->thd_percent), a)
                                          : "no THD: no settled tone");
         ok = 0;
     }
@@ -492,7 +518,7 @@ int cmd_run(int argc, char **argv)
         ru_run_data_destroy(data);
     }
     free(text);
-    if (rc == 0 && !check_expectations(&ex, &r->meas))
+    if (rc == 0 && !check_expectations(&ex, r))
         rc = 4;
     free(r);
     free(r2);

@@ -63,8 +63,8 @@ static void print_row(const point *p, const ru_batch_item *it)
         snprintf(f, sizeof f, "%.3g", m->thd_percent);
     else
         snprintf(f, sizeof f, "-");
-    printf("  %-12s %-4s %-11s %-11s %-11s %-12s %-10s %-10s %s\n", p->label,
-           m->started ? "yes" : "no", a, b, b2, c, d, e, f);
+    printf("  %-12s %-8s %-8s %-11s %-11s %-11s %-12s %-10s %-10s %s\n", p->label,
+           m->started ? "yes" : "no", m->settled ? "yes" : "no", a, b, b2, c, d, e, f);
 }
 
 static void print_table(const ru_circuit *c, const ru_sweep_spec *s, const point *p,
@@ -73,8 +73,8 @@ static void print_table(const ru_circuit *c, const ru_sweep_spec *s, const point
     printf("%s: %s\n%s from %s to %s, %zu %s points, same circuit otherwise\n\n",
            ru_circuit_file(c), ru_circuit_title(c), s->param, p[0].label,
            p[s->n - 1].label, s->n, s->log ? "geometric" : "linear");
-    printf("  %-12s %-4s %-11s %-11s %-11s %-12s %-10s %-10s %s\n", "value", "ok?",
-           "start-up", "growth", "predicted", "frequency", "amplitude", "predicted",
+    printf("  %-12s %-8s %-8s %-11s %-11s %-11s %-12s %-10s %-10s %s\n", "value", "started",
+           "settled", "start-up", "growth", "predicted", "frequency", "amplitude", "predicted",
            "THD %");
     for (size_t i = 0; i < s->n; i++)
         print_row(&p[i], &items[i]);

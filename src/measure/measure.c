@@ -11,16 +11,17 @@
  *     [first t, last t] (= [0.9 stop, stop] for a run from 0 to stop); a run pushed
  *     past stop_s keeps only the last 0.1 stop_s of samples for the sample figures;
  *   - envelope drift = slope of a least-squares line through the window's envelope
- *     points times the window length, over the mean; settled when |drift| <= 0.5 %;
- *   - started: settled amplitude >= 10x the reference (the lowest envelope point
- *     before the settled window, or the kick level when given and lower), or no
- *     cycle at all in the first 3 periods (it emerged from below the visible level,
- *     e.g. under a bias transient after power-on), or it came down from at least
- *     1.2x its settled size and holds flat there (a large kick above the limit
- *     cycle), and
- *     drift >= -10 % (not clearly decaying); the growth fit looks at the envelope
- *     from that lowest point on (a power-on transient before it is not part of the
- *     growth); the start-up time is the first time the level is reached from t = 0;
+ *     points times the window length, over the mean; the quarter spread = the
+ *     largest distance of a quarter's mean (by time) from the window's mean, over
+ *     it (halves with fewer than 8 points); settled when both are <= 0.5 % and the
+ *     window holds at least RU_SETTLE_MIN_CYCLES points;
+ *   - every figure is measured on whatever tone there is; whether it is a start-up
+ *     (and which figures stand) is the verdict's call (verdict.c), not this file's;
+ *   - the start-up time is the entry into the band [L, 2 - L] x settled after which
+ *     the envelope never leaves it (L = startup_level), interpolated linearly at
+ *     the band edge it crossed last; the growth fit looks at the envelope from the
+ *     lowest point before the window up to that time (a power-on transient before
+ *     it is not part of the growth);
  *   - settling time: the band crossing interpolated linearly between the last point
  *     outside the band and the next point (the first point's time when none is
  *     outside); NAN when the last point is outside. */
@@ -44,10 +45,7 @@ struct ru_measure {
 };
 
 #define DRIFT_LIMIT 0.005   /* settled when the window's envelope moves <= 0.5 % */
-#define DECAY_LIMIT (-0.10) /* started only if the window loses < 10 % */
-#define GROW_MIN 10.0       /* started: grew at least 10x */
-#define EMERGE_PERIODS 3.0  /* or: no cycle at all for the first 3 periods */
-#define FROM_ABOVE 1.2      /* or: came down from 1.2x the settled size and held */
+#define SPREAD_LIMIT 0.005  /* ... and each quarter's mean is within 0.5 % */
 
 void ru_measure_cfg_default(ru_measure_cfg *cfg, double stop_s, double sample_s)
 {
@@ -236,19 +234,58 @@ static void settle_hint(const ru_envelope *e, size_t i0, double tw_s, double wle
     }
 }
 
-/* First time the envelope reaches level_v, linear between points; NAN if never. */
-static double first_reach(const ru_envelope *e, size_t from, double level_v)
+/* Start-up time: the entry into [lo_v, hi_v] after which the envelope stays in it
+ * to the end, linear between the last point outside and the next at the edge it
+ * crossed; the first point's time when every point is inside, NAN when the last
+ * one is outside. */
+static double band_entry(const ru_envelope *e, double lo_v, double hi_v)
 {
-    for (size_t i = from; i < e->n_env; i++) {
-        if (e->env_a[i] >= level_v) {
-            if (i == from)
-                return e->env_t[0];
-            double a0 = e->env_a[i - 1], a1 = e->env_a[i];
-            double f = (level_v - a0) / (a1 - a0);
-            return e->env_t[i - 1] + f * (e->env_t[i] - e->env_t[i - 1]);
+    size_t n = e->n_env, out = n;
+    if (n == 0 || e->env_a[n - 1] < lo_v || e->env_a[n - 1] > hi_v)
+        return NAN;
+    for (size_t i = n; i-- > 0;)
+        if (e->env_a[i] < lo_v || e->env_a[i] > hi_v) {
+            out = i;
+            break;
         }
+    if (out == n)
+        return e->env_t[0];
+    double a0 = e->env_a[out], a1 = e->env_a[out + 1];
+    double edge = a0 < lo_v ? lo_v : hi_v;
+    double f = (edge - a0) / (a1 - a0);
+    return e->env_t[out] + f * (e->env_t[out + 1] - e->env_t[out]);
+}
+
+/* Largest |mean of a quarter (by time) / mean - 1| over the window's points
+ * [i0, n); halves with fewer than 8 points, 0 with fewer than 2. */
+static double quarter_spread(const ru_envelope *e, size_t i0, double tw_s, double wlen_s,
+                             double mean)
+{
+    size_t n = e->n_env - i0;
+    int parts = n >= 8 ? 4 : n >= 2 ? 2 : 0;
+    double worst = 0.0;
+    for (int q = 0; q < parts; q++) {
+        double ta = tw_s + wlen_s * q / parts, tb = tw_s + wlen_s * (q + 1) / parts, s = 0;
+        size_t k = 0;
+        for (size_t i = i0; i < e->n_env; i++)
+            if (e->env_t[i] >= ta && (e->env_t[i] < tb || q == parts - 1)) {
+                s += e->env_a[i];
+                k++;
+            }
+        if (k > 0)
+            worst = fmax(worst, fabs(s / (double)k / mean - 1.0));
     }
-    return NAN;
+    return worst;
+}
+
+/* Time of the first envelope point at or above level_v from index `from` on
+ * (INFINITY when none): the growth phase ends there. */
+static double first_above(const ru_envelope *e, size_t from, double level_v)
+{
+    for (size_t i = from; i < e->n_env; i++)
+        if (e->env_a[i] >= level_v)
+            return e->env_t[i];
+    return INFINITY;
 }
 
 static void growth_fit(const ru_envelope *e, const ru_measure_cfg *c, size_t from,
@@ -330,6 +367,29 @@ static ru_status win_make(const ru_measure *m, double tw_s, ru_window *w)
     return RU_OK;
 }
 
+/* DC motion over the window: the mean of its last quarter less that of its first.
+ * With a tone each quarter is cut to whole periods of it (a partial period would
+ * read as DC); NAN when the window holds fewer than 4 periods. */
+static double dc_motion(const ru_window *w, double f_hz)
+{
+    size_t nw = w->n - w->i_w, q = nw / 4;
+    if (isfinite(f_hz) && f_hz > 0) {
+        double per = 1.0 / (f_hz * w->dt_s); /* samples per period */
+        double k = floor((double)q / per);
+        if (k < 1)
+            return NAN;
+        q = (size_t)llround(k * per);
+    }
+    if (q == 0)
+        return NAN;
+    double s0 = 0, s1 = 0;
+    for (size_t i = 0; i < q; i++) {
+        s0 += w->x[w->i_w + i];
+        s1 += w->x[w->n - q + i];
+    }
+    return (s1 - s0) / (double)q;
+}
+
 /* DC level, frequency, THD and harmonics from the settled window. */
 static ru_status window_figures(const ru_measure *m, double tw_s, ru_measure_result *r)
 {
@@ -337,6 +397,8 @@ static ru_status window_figures(const ru_measure *m, double tw_s, ru_measure_res
     ru_status st = win_make(m, tw_s, &w);
     if (st == RU_OK)
         st = ru_window_figures(&w, r);
+    if (st == RU_OK)
+        r->dc_motion_v = dc_motion(&w, r->frequency_hz);
     free(w.x);
     return st;
 }
@@ -350,35 +412,36 @@ static void result_init(ru_measure_result *r)
     r->growth_fit_t0_s = r->growth_fit_t1_s = r->growth_fit_rms = NAN;
     r->frequency_hz = r->settled_amplitude_v = r->settling_time_s = NAN;
     r->thd_percent = r->dc_level_v = r->envelope_drift = r->fundamental_v = NAN;
+    r->window_spread = r->window_s = r->first_cycle_t_s = NAN;
+    r->trough_v = r->trough_t_s = r->peak_envelope_v = r->peak_t_s = NAN;
+    r->decay_before_per_s = r->dc_motion_v = r->t_first_s = r->t_last_s = NAN;
     for (int k = 0; k < RU_HARMONICS - 1; k++)
         r->harmonics_dbc[k] = NAN;
 }
 
-/* Not started: every figure but dc_level_v and envelope_drift is NAN; the reason
- * goes into all three notes. */
-static void not_started(ru_measure_result *r, const char *why)
+/* The envelope's shape around the settled window: the lowest point before it, the
+ * largest point of all and how fast the envelope came down from that peak to the
+ * window (a limiter holding a tone that started above its size flattens out; a
+ * passive ring-down keeps its rate). */
+static size_t shape_stats(const ru_envelope *e, size_t i0, double tw_s, double mean,
+                          ru_measure_result *r)
 {
-    r->started = 0;
-    r->settled = 0;
-    r->frequency_hz = r->thd_percent = r->settled_amplitude_v = r->fundamental_v = NAN;
-    for (int k = 0; k < RU_HARMONICS - 1; k++)
-        r->harmonics_dbc[k] = NAN;
-    snprintf(r->growth_note, RU_NOTE_MAX, "did not start: %s", why);
-    snprintf(r->settle_note, RU_NOTE_MAX, "did not start: %s", why);
-    snprintf(r->thd_note, RU_NOTE_MAX, "did not start: %s", why);
-}
-
-/* Not a start-up, but a steady tone in the settled window (a driven circuit, or a
- * tank kicked at its final size): the tone's figures (amplitude, frequency, THD,
- * DC level) are kept; start-up, growth and settling stay unknown. */
-static void steady_tone(ru_measure_result *r, double mean, const char *why)
-{
-    r->started = 0;
-    r->settled = 1;
-    r->settled_amplitude_v = mean;
-    snprintf(r->growth_note, RU_NOTE_MAX,
-             "did not start (%.80s); the tone was steady (driven, or kicked at its final "
-             "size): its amplitude, frequency and THD are given", why);
+    size_t trough = 0, peak = 0;
+    for (size_t i = 1; i < i0; i++)
+        if (e->env_a[i] < e->env_a[trough])
+            trough = i;
+    if (i0 > 0) {
+        r->trough_v = e->env_a[trough];
+        r->trough_t_s = e->env_t[trough];
+    }
+    for (size_t i = 1; i < e->n_env; i++)
+        if (e->env_a[i] > e->env_a[peak])
+            peak = i;
+    r->peak_envelope_v = e->env_a[peak];
+    r->peak_t_s = e->env_t[peak];
+    if (peak < i0 && tw_s > e->env_t[peak])
+        r->decay_before_per_s = log(mean / e->env_a[peak]) / (tw_s - e->env_t[peak]);
+    return trough;
 }
 
 ru_status ru_measure_finish(ru_measure *m, ru_measure_result *r)
@@ -389,80 +452,55 @@ ru_status ru_measure_finish(ru_measure *m, ru_measure_result *r)
     const ru_envelope *e = &m->env;
     r->cycles = e->n_env;
     if (m->count < 2) {
-        not_started(r, "fewer than 2 samples");
+        snprintf(r->growth_note, RU_NOTE_MAX, "fewer than 2 samples");
         return RU_OK;
     }
+    r->t_first_s = m->t_first_s;
+    r->t_last_s = m->t_last_s;
     double wlen = 0.1 * (m->t_last_s - m->t_first_s), tw = m->t_last_s - wlen;
+    r->window_s = wlen;
     ru_status st = window_figures(m, tw, r);
     if (st != RU_OK)
         return st;
+    if (e->n_env > 0)
+        r->first_cycle_t_s = e->env_t[0];
     size_t i0 = 0;
     double mean = NAN, drift = NAN;
-    if (settle_stats(e, tw, wlen, &i0, &mean, &drift) == 0) {
-        not_started(r, "no cycle in the last 10 % of the run");
+    r->window_points = settle_stats(e, tw, wlen, &i0, &mean, &drift);
+    if (r->window_points == 0) {
+        snprintf(r->growth_note, RU_NOTE_MAX, "no cycle in the last 10 %% of the run");
+        snprintf(r->settle_note, RU_NOTE_MAX, "no cycle in the last 10 %% of the run");
         return RU_OK;
     }
     r->envelope_drift = drift;
-    /* The start is measured from the envelope's lowest point before the settled
-     * window: a power-on transient can leave a large first "cycle" (the bias
-     * moving) before the oscillation grows from a much smaller level. */
-    size_t trough = 0;
-    for (size_t i = 1; i < i0; i++)
-        if (e->env_a[i] < e->env_a[trough])
-            trough = i;
-    double ref = e->env_a[trough];
-    if (m->cfg.kick_level_v > 0.0 && m->cfg.kick_level_v < ref)
-        ref = m->cfg.kick_level_v;
-    /* An oscillation that shows no cycle for its first EMERGE_PERIODS periods and is
-     * sustained at the end grew from below what the probe shows: under a fast DC
-     * transient (a bias still settling) there are no extrema to measure, so the
-     * 10x rule cannot be applied and is not needed. */
-    double period = m->cfg.period_hint_s;
-    if (!(period > 0) && e->n_env - i0 >= 2)
-        period = (e->env_t[e->n_env - 1] - e->env_t[i0]) / (double)(e->n_env - 1 - i0);
-    int emerged = period > 0 && e->env_t[0] - m->t_first_s > EMERGE_PERIODS * period;
-    /* A large kick (or a power-on step) that starts the tone above its final size:
-     * the envelope came down by at least FROM_ABOVE and has gone flat, so an active
-     * limiter holds it there. A passive ring-down is still falling in the window,
-     * and a lossless tank never came down. */
-    double peak = m->cfg.kick_level_v; /* the kick itself may be the largest swing */
-    for (size_t i = 0; i < e->n_env; i++)
-        peak = fmax(peak, e->env_a[i]);
-    int from_above = peak >= FROM_ABOVE * mean && fabs(drift) <= DRIFT_LIMIT &&
-                     e->n_env - i0 >= 4;
-    char why[RU_NOTE_MAX];
-    if (!(mean >= GROW_MIN * ref) && !emerged && !from_above) {
-        snprintf(why, sizeof why, "the envelope grew %.3gx, less than %gx", mean / ref,
-                 GROW_MIN);
-        if (fabs(drift) <= DRIFT_LIMIT && e->n_env - i0 >= 2) {
-            steady_tone(r, mean, why);
-            return RU_OK;
-        }
-        not_started(r, why);
-        return RU_OK;
-    }
-    if (drift < DECAY_LIMIT) {
-        snprintf(why, sizeof why, "the envelope decays %.3g %% over the last 10 %%",
-                 -100.0 * drift);
-        not_started(r, why);
-        return RU_OK;
-    }
-    r->started = 1;
     r->settled_amplitude_v = mean;
-    r->settled = fabs(drift) <= DRIFT_LIMIT && e->n_env - i0 >= 2;
-    if (!r->settled && e->n_env - i0 < 2)
+    r->window_spread = quarter_spread(e, i0, tw, wlen, mean);
+    size_t trough = shape_stats(e, i0, tw, mean, r);
+    r->settled = r->window_points >= RU_SETTLE_MIN_CYCLES && fabs(drift) <= DRIFT_LIMIT &&
+                 r->window_spread <= SPREAD_LIMIT;
+    if (!r->settled && r->window_points < RU_SETTLE_MIN_CYCLES)
         snprintf(r->settle_note, RU_NOTE_MAX,
-                 "only one cycle in the last 10 %% of the run: too few to tell whether "
-                 "the envelope still moves; run longer");
-    else if (!r->settled)
+                 "only %s in the last 10 %% of the run: too few to tell whether the "
+                 "envelope still moves; run longer",
+                 r->window_points == 1 ? "one cycle"
+                 : r->window_points == 2 ? "two cycles" : "three cycles");
+    else if (!r->settled && fabs(drift) > DRIFT_LIMIT)
         settle_hint(e, i0, tw, wlen, drift, r->settle_note);
-    /* Start-up time from t = 0 as defined (the first time the level is reached,
-     * an overshooting first burst included); the growth fit starts at the trough. */
-    r->startup_time_s = first_reach(e, 0, m->cfg.startup_level * mean);
-    for (size_t i = 0; i < e->n_env; i++)
-        r->peak_envelope_v = fmax(r->peak_envelope_v, e->env_a[i]);
-    double tlim = isfinite(r->startup_time_s) ? r->startup_time_s : INFINITY;
-    growth_fit(e, &m->cfg, trough, mean, tlim, r);
+    else if (!r->settled)
+        snprintf(r->settle_note, RU_NOTE_MAX,
+                 "the envelope still swings: a quarter of the last 10 %% of the run "
+                 "lies %.2g %% from its mean; run longer", 100.0 * r->window_spread);
+    double lvl = m->cfg.startup_level;
+    r->startup_time_s = band_entry(e, lvl * mean, (2.0 - lvl) * mean);
+    /* the growth phase: from the lowest point before the envelope first reaches the
+     * start-up level up to there (a later bounce of an amplitude control is not it) */
+    double t_reach = first_above(e, 0, lvl * mean);
+    size_t from = 0;
+    for (size_t i = 1; i < e->n_env && e->env_t[i] < t_reach; i++)
+        if (e->env_a[i] < e->env_a[from])
+            from = i;
+    (void)trough;
+    growth_fit(e, &m->cfg, from, mean, t_reach, r);
     r->settling_time_s = settling_time(e, mean, m->cfg.settle_band);
     return RU_OK;
 }
