@@ -470,6 +470,65 @@ static void test_pulse_train_jumps(void **state)
     ru_circuit_destroy(c);
 }
 
+/* A run in chunks (ru_transient_advance) delivers exactly the samples of one run
+ * to the same horizon: the pulse train above (jumps every 0.2 ms), cut at times
+ * between samples, on a sample, on an edge and just before one. Reference: the
+ * single ru_transient_run, sample by sample (bit-identical: the same solver steps). */
+static void test_chunks_match_one_run(void **state)
+{
+    (void)state;
+    ru_circuit *c = NULL;
+    assert_int_equal(ru_circuit_create("pulses", &c), RU_OK);
+    ru_wave w = {.kind = RU_WAVE_PULSE, .v0 = 0, .v1 = 1.0, .at_s = 0.1e-3,
+                 .edge_s = 0, .width_s = 0.2e-3, .period_s = 0.4e-3};
+    add_supply(c, "VS", "in", &w);
+    add2(c, RU_PART_CAPACITOR, "C1", "in", "out", 10e-9);
+    add2(c, RU_PART_RESISTOR, "R1", "out", "gnd", 1e3);
+    ru_system *s = NULL;
+    rec one = {0}, parts = {0};
+    ru_solver_stats st;
+    ru_error err;
+    assert_int_equal(run(c, &s, RU_ACCURACY_NORMAL, 4e-3, 3e-6, "out", &one, 0, &st, &err),
+                     RU_OK);
+    rec_init(&parts, s, ru_circuit_find_node(c, "out"), one.n + 8);
+    size_t n = ru_system_size(s);
+    double *x0 = calloc(n, sizeof *x0);
+    assert_int_equal(ru_system_initial_state(s, x0, &err), RU_OK);
+    ru_transient_opts o;
+    ru_transient_opts_for(RU_ACCURACY_NORMAL, &o);
+    o.stop_s = 4e-3;
+    o.sample_s = 3e-6;
+    ru_transient *tr = NULL;
+    assert_int_equal(ru_transient_create(s, &o, x0, rec_sample, &parts, &tr, &err), RU_OK);
+    assert_int_equal(parts.n, 1); /* t = 0 */
+    const double cut[] = {1.5e-6, 0.1e-3, 0.3e-3 - 1e-9, 0.3e-3, 0.3e-3, 0.77e-3,
+                          1.234e-3, 2e-3, 3.9e-3};
+    for (size_t i = 0; i < sizeof cut / sizeof cut[0]; i++) {
+        assert_int_equal(ru_transient_advance(tr, cut[i], &err), RU_OK);
+        /* every sample up to the cut, none after it */
+        assert_true(parts.t[parts.n - 1] <= cut[i] + 1e-12);
+        assert_true(parts.n == one.n || one.t[parts.n] > cut[i] - 1e-12);
+        RU_ASSERT_NEAR(ru_transient_time(tr), parts.t[parts.n - 1], 1e-15);
+    }
+    assert_false(ru_transient_done(tr));
+    assert_int_equal(ru_transient_advance(tr, 1.0, &err), RU_OK); /* past the horizon */
+    assert_true(ru_transient_done(tr));
+    assert_int_equal(parts.n, one.n);
+    for (long k = 0; k < one.n; k++) {
+        assert_true(parts.t[k] == one.t[k]);
+        assert_true(parts.v[k] == one.v[k]);
+    }
+    ru_solver_stats sc;
+    ru_transient_stats(tr, &sc);
+    assert_int_equal(sc.steps, st.steps);
+    ru_transient_destroy(tr);
+    free(x0);
+    rec_free(&one);
+    rec_free(&parts);
+    ru_system_destroy(s);
+    ru_circuit_destroy(c);
+}
+
 /* ---- failures ------------------------------------------------------------------ */
 
 static void test_step_limit_fails(void **state)
@@ -603,6 +662,7 @@ int main(void)
         cmocka_unit_test(test_step_through_capacitor),
         cmocka_unit_test(test_ramp_into_rc),
         cmocka_unit_test(test_pulse_train_jumps),
+        cmocka_unit_test(test_chunks_match_one_run),
         cmocka_unit_test(test_step_limit_fails),
         cmocka_unit_test(test_sink_stops_run),
         cmocka_unit_test(test_bad_options),

@@ -2,7 +2,7 @@
  * linear solver, analytic Jacobian, stability-limit detection).
  *
  * Output goes to a caller's callback at uniform sample times t_k = k * sample_s
- * (k = 0, 1, ... while t_k <= stop_s), interpolated with CVODE's dense output
+ * (k = 0, 1, ... while t_k <= stop_s), in one call or in chunks (ru_transient_advance), interpolated with CVODE's dense output
  * inside each internal step; the integrator is never restarted per sample, only
  * at the system's breakpoints (jumps). Nothing is stored: memory does not grow
  * with run length. On a numerical failure the run stops with RU_ENUMERIC, the
@@ -52,11 +52,33 @@ typedef struct ru_solver_stats {
     double wall_s;       /* wall-clock time of the run */
 } ru_solver_stats;
 
-/* Runs from t = 0 with initial state x0 (n = ru_system_size entries). stats and
- * err may be NULL. */
+/* Runs from t = 0 with initial state x0 (n = ru_system_size entries) to o->stop_s.
+ * stats and err may be NULL. */
 ru_status ru_transient_run(const ru_system *s, const ru_transient_opts *o,
                            const double *x0, ru_sample_fn fn, void *user,
                            ru_solver_stats *stats, ru_error *err);
+
+/* A run in steps, for callers that decide as they go how long to run (the automatic
+ * run length): create delivers the sample at t = 0; each advance delivers every
+ * sample with t_k <= t_until_s (never past the horizon o->stop_s, which also bounds
+ * the breakpoints considered) and returns with the solver where it is. The samples
+ * are exactly those of ru_transient_run to the same horizon. After a failure every
+ * call returns it. */
+typedef struct ru_transient ru_transient;
+
+/* Constructor (copies *o; the system, sink and user data must outlive the run). */
+ru_status ru_transient_create(const ru_system *s, const ru_transient_opts *o,
+                              const double *x0, ru_sample_fn fn, void *user,
+                              ru_transient **out, ru_error *err);
+/* Destructor; NULL is harmless. */
+void ru_transient_destroy(ru_transient *tr);
+ru_status ru_transient_advance(ru_transient *tr, double t_until_s, ru_error *err);
+/* Time of the last sample delivered (s). */
+double ru_transient_time(const ru_transient *tr);
+/* 1 when every sample to the horizon has been delivered. */
+int ru_transient_done(const ru_transient *tr);
+/* Counters so far (wall_s: time spent inside create and advance). */
+void ru_transient_stats(const ru_transient *tr, ru_solver_stats *stats);
 
 #ifdef __cplusplus
 }

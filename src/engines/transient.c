@@ -2,8 +2,12 @@
  * Jacobian, stability-limit detection) with uniform-rate output by dense output.
  *
  * Invariants:
- * - One SUNContext and one CVODE object per run, owned by a tr_run on the stack of
- *   ru_transient_run: no global state, so runs may go in parallel threads.
+ * - One SUNContext and one CVODE object per run, owned by its ru_transient handle:
+ *   no global state, so runs may go in parallel threads.
+ * - ru_transient_advance delivers samples up to a time and returns with the solver
+ *   where it is (the last step may lie beyond that time; its interpolant still holds
+ *   the samples not yet delivered), so a run in chunks gives exactly the samples of
+ *   one run to the horizon stop_s. A jump waits until every sample before it is out.
  * - Samples t_k = k * sample_s are delivered in order, each once, from CVodeGetDky
  *   inside the last internal step [tcur - hlast, tcur]; CVODE is re-initialised only
  *   at the system's breakpoints (after ru_system_apply_jump), never per sample.
@@ -72,9 +76,14 @@
 #define RU_TR_STALL_STEPS 1000 /* steps without progress in t before giving up */
 #define RU_TR_MAX_ERR_FAILS 20 /* error-test failures allowed in one step */
 
-typedef struct tr_run {
+struct ru_transient {
     const ru_system *sys;      /* the ODE */
-    const ru_transient_opts *o;
+    ru_transient_opts opts;    /* a copy of the caller's options */
+    const ru_transient_opts *o; /* = &opts */
+    ru_sample_fn fn;           /* the sink */
+    void *user;
+    double t0_wall;            /* creation time (monotonic clock) */
+    double busy_s;             /* wall time spent in create and advance */
     size_t n;                  /* number of states */
     SUNContext ctx;            /* per-run SUNDIALS context */
     void *cv;                  /* CVODE memory */
@@ -88,6 +97,15 @@ typedef struct tr_run {
     size_t nbp;
     double bp_local[RU_TR_BP_LOCAL];
     long k, k_last;            /* next sample index, last sample index */
+    long k_stop;               /* the current advance delivers samples up to this */
+    size_t ibp;                /* next breakpoint */
+    int pending_bp;            /* the last step stopped at breakpoint bp[ibp] and the
+                                  jump is not yet applied (samples before it wait) */
+    int at_end;                /* the solver reached t_final: no more steps */
+    int done;                  /* every sample up to k_last delivered */
+    double tprev;              /* furthest time reached (stall detection) */
+    long stall;                /* steps without progress in t */
+    ru_status failed;          /* a failure ends the run: every later call returns it */
     double t_final;            /* integration end: max(stop_s, k_last*sample_s) */
     double eps_t;              /* time resolution for "same instant" (s) */
     long rhs_evals, jac_evals; /* counted in the callbacks (survive re-inits) */
@@ -95,7 +113,8 @@ typedef struct tr_run {
     long samples;              /* samples delivered */
     ru_status sys_status;      /* first failure reported by the system, RU_OK */
     char cvmsg[RU_ERROR_TEXT]; /* last CVODE error message, "" when none */
-} tr_run;
+};
+typedef struct ru_transient tr_run;
 
 void ru_transient_opts_for(ru_accuracy acc, ru_transient_opts *o)
 {
@@ -334,7 +353,7 @@ static ru_status emit_dense(tr_run *r, double tlim, int incl, ru_sample_fn fn,
     double tcur = 0, hlast = 0;
     CVodeGetCurrentTime(r->cv, &tcur);
     CVodeGetLastStep(r->cv, &hlast);
-    while (r->k <= r->k_last) {
+    while (r->k <= r->k_stop) {
         double t = (double)r->k * r->o->sample_s;
         if (incl ? t > tlim : t >= tlim)
             break;
@@ -401,70 +420,86 @@ static long total_steps(tr_run *r)
     return r->seg_steps + v;
 }
 
-/* At a breakpoint reached as a stop time: samples before it, the jump, samples on it,
- * then a restart with the next stop time. *done is set when it was the last one. */
-static ru_status cross_breakpoint(tr_run *r, size_t *ibp, ru_sample_fn fn, void *user,
-                                  int *done, ru_error *err)
+/* At a breakpoint reached as a stop time: the samples before it (as far as the
+ * current advance goes: if it ends before them, the jump waits), the jump, every
+ * sample on it, then a restart with the next stop time. */
+static ru_status cross_breakpoint(tr_run *r, ru_sample_fn fn, void *user, ru_error *err)
 {
-    double b = r->bp[*ibp];
+    double b = r->bp[r->ibp];
     ru_status st = emit_dense(r, b - r->eps_t, 0, fn, user, err);
-    if (st != RU_OK)
-        return st;
+    if (st != RU_OK || (r->k <= r->k_last && (double)r->k * r->o->sample_s < b - r->eps_t))
+        return st; /* paused before the jump (or failed) */
     double *y = N_VGetArrayPointer(r->y); /* CVODE's solution at exactly b */
     ru_system_apply_jump(r->sys, b, y);
     st = emit_state(r, b + r->eps_t, b, y, fn, user, err);
     if (st != RU_OK)
         return st;
-    (*ibp)++;
+    r->ibp++;
+    r->pending_bp = 0;
     if (b >= r->t_final - r->eps_t) {
-        *done = 1;
+        r->at_end = 1;
         return RU_OK;
     }
     close_segment(r);
-    double next = *ibp < r->nbp ? r->bp[*ibp] : r->t_final;
+    double next = r->ibp < r->nbp ? r->bp[r->ibp] : r->t_final;
     int f = CVodeReInit(r->cv, b, r->y);
     if (!f)
         f = CVodeSetStopTime(r->cv, next);
     return f ? fail_numeric(r, f, NULL, err) : RU_OK;
 }
 
-/* The step loop: one internal step per call, samples from each step's interpolant. */
-static ru_status step_loop(tr_run *r, ru_sample_fn fn, void *user, ru_error *err)
+/* One internal step; samples from its interpolant follow in advance_to. */
+static ru_status take_step(tr_run *r, ru_error *err)
 {
-    size_t ibp = 0;
-    double next = r->nbp ? r->bp[0] : r->t_final, tprev = 0.0, tret = 0.0;
-    long stall = 0;
-    int f = CVodeSetStopTime(r->cv, next);
-    if (f)
-        return fail_numeric(r, f, NULL, err);
-    for (int done = 0; !done;) {
-        next = ibp < r->nbp ? r->bp[ibp] : r->t_final;
-        f = CVode(r->cv, next, r->y, &tret, CV_ONE_STEP);
-        if (f < 0)
-            return fail_numeric(r, f, NULL, err);
-        ru_status st;
-        if (f == CV_TSTOP_RETURN && ibp < r->nbp)
-            st = cross_breakpoint(r, &ibp, fn, user, &done, err);
-        else if (f == CV_TSTOP_RETURN) {
-            st = emit_dense(r, r->t_final + r->eps_t, 1, fn, user, err);
-            done = 1;
-        } else
-            st = emit_dense(r, tret, 1, fn, user, err);
-        if (st != RU_OK || done)
-            return st;
-        stall = tret > tprev ? 0 : stall + 1;
-        tprev = fmax(tprev, tret);
-        if (stall > RU_TR_STALL_STEPS)
-            return fail_numeric(r, 0, "the step size fell below the time resolution",
-                                err);
-        if (r->o->max_steps > 0 && total_steps(r) >= r->o->max_steps) {
-            char why[96];
-            snprintf(why, sizeof why, "reached the limit of %ld internal steps",
-                     r->o->max_steps);
-            return fail_numeric(r, 0, why, err);
-        }
+    if (r->o->max_steps > 0 && total_steps(r) >= r->o->max_steps) {
+        char why[96];
+        snprintf(why, sizeof why, "reached the limit of %ld internal steps",
+                 r->o->max_steps);
+        return fail_numeric(r, 0, why, err);
     }
+    double next = r->ibp < r->nbp ? r->bp[r->ibp] : r->t_final, tret = 0.0;
+    int f = CVode(r->cv, next, r->y, &tret, CV_ONE_STEP);
+    if (f < 0)
+        return fail_numeric(r, f, NULL, err);
+    if (f == CV_TSTOP_RETURN && r->ibp < r->nbp)
+        r->pending_bp = 1;
+    else if (f == CV_TSTOP_RETURN)
+        r->at_end = 1;
+    r->stall = tret > r->tprev ? 0 : r->stall + 1;
+    r->tprev = fmax(r->tprev, tret);
+    if (r->stall > RU_TR_STALL_STEPS)
+        return fail_numeric(r, 0, "the step size fell below the time resolution", err);
     return RU_OK;
+}
+
+/* Delivers every sample up to index r->k_stop: from the current step's interpolant
+ * first, then step by step (one internal step per call, samples from each step's
+ * interpolant). Stops between samples whenever the limit is reached, keeping the
+ * solver where it is, so the next call goes on seamlessly. */
+static ru_status advance_to(tr_run *r, ru_sample_fn fn, void *user, ru_error *err)
+{
+    for (;;) {
+        ru_status st = RU_OK;
+        if (r->pending_bp) {
+            if ((st = cross_breakpoint(r, fn, user, err)) != RU_OK || r->pending_bp)
+                return st;
+        } else {
+            double tcur = 0;
+            CVodeGetCurrentTime(r->cv, &tcur);
+            st = r->at_end ? emit_dense(r, r->t_final + r->eps_t, 1, fn, user, err)
+                           : emit_dense(r, tcur, 1, fn, user, err);
+            if (st != RU_OK)
+                return st;
+        }
+        if (r->k > r->k_last) {
+            r->done = 1;
+            return RU_OK;
+        }
+        if (r->k > r->k_stop || r->at_end)
+            return RU_OK;
+        if ((st = take_step(r, err)) != RU_OK)
+            return st;
+    }
 }
 
 static void fill_stats(tr_run *r, ru_solver_stats *stats, double t_reached)
@@ -500,7 +535,106 @@ static double now_s(void)
 static ru_status run_stateless(tr_run *r, ru_sample_fn fn, void *user, ru_error *err)
 {
     static const double none[1] = {0.0}; /* read-only: never written */
-    return emit_state(r, r->t_final + r->eps_t, -1.0, none, fn, user, err);
+    double tlim = fmin(r->t_final, (double)r->k_stop * r->o->sample_s) + r->eps_t;
+    ru_status st = emit_state(r, tlim, -1.0, none, fn, user, err);
+    if (st == RU_OK && r->k > r->k_last)
+        r->done = 1;
+    return st;
+}
+
+void ru_transient_destroy(ru_transient *r)
+{
+    if (!r)
+        return;
+    run_free(r);
+    free(r);
+}
+
+ru_status ru_transient_create(const ru_system *s, const ru_transient_opts *o,
+                              const double *x0, ru_sample_fn fn, void *user,
+                              ru_transient **out, ru_error *err)
+{
+    double t0 = now_s();
+    *out = NULL;
+    ru_status st = check_opts(s, o, x0, fn, err);
+    if (st != RU_OK)
+        return st;
+    tr_run *r = calloc(1, sizeof *r);
+    if (!r)
+        return ru_error_set(err, RU_ENOMEM, NULL, 0, 0, "transient: out of memory");
+    r->sys = s;
+    r->opts = *o;
+    r->o = &r->opts;
+    r->fn = fn;
+    r->user = user;
+    r->t0_wall = t0;
+    r->n = ru_system_size(s);
+    st = setup_times(r, err);
+    r->k_stop = 0;
+    if (st == RU_OK && r->n > 0) {
+        st = setup_solver(r, x0, err);
+        if (st == RU_OK)
+            st = emit_state(r, 0.0, 0.0, x0, fn, user, err); /* t = 0 is x0 */
+        if (st == RU_OK) {
+            int f = CVodeSetStopTime(r->cv, r->nbp ? r->bp[0] : r->t_final);
+            if (f)
+                st = fail_numeric(r, f, NULL, err);
+        }
+    }
+    r->busy_s = now_s() - t0;
+    if (st != RU_OK) {
+        ru_transient_destroy(r);
+        return st;
+    }
+    *out = r;
+    return RU_OK;
+}
+
+ru_status ru_transient_advance(ru_transient *r, double t_until_s, ru_error *err)
+{
+    if (!r)
+        return ru_error_set(err, RU_ERANGE, NULL, 0, 0, "transient: no run");
+    if (r->failed != RU_OK)
+        return ru_error_set(err, r->failed, NULL, 0, 0,
+                            "transient: the run already failed");
+    if (r->done)
+        return RU_OK;
+    double t0 = now_s();
+    long k = isfinite(t_until_s) && t_until_s < r->t_final
+                 ? (long)floor(t_until_s * (1.0 + 1e-12) / r->o->sample_s)
+                 : r->k_last;
+    r->k_stop = k < r->k_last ? k : r->k_last;
+    if (r->k_stop < r->k) {
+        r->busy_s += now_s() - t0;
+        return RU_OK;
+    }
+    ru_status st = r->n == 0 ? run_stateless(r, r->fn, r->user, err)
+                             : advance_to(r, r->fn, r->user, err);
+    r->busy_s += now_s() - t0;
+    if (st != RU_OK)
+        r->failed = st;
+    return st;
+}
+
+double ru_transient_time(const ru_transient *r)
+{
+    if (!r || r->k == 0)
+        return 0.0;
+    return fmin(r->t_final, (double)(r->k - 1) * r->o->sample_s);
+}
+
+int ru_transient_done(const ru_transient *r)
+{
+    return r && r->done;
+}
+
+void ru_transient_stats(const ru_transient *r, ru_solver_stats *stats)
+{
+    if (!r || !stats)
+        return;
+    fill_stats((tr_run *)r, stats,
+               r->failed != RU_OK ? 0.0 : r->done ? r->t_final : ru_transient_time(r));
+    stats->wall_s = r->busy_s;
 }
 
 ru_status ru_transient_run(const ru_system *s, const ru_transient_opts *o,
@@ -508,31 +642,16 @@ ru_status ru_transient_run(const ru_system *s, const ru_transient_opts *o,
                            ru_solver_stats *stats, ru_error *err)
 {
     double t0 = now_s();
-    ru_status st = check_opts(s, o, x0, fn, err);
-    if (st != RU_OK)
-        return st;
-    tr_run r;
-    memset(&r, 0, sizeof r);
-    r.sys = s;
-    r.o = o;
-    r.n = ru_system_size(s);
-    st = setup_times(&r, err);
-    if (st == RU_OK && r.n == 0)
-        st = run_stateless(&r, fn, user, err);
-    else if (st == RU_OK) {
-        st = setup_solver(&r, x0, err);
-        if (st == RU_OK)
-            st = emit_state(&r, 0.0, 0.0, x0, fn, user, err); /* t = 0 is x0 */
-        if (st == RU_OK)
-            st = step_loop(&r, fn, user, err);
-    }
-    double t_reached = 0.0;
+    ru_transient *r = NULL;
+    ru_status st = ru_transient_create(s, o, x0, fn, user, &r, err);
     if (st == RU_OK)
-        t_reached = r.t_final;
+        st = ru_transient_advance(r, INFINITY, err);
     if (stats) {
-        fill_stats(&r, stats, t_reached);
+        memset(stats, 0, sizeof *stats);
+        if (r)
+            ru_transient_stats(r, stats);
         stats->wall_s = now_s() - t0;
     }
-    run_free(&r);
+    ru_transient_destroy(r);
     return st;
 }
