@@ -29,10 +29,11 @@ PUBLIC = {
     "circuit.h": "circuit", "loader.h": "circuit", "params.h": "circuit",
     "system.h": "system",
     "transient.h": "engines", "smallsig.h": "engines", "descfn.h": "engines",
+    "steady.h": "engines",
     "measure.h": "measure", "verdict.h": "measure",
     "wavefile.h": "output", "plot.h": "output", "wav.h": "output",
     "json.h": "output",
-    "analysis.h": "analysis",
+    "analysis.h": "analysis", "tone.h": "analysis",
     "batch.h": "batch", "montecarlo.h": "batch",
 }
 

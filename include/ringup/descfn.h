@@ -56,6 +56,13 @@ ru_status ru_df_analyse(const ru_system *s, const double *x_op, int probe_pos,
                         int probe_neg, double amp_max_v, ru_df_point *curve,
                         size_t max_pts, size_t *npts, ru_df_result *res, ru_error *err);
 
+/* As ru_df_analyse without the curve, and, when res->found, the balance at the
+ * settled amplitude for every state (n entries each): x(t) = x_dc + x_re cos(w t)
+ * - x_im sin(w t). A starting guess for the periodic steady state. */
+ru_status ru_df_settled_state(const ru_system *s, const double *x_op, int probe_pos,
+                              int probe_neg, double *x_dc, double *x_re, double *x_im,
+                              ru_df_result *res, ru_error *err);
+
 /* A memoryless scalar law y = f(x) for ru_df_gain. */
 typedef double (*ru_df_law_fn)(void *user, double x);
 

@@ -21,7 +21,8 @@
  * works either way.
  *
  * File names under DIR: wave, growth, spectrum, poles, loop, response,
- * compare-envelopes, compare-figures (each + .png/.svg/.pdf). */
+ * compare-envelopes, compare-figures, steady, floquet, phase-noise (each +
+ * .png/.svg/.pdf). */
 #ifndef RINGUP_PLOT_H
 #define RINGUP_PLOT_H
 
@@ -130,6 +131,40 @@ typedef struct ru_plot_model {
     double startup_time_s;     /* NAN: no bar (did not start) */
 } ru_plot_model;
 
+/* One period of the periodic steady state on the probe. */
+typedef struct ru_plot_period {
+    const char *title;         /* circuit title, shown small (NULL or "" for none) */
+    const char *probe;         /* probe name (NULL: "probe") */
+    size_t n;                  /* samples over one period (required, >= 8) */
+    const double *v;           /* probe at t_k = k period / n (V) */
+    double period_s;           /* (required, > 0) */
+    double max_v, min_v;       /* extremes (NAN: from the samples) */
+    double dc_v;               /* mean level (NAN: not drawn) */
+    double thd_percent;        /* shown in the subtitle (NAN: not shown) */
+} ru_plot_period;
+
+/* Floquet multipliers in the complex plane with the unit circle. */
+typedef struct ru_plot_floquet {
+    size_t n;                  /* multipliers (required, >= 1); [0] is the phase one */
+    const double *re, *im;
+    double recovery_time_s;    /* from the second (NAN: not known) */
+    double period_s;
+} ru_plot_floquet;
+
+/* Phase noise L(fm) by the PPV, Leeson's formula beside it, labelled regions. */
+typedef struct ru_plot_phase_noise {
+    double f0_hz;              /* carrier */
+    size_t n;                  /* offsets (required, >= 2), ascending, > 0 */
+    const double *offset_hz;
+    const double *ppv_dbc;     /* L(fm) from the PPV (dBc/Hz) */
+    const double *leeson_dbc;  /* Leeson's L(fm) (NULL: not drawn) */
+    double c_s;                /* phase diffusion constant (s^2/s) */
+    double lorentz_hz;         /* half width pi f0^2 c of the Lorentzian */
+    double flicker_hz;         /* where the 1/f^3 part meets the 1/f^2 part (NAN none) */
+    double leeson_hz;          /* Leeson's corner f0 / (2 QL) (NAN: none) */
+    double period_jitter_s;    /* shown in the subtitle */
+} ru_plot_phase_noise;
+
 /* ---- checks before any simulation work ---- */
 
 /* Checks that `format` is png, svg or pdf (NULL or "" = png) and its cairo driver
@@ -161,6 +196,14 @@ ru_status ru_plot_compare_figures_file(const char *dir, const char *format,
                                        const ru_plot_model *m, size_t n,
                                        ru_error *err);
 
+/* DIR/steady.EXT, DIR/floquet.EXT, DIR/phase-noise.EXT. */
+ru_status ru_plot_period_file(const char *dir, const char *format, const ru_plot_period *p,
+                              ru_error *err);
+ru_status ru_plot_floquet_file(const char *dir, const char *format,
+                               const ru_plot_floquet *f, ru_error *err);
+ru_status ru_plot_phase_noise_file(const char *dir, const char *format,
+                                   const ru_plot_phase_noise *p, ru_error *err);
+
 /* ---- every figure at once, and reports ---- */
 
 /* The figures of one run (any member NULL / 0 is left out). */
@@ -173,6 +216,9 @@ typedef struct ru_plot_set {
     const ru_plot_bode *response;
     const ru_plot_model *models; /* comparison (both comparison figures) */
     size_t nmodels;
+    const ru_plot_period *period;   /* periodic steady state */
+    const ru_plot_floquet *floquet;
+    const ru_plot_phase_noise *phase_noise;
 } ru_plot_set;
 
 /* Writes every figure present in set into dir; stops at the first failure. */

@@ -89,6 +89,12 @@ typedef struct ru_eval_point {
 ru_status ru_system_residual(const ru_system *s, const ru_eval_point *ep,
                              const double *x, double *r, double *dr);
 
+/* f = M^{-1} r and J = M^{-1} dr/dx (either may be NULL; J is n*n row-major) at an
+ * evaluation point. With ep->dc set the circuit is autonomous (every source at its
+ * final value, no noise): the form the periodic steady-state engines integrate. */
+ru_status ru_system_eval(const ru_system *s, const ru_eval_point *ep, const double *x,
+                         double *f, double *J);
+
 /* The mass matrix M = blockdiag(C, I), n*n row-major. */
 void ru_system_mass(const ru_system *s, double *M);
 

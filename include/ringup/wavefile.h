@@ -23,6 +23,11 @@ ru_status ru_csv_open(const ru_system *s, const char *path, ru_csv **out, ru_err
 /* ru_sample_fn-compatible: writes one row. user is the ru_csv. */
 ru_status ru_csv_sample(void *user, double t_s, const double *x, size_t n);
 
+/* With dc = 1 the driven nodes are written at their sources' final values, not at
+ * the row's time: for one period of a periodic steady state (steady.csv), whose
+ * time starts at 0 but whose sources are long settled. */
+void ru_csv_set_dc(ru_csv *w, int dc);
+
 /* Destructor: flushes and, when keep is 1 and all writes succeeded, renames the
  * temporary file to the final name; otherwise removes it (keep = 2 keeps a partial
  * file under the final name, for a run that failed numerically: its rows are

@@ -18,6 +18,8 @@ static const cli_command commands[] = {
     {"montecarlo", "part values drawn within their tolerances: does every unit start?",
      cmd_montecarlo},
     {"models", "list the amplifier and part presets", cmd_models},
+    {"steady", "the periodic steady state: exact settled tone, Floquet multipliers",
+     cmd_steady},
 };
 
 static void usage(FILE *fp)

@@ -335,9 +335,12 @@ static double voltage_scale(const ru_system *s)
     return v;
 }
 
-ru_status ru_df_analyse(const ru_system *s, const double *x_op, int probe_pos,
-                        int probe_neg, double amp_max_v, ru_df_point *curve,
-                        size_t max_pts, size_t *npts, ru_df_result *res, ru_error *err)
+/* ru_df_analyse; with u_out (3n entries) the balance at the settled amplitude
+ * (x0, Xr, Xi of every state) when one is found. */
+static ru_status df_analyse(const ru_system *s, const double *x_op, int probe_pos,
+                            int probe_neg, double amp_max_v, ru_df_point *curve,
+                            size_t max_pts, size_t *npts, ru_df_result *res,
+                            double *u_out, ru_error *err)
 {
     memset(res, 0, sizeof *res);
     res->settled_amplitude_v = res->frequency_hz = res->dc_level_v = NAN;
@@ -418,10 +421,38 @@ ru_status ru_df_analyse(const ru_system *s, const double *x_op, int probe_pos,
                  a_prev);
     st = RU_OK;
 done:
+    if (st == RU_OK && res->found && u_out)
+        memcpy(u_out, r.u, 3 * r.h.n * sizeof *u_out);
     free(poles);
     free(r.u);
     free(r.u_prev);
     hb_free(&r.h);
+    return st;
+}
+
+ru_status ru_df_analyse(const ru_system *s, const double *x_op, int probe_pos,
+                        int probe_neg, double amp_max_v, ru_df_point *curve,
+                        size_t max_pts, size_t *npts, ru_df_result *res, ru_error *err)
+{
+    return df_analyse(s, x_op, probe_pos, probe_neg, amp_max_v, curve, max_pts, npts,
+                      res, NULL, err);
+}
+
+ru_status ru_df_settled_state(const ru_system *s, const double *x_op, int probe_pos,
+                              int probe_neg, double *x_dc, double *x_re, double *x_im,
+                              ru_df_result *res, ru_error *err)
+{
+    size_t n = ru_system_size(s), npts = 0;
+    double *u = malloc((3 * n + 2) * sizeof *u);
+    if (!u)
+        return ru_error_set(err, RU_ENOMEM, NULL, 0, 0, "out of memory");
+    ru_status st = df_analyse(s, x_op, probe_pos, probe_neg, 0, NULL, 0, &npts, res, u, err);
+    if (st == RU_OK && res->found) {
+        memcpy(x_dc, u, n * sizeof *u);
+        memcpy(x_re, u + n, n * sizeof *u);
+        memcpy(x_im, u + 2 * n, n * sizeof *u);
+    }
+    free(u);
     return st;
 }
 

@@ -46,6 +46,7 @@ struct ru_csv {
     size_t ncols;
     ru_status st;              /* first failure, RU_OK while all is well */
     char msg[RU_ERROR_TEXT];   /* its message */
+    int dc;                    /* 1: driven nodes at their final values */
 };
 
 /* Records the first I/O failure (errno e) on the writer. */
@@ -191,8 +192,9 @@ ru_status ru_csv_sample(void *user, double t_s, const double *x, size_t n)
     int bad = fprintf(w->fp, "%.12g", t_s) < 0;
     for (size_t i = 0; i < w->ncols && !bad; i++) {
         const csv_col *c = &w->cols[i];
-        double v = c->node >= 0 ? ru_system_node_voltage(w->sys, c->node, t_s, x)
-                                : x[c->state];
+        double v = c->node < 0 ? x[c->state]
+                   : w->dc     ? ru_system_node_voltage_dc(w->sys, c->node, x)
+                               : ru_system_node_voltage(w->sys, c->node, t_s, x);
         bad = fprintf(w->fp, ",%.10g", v) < 0;
     }
     if (!bad)
@@ -212,6 +214,12 @@ static void finish_stream(ru_csv *w)
     if (fclose(w->fp) != 0)
         csv_fail(w, errno, "close");
     w->fp = NULL;
+}
+
+void ru_csv_set_dc(ru_csv *w, int dc)
+{
+    if (w)
+        w->dc = dc != 0;
 }
 
 ru_status ru_csv_close(ru_csv *w, int keep, ru_error *err)

@@ -162,6 +162,24 @@ ru_status ru_plot_bode_file(const char *dir, const char *format, const ru_plot_b
     return plot_file(fig, dir, format, b, err);
 }
 
+ru_status ru_plot_period_file(const char *dir, const char *format, const ru_plot_period *p,
+                              ru_error *err)
+{
+    return plot_file(&plot_fig_period, dir, format, p, err);
+}
+
+ru_status ru_plot_floquet_file(const char *dir, const char *format,
+                               const ru_plot_floquet *f, ru_error *err)
+{
+    return plot_file(&plot_fig_floquet, dir, format, f, err);
+}
+
+ru_status ru_plot_phase_noise_file(const char *dir, const char *format,
+                                   const ru_plot_phase_noise *p, ru_error *err)
+{
+    return plot_file(&plot_fig_phase_noise, dir, format, p, err);
+}
+
 ru_status ru_plot_compare_envelopes_file(const char *dir, const char *format,
                                          const ru_plot_model *m, size_t n,
                                          ru_error *err)
@@ -200,5 +218,11 @@ ru_status ru_plot_set_files(const char *dir, const char *format, const ru_plot_s
         st = ru_plot_compare_envelopes_file(dir, format, set->models, set->nmodels, err);
     if (st == RU_OK && set->models && set->nmodels > 0)
         st = ru_plot_compare_figures_file(dir, format, set->models, set->nmodels, err);
+    if (st == RU_OK && set->period)
+        st = ru_plot_period_file(dir, format, set->period, err);
+    if (st == RU_OK && set->floquet)
+        st = ru_plot_floquet_file(dir, format, set->floquet, err);
+    if (st == RU_OK && set->phase_noise)
+        st = ru_plot_phase_noise_file(dir, format, set->phase_noise, err);
     return st;
 }

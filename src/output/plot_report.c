@@ -23,7 +23,7 @@
 #include <plplot/plplot.h>
 #endif
 
-#define REPORT_FIGS 8
+#define REPORT_FIGS 11
 
 typedef struct report_fig {
     const plot_figure *fig;
@@ -55,6 +55,12 @@ static size_t report_list(const ru_plot_set *set, plot_models *pm, report_fig *f
         f[n++] = (report_fig){&plot_fig_cmp_env, pm, "Envelopes compared"};
         f[n++] = (report_fig){&plot_fig_cmp_fig, pm, "THD and start-up time compared"};
     }
+    if (set->period)
+        f[n++] = (report_fig){&plot_fig_period, set->period, "One period of the settled tone"};
+    if (set->floquet)
+        f[n++] = (report_fig){&plot_fig_floquet, set->floquet, "Floquet multipliers"};
+    if (set->phase_noise)
+        f[n++] = (report_fig){&plot_fig_phase_noise, set->phase_noise, "Phase noise"};
     return n;
 }
 

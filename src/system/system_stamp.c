@@ -353,3 +353,22 @@ ru_status ru_system_set_noise(ru_system *s, unsigned long seed, double bandwidth
     s->noise.kt_j = 1.380649e-23 * (temp_c + 273.15); /* exact 2019 SI k */
     return RU_OK;
 }
+
+ru_status ru_system_eval(const ru_system *s, const ru_eval_point *ep, const double *x,
+                         double *f, double *J)
+{
+    size_t n = s->n;
+    ru_src_eval e = {ep->t_s, ep->dc, ep->source_scale};
+    double local[RU_SYS_STACK_DOUBLES];
+    double *r = f ? f : n <= RU_SYS_STACK_DOUBLES ? local : malloc(n * sizeof *r);
+    if (!r)
+        return RU_ENOMEM;
+    ru_status st = residual_core(s, &e, x, r, J, -1);
+    if (st == RU_OK && f)
+        ru_sys_csolve(s, f);
+    if (st == RU_OK && J)
+        ru_sys_csolve_rows(s, J, n);
+    if (r != f && r != local)
+        free(r);
+    return st;
+}
