@@ -1,7 +1,7 @@
 #!/usr/bin/env python3
 """report_check.py: every report holds what the terminal shows, and reads as it should.
 
-For run, poles, response, compare, sweep and montecarlo on bundled examples, the
+For run, poles, response, compare, sweep, montecarlo and steady on bundled examples, the
 command is run twice with the same options, once plain (the terminal text) and once
 with --report FILE.pdf / FILE.html. Then:
 - PDF: the text read back by pdftotext (poppler-utils, an independent reader) holds
@@ -42,7 +42,7 @@ def run(args, env=None):
     return p.returncode, p.stdout, p.stderr
 
 
-WALL = re.compile(r"(rtol \S+), [0-9.]+ s\b")
+WALL = re.compile(r"(rtol \S+|steps), [0-9.]+ s\b")
 
 
 def words(text):
@@ -233,6 +233,7 @@ def main():
                      "soft-follower,emitter-follower"]),
         ("sweep", ["sweep", vdp, "--vary", "L1.value=5m:20m:3", "--log"]),
         ("montecarlo", ["montecarlo", colp, "--samples", "6"]),
+        ("steady", ["steady", vdp]),
     ]
     tmp = tempfile.mkdtemp()
     try:

@@ -140,7 +140,8 @@ static void print_json(const ru_tone *t)
 }
 
 /* Figures: one period, harmonics, Floquet multipliers. */
-static int plot_steady(const cli_plot_req *pr, const ru_circuit *c, const ru_tone *t)
+static int plot_steady(const cli_plot_req *pr, const ru_circuit *c, const ru_tone *t,
+                       const char *text)
 {
     if (!pr->dir && !pr->report)
         return 0;
@@ -168,7 +169,7 @@ static int plot_steady(const cli_plot_req *pr, const ru_circuit *c, const ru_ton
     set.period = &per;
     set.spectrum = isfinite(sp.thd_percent) ? &spec : NULL;
     set.floquet = &fl;
-    int rc = cli_plot_set(pr, ru_circuit_title(c), &set);
+    int rc = cli_plot_set(pr, ru_circuit_title(c), &set, text);
     free(re);
     return rc;
 }
@@ -236,9 +237,13 @@ int cmd_steady(int argc, char **argv)
     } else {
         if (cli_get(opts, "json"))
             print_json(t);
-        else
+        cli_capture cap; /* the text for the report, on the terminal unless --json */
+        cli_capture_begin(&cap, plots.report != NULL, !cli_get(opts, "json"));
+        if (cli_capture_printing(&cap))
             print_text(c, t);
-        rc = plot_steady(&plots, c, t);
+        char *text = cli_capture_end(&cap);
+        rc = plot_steady(&plots, c, t, text);
+        free(text);
     }
     ru_tone_destroy(t);
     ru_circuit_destroy(c);
