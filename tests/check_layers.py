@@ -30,6 +30,7 @@ PUBLIC = {
     "system.h": "system",
     "transient.h": "engines", "smallsig.h": "engines", "descfn.h": "engines",
     "steady.h": "engines",
+    "envfollow.h": "engines",
     "measure.h": "measure", "verdict.h": "measure",
     "wavefile.h": "output", "plot.h": "output", "wav.h": "output",
     "json.h": "output",

@@ -102,6 +102,14 @@ void ru_measure_destroy(ru_measure *m);
 /* Adds the next sample (t strictly increasing, uniform spacing). */
 ru_status ru_measure_push(ru_measure *m, double t_s, double v);
 
+/* Adds one envelope point made elsewhere: a cycle that an engine skipping cycles
+ * computed alone, with its time (midway between its maximum and minimum) and
+ * amplitude ((max - min)/2). Times increase across samples and points. The sample
+ * stream restarts after a point: the next sample may follow after a gap, and the
+ * frequency, DC level and THD come from the samples after the last point (they
+ * should cover the settled window's last cycles). */
+ru_status ru_measure_push_point(ru_measure *m, double t_s, double amp_v);
+
 /* Computes every figure from what was pushed; may be called once at the end. */
 ru_status ru_measure_finish(ru_measure *m, ru_measure_result *res);
 

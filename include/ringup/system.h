@@ -112,6 +112,11 @@ ru_status ru_system_loop_split(const ru_system *s, int part, const double *x,
  * listed too, so an integrator can stop on them. */
 size_t ru_system_breakpoints(const ru_system *s, double t_stop, double *bp, size_t max);
 
+/* Earliest time from which every source is constant and no noise is on, so that
+ * the system is autonomous (f depends on x alone) from then on; INFINITY when a
+ * source keeps changing (a sine, a repeating pulse) or the thermal noise is on. */
+double ru_system_autonomous_from(const ru_system *s);
+
 /* At a breakpoint t: adds to the free node voltages the charge-conserving share of
  * the driven nodes' jump from t- to t+. Does nothing when nothing jumps at t. */
 void ru_system_apply_jump(const ru_system *s, double t, double *x);

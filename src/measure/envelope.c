@@ -129,7 +129,7 @@ static double seek_update(const ru_envelope *e, ru_seek *s, uint64_t idx, double
     return sg * (dc - d);
 }
 
-static ru_status env_append(ru_envelope *e, double t_s, double a_v)
+ru_status ru_envelope_add_point(ru_envelope *e, double t_s, double a_v)
 {
     if (e->n_env == e->cap_env) {
         size_t cap = e->cap_env ? 2 * e->cap_env : 64;
@@ -224,7 +224,7 @@ static ru_status confirm(ru_envelope *e, const ru_seek *s)
         e->have_max = 0;
         double amp = 0.5 * (det(e, e->max_t_s, e->max_v) - det(e, t, v));
         if (amp > 0.0)
-            st = env_append(e, 0.5 * (e->max_t_s + t), amp);
+            st = ru_envelope_add_point(e, 0.5 * (e->max_t_s + t), amp);
     }
     if (e->n_ext == RU_ENV_SLOPE_EXT)
         drop_early(e); /* its extrema were located with a slope of 0 */
@@ -271,7 +271,7 @@ static int stalled(const ru_envelope *e, double t_s)
     return wait > 0.0 && t_s - e->ext_t[k] > wait;
 }
 
-static void restart(ru_envelope *e)
+void ru_envelope_restart(ru_envelope *e)
 {
     double floor_v = e->floor_v, period_s = e->period_s;
     double *env_t = e->env_t, *env_a = e->env_a;
@@ -288,7 +288,7 @@ ru_status ru_envelope_push(ru_envelope *e, uint64_t idx, double t_s, double v,
                            double tlast_s, double vlast)
 {
     if (e->mode == 1 && stalled(e, t_s))
-        restart(e);
+        ru_envelope_restart(e);
     if (e->mode == 1) {
         double back = seek_update(e, &e->seek, idx, t_s, v, tlast_s, vlast);
         const ru_ext *c = &e->seek.cand;

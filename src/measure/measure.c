@@ -40,8 +40,12 @@ struct ru_measure {
     size_t head;          /* next write position in ring */
     uint64_t count;       /* samples pushed */
     double t_first_s;     /* time of the first sample (s) */
-    double t_last_s;      /* time of the last sample (s) */
+    double t_last_s;      /* time of the last sample or point (s) */
     double v_last;        /* last sample (V) */
+    int gap;              /* 1: the next sample opens a stretch (after a point) */
+    uint64_t s_count;     /* samples in the current stretch (all in the ring) */
+    double s_t0_s;        /* time of its first sample (s) */
+    double s_tlast_s;     /* time of its last sample (s) */
 };
 
 #define DRIFT_LIMIT 0.005   /* settled when the window's envelope moves <= 0.5 % */
@@ -111,18 +115,43 @@ ru_status ru_measure_push(ru_measure *m, double t_s, double v)
 {
     if (!m || !isfinite(t_s) || !isfinite(v))
         return RU_EINPUT;
-    if (m->count > 0 && !(t_s > m->t_last_s))
+    if ((m->count > 0 || m->env.n_env > 0) && !(t_s > m->t_last_s))
         return RU_EINPUT;
-    ru_status st = ru_envelope_push(&m->env, m->count, t_s, v, m->t_last_s, m->v_last);
+    if (m->gap) { /* a new stretch: the tracker and the window start afresh */
+        ru_envelope_restart(&m->env);
+        m->head = 0;
+        m->s_count = 0;
+        m->gap = 0;
+    }
+    ru_status st = ru_envelope_push(&m->env, m->s_count, t_s, v, m->s_tlast_s, m->v_last);
     if (st != RU_OK)
         return st;
-    if (m->count == 0)
+    if (m->count == 0 && m->env.n_env == 0)
         m->t_first_s = t_s;
+    if (m->s_count == 0)
+        m->s_t0_s = t_s;
     m->ring[m->head] = v;
     m->head = (m->head + 1) % m->cap_ring;
     m->count++;
-    m->t_last_s = t_s;
+    m->s_count++;
+    m->t_last_s = m->s_tlast_s = t_s;
     m->v_last = v;
+    return RU_OK;
+}
+
+ru_status ru_measure_push_point(ru_measure *m, double t_s, double amp_v)
+{
+    if (!m || !isfinite(t_s) || !isfinite(amp_v) || !(amp_v > 0))
+        return RU_EINPUT;
+    if ((m->count > 0 || m->env.n_env > 0) && !(t_s > m->t_last_s))
+        return RU_EINPUT;
+    ru_status st = ru_envelope_add_point(&m->env, t_s, amp_v);
+    if (st != RU_OK)
+        return st;
+    if (m->count == 0 && m->env.n_env == 1)
+        m->t_first_s = t_s;
+    m->t_last_s = t_s;
+    m->gap = 1;
     return RU_OK;
 }
 
@@ -353,15 +382,16 @@ static double settling_time(const ru_envelope *e, double settled_v, double band)
 static ru_status win_make(const ru_measure *m, double tw_s, ru_window *w)
 {
     memset(w, 0, sizeof *w);
-    w->n = m->count < m->cap_ring ? (size_t)m->count : m->cap_ring;
-    w->x = malloc(w->n * sizeof *w->x);
+    w->n = m->s_count < m->cap_ring ? (size_t)m->s_count : m->cap_ring;
+    w->x = malloc((w->n ? w->n : 1) * sizeof *w->x);
     if (!w->x)
         return RU_ENOMEM;
-    size_t start = m->count < m->cap_ring ? 0 : m->head;
+    size_t start = m->s_count < m->cap_ring ? 0 : m->head;
     for (size_t i = 0; i < w->n; i++)
         w->x[i] = m->ring[(start + i) % m->cap_ring];
-    w->dt_s = (m->t_last_s - m->t_first_s) / (double)(m->count - 1);
-    w->t0_s = m->t_last_s - w->dt_s * (double)(w->n - 1);
+    w->dt_s = m->s_count > 1 ? (m->s_tlast_s - m->s_t0_s) / (double)(m->s_count - 1)
+                             : m->cfg.sample_s;
+    w->t0_s = m->s_tlast_s - w->dt_s * (double)(w->n ? w->n - 1 : 0);
     double k = ceil((tw_s - w->t0_s) / w->dt_s - 1e-9);
     w->i_w = k <= 0.0 ? 0 : (k >= (double)w->n ? w->n : (size_t)k);
     return RU_OK;
@@ -451,7 +481,7 @@ ru_status ru_measure_finish(ru_measure *m, ru_measure_result *r)
     result_init(r);
     const ru_envelope *e = &m->env;
     r->cycles = e->n_env;
-    if (m->count < 2) {
+    if (m->count < 2 || m->s_count < 2) {
         snprintf(r->growth_note, RU_NOTE_MAX, "fewer than 2 samples");
         return RU_OK;
     }

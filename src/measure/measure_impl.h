@@ -80,6 +80,11 @@ void ru_envelope_free(ru_envelope *e);
 ru_status ru_envelope_push(ru_envelope *e, uint64_t idx, double t_s, double v,
                            double tlast_s, double vlast);
 
+/* Starts the search afresh (slope 0, no candidates), keeping the points made. */
+void ru_envelope_restart(ru_envelope *e);
+/* Appends an envelope point (time after every point held). */
+ru_status ru_envelope_add_point(ru_envelope *e, double t_s, double a_v);
+
 /* Largest number of samples the spectrum window keeps (8 MiB of doubles). */
 #define RU_RING_MAX ((size_t)1 << 20)
 /* Most whole periods resampled for the spectrum. */

@@ -512,6 +512,19 @@ size_t ru_system_breakpoints(const ru_system *s, double t_stop, double *bp, size
     return count;
 }
 
+double ru_system_autonomous_from(const ru_system *s)
+{
+    if (s->noise.on)
+        return INFINITY;
+    double t = 0.0;
+    for (size_t i = 0; i < s->nparts; i++) {
+        const ru_part *p = ru_circuit_part(s->c, i);
+        if (is_source(p))
+            t = fmax(t, ru_wave_constant_from(&p->wave));
+    }
+    return t;
+}
+
 void ru_system_apply_jump(const ru_system *s, double t, double *x)
 {
     if (!(t > 0))

@@ -209,3 +209,17 @@ double ru_wave_next_breakpoint(const ru_wave *w, double t_s)
         return INFINITY;
     }
 }
+
+double ru_wave_constant_from(const ru_wave *w)
+{
+    switch (w->kind) {
+    case RU_WAVE_DC: return w->rise_s > 0 ? w->rise_s : 0.0;
+    case RU_WAVE_STEP: return w->at_s + w->edge_s;
+    case RU_WAVE_SINE: return w->amplitude == 0 ? 0.0 : INFINITY;
+    case RU_WAVE_PULSE:
+        if (w->v0 == w->v1)
+            return 0.0;
+        return w->period_s > 0 ? INFINITY : w->at_s + w->width_s;
+    default: return INFINITY;
+    }
+}

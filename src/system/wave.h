@@ -28,4 +28,9 @@ double ru_wave_jump(const ru_wave *w, double t_s);
 /* Smallest breakpoint (jump or slope change) strictly after t_s, or INFINITY. */
 double ru_wave_next_breakpoint(const ru_wave *w, double t_s);
 
+/* Time from which the wave stays at one value for good (dc: the end of the rise;
+ * step: the end of its edge; a single pulse: its end); INFINITY for a sine of
+ * non-zero amplitude and a repeating pulse. */
+double ru_wave_constant_from(const ru_wave *w);
+
 #endif
