@@ -22,6 +22,7 @@
 #include "ringup/smallsig.h"
 #include "ringup/system.h"
 #include "ringup/transient.h"
+#include "ringup/verdict.h"
 
 #include <stdio.h>
 #include <stdlib.h>
@@ -113,6 +114,24 @@ static void rig_close(rig *g)
     ru_circuit_destroy(g->c);
 }
 
+/* The verdict as a run gives it: the kick is the seed, the poles give the scales. */
+static void judge(const rig *g, const tank *t, ru_measure_result *r)
+{
+    ru_verdict_input in;
+    ru_verdict_input_default(&in);
+    in.meas = r;
+    in.seed_v = t->a0;
+    in.seed_is_kick = 1;
+    in.floor_v = 1e-9;
+    in.growth_per_s = g->pole.re_per_s;
+    in.period_s = 2 * PI / g->pole.im_rad_per_s;
+    in.t_expect_s = avg_startup(t, 0.9);
+    in.dc_scale_v = 1.0;
+    ru_verdict_result v;
+    ru_verdict_judge(&in, &v);
+    ru_verdict_apply(&v, r);
+}
+
 static ru_measure *measure_new(const rig *g, const tank *t)
 {
     ru_measure_cfg mc;
@@ -151,6 +170,7 @@ static void run_direct(const rig *g, const tank *t, ru_accuracy acc, ru_measure_
     ru_error_clear(&e);
     assert_int_equal(ru_transient_run(g->s, &to, g->x0, direct_sample, &k, NULL, &e), RU_OK);
     assert_int_equal(ru_measure_finish(k.m, r), RU_OK);
+    judge(g, t, r);
     const double *et, *ea;
     size_t ne;
     ru_measure_envelope(k.m, &et, &ea, &ne);
@@ -206,6 +226,7 @@ static void run_env(const rig *g, const tank *t, ru_accuracy acc, ru_measure_res
         fail_msg("envelope run: %s", e.msg);
     assert_int_equal(st->fell_back, 0);
     assert_int_equal(ru_measure_finish(k->m, r), RU_OK);
+    judge(g, t, r);
     ru_measure_destroy(k->m);
     k->m = NULL;
 }
