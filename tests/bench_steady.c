@@ -6,7 +6,7 @@
  * Not a test (not named test_*, not built by the CMake glob; speed is never
  * asserted). Build by hand against a built library, from the source folder:
  *   cc -O2 -Iinclude tests/bench_steady.c BUILD/libringup.a $(pkg-config --libs
- *      libfyaml fftw3 lapacke sndfile plplot) -lsundials_cvodes -lsundials_kinsol
+ *      yaml-0.1 fftw3 lapacke sndfile plplot) -lsundials_cvodes -lsundials_kinsol
  *      -lsundials_nvecserial -lsundials_sunmatrixdense -lsundials_sunlinsoldense
  *      -lm -lpthread -o /tmp/bench_steady
  * and run it from the source folder with RINGUP_MODELS=models:

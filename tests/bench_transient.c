@@ -2,7 +2,7 @@
  *
  * Not a test (not named test_*, not built by the CMake glob). Build by hand:
  *   cc -O2 -Iinclude tests/bench_transient.c build/libringup.a $(pkg-config --libs
- *      libfyaml fftw3 lapacke sndfile) -lsundials_cvodes -lsundials_kinsol
+ *      yaml-0.1 fftw3 lapacke sndfile) -lsundials_cvodes -lsundials_kinsol
  *      -lsundials_nvecserial -lsundials_sunmatrixdense -lsundials_sunlinsoldense
  *      -lm -lpthread
  * Runs a van der Pol tank (L 1 mH, C 1 uF, eps 0.05, settled 1 V) for CYCLES cycles

@@ -49,7 +49,7 @@ static ru_status read_top(ld_doc *d, const char *models_dir, ru_circuit **out,
     static const char *const keys[] = {"title", "stray", "parts", "run", "measure", NULL};
     ru_status s = ru_ld_only_keys(d, d->root, "", keys, err);
     const char *title = "";
-    struct fy_node_pair *p = ru_ld_find(d->root, "title");
+    const ru_ypair *p = ru_ld_find(d->root, "title");
     if (s == RU_OK && p)
         s = ru_ld_scalar(d, p, "", err, &title);
     ru_circuit *c = NULL;

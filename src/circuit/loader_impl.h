@@ -12,20 +12,13 @@
 #include "ringup/loader.h"
 #include "ringup/status.h"
 
-#include <libfyaml.h>
+#include "circuit/yamltree.h"
 
 /* One parsed YAML file. */
 typedef struct ld_doc {
     char file[RU_ERROR_FILE];   /* name used in messages */
-    struct fy_diag *diag;       /* sends libfyaml's diagnostics to us (never prints) */
-    int probing;                /* 1 while ru_ld_place asks libfyaml for a place */
-    int probe_line, probe_col;  /* the place the last probe reported (1-based) */
-    int nerr;                   /* libfyaml errors received */
-    int err_line, err_col;      /* place of the first one (1-based) */
-    char err_text[RU_ERROR_TEXT]; /* their messages, joined */
-    struct fy_parser *parser;   /* owns the input */
-    struct fy_document *doc;    /* unresolved document */
-    struct fy_node *root;       /* root mapping */
+    ru_yaml *tree;              /* the document (owns every node) */
+    const ru_ynode *root;       /* its root mapping */
 } ld_doc;
 
 /* A part being read: the file, the circuit, and where presets live. */
@@ -36,7 +29,9 @@ typedef struct ld_ctx {
     ru_error *err;              /* caller's error record */
 } ld_ctx;
 
-/* Reads a whole file (RU_EIO with the OS reason on failure). *text is malloc'd. */
+/* Reads a whole regular file of at most RU_YAML_BYTES_MAX bytes: RU_EIO with the
+ * OS reason when it cannot be opened or read, RU_EINPUT for a directory, FIFO,
+ * device or socket and for a file over the limit. *text is malloc'd. */
 ru_status ru_ld_read_file(const char *path, char **text, size_t *len, ru_error *err);
 
 /* Parses text into d (root must be a mapping; no anchors, aliases or tags).
@@ -46,30 +41,30 @@ ru_status ru_ld_open(ld_doc *d, const char *text, size_t len, const char *name,
 void ru_ld_close(ld_doc *d);
 
 /* 1-based place of a node (0,0 when unknown). */
-void ru_ld_place(ld_doc *d, struct fy_node *n, int *line, int *col);
+void ru_ld_place(const ld_doc *d, const ru_ynode *n, int *line, int *col);
 
 /* Fills err with RU_EINPUT at node n and returns RU_EINPUT. */
-ru_status ru_ld_fail(ld_doc *d, struct fy_node *n, ru_error *err, const char *fmt, ...)
+ru_status ru_ld_fail(const ld_doc *d, const ru_ynode *n, ru_error *err, const char *fmt, ...)
 #if defined(__GNUC__)
     __attribute__((format(printf, 4, 5)))
 #endif
     ;
 
 /* The value node of pair p, or NULL when the value is empty ("key:"). */
-struct fy_node *ru_ld_val(struct fy_node_pair *p);
+const ru_ynode *ru_ld_val(const ru_ypair *p);
 
 /* The scalar text of a key node ("" for a non-scalar). */
-const char *ru_ld_key(struct fy_node_pair *p);
+const char *ru_ld_key(const ru_ypair *p);
 
 /* The pair with key `key` in mapping map, or NULL. */
-struct fy_node_pair *ru_ld_find(struct fy_node *map, const char *key);
+const ru_ypair *ru_ld_find(const ru_ynode *map, const char *key);
 
 /* Scalar text of pair p's value, or an error naming who and the key. */
-ru_status ru_ld_scalar(ld_doc *d, struct fy_node_pair *p, const char *who,
+ru_status ru_ld_scalar(const ld_doc *d, const ru_ypair *p, const char *who,
                        ru_error *err, const char **text);
 
 /* Pair p's value parsed by ru_value_parse with unit (NULL: plain number). */
-ru_status ru_ld_value(ld_doc *d, struct fy_node_pair *p, const char *who,
+ru_status ru_ld_value(const ld_doc *d, const ru_ypair *p, const char *who,
                       const char *unit, ru_error *err, double *out);
 
 /* Whether s is a valid part or node name (letters, digits, _ and .). */
@@ -79,16 +74,16 @@ int ru_ld_valid_name(const char *s);
 const char *ru_ld_sep(const char *who);
 
 /* Every key of map must be in allowed (NULL-terminated): else "unknown key". */
-ru_status ru_ld_only_keys(ld_doc *d, struct fy_node *map, const char *who,
+ru_status ru_ld_only_keys(const ld_doc *d, const ru_ynode *map, const char *who,
                           const char *const *allowed, ru_error *err);
 
 /* The value of pair p as a mapping, or an error naming who and the key. */
-ru_status ru_ld_need_mapping(ld_doc *d, struct fy_node_pair *p, const char *who,
-                             ru_error *err, struct fy_node **map);
+ru_status ru_ld_need_mapping(const ld_doc *d, const ru_ypair *p, const char *who,
+                             ru_error *err, const ru_ynode **map);
 
 /* The `run:` and `measure:` sections (loader_run.c), read after the parts. */
-ru_status ru_ld_run(ld_doc *d, ru_circuit *c, struct fy_node_pair *p, ru_error *err);
-ru_status ru_ld_measure(ld_doc *d, ru_circuit *c, struct fy_node_pair *p, ru_error *err);
+ru_status ru_ld_run(ld_doc *d, ru_circuit *c, const ru_ypair *p, ru_error *err);
+ru_status ru_ld_measure(ld_doc *d, ru_circuit *c, const ru_ypair *p, ru_error *err);
 
 /* Reads a preset document's values into part (the sub-struct of the preset's
  * kind, defaults first); *kind gets the preset kind (an ru_law, or the diode and
@@ -108,7 +103,7 @@ ru_status ru_ld_preset_into(const char *models_dir, const char *name, ru_part *p
 int ru_ld_valid_preset_name(const char *name);
 
 /* Reads the `parts:` mapping into ctx->c. */
-ru_status ru_ld_parts(ld_ctx *ctx, struct fy_node_pair *parts);
+ru_status ru_ld_parts(ld_ctx *ctx, const ru_ypair *parts);
 
 /* A numeric value key as the loader reads it (ru_ld_keyrec) (one table per type, wave, law and
  * thermal kind, in loader_parts.c; params.c reads the same tables). */

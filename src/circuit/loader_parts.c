@@ -152,15 +152,14 @@ static int in_list(const char *const *list, const char *s)
 
 /* Every key of map must be in allowed; a key of another type/wave/law "does not
  * apply to `what`", anything else is unknown. */
-static ru_status check_keys(ld_doc *d, struct fy_node *map, const char *who,
+static ru_status check_keys(ld_doc *d, const ru_ynode *map, const char *who,
                             const char *const *allowed, const char *what, ru_error *err)
 {
-    void *it = NULL;
-    struct fy_node_pair *p;
-    while ((p = fy_node_mapping_iterate(map, &it)) != NULL) {
-        struct fy_node *k = fy_node_pair_key(p);
+    for (size_t i = 0; i < map->n; i++) {
+        const ru_ypair *p = &map->pairs[i];
+        const ru_ynode *k = p->key;
         const char *key = ru_ld_key(p);
-        if (!k || fy_node_get_type(k) != FYNT_SCALAR)
+        if (!k || k->type != RU_YAML_SCALAR)
             return ru_ld_fail(d, k, err, "%s: keys must be plain names", who);
         if (in_list(allowed, key))
             continue;
@@ -173,14 +172,14 @@ static ru_status check_keys(ld_doc *d, struct fy_node *map, const char *who,
 }
 
 /* Reads the keys of recs present in map into the struct at base. */
-static ru_status read_keys(ld_doc *d, struct fy_node *map, struct fy_node *place,
+static ru_status read_keys(ld_doc *d, const ru_ynode *map, const ru_ynode *place,
                            const char *who, const key_rec *recs, const char *sig,
                            void *base, ru_error *err)
 {
     for (size_t i = 0; recs[i].key; i++) {
         if (strcmp(recs[i].key, "points") == 0)
             continue; /* read by read_points */
-        struct fy_node_pair *p = ru_ld_find(map, recs[i].key);
+        const ru_ypair *p = ru_ld_find(map, recs[i].key);
         if (!p) {
             if (recs[i].required)
                 return ru_ld_fail(d, place, err, "%s: missing required key %s", who,
@@ -199,13 +198,13 @@ static ru_status read_keys(ld_doc *d, struct fy_node *map, struct fy_node *place
 }
 
 /* A node name from a scalar, added to the circuit at its place. */
-static ru_status node_of(ld_ctx *x, struct fy_node *v, struct fy_node *place,
+static ru_status node_of(ld_ctx *x, const ru_ynode *v, const ru_ynode *place,
                          const char *who, const char *key, int *node)
 {
-    if (!v || fy_node_get_type(v) != FYNT_SCALAR)
+    if (!v || v->type != RU_YAML_SCALAR)
         return ru_ld_fail(x->d, v ? v : place, x->err, "%s: key %s needs a node name", who,
                           key);
-    const char *name = fy_node_get_scalar0(v);
+    const char *name = v->text;
     if (!name || !ru_ld_valid_name(name))
         return ru_ld_fail(x->d, v, x->err,
                           "%s: key %s: '%s' is not a node name (letters, digits, _ and ., "
@@ -221,27 +220,27 @@ static ru_status node_of(ld_ctx *x, struct fy_node *v, struct fy_node *place,
 }
 
 /* nodes: [a, b] of a two-terminal part. */
-static ru_status read_nodes(ld_ctx *x, struct fy_node *map, struct fy_node *place,
+static ru_status read_nodes(ld_ctx *x, const ru_ynode *map, const ru_ynode *place,
                             const char *who, ru_part *part)
 {
-    struct fy_node_pair *p = ru_ld_find(map, "nodes");
+    const ru_ypair *p = ru_ld_find(map, "nodes");
     if (!p)
         return ru_ld_fail(x->d, place, x->err, "%s: missing required key nodes", who);
-    struct fy_node *v = ru_ld_val(p);
-    if (!v || fy_node_get_type(v) != FYNT_SEQUENCE)
-        return ru_ld_fail(x->d, v ? v : fy_node_pair_key(p), x->err,
+    const ru_ynode *v = ru_ld_val(p);
+    if (!v || v->type != RU_YAML_SEQUENCE)
+        return ru_ld_fail(x->d, v ? v : p->key, x->err,
                           "%s: key nodes needs a list of 2 nodes, e.g. [a, gnd]", who);
-    int n = fy_node_sequence_item_count(v);
+    int n = (int)v->n;
     if (n != 2)
         return ru_ld_fail(x->d, v, x->err, "%s: key nodes needs 2 nodes, got %d", who, n);
     ru_status s = RU_OK;
     for (int i = 0; i < 2 && s == RU_OK; i++)
-        s = node_of(x, fy_node_sequence_get_by_index(v, i), v, who, "nodes",
+        s = node_of(x, v->items[i], v, who, "nodes",
                     &part->node[i]);
     return s;
 }
 
-static ru_status read_rlc(ld_ctx *x, struct fy_node *map, struct fy_node *place,
+static ru_status read_rlc(ld_ctx *x, const ru_ynode *map, const ru_ynode *place,
                           const char *who, ru_part *part)
 {
     const key_rec *keys = rlc_keys[part->type];
@@ -257,7 +256,7 @@ static ru_status read_rlc(ld_ctx *x, struct fy_node *map, struct fy_node *place,
     return s;
 }
 
-static ru_status read_poly(ld_ctx *x, struct fy_node *map, struct fy_node *place,
+static ru_status read_poly(ld_ctx *x, const ru_ynode *map, const ru_ynode *place,
                            const char *who, ru_part *part)
 {
     static const char *const allowed[] = {"type", "nodes", "coeffs", NULL};
@@ -266,19 +265,19 @@ static ru_status read_poly(ld_ctx *x, struct fy_node *map, struct fy_node *place
         s = read_nodes(x, map, place, who, part);
     if (s != RU_OK)
         return s;
-    struct fy_node_pair *p = ru_ld_find(map, "coeffs");
+    const ru_ypair *p = ru_ld_find(map, "coeffs");
     if (!p)
         return ru_ld_fail(x->d, place, x->err, "%s: missing required key coeffs", who);
-    struct fy_node *v = ru_ld_val(p);
-    int n = v && fy_node_get_type(v) == FYNT_SEQUENCE ? fy_node_sequence_item_count(v) : 0;
+    const ru_ynode *v = ru_ld_val(p);
+    int n = v && v->type == RU_YAML_SEQUENCE ? (int)v->n : 0;
     if (n < 1 || n > RU_POLY_MAX)
-        return ru_ld_fail(x->d, v ? v : fy_node_pair_key(p), x->err,
+        return ru_ld_fail(x->d, v ? v : p->key, x->err,
                           "%s: key coeffs needs a list of 1 to %d numbers (c0 first)", who,
                           RU_POLY_MAX);
     for (int i = 0; i < n; i++) {
-        struct fy_node *item = fy_node_sequence_get_by_index(v, i);
-        const char *text = fy_node_get_type(item) == FYNT_SCALAR
-                               ? fy_node_get_scalar0(item) : NULL;
+        const ru_ynode *item = v->items[i];
+        const char *text = item->type == RU_YAML_SCALAR
+                               ? item->text : NULL;
         char why[160];
         if (!text || ru_value_parse(text, NULL, &part->coeffs[i], why, sizeof why) != RU_OK)
             return ru_ld_fail(x->d, item, x->err, "%s: key coeffs, item %d: %s", who, i + 1,
@@ -289,11 +288,11 @@ static ru_status read_poly(ld_ctx *x, struct fy_node *map, struct fy_node *place
 }
 
 /* supply or current: wave kind, its keys, nodes. */
-static ru_status read_source(ld_ctx *x, struct fy_node *map, struct fy_node *place,
+static ru_status read_source(ld_ctx *x, const ru_ynode *map, const ru_ynode *place,
                              const char *who, ru_part *part)
 {
     int kind = RU_WAVE_DC;
-    struct fy_node_pair *p = ru_ld_find(map, "wave");
+    const ru_ypair *p = ru_ld_find(map, "wave");
     const char *text = "dc";
     ru_status s = p ? ru_ld_scalar(x->d, p, who, x->err, &text) : RU_OK;
     if (s != RU_OK)
@@ -320,7 +319,7 @@ static ru_status read_source(ld_ctx *x, struct fy_node *map, struct fy_node *pla
 
 /* One of the preset kinds for the scalar value of p; amplifier laws only when
  * amp_only is set (a part's `law:` key). */
-static ru_status read_kind(ld_doc *d, struct fy_node_pair *p, const char *who,
+static ru_status read_kind(ld_doc *d, const ru_ypair *p, const char *who,
                           int amp_only, ru_error *err, int *pk)
 {
     const char *text;
@@ -340,29 +339,29 @@ static ru_status read_kind(ld_doc *d, struct fy_node_pair *p, const char *who,
 }
 
 /* points: [[vin, vout], ...] (2..RU_TABLE_MAX pairs, vin strictly increasing). */
-static ru_status read_points(ld_doc *d, struct fy_node *map, struct fy_node *place,
+static ru_status read_points(ld_doc *d, const ru_ynode *map, const ru_ynode *place,
                              const char *who, int required, ru_amp *amp, ru_error *err)
 {
-    struct fy_node_pair *p = ru_ld_find(map, "points");
+    const ru_ypair *p = ru_ld_find(map, "points");
     if (!p)
         return required ? ru_ld_fail(d, place, err, "%s: missing required key points",
                                      who)
                         : RU_OK;
-    struct fy_node *v = ru_ld_val(p);
-    int n = v && fy_node_get_type(v) == FYNT_SEQUENCE ? fy_node_sequence_item_count(v) : 0;
+    const ru_ynode *v = ru_ld_val(p);
+    int n = v && v->type == RU_YAML_SEQUENCE ? (int)v->n : 0;
     if (n < 2 || n > RU_TABLE_MAX)
-        return ru_ld_fail(d, v ? v : fy_node_pair_key(p), err,
+        return ru_ld_fail(d, v ? v : p->key, err,
                           "%s: key points needs a list of 2 to %d pairs [vin, vout]", who,
                           RU_TABLE_MAX);
     for (int i = 0; i < n; i++) {
-        struct fy_node *item = fy_node_sequence_get_by_index(v, i);
-        if (fy_node_get_type(item) != FYNT_SEQUENCE || fy_node_sequence_item_count(item) != 2)
+        const ru_ynode *item = v->items[i];
+        if (item->type != RU_YAML_SEQUENCE || (int)item->n != 2)
             return ru_ld_fail(d, item, err, "%s: key points, item %d: needs a pair [vin, vout]",
                               who, i + 1);
         double xy[2];
         for (int k = 0; k < 2; k++) {
-            struct fy_node *e = fy_node_sequence_get_by_index(item, k);
-            const char *text = fy_node_get_type(e) == FYNT_SCALAR ? fy_node_get_scalar0(e)
+            const ru_ynode *e = item->items[k];
+            const char *text = e->type == RU_YAML_SCALAR ? e->text
                                                                   : NULL;
             char why[160];
             if (!text || ru_value_parse(text, "V", &xy[k], why, sizeof why) != RU_OK)
@@ -381,7 +380,7 @@ static ru_status read_points(ld_doc *d, struct fy_node *map, struct fy_node *pla
 }
 
 /* The thermal kind (lamp | ntc) of pair p. */
-static ru_status read_thermal_kind(ld_doc *d, struct fy_node_pair *p, const char *who,
+static ru_status read_thermal_kind(ld_doc *d, const ru_ypair *p, const char *who,
                                    ru_error *err, ru_thermal_kind *kind)
 {
     const char *text;
@@ -439,7 +438,7 @@ static void fill_info(const ru_part *part, int pk, const char *desc, ru_model_in
 ru_status ru_ld_preset_values(ld_doc *pd, const char *who, ru_part *part, int *kind,
                               ru_model_info *info, ru_error *err)
 {
-    struct fy_node_pair *p = ru_ld_find(pd->root, "law");
+    const ru_ypair *p = ru_ld_find(pd->root, "law");
     if (!p)
         return ru_ld_fail(pd, pd->root, err, "%s: missing required key law", who);
     int pk;
@@ -448,7 +447,7 @@ ru_status ru_ld_preset_values(ld_doc *pd, const char *who, ru_part *part, int *k
         return s;
     *kind = pk;
     ru_thermal_kind tk = RU_THERMAL_LAMP;
-    struct fy_node_pair *pkind = ru_ld_find(pd->root, "kind");
+    const ru_ypair *pkind = ru_ld_find(pd->root, "kind");
     if (pk == PK_THERMAL && pkind)
         s = read_thermal_kind(pd, pkind, who, err, &tk);
     const char *allowed[MAX_KEYS] = {"law", "description", pk == PK_THERMAL ? "kind" : NULL,
@@ -531,14 +530,14 @@ ru_status ru_ld_preset_into(const char *models_dir, const char *name, ru_part *p
 }
 
 /* model: NAME on part `who`: loads the preset, or says why it cannot. */
-static ru_status read_model(ld_ctx *x, struct fy_node_pair *p, const char *who,
+static ru_status read_model(ld_ctx *x, const ru_ypair *p, const char *who,
                             ru_part *part)
 {
     const char *name;
     ru_status s = ru_ld_scalar(x->d, p, who, x->err, &name);
     if (s != RU_OK)
         return s;
-    struct fy_node *v = ru_ld_val(p);
+    const ru_ynode *v = ru_ld_val(p);
     if (!ru_ld_valid_preset_name(name))
         return ru_ld_fail(x->d, v, x->err,
                           "%s: key model: '%s' is not a preset name (letters, digits, -, "
@@ -555,18 +554,18 @@ static ru_status read_model(ld_ctx *x, struct fy_node_pair *p, const char *who,
 }
 
 /* in, out, ref (default gnd) and inv (default: ref) of an amplifier. */
-static ru_status read_amp_nodes(ld_ctx *x, struct fy_node *map, struct fy_node *place,
+static ru_status read_amp_nodes(ld_ctx *x, const ru_ynode *map, const ru_ynode *place,
                                 const char *who, ru_part *part)
 {
     static const char *const keys[] = {"in", "out", "ref", "inv"};
     part->node[2] = 0;
     part->node[3] = -1;
     for (int i = 0; i < 4; i++) {
-        struct fy_node_pair *p = ru_ld_find(map, keys[i]);
+        const ru_ypair *p = ru_ld_find(map, keys[i]);
         if (!p && i < 2)
             return ru_ld_fail(x->d, place, x->err, "%s: missing required key %s", who,
                               keys[i]);
-        ru_status s = p ? node_of(x, ru_ld_val(p), fy_node_pair_key(p), who, keys[i],
+        ru_status s = p ? node_of(x, ru_ld_val(p), p->key, who, keys[i],
                                   &part->node[i])
                         : RU_OK;
         if (s != RU_OK)
@@ -576,15 +575,15 @@ static ru_status read_amp_nodes(ld_ctx *x, struct fy_node *map, struct fy_node *
 }
 
 /* Exactly one of model and law on an amplifier. */
-static ru_status model_or_law(ld_ctx *x, struct fy_node_pair *pm, struct fy_node_pair *pl,
-                              struct fy_node *place, const char *who)
+static ru_status model_or_law(ld_ctx *x, const ru_ypair *pm, const ru_ypair *pl,
+                              const ru_ynode *place, const char *who)
 {
     if (pm && pl) {
         int l1, c1, l2, c2; /* point at whichever of the two comes second */
-        ru_ld_place(x->d, fy_node_pair_key(pm), &l1, &c1);
-        ru_ld_place(x->d, fy_node_pair_key(pl), &l2, &c2);
+        ru_ld_place(x->d, pm->key, &l1, &c1);
+        ru_ld_place(x->d, pl->key, &l2, &c2);
         int law_later = l2 > l1 || (l2 == l1 && c2 > c1);
-        return ru_ld_fail(x->d, fy_node_pair_key(law_later ? pl : pm), x->err,
+        return ru_ld_fail(x->d, (law_later ? pl : pm)->key, x->err,
                           "%s: give either model or law, not both", who);
     }
     if (!pm && !pl)
@@ -594,10 +593,10 @@ static ru_status model_or_law(ld_ctx *x, struct fy_node_pair *pm, struct fy_node
     return RU_OK;
 }
 
-static ru_status read_amp(ld_ctx *x, struct fy_node *map, struct fy_node *place,
+static ru_status read_amp(ld_ctx *x, const ru_ynode *map, const ru_ynode *place,
                           const char *who, ru_part *part)
 {
-    struct fy_node_pair *pm = ru_ld_find(map, "model"), *pl = ru_ld_find(map, "law");
+    const ru_ypair *pm = ru_ld_find(map, "model"), *pl = ru_ld_find(map, "law");
     ru_status s = model_or_law(x, pm, pl, place, who);
     int pk = RU_LAW_FOLLOWER_TANH;
     if (s == RU_OK && pl)
@@ -623,10 +622,10 @@ static ru_status read_amp(ld_ctx *x, struct fy_node *map, struct fy_node *place,
     return s;
 }
 
-static ru_status read_diode(ld_ctx *x, struct fy_node *map, struct fy_node *place,
+static ru_status read_diode(ld_ctx *x, const ru_ynode *map, const ru_ynode *place,
                             const char *who, ru_part *part)
 {
-    struct fy_node_pair *pm = ru_ld_find(map, "model");
+    const ru_ypair *pm = ru_ld_find(map, "model");
     ru_status s = pm ? read_model(x, pm, who, part) : RU_OK;
     const char *allowed[MAX_KEYS] = {"type", "nodes", "model", NULL};
     add_keys(allowed, diode_keys);
@@ -639,10 +638,10 @@ static ru_status read_diode(ld_ctx *x, struct fy_node *map, struct fy_node *plac
     return s;
 }
 
-static ru_status read_thermal(ld_ctx *x, struct fy_node *map, struct fy_node *place,
+static ru_status read_thermal(ld_ctx *x, const ru_ynode *map, const ru_ynode *place,
                               const char *who, ru_part *part)
 {
-    struct fy_node_pair *pm = ru_ld_find(map, "model"), *pk = ru_ld_find(map, "kind");
+    const ru_ypair *pm = ru_ld_find(map, "model"), *pk = ru_ld_find(map, "kind");
     ru_status s = pm ? read_model(x, pm, who, part) : RU_OK;
     ru_thermal_kind kind = part->thermal.kind;
     if (s == RU_OK && pk)
@@ -665,10 +664,10 @@ static ru_status read_thermal(ld_ctx *x, struct fy_node *map, struct fy_node *pl
 }
 
 /* The part type named by key `type`. */
-static ru_status read_type(ld_ctx *x, struct fy_node *map, struct fy_node *place,
+static ru_status read_type(ld_ctx *x, const ru_ynode *map, const ru_ynode *place,
                            const char *who, ru_part_type *type)
 {
-    struct fy_node_pair *p = ru_ld_find(map, "type");
+    const ru_ypair *p = ru_ld_find(map, "type");
     if (!p)
         return ru_ld_fail(x->d, place, x->err, "%s: missing required key type", who);
     const char *text;
@@ -686,9 +685,9 @@ static ru_status read_type(ld_ctx *x, struct fy_node *map, struct fy_node *place
                       who, text);
 }
 
-static ru_status read_part(ld_ctx *x, struct fy_node_pair *pair)
+static ru_status read_part(ld_ctx *x, const ru_ypair *pair)
 {
-    struct fy_node *key = fy_node_pair_key(pair), *map = ru_ld_val(pair);
+    const ru_ynode *key = pair->key, *map = ru_ld_val(pair);
     const char *name = ru_ld_key(pair);
     if (!ru_ld_valid_name(name))
         return ru_ld_fail(x->d, key, x->err,
@@ -697,7 +696,7 @@ static ru_status read_part(ld_ctx *x, struct fy_node_pair *pair)
                           name, RU_NAME_MAX - 1);
     char who[RU_NAME_MAX + 8];
     snprintf(who, sizeof who, "part %s", name);
-    if (!map || fy_node_get_type(map) != FYNT_MAPPING)
+    if (!map || map->type != RU_YAML_MAPPING)
         return ru_ld_fail(x->d, map ? map : key, x->err,
                           "%s needs a mapping such as {type: resistor, nodes: [a, b], "
                           "value: 1k}",
@@ -726,18 +725,17 @@ static ru_status read_part(ld_ctx *x, struct fy_node_pair *pair)
     return s;
 }
 
-ru_status ru_ld_parts(ld_ctx *x, struct fy_node_pair *parts)
+ru_status ru_ld_parts(ld_ctx *x, const ru_ypair *parts)
 {
-    struct fy_node *map = ru_ld_val(parts);
-    if (!map || fy_node_get_type(map) != FYNT_MAPPING || fy_node_mapping_item_count(map) < 1)
-        return ru_ld_fail(x->d, map ? map : fy_node_pair_key(parts), x->err,
+    const ru_ynode *map = ru_ld_val(parts);
+    if (!map || map->type != RU_YAML_MAPPING || map->n < 1)
+        return ru_ld_fail(x->d, map ? map : parts->key, x->err,
                           "key parts needs a mapping of part names to parts");
-    void *it = NULL;
-    struct fy_node_pair *p;
     ru_status s = RU_OK;
-    while (s == RU_OK && (p = fy_node_mapping_iterate(map, &it)) != NULL) {
-        if (!fy_node_pair_key(p) || fy_node_get_type(fy_node_pair_key(p)) != FYNT_SCALAR)
-            s = ru_ld_fail(x->d, fy_node_pair_key(p), x->err, "part names must be plain names");
+    for (size_t i = 0; s == RU_OK && i < map->n; i++) {
+        const ru_ypair *p = &map->pairs[i];
+        if (!p->key || p->key->type != RU_YAML_SCALAR)
+            s = ru_ld_fail(x->d, p->key, x->err, "part names must be plain names");
         else
             s = read_part(x, p);
     }

@@ -9,7 +9,7 @@
 #include <string.h>
 
 /* One of names (NULL-terminated) for the scalar value of p, as an index. */
-static ru_status pick(ld_doc *d, struct fy_node_pair *p, const char *who,
+static ru_status pick(ld_doc *d, const ru_ypair *p, const char *who,
                       const char *const *names, const char *choices, ru_error *err,
                       int *index)
 {
@@ -55,13 +55,13 @@ static const ru_part *holding_supply(const ru_circuit *c, int k)
 }
 
 /* kick: {preset: {node: voltage, ...}} */
-static ru_status read_preset_kick(ld_doc *d, ru_circuit *c, struct fy_node *kmap,
+static ru_status read_preset_kick(ld_doc *d, ru_circuit *c, const ru_ynode *kmap,
                                   ru_error *err)
 {
     static const char *const keys[] = {"preset", NULL};
-    struct fy_node *nodes;
+    const ru_ynode *nodes;
     ru_status s = ru_ld_only_keys(d, kmap, "run: kick", keys, err);
-    struct fy_node_pair *pp = ru_ld_find(kmap, "preset");
+    const ru_ypair *pp = ru_ld_find(kmap, "preset");
     if (s == RU_OK && !pp)
         s = ru_ld_fail(d, kmap, err, "run: kick needs power-on, noise or {preset: {...}}");
     if (s == RU_OK)
@@ -70,25 +70,24 @@ static ru_status read_preset_kick(ld_doc *d, ru_circuit *c, struct fy_node *kmap
         return s;
     ru_run_opts *run = ru_circuit_run_opts(c);
     run->npreset = 0;
-    void *it = NULL;
-    struct fy_node_pair *p;
-    while ((p = fy_node_mapping_iterate(nodes, &it)) != NULL) {
+    for (size_t i = 0; i < nodes->n; i++) {
+        const ru_ypair *p = &nodes->pairs[i];
         const char *name = ru_ld_key(p);
         int k = ru_circuit_find_node(c, name);
         if (k < 0)
-            return ru_ld_fail(d, fy_node_pair_key(p), err,
+            return ru_ld_fail(d, p->key, err,
                               "run: kick preset: node %s does not exist", name);
         if (k == 0)
-            return ru_ld_fail(d, fy_node_pair_key(p), err,
+            return ru_ld_fail(d, p->key, err,
                               "run: kick preset: ground cannot be preset");
         const ru_part *held = holding_supply(c, k);
         if (held)
-            return ru_ld_fail(d, fy_node_pair_key(p), err,
+            return ru_ld_fail(d, p->key, err,
                               "run: kick preset: node %s is held by supply %s; only free "
                               "nodes can be preset",
                               name, held->name);
         if (run->npreset == RU_PRESET_MAX)
-            return ru_ld_fail(d, fy_node_pair_key(p), err,
+            return ru_ld_fail(d, p->key, err,
                               "run: kick preset: at most %d nodes", RU_PRESET_MAX);
         double v;
         s = ru_ld_value(d, p, "run: kick preset", "V", err, &v);
@@ -103,12 +102,12 @@ static ru_status read_preset_kick(ld_doc *d, ru_circuit *c, struct fy_node *kmap
     return RU_OK;
 }
 
-static ru_status read_kick(ld_doc *d, ru_circuit *c, struct fy_node_pair *p,
+static ru_status read_kick(ld_doc *d, ru_circuit *c, const ru_ypair *p,
                            ru_error *err)
 {
     static const char *const names[] = {"power-on", "noise", NULL};
-    struct fy_node *v = ru_ld_val(p);
-    if (v && fy_node_get_type(v) == FYNT_MAPPING)
+    const ru_ynode *v = ru_ld_val(p);
+    if (v && v->type == RU_YAML_MAPPING)
         return read_preset_kick(d, c, v, err);
     int k = 0;
     ru_status s = pick(d, p, "run", names, "power-on, noise or {preset: {...}}", err, &k);
@@ -117,7 +116,7 @@ static ru_status read_kick(ld_doc *d, ru_circuit *c, struct fy_node_pair *p,
     return s;
 }
 
-static ru_status read_seed(ld_doc *d, struct fy_node_pair *p, ru_error *err,
+static ru_status read_seed(ld_doc *d, const ru_ypair *p, ru_error *err,
                            unsigned long *seed)
 {
     const char *text;
@@ -135,7 +134,7 @@ static ru_status read_seed(ld_doc *d, struct fy_node_pair *p, ru_error *err,
 }
 
 /* A positive time for key p of `run`. */
-static ru_status positive_time(ld_doc *d, struct fy_node_pair *p, ru_error *err,
+static ru_status positive_time(ld_doc *d, const ru_ypair *p, ru_error *err,
                                double *out)
 {
     ru_status s = ru_ld_value(d, p, "run", "s", err, out);
@@ -145,17 +144,17 @@ static ru_status positive_time(ld_doc *d, struct fy_node_pair *p, ru_error *err,
     return s;
 }
 
-ru_status ru_ld_run(ld_doc *d, ru_circuit *c, struct fy_node_pair *rp,
+ru_status ru_ld_run(ld_doc *d, ru_circuit *c, const ru_ypair *rp,
                           ru_error *err)
 {
     static const char *const keys[] = {"stop", "sample", "kick", "accuracy", "seed", NULL};
     static const char *const acc[] = {"draft", "normal", "precise", NULL};
-    struct fy_node *map;
+    const ru_ynode *map;
     ru_status s = ru_ld_need_mapping(d, rp, "", err, &map);
     if (s == RU_OK)
         s = ru_ld_only_keys(d, map, "run", keys, err);
     ru_run_opts *run = ru_circuit_run_opts(c);
-    struct fy_node_pair *p;
+    const ru_ypair *p;
     if (s == RU_OK && (p = ru_ld_find(map, "stop")) != NULL)
         s = positive_time(d, p, err, &run->stop_s);
     if (s == RU_OK && (p = ru_ld_find(map, "sample")) != NULL) {
@@ -178,7 +177,7 @@ ru_status ru_ld_run(ld_doc *d, ru_circuit *c, struct fy_node_pair *rp,
 }
 
 /* One probe node name: an existing node, ground only as one side of a difference. */
-static ru_status probe_node(ld_doc *d, ru_circuit *c, struct fy_node *v,
+static ru_status probe_node(ld_doc *d, ru_circuit *c, const ru_ynode *v,
                             const char *name, int allow_gnd, ru_error *err, int *node)
 {
     *node = ru_circuit_find_node(c, name);
@@ -191,7 +190,7 @@ static ru_status probe_node(ld_doc *d, ru_circuit *c, struct fy_node *v,
     return RU_OK;
 }
 
-static ru_status read_probe(ld_doc *d, ru_circuit *c, struct fy_node_pair *p,
+static ru_status read_probe(ld_doc *d, ru_circuit *c, const ru_ypair *p,
                             ru_error *err)
 {
     const char *text;
@@ -203,7 +202,7 @@ static ru_status read_probe(ld_doc *d, ru_circuit *c, struct fy_node_pair *p,
     char *minus = strchr(pos, '-');
     if (minus)
         *minus = '\0';
-    struct fy_node *v = ru_ld_val(p);
+    const ru_ynode *v = ru_ld_val(p);
     ru_measure_opts *m = ru_circuit_measure_opts(c);
     s = probe_node(d, c, v, pos, minus != NULL, err, &m->probe_pos); /* gnd-a: -v(a) */
     m->probe_neg = 0;
@@ -214,7 +213,7 @@ static ru_status read_probe(ld_doc *d, ru_circuit *c, struct fy_node_pair *p,
     return s;
 }
 
-static ru_status read_loop(ld_doc *d, ru_circuit *c, struct fy_node_pair *p,
+static ru_status read_loop(ld_doc *d, ru_circuit *c, const ru_ypair *p,
                            ru_error *err)
 {
     const char *text;
@@ -233,11 +232,11 @@ static ru_status read_loop(ld_doc *d, ru_circuit *c, struct fy_node_pair *p,
 }
 
 /* A fraction in (0, 1) written as a percentage or a plain number. */
-static ru_status fraction(ld_doc *d, struct fy_node *v, struct fy_node *place,
+static ru_status fraction(ld_doc *d, const ru_ynode *v, const ru_ynode *place,
                           const char *what, ru_error *err, double *out)
 {
     char why[160];
-    const char *text = (v && fy_node_get_type(v) == FYNT_SCALAR) ? fy_node_get_scalar0(v)
+    const char *text = (v && v->type == RU_YAML_SCALAR) ? v->text
                                                                   : NULL;
     if (!text)
         return ru_ld_fail(d, v ? v : place, err, "measure: %s needs a single value", what);
@@ -250,18 +249,18 @@ static ru_status fraction(ld_doc *d, struct fy_node *v, struct fy_node *place,
     return RU_OK;
 }
 
-static ru_status read_window(ld_doc *d, ru_circuit *c, struct fy_node_pair *p,
+static ru_status read_window(ld_doc *d, ru_circuit *c, const ru_ypair *p,
                              ru_error *err)
 {
-    struct fy_node *v = ru_ld_val(p);
-    if (!v || fy_node_get_type(v) != FYNT_SEQUENCE || fy_node_sequence_item_count(v) != 2)
-        return ru_ld_fail(d, v ? v : fy_node_pair_key(p), err,
+    const ru_ynode *v = ru_ld_val(p);
+    if (!v || v->type != RU_YAML_SEQUENCE || (int)v->n != 2)
+        return ru_ld_fail(d, v ? v : p->key, err,
                           "measure: key growth-window needs a list of two levels [lo, hi]");
     double lo, hi;
-    ru_status s = fraction(d, fy_node_sequence_get_by_index(v, 0), v,
+    ru_status s = fraction(d, v->items[0], v,
                            "key growth-window", err, &lo);
     if (s == RU_OK)
-        s = fraction(d, fy_node_sequence_get_by_index(v, 1), v, "key growth-window", err,
+        s = fraction(d, v->items[1], v, "key growth-window", err,
                      &hi);
     if (s == RU_OK && !(lo < hi))
         s = ru_ld_fail(d, v, err, "measure: key growth-window: lo must be below hi");
@@ -272,22 +271,22 @@ static ru_status read_window(ld_doc *d, ru_circuit *c, struct fy_node_pair *p,
     return s;
 }
 
-ru_status ru_ld_measure(ld_doc *d, ru_circuit *c, struct fy_node_pair *mp,
+ru_status ru_ld_measure(ld_doc *d, ru_circuit *c, const ru_ypair *mp,
                               ru_error *err)
 {
     static const char *const keys[] = {"probe", "loop", "startup-level", "growth-window",
                                        NULL};
-    struct fy_node *map;
+    const ru_ynode *map;
     ru_status s = ru_ld_need_mapping(d, mp, "", err, &map);
     if (s == RU_OK)
         s = ru_ld_only_keys(d, map, "measure", keys, err);
-    struct fy_node_pair *p;
+    const ru_ypair *p;
     if (s == RU_OK && (p = ru_ld_find(map, "probe")) != NULL)
         s = read_probe(d, c, p, err);
     if (s == RU_OK && (p = ru_ld_find(map, "loop")) != NULL)
         s = read_loop(d, c, p, err);
     if (s == RU_OK && (p = ru_ld_find(map, "startup-level")) != NULL)
-        s = fraction(d, ru_ld_val(p), fy_node_pair_key(p), "key startup-level", err,
+        s = fraction(d, ru_ld_val(p), p->key, "key startup-level", err,
                      &ru_circuit_measure_opts(c)->startup_level);
     if (s == RU_OK && (p = ru_ld_find(map, "growth-window")) != NULL)
         s = read_window(d, c, p, err);
