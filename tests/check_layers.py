@@ -20,12 +20,13 @@ import subprocess
 import sys
 
 # Bottom to top. Keep in step with RU_LAYERS in CMakeLists.txt.
-LAYERS = ["base", "circuit", "parts", "system", "engines", "measure", "output",
+LAYERS = ["base", "parts", "circuit", "system", "engines", "measure", "output",
           "analysis", "batch", "cli"]
 
 # Which layer each public header belongs to.
 PUBLIC = {
     "status.h": "base", "format.h": "base",
+    "part.h": "parts",
     "circuit.h": "circuit", "loader.h": "circuit", "params.h": "circuit",
     "system.h": "system",
     "transient.h": "engines", "smallsig.h": "engines", "descfn.h": "engines",

@@ -9,7 +9,7 @@
 #include "ru_test.h"
 
 #include "ringup/system.h"
-#include "system/wave.h"
+#include "parts/wave.h"
 
 #include <stdio.h>
 #include <stdlib.h>

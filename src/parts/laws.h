@@ -17,7 +17,7 @@
 #ifndef RINGUP_LAWS_H
 #define RINGUP_LAWS_H
 
-#include "ringup/circuit.h"
+#include "ringup/part.h"
 
 /* Exponent argument above which exp() is continued linearly (junction-voltage
  * limiting). exp(40) = 2.35e17, so with is = 1e-14 A the limit is reached at

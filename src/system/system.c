@@ -6,7 +6,7 @@
 #include "system/system_impl.h"
 
 #include "parts/laws.h"
-#include "system/wave.h"
+#include "parts/wave.h"
 
 #include <lapacke.h>
 #include <math.h>

@@ -9,7 +9,7 @@
 #ifndef RINGUP_WAVE_H
 #define RINGUP_WAVE_H
 
-#include "ringup/circuit.h"
+#include "ringup/part.h"
 
 double ru_wave_value(const ru_wave *w, double t_s);
 double ru_wave_slope(const ru_wave *w, double t_s); /* d value / dt (unit/s) */

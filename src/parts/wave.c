@@ -5,7 +5,7 @@
  * [edge, width - edge), the falling edge [width - edge, width), then v0 until the
  * next pulse. Edge times are always computed by pulse_time() so that breakpoints
  * and jump tests see the same doubles. */
-#include "system/wave.h"
+#include "parts/wave.h"
 
 #include <math.h>
 

@@ -1,0 +1,222 @@
+/* ringup/part.h: one part of a circuit as plain data (ru_part and the records of
+ * its kinds: waveform, amplifier law, diode, thermal resistor), its defaults, and
+ * the file spellings of part types and laws.
+ *
+ * The physics of every part type lives in src/parts/ (one file per family, reached
+ * through one descriptor table); this header is what callers see. A part names its
+ * nodes by index (ru_circuit_node_name() in ringup/circuit.h; 0 is ground). Values
+ * are in SI units as the field comments say. Nothing here allocates or keeps
+ * state. ringup/circuit.h includes this header. */
+#ifndef RINGUP_PART_H
+#define RINGUP_PART_H
+
+#include <stddef.h>
+
+#ifdef __cplusplus
+extern "C" {
+#endif
+
+#define RU_NAME_MAX 64   /* longest part, node or model name, with the NUL */
+#define RU_POLY_MAX 8    /* most coefficients of a poly-conductance (c_0..c_7) */
+#define RU_TABLE_MAX 64  /* most points of a `table` amplifier's transfer curve */
+
+typedef enum {
+    RU_PART_RESISTOR,  /* nodes a,b; value in ohm */
+    RU_PART_CAPACITOR, /* nodes a,b; value in farad */
+    RU_PART_INDUCTOR,  /* nodes a,b; value in henry; series_ohm; state i(a->b) */
+    RU_PART_SUPPLY,    /* ideal voltage source: v(a) - v(b) = wave(t) */
+    RU_PART_CURRENT,   /* ideal current source: wave(t) amps flow a -> b inside it */
+    RU_PART_POLY,      /* poly-conductance: i(a->b) = sum coeffs[k] v^k, v = v(a)-v(b) */
+    RU_PART_AMPLIFIER, /* behavioral amplifier: nodes in, out, ref, inv (see ru_amp) */
+    RU_PART_DIODE,     /* junction diode: nodes anode, cathode (see ru_diode) */
+    RU_PART_THERMAL,   /* thermal resistor (lamp or NTC): nodes a,b (see ru_thermal) */
+    RU_PART_TYPE_COUNT
+} ru_part_type;
+
+/* The file spelling of a part type ("resistor", ..., "poly-conductance",
+ * "amplifier", "diode", "thermal-resistor"). */
+const char *ru_part_type_name(ru_part_type t);
+
+typedef enum {
+    RU_WAVE_DC,    /* value, ramped linearly from 0 over rise_s at power-on */
+    RU_WAVE_STEP,  /* from v0 to v1 at at_s, linear edge over edge_s (0: a jump) */
+    RU_WAVE_SINE,  /* offset + amplitude sin(2 pi freq (t - at_s) + phase), t >= at_s */
+    RU_WAVE_PULSE  /* v0, then v1 from at_s for width_s, repeating every period_s */
+} ru_wave_kind;
+
+/* Waveform of a supply (volts) or current source (amperes). */
+typedef struct ru_wave {
+    ru_wave_kind kind;
+    double value;     /* dc: final value */
+    double rise_s;    /* dc: ramp time from 0 at t = 0 (0: at value from t = 0) */
+    double v0;        /* step/pulse: value before the edge */
+    double v1;        /* step/pulse: value after the edge */
+    double at_s;      /* step/pulse/sine: start time */
+    double edge_s;    /* step/pulse: linear transition time (0: a jump) */
+    double width_s;   /* pulse: time at v1 (edges included) */
+    double period_s;  /* pulse: repeat period (0: one pulse) */
+    double offset;    /* sine: DC offset (also the value before at_s) */
+    double amplitude; /* sine: peak amplitude */
+    double freq_hz;   /* sine: frequency */
+    double phase_deg; /* sine: phase at at_s */
+} ru_wave;
+
+typedef enum {
+    RU_LAW_FOLLOWER_TANH, /* see ru_amp */
+    RU_LAW_EXP_STAGE,
+    RU_LAW_DIFF_PAIR_TANH,
+    RU_LAW_OPAMP,
+    RU_LAW_TABLE,
+    RU_LAW_COUNT
+} ru_law;
+
+/* The file spelling of a law ("follower-tanh", "exp-stage", "diff-pair-tanh",
+ * "opamp", "table"). */
+const char *ru_law_name(ru_law law);
+
+/* Parameters of a behavioral amplifier. The control voltage is vc = v(in) - v(inv)
+ * (inv is the inverting input; it is the ref node unless given), the output
+ * voltage vo = v(out) - v(ref). The output current enters out and leaves by ref;
+ * an input current enters in and leaves by inv (KCL holds over the part).
+ *
+ * follower-tanh: a Thevenin source E = center + gain*swing*tanh((vc - center)/swing)
+ *   behind rout from out to ref; the input draws no current.
+ * exp-stage: a current ic = is*(exp(vc/(n*vt)) - 1)*tanh(vo/vsat) flows into out
+ *   and leaves by ref (a sink at out, as a junction transistor's collector); the
+ *   input draws the junction current over beta, is*(exp(vc/(n*vt)) - 1)/beta, from
+ *   in to inv (ref unless given); vt = k*T/q at temp_c. The tanh factor is the
+ *   smooth saturation of the output only: 1 when vo is well above vsat, 0 at vo = 0. The input is not
+ *   reduced by it, so in saturation the junction still clamps the input as a real
+ *   base-emitter junction does.
+ * diff-pair-tanh: the long-tailed (emitter-coupled) pair. Its differential output
+ *   current is itail*tanh(vc/(2 n vt)) (Source: the emitter-coupled pair's large-
+ *   signal transfer, e.g. Gray, Hurst, Lewis & Meyer, "Analysis and Design of
+ *   Analog Integrated Circuits", ch. 3; from memory). The current pushed INTO out
+ *   is sign*itail*tanh(vc/(2 n vt)): with a load resistor R from out to ref, sign
+ *   +1 gives a non-inverting stage of small-signal gain +itail*R/(2 n vt), sign -1
+ *   an inverting one. rout (0: none) is an output resistance from out to ref in
+ *   parallel. The inputs draw nothing. ref carries the output current back, so it
+ *   should be gnd or a stiff node; the pair's second input is `inv`.
+ * opamp: a dominant-pole operational amplifier (two-stage macro model) with one
+ *   internal state, the integrator voltage vint (state "PART.vint", volts
+ *   relative to ref):
+ *     dvint/dt = slew*tanh(wt*vc/slew) - wp*vint - K(vint)
+ *     wt = 2 pi gbw (unity-gain frequency), wp = wt/gain (the open-loop pole)
+ *   and the output is rail(vint) behind rout: i_out = (rail(vint) - vo)/rout.
+ *   Small signal: vint/vc = gain/(1 + s/wp), the open-loop gain A0/(1 + j f/fp)
+ *   with fp = gbw/A0 (Source: the single-pole op-amp model, e.g. Sedra & Smith,
+ *   "Microelectronic Circuits", ch. 2; from memory). Large signal: the input
+ *   stage saturates, so |dvint/dt| stays below slew (smooth slew-rate limit).
+ *   rail(u) = vmin + knee*(sp((u - vmin)/knee) - sp((u - vmax)/knee)), sp(z) =
+ *   ln(1 + e^z) (softplus): u between the rails passes, beyond them it bends over
+ *   within a few knee to vmax or vmin (rail(vmax) = vmax - knee ln 2). K is the
+ *   anti-windup force, slew*(sp((vint - vmax - 20 knee)/knee) - sp((vmin - 20 knee
+ *   - vint)/knee)): negligible inside the rails widened by 20 knees, it holds vint
+ *   there once driven, so a driven-out output recovers after 20 knee/slew or
+ *   less, not after unwinding a huge integrator. DC: vint = gain*vc while inside
+ *   that band, so the static transfer is rail(gain*vc). vint starts at its rest
+ *   with every node at 0 V (0 V unless a rail is within 20 knees of 0). The
+ *   inputs draw nothing.
+ * table: a measured static transfer vout = f(vc) from npoints (2..RU_TABLE_MAX)
+ *   points with strictly increasing vin, interpolated by the monotone piecewise
+ *   cubic Hermite curve (Fritsch & Carlson, SIAM J. Numer. Anal. 17 (1980) 238,
+ *   with the weighted-harmonic-mean slopes of Fritsch & Butland (1984), the same
+ *   curve as scipy's PchipInterpolator): C1, and monotone on every interval where
+ *   the data are; beyond the ends it continues linearly with the end slopes. The
+ *   source f(vc) sits behind rout from out to ref; the input draws nothing. */
+typedef struct ru_amp {
+    ru_law law;
+    char model[RU_NAME_MAX]; /* preset name the values came from, "" when inline */
+    double gain;             /* follower: small-signal gain (V/V); opamp: DC gain A0 */
+    double swing_v;          /* follower: soft-clipping scale (V) */
+    double center_v;         /* follower: input and output center (V) */
+    double rout_ohm;         /* follower, opamp, table: output resistance (ohm, > 0);
+                                diff-pair: parallel output resistance (0: none) */
+    double is_a;             /* exp-stage: saturation current (A) */
+    double n;                /* exp-stage, diff-pair: emission coefficient */
+    double beta;             /* exp-stage: current gain ic/ib */
+    double vsat_v;           /* exp-stage: saturation knee (V) */
+    double temp_c;           /* exp-stage, diff-pair: junction temperature (deg C) */
+    double itail_a;          /* diff-pair: tail current (A, > 0) */
+    double sign;             /* diff-pair: +1 non-inverting, -1 inverting */
+    double gbw_hz;           /* opamp: gain-bandwidth product (Hz, > 0) */
+    double vmax_v;           /* opamp: upper output rail (V, relative to ref) */
+    double vmin_v;           /* opamp: lower output rail (V, < vmax) */
+    double knee_v;           /* opamp: softness of the rails (V, > 0) */
+    double slew_v_per_s;     /* opamp: slew-rate limit (V/s, > 0) */
+    int npoints;             /* table: points used (2..RU_TABLE_MAX) */
+    double pt_vin[RU_TABLE_MAX];  /* table: input voltages (V), strictly increasing */
+    double pt_vout[RU_TABLE_MAX]; /* table: output voltages (V) */
+} ru_amp;
+
+/* Junction diode (two-terminal part): i(anode -> cathode) = is*(exp(vj/(n vt)) - 1)
+ * with vj = vd - rs*i, vd = v(anode) - v(cathode), vt = kT/q at temp_c (Source:
+ * Shockley's ideal-diode law with series resistance, e.g. Sze, "Physics of
+ * Semiconductor Devices"; from memory). Exponents above 40 continue linearly
+ * (junction-voltage limiting, as the exp-stage). */
+typedef struct ru_diode {
+    char model[RU_NAME_MAX]; /* preset name, "" when inline */
+    double is_a;             /* saturation current (A, > 0) */
+    double n;                /* emission coefficient (> 0) */
+    double rs_ohm;           /* series resistance (ohm, >= 0) */
+    double temp_c;           /* junction temperature (deg C) */
+} ru_diode;
+
+typedef enum {
+    RU_THERMAL_LAMP, /* R = r0*(1 + alpha*(T - t0)): a metal filament */
+    RU_THERMAL_NTC   /* R = r0*exp(bth*(1/T - 1/T0)), T in kelvin: a thermistor */
+} ru_thermal_kind;
+
+/* Thermal resistor (two-terminal part): a resistor whose resistance follows its
+ * own temperature T = tamb + rise. The rise is an internal state ("PART.rise",
+ * kelvin above ambient, 0 at start) obeying the first-order heat balance
+ *   cth d(rise)/dt = v^2/R(T) - rise/rth
+ * (a thermal RC: steady rise P*rth, time constant rth*cth). */
+typedef struct ru_thermal {
+    char model[RU_NAME_MAX]; /* preset name, "" when inline */
+    ru_thermal_kind kind;    /* lamp or ntc */
+    double r0_ohm;           /* resistance at t0 (ohm, > 0) */
+    double alpha_per_k;      /* lamp: temperature coefficient (1/K) */
+    double beta_k;           /* ntc: B constant (K, > 0) */
+    double t0_c;             /* reference temperature of r0 (deg C) */
+    double tamb_c;           /* ambient temperature (deg C) */
+    double rth_k_per_w;      /* thermal resistance to ambient (K/W, > 0) */
+    double cth_j_per_k;      /* heat capacity (J/K, > 0) */
+} ru_thermal;
+
+/* Fills d and t with their defaults (documented in README). */
+void ru_diode_defaults(ru_diode *d);
+void ru_thermal_defaults(ru_thermal *t, ru_thermal_kind kind);
+
+/* Fills a with the law's defaults (documented in README). */
+void ru_amp_defaults(ru_amp *a, ru_law law);
+
+/* One part. Node indices refer to ru_circuit_node_name(); 0 is ground. */
+typedef struct ru_part {
+    char name[RU_NAME_MAX];
+    ru_part_type type;
+    int node[4];             /* a,b for two-terminal parts; in,out,ref,inv for
+                                amplifiers (inv -1: the same node as ref) */
+    double value;            /* R (ohm), C (farad), L (henry); unused otherwise */
+    double series_ohm;       /* inductor: series resistance (ohm, >= 0) */
+    double tol;              /* relative tolerance for Monte Carlo (0.01 = 1 %) */
+    double coeffs[RU_POLY_MAX]; /* poly-conductance c_0.. (A/V^k) */
+    int ncoeffs;             /* number of coefficients used */
+    ru_wave wave;            /* supply, current */
+    ru_amp amp;              /* amplifier */
+    ru_diode diode;          /* diode */
+    ru_thermal thermal;      /* thermal resistor */
+    int line, col;           /* where the part is defined in its file (1-based; 0 none) */
+} ru_part;
+
+/* Fills p with zeros, the type's defaults and ground nodes (an amplifier's inv
+ * is -1: the same as ref). */
+void ru_part_init(ru_part *p, ru_part_type type, const char *name);
+
+/* The control-input nodes of an amplifier: in and inv (inv resolved to ref). */
+int ru_part_inv_node(const ru_part *p);
+
+#ifdef __cplusplus
+}
+#endif
+#endif
