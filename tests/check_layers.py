@@ -42,7 +42,7 @@ PUBLIC = {
 MAX_LINES = 650  # "about 600 lines" (issue 8), with a little room
 # Files still over the limit, split when the part descriptors replace their
 # per-type code (DEVELOPERS.md "Adding a part type"). Empty this list, never grow it.
-OVER_LIMIT = {"src/circuit/circuit.c", "src/circuit/loader_parts.c"}
+OVER_LIMIT = {"src/circuit/loader_parts.c"}
 
 INCLUDE = re.compile(r'^\s*#\s*include\s+"([^"]+)"', re.M)
 

@@ -19,6 +19,7 @@ extern "C" {
 #define RU_NAME_MAX 64   /* longest part, node or model name, with the NUL */
 #define RU_POLY_MAX 8    /* most coefficients of a poly-conductance (c_0..c_7) */
 #define RU_TABLE_MAX 64  /* most points of a `table` amplifier's transfer curve */
+#define RU_PART_NODES 4  /* node slots of a part */
 
 typedef enum {
     RU_PART_RESISTOR,  /* nodes a,b; value in ohm */
@@ -195,7 +196,7 @@ void ru_amp_defaults(ru_amp *a, ru_law law);
 typedef struct ru_part {
     char name[RU_NAME_MAX];
     ru_part_type type;
-    int node[4];             /* a,b for two-terminal parts; in,out,ref,inv for
+    int node[RU_PART_NODES]; /* a,b for two-terminal parts; in,out,ref,inv for
                                 amplifiers (inv -1: the same node as ref) */
     double value;            /* R (ohm), C (farad), L (henry); unused otherwise */
     double series_ohm;       /* inductor: series resistance (ohm, >= 0) */
@@ -215,6 +216,21 @@ void ru_part_init(ru_part *p, ru_part_type type, const char *name);
 
 /* The control-input nodes of an amplifier: in and inv (inv resolved to ref). */
 int ru_part_inv_node(const ru_part *p);
+
+/* One terminal of a part as its file names it. */
+typedef struct ru_terminal {
+    const char *key; /* "nodes", "in", "out", "ref", "inv", "control" (static text) */
+    int node;        /* node index (0: ground) */
+} ru_terminal;
+
+/* The terminals of p in order (a terminal left at its default "same as another"
+ * is not listed: an amplifier's inv when it is ref) into out[0..max-1]; returns
+ * how many there are (may exceed max). */
+int ru_part_terminals(const ru_part *p, ru_terminal *out, int max);
+
+/* The value that matters of p for listings, e.g. "10 kohm", "sine 1 V at 1000 Hz",
+ * "follower-tanh / soft-follower" (SI prefixes; "" for an unknown type). */
+void ru_part_describe(const ru_part *p, char *buf, size_t size);
 
 #ifdef __cplusplus
 }

@@ -11,13 +11,16 @@
  * (the opamp's output depends on vc only through its integrator). The input terms
  * are the loading the amplifier puts on its control nodes.
  *
- * Laws are table-driven (ru_law_get): each entry names the law, its evaluator and
- * how many internal states it adds (0 or 1). Evaluators are pure functions of
- * their arguments and safe from any thread. */
+ * Laws are table-driven (ru_law_get, laws.c): one file per law (law_*.c) defines
+ * one ru_law_desc with its keys, checks, evaluator, internal state and
+ * describing-function contribution; the amplifier part (amplifier.c) reaches
+ * laws only through the table. Evaluators are pure functions of their arguments
+ * and safe from any thread. Adding a law: DEVELOPERS.md. */
 #ifndef RINGUP_LAWS_H
 #define RINGUP_LAWS_H
 
 #include "ringup/part.h"
+#include "parts/desc.h"
 
 /* Exponent argument above which exp() is continued linearly (junction-voltage
  * limiting). exp(40) = 2.35e17, so with is = 1e-14 A the limit is reached at
@@ -55,10 +58,34 @@ typedef void (*ru_law_fn)(const ru_amp *a, double vc_v, double vo_v, double xs,
 
 typedef struct ru_law_desc {
     ru_law law;        /* which law this entry describes */
+    ru_variant v;      /* its spelling, keys (offsets in ru_part: amp.*) and lists */
+    /* checks of the law's values (the amplifier's terminals and finiteness are
+       checked before) */
+    ru_status (*check)(const ru_part *p, const ru_part_env *env, ru_error *err);
     ru_law_fn eval;    /* currents, state rate and derivatives */
     int nstates;       /* internal states the law adds (0 or 1) */
     const char *state; /* name of the state ("vint"), NULL without one */
+    double (*rest)(const ru_amp *a);  /* the state's rest with every node at 0 V;
+                                         NULL: 0 */
+    double (*state_scale)(const ru_amp *a, double v_scale); /* NULL: v_scale */
+    int input_dc;      /* 1: the input conducts at DC, in to inv (a junction) */
+    /* The describing-function contribution: the output current as a memoryless
+       function of vc at vo (ru_df_amp_gain integrates it over a cycle); NULL for
+       a law whose output follows vc only through its state (no memoryless
+       describing function; the harmonic balance of ru_df_analyse covers it). */
+    double (*df_out)(const ru_amp *a, double vc_v, double vo_v);
 } ru_law_desc;
+
+/* The law spelled name, or -1. */
+int ru_law_find(const char *name);
+
+/* Checks shared by the junction laws (exp-stage, diff-pair): n > 0, temp above
+ * absolute zero. */
+ru_status ru_law_check_junction(const ru_part *p, const ru_part_env *env, ru_error *err);
+
+/* The table entries, one per law file. */
+extern const ru_law_desc ru_law_follower, ru_law_exp, ru_law_diffpair, ru_law_opamp,
+    ru_law_tab;
 
 /* The table entry of a law, or NULL for an unknown law. */
 const ru_law_desc *ru_law_get(ru_law law);

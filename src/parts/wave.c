@@ -1,4 +1,5 @@
-/* wave.c: source waveforms: value, slope, final value, jumps, breakpoints.
+/* wave.c: source waveforms: value, slope, final value, jumps, breakpoints; and
+ * their keys, checks and listing text (the supply's and the current source's).
  *
  * Pulse timing: the n-th pulse (n = 0, 1, ... ; only n = 0 when period_s is 0)
  * starts at at_s + n*period_s; within it the rising edge takes [0, edge), the top
@@ -7,7 +8,10 @@
  * and jump tests see the same doubles. */
 #include "parts/wave.h"
 
+#include "ringup/format.h"
+
 #include <math.h>
+#include <stdio.h>
 
 #define RU_PI 3.14159265358979323846
 
@@ -222,4 +226,95 @@ double ru_wave_constant_from(const ru_wave *w)
         return w->period_s > 0 ? INFINITY : w->at_s + w->width_s;
     default: return INFINITY;
     }
+}
+
+void ru_wave_eval(const ru_wave *w, double t_s, int dc, double scale, double *v,
+                  double *dvdt)
+{
+    if (dc) {
+        *v = scale * ru_wave_final(w);
+        *dvdt = 0.0;
+        return;
+    }
+    *v = scale * ru_wave_value(w, t_s);
+    *dvdt = scale * ru_wave_slope(w, t_s);
+}
+
+/* ---- keys, checks and listing ----------------------------------------------- */
+
+#define W(f) offsetof(ru_part, wave.f)
+static const ru_keyrec wave_dc[] = {{"value", "sig", W(value), 1, 0.0},
+                                    {"rise", "s", W(rise_s), 0, 0.0},
+                                    {NULL, NULL, 0, 0, 0.0}};
+static const ru_keyrec wave_step[] = {{"from", "sig", W(v0), 0, 0.0},
+                                      {"to", "sig", W(v1), 1, 0.0},
+                                      {"at", "s", W(at_s), 0, 0.0},
+                                      {"edge", "s", W(edge_s), 0, 0.0},
+                                      {NULL, NULL, 0, 0, 0.0}};
+static const ru_keyrec wave_sine[] = {{"offset", "sig", W(offset), 0, 0.0},
+                                      {"amplitude", "sig", W(amplitude), 1, 0.0},
+                                      {"freq", "Hz", W(freq_hz), 1, 0.0},
+                                      {"phase", NULL, W(phase_deg), 0, 0.0},
+                                      {"at", "s", W(at_s), 0, 0.0},
+                                      {NULL, NULL, 0, 0, 0.0}};
+static const ru_keyrec wave_pulse[] = {{"from", "sig", W(v0), 0, 0.0},
+                                       {"to", "sig", W(v1), 1, 0.0},
+                                       {"at", "s", W(at_s), 0, 0.0},
+                                       {"width", "s", W(width_s), 1, 0.0},
+                                       {"period", "s", W(period_s), 0, 0.0},
+                                       {"edge", "s", W(edge_s), 0, 0.0},
+                                       {NULL, NULL, 0, 0, 0.0}};
+#undef W
+static const ru_variant wave_variants[RU_WAVE_KINDS] = {
+    {"dc", wave_dc, NULL}, {"step", wave_step, NULL},
+    {"sine", wave_sine, NULL}, {"pulse", wave_pulse, NULL}};
+
+const ru_variant *ru_wave_variant(int i)
+{
+    return i >= 0 && i < RU_WAVE_KINDS ? &wave_variants[i] : NULL;
+}
+
+int ru_wave_variant_of(const ru_part *p) { return (int)p->wave.kind; }
+
+void ru_wave_set_variant(ru_part *p, int i) { p->wave.kind = (ru_wave_kind)i; }
+
+ru_status ru_wave_check(const ru_part *p, const ru_part_env *env, ru_error *err)
+{
+    const ru_wave *w = &p->wave;
+    double all[] = {w->value, w->rise_s, w->v0, w->v1, w->at_s, w->edge_s,
+                    w->width_s, w->period_s, w->offset, w->amplitude, w->freq_hz,
+                    w->phase_deg};
+    if (!ru_part_finite(all, (int)(sizeof all / sizeof all[0])))
+        return ru_part_fail(env, p, err, "waveform values must be finite");
+    if (w->rise_s < 0)
+        return ru_part_bad(env, p, err, "rise must not be negative", w->rise_s);
+    if (w->at_s < 0)
+        return ru_part_bad(env, p, err, "start time must not be negative", w->at_s);
+    if (w->edge_s < 0)
+        return ru_part_bad(env, p, err, "edge time must not be negative", w->edge_s);
+    if (w->kind == RU_WAVE_SINE && w->freq_hz <= 0)
+        return ru_part_bad(env, p, err, "sine frequency must be positive", w->freq_hz);
+    if (w->kind == RU_WAVE_PULSE) {
+        if (w->width_s <= 0)
+            return ru_part_bad(env, p, err, "pulse width must be positive", w->width_s);
+        if (w->width_s < 2 * w->edge_s)
+            return ru_part_bad(env, p, err, "pulse width must hold both edges", w->width_s);
+        if (w->period_s < 0 || (w->period_s > 0 && w->period_s <= w->width_s))
+            return ru_part_bad(env, p, err,
+                               "pulse period must be 0 (one pulse) or longer than the width",
+                               w->period_s);
+    }
+    return RU_OK;
+}
+
+void ru_wave_describe(const ru_part *p, const char *u, char *buf, size_t size)
+{
+    const ru_wave *w = &p->wave;
+    if (w->kind == RU_WAVE_DC)
+        ru_format_si(w->value, u, 4, buf, size);
+    else if (w->kind == RU_WAVE_SINE)
+        snprintf(buf, size, "sine %g %s at %g Hz", w->amplitude, u, w->freq_hz);
+    else
+        snprintf(buf, size, "%s %g -> %g %s", w->kind == RU_WAVE_STEP ? "step" : "pulse",
+                 w->v0, w->v1, u);
 }

@@ -1,4 +1,5 @@
-/* wave.h: evaluation of source waveforms (ru_wave, private).
+/* wave.h: source waveforms (ru_wave, private): their keys, checks and listing
+ * text (shared by the supply and the current source), and their evaluation.
  *
  * Conventions: every wave is 0 before t = 0 (power-on); from t = 0 on it follows
  * its kind (circuit.h). Value and slope are right-continuous: at an edge time the
@@ -10,6 +11,26 @@
 #define RINGUP_WAVE_H
 
 #include "ringup/part.h"
+#include "parts/desc.h"
+
+/* The wave kinds as variants of a source (indexed by ru_wave_kind), p's kind, and
+ * setting it. */
+#define RU_WAVE_KINDS 4
+const ru_variant *ru_wave_variant(int i);
+int ru_wave_variant_of(const ru_part *p);
+void ru_wave_set_variant(ru_part *p, int i);
+
+/* Checks of p's waveform (finite, times not negative, sine frequency and pulse
+ * timing). */
+ru_status ru_wave_check(const ru_part *p, const ru_part_env *env, ru_error *err);
+
+/* Listing text of p's waveform in unit ("12 V", "sine 1 V at 1000 Hz"). */
+void ru_wave_describe(const ru_part *p, const char *unit, char *buf, size_t size);
+
+/* Value and slope at time t_s scaled by scale, or with dc set the final value and
+ * slope 0: the source as an evaluation point sees it. */
+void ru_wave_eval(const ru_wave *w, double t_s, int dc, double scale, double *v,
+                  double *dvdt);
 
 double ru_wave_value(const ru_wave *w, double t_s);
 double ru_wave_slope(const ru_wave *w, double t_s); /* d value / dt (unit/s) */

@@ -5,7 +5,7 @@
  * Jacobian stamps live in system_stamp.c. */
 #include "system/system_impl.h"
 
-#include "parts/laws.h"
+#include "parts/desc.h"
 #include "parts/wave.h"
 
 #include <lapacke.h>
@@ -16,13 +16,19 @@
 
 void ru_sys_source(const ru_part *p, const ru_src_eval *e, double *v, double *dvdt)
 {
-    if (e->dc) {
-        *v = e->scale * ru_wave_final(&p->wave);
-        *dvdt = 0.0;
-        return;
-    }
-    *v = e->scale * ru_wave_value(&p->wave, e->t_s);
-    *dvdt = e->scale * ru_wave_slope(&p->wave, e->t_s);
+    ru_wave_eval(&p->wave, e->t_s, e->dc, e->scale, v, dvdt);
+}
+
+/* The descriptor of part i (never NULL: the circuit accepted only known types). */
+static const ru_part_desc *desc_of(const ru_system *s, size_t i)
+{
+    return ru_part_desc_get(ru_circuit_part(s->c, i)->type);
+}
+
+/* Whether part i is a supply (its wave drives a voltage). */
+static int is_supply(const ru_system *s, size_t i)
+{
+    return desc_of(s, i)->source == RU_SOURCE_VOLTAGE;
 }
 
 void ru_sys_node_values(const ru_system *s, const ru_src_eval *e, const double *x,
@@ -109,7 +115,7 @@ static ru_status resolve_pass(ru_system *s, char *done, int *progress, ru_error 
 {
     for (size_t i = 0; i < s->nparts; i++) {
         const ru_part *p = ru_circuit_part(s->c, i);
-        if (p->type != RU_PART_SUPPLY || done[i])
+        if (!is_supply(s, i) || done[i])
             continue;
         int a = p->node[0], b = p->node[1];
         int fa = is_fixed(s, a), fb = is_fixed(s, b);
@@ -142,7 +148,7 @@ static ru_status resolve_supplies(ru_system *s, ru_error *err)
     }
     for (size_t i = 0; st == RU_OK && i < s->nparts; i++) {
         const ru_part *p = ru_circuit_part(s->c, i);
-        if (p->type == RU_PART_SUPPLY && !done[i])
+        if (is_supply(s, i) && !done[i])
             st = supply_error(s, p, err,
                               "a supply needs one terminal on gnd or on another "
                               "supply's node");
@@ -153,28 +159,25 @@ static ru_status resolve_supplies(ru_system *s, ru_error *err)
 
 int ru_sys_part_nstates(const ru_part *p)
 {
-    if (p->type == RU_PART_THERMAL)
-        return 1;
-    if (p->type == RU_PART_AMPLIFIER) {
-        const ru_law_desc *d = ru_law_get(p->amp.law);
-        return d ? d->nstates : 0;
-    }
-    return 0;
+    const ru_part_desc *d = ru_part_desc_get(p->type);
+    return d && d->nstates ? d->nstates(p) : 0;
 }
 
-/* Names and numbers the internal states from state k on. */
-static void number_internal(ru_system *s, size_t k)
+/* Numbers and names the states of the parts of one group (branch currents or
+ * internal states) from state k on, in part order; returns the next free k. */
+static size_t number_group(ru_system *s, size_t k, int group)
 {
     for (size_t i = 0; i < s->nparts; i++) {
         const ru_part *p = ru_circuit_part(s->c, i);
-        if (!ru_sys_part_nstates(p))
+        const ru_part_desc *d = desc_of(s, i);
+        int ns = ru_sys_part_nstates(p);
+        if (!ns || d->state_group != group)
             continue;
-        const ru_law_desc *d = ru_law_get(p->amp.law);
-        const char *what = p->type == RU_PART_THERMAL ? "rise" : d->state;
         s->part_state[i] = (int)k;
-        snprintf(s->names[k], RU_STATE_NAME_MAX, "%s.%s", p->name, what);
-        k++;
+        for (int j = 0; j < ns; j++, k++)
+            d->state_name(p, j, s->names[k], RU_STATE_NAME_MAX);
     }
+    return k;
 }
 
 static void number_states(ru_system *s)
@@ -187,16 +190,10 @@ static void number_states(ru_system *s)
                      ru_circuit_node_name(s->c, (int)i));
             k++;
         }
-    for (size_t i = 0; i < s->nparts; i++) {
-        const ru_part *p = ru_circuit_part(s->c, i);
+    for (size_t i = 0; i < s->nparts; i++)
         s->part_state[i] = -1;
-        if (p->type == RU_PART_INDUCTOR) {
-            s->part_state[i] = (int)k;
-            snprintf(s->names[k], RU_STATE_NAME_MAX, "i(%s)", p->name);
-            k++;
-        }
-    }
-    number_internal(s, k);
+    k = number_group(s, k, RU_STATES_BRANCH);
+    number_group(s, k, RU_STATES_INTERNAL);
 }
 
 static void count_states(ru_system *s)
@@ -206,13 +203,22 @@ static void count_states(ru_system *s)
         if (s->node_state[i] != RU_NS_DRIVEN)
             s->nfree++;
     s->nind = 0;
-    for (size_t i = 0; i < s->nparts; i++)
-        if (ru_circuit_part(s->c, i)->type == RU_PART_INDUCTOR)
-            s->nind++;
     s->nint = 0;
-    for (size_t i = 0; i < s->nparts; i++)
-        s->nint += (size_t)ru_sys_part_nstates(ru_circuit_part(s->c, i));
+    for (size_t i = 0; i < s->nparts; i++) {
+        size_t ns = (size_t)ru_sys_part_nstates(ru_circuit_part(s->c, i));
+        if (desc_of(s, i)->state_group == RU_STATES_BRANCH)
+            s->nind += ns;
+        else
+            s->nint += ns;
+    }
     s->n = s->nfree + s->nind + s->nint;
+}
+
+/* The capacitances of part i into cap; returns how many. */
+static int part_caps(const ru_system *s, size_t i, ru_cap cap[RU_PART_CAPS_MAX])
+{
+    const ru_part_desc *d = desc_of(s, i);
+    return d->caps ? d->caps(ru_circuit_part(s->c, i), cap) : 0;
 }
 
 /* crow0 and ccol1 of the factor's lower triangle (see system_impl.h); the upper
@@ -240,17 +246,19 @@ static ru_status build_cmat(ru_system *s, ru_error *err)
     for (size_t i = 0; i < nf; i++)
         s->cmat[i * nf + i] = stray;
     for (size_t i = 0; i < s->nparts; i++) {
-        const ru_part *p = ru_circuit_part(s->c, i);
-        if (p->type != RU_PART_CAPACITOR)
-            continue;
-        int a = s->node_state[p->node[0]], b = s->node_state[p->node[1]];
-        if (a >= 0)
-            s->cmat[a * nf + a] += p->value;
-        if (b >= 0)
-            s->cmat[b * nf + b] += p->value;
-        if (a >= 0 && b >= 0) {
-            s->cmat[a * nf + b] -= p->value;
-            s->cmat[b * nf + a] -= p->value;
+        ru_cap cap[RU_PART_CAPS_MAX];
+        int nc = part_caps(s, i, cap);
+        for (int j = 0; j < nc; j++) {
+            int a = s->node_state[cap[j].a], b = s->node_state[cap[j].b];
+            double c = cap[j].c_f;
+            if (a >= 0)
+                s->cmat[a * nf + a] += c;
+            if (b >= 0)
+                s->cmat[b * nf + b] += c;
+            if (a >= 0 && b >= 0) {
+                s->cmat[a * nf + b] -= c;
+                s->cmat[b * nf + a] -= c;
+            }
         }
     }
     memcpy(s->cfac, s->cmat, nf * nf * sizeof *s->cfac);
@@ -359,7 +367,7 @@ int ru_system_node_state(const ru_system *s, int node)
 int ru_system_inductor_state(const ru_system *s, int part)
 {
     if (part < 0 || (size_t)part >= s->nparts ||
-        ru_circuit_part(s->c, (size_t)part)->type != RU_PART_INDUCTOR)
+        desc_of(s, (size_t)part)->state_group != RU_STATES_BRANCH)
         return -1;
     return s->part_state[part];
 }
@@ -420,19 +428,20 @@ static int charge_share(const ru_system *s, double t, int kind, double *x)
     memset(q, 0, nf * sizeof *q);
     int any = 0;
     for (size_t i = 0; i < s->nparts; i++) {
-        const ru_part *p = ru_circuit_part(s->c, i);
-        if (p->type != RU_PART_CAPACITOR)
-            continue;
-        int a = p->node[0], b = p->node[1], sa = s->node_state[a], sb = s->node_state[b];
-        double da = sa >= 0 ? 0.0 : driven_delta(s, a, t, kind);
-        double db = sb >= 0 ? 0.0 : driven_delta(s, b, t, kind);
-        if (sa >= 0 && db != 0.0) {
-            q[sa] += p->value * db;
-            any = 1;
-        }
-        if (sb >= 0 && da != 0.0) {
-            q[sb] += p->value * da;
-            any = 1;
+        ru_cap cap[RU_PART_CAPS_MAX];
+        int nc = part_caps(s, i, cap);
+        for (int j = 0; j < nc; j++) {
+            int a = cap[j].a, b = cap[j].b, sa = s->node_state[a], sb = s->node_state[b];
+            double da = sa >= 0 ? 0.0 : driven_delta(s, a, t, kind);
+            double db = sb >= 0 ? 0.0 : driven_delta(s, b, t, kind);
+            if (sa >= 0 && db != 0.0) {
+                q[sa] += cap[j].c_f * db;
+                any = 1;
+            }
+            if (sb >= 0 && da != 0.0) {
+                q[sb] += cap[j].c_f * da;
+                any = 1;
+            }
         }
     }
     if (any) {
@@ -445,13 +454,16 @@ static int charge_share(const ru_system *s, double t, int kind, double *x)
     return 1;
 }
 
-/* Internal states at rest: an opamp's vint at rail(0), a thermal rise at 0. */
+/* States at rest (their descriptors' state_rest; 0 without one): an opamp's
+ * vint at its rest, a thermal rise and an inductor current at 0. */
 static void internal_rest(const ru_system *s, double *x0)
 {
     for (size_t i = 0; i < s->nparts; i++) {
         const ru_part *p = ru_circuit_part(s->c, i);
-        if (p->type == RU_PART_AMPLIFIER && ru_sys_part_nstates(p))
-            x0[s->part_state[i]] = ru_law_rest_state(&p->amp);
+        const ru_part_desc *d = desc_of(s, i);
+        int ns = ru_sys_part_nstates(p);
+        for (int j = 0; d->state_rest && j < ns; j++)
+            x0[s->part_state[i] + j] = d->state_rest(p, j);
     }
 }
 
@@ -486,10 +498,6 @@ ru_status ru_system_initial_state(const ru_system *s, double *x0, ru_error *err)
  * tolerance ru_wave_jump uses, so a merged time applies every source's jump. */
 #define BP_MERGE 1e-12
 
-static int is_source(const ru_part *p)
-{
-    return p->type == RU_PART_SUPPLY || p->type == RU_PART_CURRENT;
-}
 
 size_t ru_system_breakpoints(const ru_system *s, double t_stop, double *bp, size_t max)
 {
@@ -497,11 +505,9 @@ size_t ru_system_breakpoints(const ru_system *s, double t_stop, double *bp, size
     double t = 0.0;
     for (;;) {
         double next = INFINITY;
-        for (size_t i = 0; i < s->nparts; i++) {
-            const ru_part *p = ru_circuit_part(s->c, i);
-            if (is_source(p))
-                next = fmin(next, ru_wave_next_breakpoint(&p->wave, t));
-        }
+        for (size_t i = 0; i < s->nparts; i++)
+            if (desc_of(s, i)->source != RU_SOURCE_NONE)
+                next = fmin(next, ru_wave_next_breakpoint(&ru_circuit_part(s->c, i)->wave, t));
         if (!(next <= t_stop))
             break;
         if (count < max)
@@ -563,33 +569,25 @@ static double voltage_scale(const ru_system *s)
 
 void ru_system_state_scale(const ru_system *s, double *scale)
 {
-    double v = voltage_scale(s);
-    double ctot = ru_circuit_stray_f(s->c) * (double)s->nfree, isrc = 0.0;
+    ru_scale_env env = {voltage_scale(s), ru_circuit_stray_f(s->c) * (double)s->nfree, 0.0};
     for (size_t i = 0; i < s->nparts; i++) {
         const ru_part *p = ru_circuit_part(s->c, i);
-        if (p->type == RU_PART_CAPACITOR)
-            ctot += p->value;
-        if (p->type == RU_PART_CURRENT)
-            isrc = fmax(isrc, ru_wave_peak(&p->wave));
+        ru_cap cap[RU_PART_CAPS_MAX];
+        int nc = part_caps(s, i, cap);
+        for (int j = 0; j < nc; j++)
+            env.c_total_f += cap[j].c_f;
+        if (desc_of(s, i)->source == RU_SOURCE_CURRENT)
+            env.i_source_a = fmax(env.i_source_a, ru_wave_peak(&p->wave));
     }
     for (size_t i = 0; i < s->nfree; i++)
-        scale[i] = v;
-    for (size_t i = 0; i < s->nparts; i++) { /* amplitude of a tank of L and ctot */
-        int st = s->part_state[i];
-        if (st >= 0)
-            scale[st] = fmax(v * sqrt(ctot / ru_circuit_part(s->c, i)->value), isrc);
-    }
-    for (size_t i = s->nfree + s->nind; i < s->n; i++)
+        scale[i] = env.v_scale;
+    for (size_t i = s->nfree; i < s->n; i++)
         scale[i] = 1.0;
     for (size_t i = 0; i < s->nparts; i++) {
         const ru_part *p = ru_circuit_part(s->c, i);
-        if (p->type == RU_PART_INDUCTOR || !ru_sys_part_nstates(p))
-            continue;
-        if (p->type == RU_PART_THERMAL)
-            scale[s->part_state[i]] = fmax(1.0, fmin(1e3, v * v / p->thermal.r0_ohm *
-                                                              p->thermal.rth_k_per_w));
-        else
-            scale[s->part_state[i]] = fmax(v, fmax(fabs(p->amp.vmax_v),
-                                                   fabs(p->amp.vmin_v)));
+        const ru_part_desc *d = desc_of(s, i);
+        int ns = ru_sys_part_nstates(p);
+        for (int j = 0; d->state_scale && j < ns; j++)
+            scale[s->part_state[i] + j] = d->state_scale(p, j, &env);
     }
 }
