@@ -105,22 +105,4 @@ int ru_ld_valid_preset_name(const char *name);
 /* Reads the `parts:` mapping into ctx->c. */
 ru_status ru_ld_parts(ld_ctx *ctx, const ru_ypair *parts);
 
-/* A numeric value key as the loader reads it (ru_ld_keyrec) (one table per type, wave, law and
- * thermal kind, in loader_parts.c; params.c reads the same tables). */
-typedef struct ru_ld_keyrec {
-    const char *key;  /* spelling in the file */
-    const char *unit; /* expected unit (NULL: a plain number; "%": a fraction);
-                         "sig": V for a supply, A for a current source */
-    size_t offset;    /* byte offset of the double in the part's sub-struct */
-    int required;     /* 1: the key must be given */
-} ru_ld_keyrec;
-
-/* The loader's key table for part p as it stands (by its type, wave, law or
- * thermal kind), NULL-terminated. *base_offset gets the offset of the sub-struct
- * in ru_part that the keys' offsets refer to (0 for value, tol and series), *sig
- * the unit that "sig" stands for. Entries without a double (`points` of a table
- * law) have unit NULL and offset 0: callers skip them by name. A poly-conductance
- * has only `coeffs` (a list), so its table is empty. */
-const ru_ld_keyrec *ru_ld_part_keys(const ru_part *p, size_t *base_offset, const char **sig);
-
 #endif

@@ -8,102 +8,22 @@
  * keys; every part is added through ru_circuit_add_part with line/col at its
  * name, so the builder's value checks carry the place. Nodes are created in order
  * of first mention. A preset's `law` is an amplifier law, `diode` or
- * `thermal-resistor`, and only fits a part of that type. The key tables are the
- * one list of value keys: ru_ld_part_keys hands them to params.c (PART.KEY). */
+ * `thermal-resistor`, and only fits a part of that type. Keys, units, defaults
+ * and variants come from the part descriptors (src/parts/), the one list of
+ * them that PART.KEY (params.c) reads too. */
 #include "circuit/loader_impl.h"
+
+#include "parts/desc.h"
 
 #include <stddef.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 
-/* Every key a part may carry under some type, wave or law. */
-static const char *const all_part_keys[] = {
-    "type", "nodes", "value", "tol",   "series", "coeffs", "wave",   "rise", "from",
-    "to",   "at",    "edge",  "width", "period", "offset", "amplitude", "freq", "phase",
-    "in",   "out",   "ref",   "model", "law",    "gain",   "swing",  "center", "rout",
-    "is",   "n",     "beta",  "vsat",  "temp",   "inv",    "itail",  "sign", "gbw",
-    "vmax", "vmin",  "knee",  "slew",  "points", "rs",     "kind",   "r0",   "alpha",
-    "bth",  "t0",    "tamb",  "rth",   "cth",    NULL};
-
 #define MAX_KEYS 20
 
-/* A value key read into a double at a byte offset of a struct (loader_impl.h). */
-typedef ru_ld_keyrec key_rec;
-
-#define P(f) offsetof(ru_part, f)
-static const key_rec rlc_keys[3][4] = {
-    {{"value", "ohm", P(value), 1}, {"tol", "%", P(tol), 0}, {NULL, NULL, 0, 0}},
-    {{"value", "F", P(value), 1}, {"tol", "%", P(tol), 0}, {NULL, NULL, 0, 0}},
-    {{"value", "H", P(value), 1},
-     {"tol", "%", P(tol), 0},
-     {"series", "ohm", P(series_ohm), 0},
-     {NULL, NULL, 0, 0}}};
-static const key_rec no_keys[] = {{NULL, NULL, 0, 0}};
-#undef P
-
-#define W(f) offsetof(ru_wave, f)
-static const key_rec wave_dc[] = {{"value", "sig", W(value), 1},
-                                  {"rise", "s", W(rise_s), 0},
-                                  {NULL, NULL, 0, 0}};
-static const key_rec wave_step[] = {{"from", "sig", W(v0), 0}, {"to", "sig", W(v1), 1},
-                                    {"at", "s", W(at_s), 0},   {"edge", "s", W(edge_s), 0},
-                                    {NULL, NULL, 0, 0}};
-static const key_rec wave_sine[] = {
-    {"offset", "sig", W(offset), 0}, {"amplitude", "sig", W(amplitude), 1},
-    {"freq", "Hz", W(freq_hz), 1},   {"phase", NULL, W(phase_deg), 0},
-    {"at", "s", W(at_s), 0},         {NULL, NULL, 0, 0}};
-static const key_rec wave_pulse[] = {
-    {"from", "sig", W(v0), 0},      {"to", "sig", W(v1), 1},
-    {"at", "s", W(at_s), 0},        {"width", "s", W(width_s), 1},
-    {"period", "s", W(period_s), 0}, {"edge", "s", W(edge_s), 0},
-    {NULL, NULL, 0, 0}};
-#undef W
-static const char *const wave_names[] = {"dc", "step", "sine", "pulse", NULL};
-static const key_rec *const wave_keys[] = {wave_dc, wave_step, wave_sine, wave_pulse};
-
-#define A(f) offsetof(ru_amp, f)
-static const key_rec law_follower[] = {{"gain", NULL, A(gain), 0},
-                                       {"swing", "V", A(swing_v), 0},
-                                       {"center", "V", A(center_v), 0},
-                                       {"rout", "ohm", A(rout_ohm), 0},
-                                       {NULL, NULL, 0, 0}};
-static const key_rec law_exp[] = {{"is", "A", A(is_a), 0},     {"n", NULL, A(n), 0},
-                                  {"beta", NULL, A(beta), 0},  {"vsat", "V", A(vsat_v), 0},
-                                  {"temp", "C", A(temp_c), 0}, {NULL, NULL, 0, 0}};
-static const key_rec law_diff[] = {{"itail", "A", A(itail_a), 0}, {"n", NULL, A(n), 0},
-                                   {"temp", "C", A(temp_c), 0},   {"rout", "ohm", A(rout_ohm), 0},
-                                   {"sign", NULL, A(sign), 0},    {NULL, NULL, 0, 0}};
-static const key_rec law_opamp[] = {{"gain", NULL, A(gain), 0},     {"gbw", "Hz", A(gbw_hz), 0},
-                                    {"vmax", "V", A(vmax_v), 0},    {"vmin", "V", A(vmin_v), 0},
-                                    {"knee", "V", A(knee_v), 0},
-                                    {"slew", "V/s", A(slew_v_per_s), 0},
-                                    {"rout", "ohm", A(rout_ohm), 0}, {NULL, NULL, 0, 0}};
-/* table: `points` is read apart (a list of pairs) */
-static const key_rec law_tab[] = {{"rout", "ohm", A(rout_ohm), 0}, {"points", NULL, 0, 0},
-                                  {NULL, NULL, 0, 0}};
-#undef A
-static const key_rec *const law_keys[RU_LAW_COUNT] = {law_follower, law_exp, law_diff,
-                                                      law_opamp, law_tab};
-
-#define DI(f) offsetof(ru_diode, f)
-static const key_rec diode_keys[] = {{"is", "A", DI(is_a), 0},      {"n", NULL, DI(n), 0},
-                                     {"rs", "ohm", DI(rs_ohm), 0},  {"temp", "C", DI(temp_c), 0},
-                                     {NULL, NULL, 0, 0}};
-#undef DI
-#define TH(f) offsetof(ru_thermal, f)
-static const key_rec lamp_keys[] = {
-    {"r0", "ohm", TH(r0_ohm), 0},       {"alpha", NULL, TH(alpha_per_k), 0},
-    {"t0", "C", TH(t0_c), 0},           {"tamb", "C", TH(tamb_c), 0},
-    {"rth", "K/W", TH(rth_k_per_w), 0}, {"cth", "J/K", TH(cth_j_per_k), 0},
-    {NULL, NULL, 0, 0}};
-static const key_rec ntc_keys[] = {
-    {"r0", "ohm", TH(r0_ohm), 0},       {"bth", "K", TH(beta_k), 0},
-    {"t0", "C", TH(t0_c), 0},           {"tamb", "C", TH(tamb_c), 0},
-    {"rth", "K/W", TH(rth_k_per_w), 0}, {"cth", "J/K", TH(cth_j_per_k), 0},
-    {NULL, NULL, 0, 0}};
-#undef TH
-static const char *const thermal_kinds[] = {"lamp", "ntc", NULL};
+/* A value key read into a double of ru_part (parts/desc.h). */
+typedef ru_keyrec key_rec;
 
 /* Preset kinds: the amplifier laws 0..RU_LAW_COUNT-1, then these two. */
 enum { PK_DIODE = RU_LAW_COUNT, PK_THERMAL, PK_COUNT };
@@ -114,16 +34,6 @@ static const char *pk_name(int pk)
                                                        : ru_law_name((ru_law)pk);
 }
 
-/* The key list of a preset kind (thermal: by its kind). */
-static const key_rec *pk_keys(int pk, ru_thermal_kind tk)
-{
-    if (pk == PK_DIODE)
-        return diode_keys;
-    if (pk == PK_THERMAL)
-        return tk == RU_THERMAL_NTC ? ntc_keys : lamp_keys;
-    return law_keys[pk];
-}
-
 /* The part type a preset kind fits. */
 static ru_part_type pk_type(int pk)
 {
@@ -131,14 +41,60 @@ static ru_part_type pk_type(int pk)
                                                              : RU_PART_AMPLIFIER;
 }
 
-/* Appends the keys of recs to list (NULL-terminated, at most MAX_KEYS). */
-static void add_keys(const char **list, const key_rec *recs)
+/* The variant a preset kind's values are of (thermal: by its kind). */
+static const ru_variant *pk_variant(int pk, ru_thermal_kind tk)
+{
+    const ru_part_desc *d = ru_part_desc_get(pk_type(pk));
+    return d->variant(pk == PK_THERMAL ? (int)tk : pk == PK_DIODE ? 0 : pk);
+}
+
+/* Whether key is one a part may carry under some type, variant or law. */
+static int any_part_key(const char *key)
+{
+    if (strcmp(key, "type") == 0 || strcmp(key, "model") == 0)
+        return 1;
+    for (int t = 0; t < RU_PART_TYPE_COUNT; t++) {
+        const ru_part_desc *d = ru_part_desc_get((ru_part_type)t);
+        if (!d)
+            continue;
+        for (const ru_term *m = d->terms; m->key; m++)
+            if (strcmp(m->key, key) == 0)
+                return 1;
+        if (d->selector && strcmp(d->selector, key) == 0)
+            return 1;
+        for (int v = 0; v < d->nvariants; v++) {
+            const ru_variant *var = d->variant(v);
+            for (const ru_keyrec *k = var ? var->keys : NULL; k && k->key; k++)
+                if (strcmp(k->key, key) == 0)
+                    return 1;
+            for (const ru_listrec *l = var ? var->lists : NULL; l && l->key; l++)
+                if (strcmp(l->key, key) == 0)
+                    return 1;
+        }
+    }
+    return 0;
+}
+
+/* "a, b or c" / "a, b, c": the names of d's variants joined, for messages. */
+static void variant_names(const ru_part_desc *d, char *buf, size_t size)
+{
+    size_t len = 0;
+    buf[0] = '\0';
+    for (int i = 0; i < d->nvariants && len < size; i++)
+        len += (size_t)snprintf(buf + len, size - len, "%s%s", i ? ", " : "",
+                                d->variant(i)->name);
+}
+
+/* Appends the keys and list keys of v to list (NULL-terminated, at most MAX_KEYS). */
+static void add_keys(const char **list, const ru_variant *v)
 {
     size_t n = 0;
     while (list[n])
         n++;
-    for (size_t i = 0; recs[i].key && n + 1 < MAX_KEYS; i++)
-        list[n++] = recs[i].key;
+    for (size_t i = 0; v->keys[i].key && n + 1 < MAX_KEYS; i++)
+        list[n++] = v->keys[i].key;
+    for (size_t i = 0; v->lists && v->lists[i].key && n + 1 < MAX_KEYS; i++)
+        list[n++] = v->lists[i].key;
     list[n] = NULL;
 }
 
@@ -163,7 +119,7 @@ static ru_status check_keys(ld_doc *d, const ru_ynode *map, const char *who,
             return ru_ld_fail(d, k, err, "%s: keys must be plain names", who);
         if (in_list(allowed, key))
             continue;
-        if (in_list(all_part_keys, key) || strcmp(key, "description") == 0)
+        if (any_part_key(key) || strcmp(key, "description") == 0)
             return ru_ld_fail(d, k, err, "%s: key %s does not apply to %s", who, key,
                               what);
         return ru_ld_fail(d, k, err, "%s: unknown key %s", who, key);
@@ -171,14 +127,12 @@ static ru_status check_keys(ld_doc *d, const ru_ynode *map, const char *who,
     return RU_OK;
 }
 
-/* Reads the keys of recs present in map into the struct at base. */
+/* Reads the keys of recs present in map into part. */
 static ru_status read_keys(ld_doc *d, const ru_ynode *map, const ru_ynode *place,
                            const char *who, const key_rec *recs, const char *sig,
-                           void *base, ru_error *err)
+                           ru_part *part, ru_error *err)
 {
     for (size_t i = 0; recs[i].key; i++) {
-        if (strcmp(recs[i].key, "points") == 0)
-            continue; /* read by read_points */
         const ru_ypair *p = ru_ld_find(map, recs[i].key);
         if (!p) {
             if (recs[i].required)
@@ -189,7 +143,7 @@ static ru_status read_keys(ld_doc *d, const ru_ynode *map, const ru_ynode *place
         const char *unit = recs[i].unit;
         if (unit && strcmp(unit, "sig") == 0)
             unit = sig;
-        double *dst = (double *)((char *)base + recs[i].offset);
+        double *dst = ru_key_slot(part, &recs[i]);
         ru_status s = ru_ld_value(d, p, who, unit, err, dst);
         if (s != RU_OK)
             return s;
@@ -243,16 +197,16 @@ static ru_status read_nodes(ld_ctx *x, const ru_ynode *map, const ru_ynode *plac
 static ru_status read_rlc(ld_ctx *x, const ru_ynode *map, const ru_ynode *place,
                           const char *who, ru_part *part)
 {
-    const key_rec *keys = rlc_keys[part->type];
+    const ru_variant *v = ru_part_variant(part);
     const char *allowed[MAX_KEYS] = {"type", "nodes", NULL};
-    add_keys(allowed, keys);
+    add_keys(allowed, v);
     char what[48];
     snprintf(what, sizeof what, "type %s", ru_part_type_name(part->type));
     ru_status s = check_keys(x->d, map, who, allowed, what, x->err);
     if (s == RU_OK)
         s = read_nodes(x, map, place, who, part);
     if (s == RU_OK) /* value (required), tol (% or fraction), series (inductor) */
-        s = read_keys(x->d, map, place, who, keys, NULL, part, x->err);
+        s = read_keys(x->d, map, place, who, v->keys, NULL, part, x->err);
     return s;
 }
 
@@ -291,29 +245,30 @@ static ru_status read_poly(ld_ctx *x, const ru_ynode *map, const ru_ynode *place
 static ru_status read_source(ld_ctx *x, const ru_ynode *map, const ru_ynode *place,
                              const char *who, ru_part *part)
 {
-    int kind = RU_WAVE_DC;
+    const ru_part_desc *dd = ru_part_desc_get(part->type);
     const ru_ypair *p = ru_ld_find(map, "wave");
     const char *text = "dc";
     ru_status s = p ? ru_ld_scalar(x->d, p, who, x->err, &text) : RU_OK;
     if (s != RU_OK)
         return s;
-    for (kind = 0; wave_names[kind] && strcmp(wave_names[kind], text) != 0; kind++)
-        ;
-    if (!wave_names[kind])
-        return ru_ld_fail(x->d, ru_ld_val(p), x->err,
-                          "%s: key wave: '%s' is not one of dc, step, sine, pulse", who,
-                          text);
+    int kind = ru_part_variant_find(dd, text);
+    if (kind < 0) {
+        char names[128];
+        variant_names(dd, names, sizeof names);
+        return ru_ld_fail(x->d, ru_ld_val(p), x->err, "%s: key wave: '%s' is not one of %s",
+                          who, text, names);
+    }
+    const ru_variant *v = dd->variant(kind);
     const char *allowed[MAX_KEYS] = {"type", "nodes", "wave", NULL};
-    add_keys(allowed, wave_keys[kind]);
+    add_keys(allowed, v);
     char what[32];
-    snprintf(what, sizeof what, "wave %s", wave_names[kind]);
+    snprintf(what, sizeof what, "wave %s", v->name);
     s = check_keys(x->d, map, who, allowed, what, x->err);
     if (s == RU_OK)
         s = read_nodes(x, map, place, who, part);
-    part->wave.kind = (ru_wave_kind)kind;
-    const char *sig = part->type == RU_PART_SUPPLY ? "V" : "A";
+    dd->set_variant(part, kind);
     if (s == RU_OK)
-        s = read_keys(x->d, map, place, who, wave_keys[kind], sig, &part->wave, x->err);
+        s = read_keys(x->d, map, place, who, v->keys, dd->sig_unit, part, x->err);
     return s;
 }
 
@@ -332,10 +287,10 @@ static ru_status read_kind(ld_doc *d, const ru_ypair *p, const char *who,
             *pk = i;
             return RU_OK;
         }
-    return ru_ld_fail(d, ru_ld_val(p), err,
-                      "%s: key law: '%s' is not one of follower-tanh, exp-stage, "
-                      "diff-pair-tanh, opamp, table%s",
-                      who, text, amp_only ? "" : ", diode, thermal-resistor");
+    char names[256];
+    variant_names(ru_part_desc_get(RU_PART_AMPLIFIER), names, sizeof names);
+    return ru_ld_fail(d, ru_ld_val(p), err, "%s: key law: '%s' is not one of %s%s", who, text,
+                      names, amp_only ? "" : ", diode, thermal-resistor");
 }
 
 /* points: [[vin, vout], ...] (2..RU_TABLE_MAX pairs, vin strictly increasing). */
@@ -384,33 +339,29 @@ static ru_status read_thermal_kind(ld_doc *d, const ru_ypair *p, const char *who
                                    ru_error *err, ru_thermal_kind *kind)
 {
     const char *text;
+    const ru_part_desc *dd = ru_part_desc_get(RU_PART_THERMAL);
     ru_status s = ru_ld_scalar(d, p, who, err, &text);
-    for (int i = 0; s == RU_OK && thermal_kinds[i]; i++)
-        if (strcmp(text, thermal_kinds[i]) == 0) {
-            *kind = (ru_thermal_kind)i;
-            return RU_OK;
-        }
+    int i = s == RU_OK ? ru_part_variant_find(dd, text) : -1;
+    if (i >= 0) {
+        *kind = (ru_thermal_kind)i;
+        return RU_OK;
+    }
+    char names[64];
+    variant_names(dd, names, sizeof names);
     return s != RU_OK ? s : ru_ld_fail(d, ru_ld_val(p), err,
-                                       "%s: key kind: '%s' is not one of lamp, ntc", who,
-                                       text);
+                                       "%s: key kind: '%s' is not one of %s", who, text,
+                                       names);
 }
 
-/* Base of the struct a preset kind's values go to. */
-static void *pk_base(ru_part *part, int pk)
-{
-    return pk == PK_DIODE ? (void *)&part->diode
-           : pk == PK_THERMAL ? (void *)&part->thermal : (void *)&part->amp;
-}
-
-/* The defaults of preset kind pk into part (thermal: of kind tk). */
+/* The defaults of preset kind pk into part's record of that kind (thermal: of
+ * kind tk); part keeps its own type. */
 static void pk_defaults(ru_part *part, int pk, ru_thermal_kind tk)
 {
-    if (pk == PK_DIODE)
-        ru_diode_defaults(&part->diode);
-    else if (pk == PK_THERMAL)
-        ru_thermal_defaults(&part->thermal, tk);
-    else
-        ru_amp_defaults(&part->amp, (ru_law)pk);
+    ru_part tmp = *part;
+    tmp.type = pk_type(pk);
+    ru_part_reset(&tmp, pk == PK_THERMAL ? (int)tk : pk == PK_DIODE ? 0 : pk);
+    tmp.type = part->type;
+    *part = tmp;
 }
 
 /* The parameter list of a preset for ru_models_list: every key of its kind with
@@ -419,19 +370,22 @@ static void fill_info(const ru_part *part, int pk, const char *desc, ru_model_in
 {
     ru_thermal_kind tk = part->thermal.kind;
     snprintf(info->law, sizeof info->law, "%s", pk_name(pk));
-    snprintf(info->kind, sizeof info->kind, "%s", pk == PK_THERMAL ? thermal_kinds[tk] : "");
+    const ru_variant *v = pk_variant(pk, tk);
+    snprintf(info->kind, sizeof info->kind, "%s", pk == PK_THERMAL ? v->name : "");
     snprintf(info->description, sizeof info->description, "%s", desc);
-    const key_rec *recs = pk_keys(pk, tk);
-    const char *base = pk_base((ru_part *)part, pk);
     info->nparams = 0;
-    for (size_t i = 0; recs[i].key && info->nparams < RU_MODEL_PARAMS_MAX; i++) {
+    for (size_t i = 0; v->keys[i].key && info->nparams < RU_MODEL_PARAMS_MAX; i++) {
         ru_model_param *mp = &info->params[info->nparams++];
-        snprintf(mp->name, sizeof mp->name, "%s", recs[i].key);
-        int pts = strcmp(recs[i].key, "points") == 0;
-        mp->value = pts ? (double)part->amp.npoints
-                        : *(const double *)(base + recs[i].offset);
-        snprintf(mp->unit, sizeof mp->unit, "%s", pts ? "points"
-                                                      : recs[i].unit ? recs[i].unit : "");
+        snprintf(mp->name, sizeof mp->name, "%s", v->keys[i].key);
+        mp->value = *ru_key_slot((ru_part *)part, &v->keys[i]);
+        snprintf(mp->unit, sizeof mp->unit, "%s", v->keys[i].unit ? v->keys[i].unit : "");
+    }
+    for (size_t i = 0; v->lists && v->lists[i].key && info->nparams < RU_MODEL_PARAMS_MAX;
+         i++) { /* a list: how many entries */
+        ru_model_param *mp = &info->params[info->nparams++];
+        snprintf(mp->name, sizeof mp->name, "%s", v->lists[i].key);
+        mp->value = (double)*(const int *)((const char *)part + v->lists[i].count_offset);
+        snprintf(mp->unit, sizeof mp->unit, "%s", "points");
     }
 }
 
@@ -452,7 +406,7 @@ ru_status ru_ld_preset_values(ld_doc *pd, const char *who, ru_part *part, int *k
         s = read_thermal_kind(pd, pkind, who, err, &tk);
     const char *allowed[MAX_KEYS] = {"law", "description", pk == PK_THERMAL ? "kind" : NULL,
                                      NULL};
-    add_keys(allowed, pk_keys(pk, tk));
+    add_keys(allowed, pk_variant(pk, tk));
     char what[48];
     snprintf(what, sizeof what, pk < RU_LAW_COUNT ? "law %s" : "a %s preset", pk_name(pk));
     if (s == RU_OK)
@@ -462,8 +416,7 @@ ru_status ru_ld_preset_values(ld_doc *pd, const char *who, ru_part *part, int *k
         s = ru_ld_scalar(pd, p, who, err, &desc);
     pk_defaults(part, pk, tk);
     if (s == RU_OK)
-        s = read_keys(pd, pd->root, pd->root, who, pk_keys(pk, tk), NULL, pk_base(part, pk),
-                      err);
+        s = read_keys(pd, pd->root, pd->root, who, pk_variant(pk, tk)->keys, NULL, part, err);
     if (s == RU_OK && pk == RU_LAW_TABLE)
         s = read_points(pd, pd->root, pd->root, who, 1, &part->amp, err);
     if (s == RU_OK && info)
@@ -602,21 +555,22 @@ static ru_status read_amp(ld_ctx *x, const ru_ynode *map, const ru_ynode *place,
     if (s == RU_OK && pl)
         s = read_kind(x->d, pl, who, 1, x->err, &pk);
     if (s == RU_OK && pl)
-        ru_amp_defaults(&part->amp, (ru_law)pk);
+        ru_part_reset(part, pk);
     if (s == RU_OK && pm)
         s = read_model(x, pm, who, part);
     if (s != RU_OK)
         return s;
     ru_law law = part->amp.law;
+    const ru_variant *v = ru_part_variant(part);
     const char *allowed[MAX_KEYS] = {"type", "in", "out", "ref", "inv", "model", "law", NULL};
-    add_keys(allowed, law_keys[law]);
+    add_keys(allowed, v);
     char what[32];
     snprintf(what, sizeof what, "law %s", ru_law_name(law));
     s = check_keys(x->d, map, who, allowed, what, x->err);
     if (s == RU_OK)
         s = read_amp_nodes(x, map, place, who, part);
     if (s == RU_OK)
-        s = read_keys(x->d, map, place, who, law_keys[law], NULL, &part->amp, x->err);
+        s = read_keys(x->d, map, place, who, v->keys, NULL, part, x->err);
     if (s == RU_OK && law == RU_LAW_TABLE)
         s = read_points(x->d, map, place, who, part->amp.npoints < 2, &part->amp, x->err);
     return s;
@@ -627,14 +581,15 @@ static ru_status read_diode(ld_ctx *x, const ru_ynode *map, const ru_ynode *plac
 {
     const ru_ypair *pm = ru_ld_find(map, "model");
     ru_status s = pm ? read_model(x, pm, who, part) : RU_OK;
+    const ru_variant *v = ru_part_variant(part);
     const char *allowed[MAX_KEYS] = {"type", "nodes", "model", NULL};
-    add_keys(allowed, diode_keys);
+    add_keys(allowed, v);
     if (s == RU_OK)
         s = check_keys(x->d, map, who, allowed, "type diode", x->err);
     if (s == RU_OK)
         s = read_nodes(x, map, place, who, part);
     if (s == RU_OK)
-        s = read_keys(x->d, map, place, who, diode_keys, NULL, &part->diode, x->err);
+        s = read_keys(x->d, map, place, who, v->keys, NULL, part, x->err);
     return s;
 }
 
@@ -649,17 +604,18 @@ static ru_status read_thermal(ld_ctx *x, const ru_ynode *map, const ru_ynode *pl
     if (s != RU_OK)
         return s;
     if (!pm) /* the kind's defaults; with a preset its values stay */
-        ru_thermal_defaults(&part->thermal, kind);
+        ru_part_reset(part, (int)kind);
     part->thermal.kind = kind;
-    const key_rec *keys = kind == RU_THERMAL_NTC ? ntc_keys : lamp_keys;
+    const ru_variant *v = ru_part_variant(part);
     const char *allowed[MAX_KEYS] = {"type", "nodes", "model", "kind", NULL};
-    add_keys(allowed, keys);
-    s = check_keys(x->d, map, who, allowed,
-                   kind == RU_THERMAL_NTC ? "kind ntc" : "kind lamp", x->err);
+    add_keys(allowed, v);
+    char what[32];
+    snprintf(what, sizeof what, "kind %s", v->name);
+    s = check_keys(x->d, map, who, allowed, what, x->err);
     if (s == RU_OK)
         s = read_nodes(x, map, place, who, part);
     if (s == RU_OK)
-        s = read_keys(x->d, map, place, who, keys, NULL, &part->thermal, x->err);
+        s = read_keys(x->d, map, place, who, v->keys, NULL, part, x->err);
     return s;
 }
 
@@ -674,15 +630,21 @@ static ru_status read_type(ld_ctx *x, const ru_ynode *map, const ru_ynode *place
     ru_status s = ru_ld_scalar(x->d, p, who, x->err, &text);
     if (s != RU_OK)
         return s;
-    for (int t = 0; t < RU_PART_TYPE_COUNT; t++)
-        if (strcmp(text, ru_part_type_name((ru_part_type)t)) == 0) {
-            *type = (ru_part_type)t;
-            return RU_OK;
-        }
-    return ru_ld_fail(x->d, ru_ld_val(p), x->err,
-                      "%s: unknown type '%s' (resistor, capacitor, inductor, supply, "
-                      "current, poly-conductance, amplifier, diode or thermal-resistor)",
-                      who, text);
+    const ru_part_desc *d = ru_part_desc_find(text);
+    if (d) {
+        *type = d->type;
+        return RU_OK;
+    }
+    char names[320];
+    size_t len = 0;
+    names[0] = '\0';
+    for (int t = 0, k = 0; t < RU_PART_TYPE_COUNT && len < sizeof names; t++) {
+        const char *name = ru_part_type_name((ru_part_type)t);
+        const char *sep = !k++ ? "" : t == RU_PART_TYPE_COUNT - 1 ? " or " : ", ";
+        len += (size_t)snprintf(names + len, sizeof names - len, "%s%s", sep, name);
+    }
+    return ru_ld_fail(x->d, ru_ld_val(p), x->err, "%s: unknown type '%s' (%s)", who, text,
+                      names);
 }
 
 static ru_status read_part(ld_ctx *x, const ru_ypair *pair)
@@ -740,31 +702,4 @@ ru_status ru_ld_parts(ld_ctx *x, const ru_ypair *parts)
             s = read_part(x, p);
     }
     return s;
-}
-
-const ru_ld_keyrec *ru_ld_part_keys(const ru_part *p, size_t *base_offset, const char **sig)
-{
-    *sig = p->type == RU_PART_SUPPLY ? "V" : "A";
-    *base_offset = 0;
-    switch (p->type) {
-    case RU_PART_RESISTOR:
-    case RU_PART_CAPACITOR:
-    case RU_PART_INDUCTOR:
-        return rlc_keys[p->type];
-    case RU_PART_SUPPLY:
-    case RU_PART_CURRENT:
-        *base_offset = offsetof(ru_part, wave);
-        return (unsigned)p->wave.kind < 4 ? wave_keys[p->wave.kind] : no_keys;
-    case RU_PART_AMPLIFIER:
-        *base_offset = offsetof(ru_part, amp);
-        return (unsigned)p->amp.law < RU_LAW_COUNT ? law_keys[p->amp.law] : no_keys;
-    case RU_PART_DIODE:
-        *base_offset = offsetof(ru_part, diode);
-        return diode_keys;
-    case RU_PART_THERMAL:
-        *base_offset = offsetof(ru_part, thermal);
-        return p->thermal.kind == RU_THERMAL_NTC ? ntc_keys : lamp_keys;
-    default:
-        return no_keys;
-    }
 }

@@ -1,14 +1,15 @@
 /* params.c: PART.KEY values of a circuit and the LO:HI:N sweep specification (see
  * ringup/params.h).
  *
- * Invariants: key names, units and places in ru_part come from the loader's own
- * tables (ru_ld_part_keys, loader_parts.c), so a key means here exactly what it
- * means in a file; a value is stored only through ru_circuit_replace_part, whose
- * checks are the loader's, so a circuit never holds a value a file could not. */
+ * Invariants: key names, units and places in ru_part come from the part
+ * descriptors' key tables (src/parts/, the loader's too), so a key means here
+ * exactly what it means in a file; a value is stored only through
+ * ru_circuit_replace_part, whose checks are the loader's, so a circuit never
+ * holds a value a file could not. */
 #include "ringup/params.h"
 
 #include "ringup/loader.h"
-#include "circuit/loader_impl.h"
+#include "parts/desc.h"
 
 #include <errno.h>
 #include <math.h>
@@ -21,8 +22,7 @@
 /* A resolved PART.KEY. */
 typedef struct param_ref {
     int part;                /* index of the part */
-    const ru_ld_keyrec *rec;    /* the loader's record of the key */
-    size_t base;             /* offset of the key's sub-struct in ru_part */
+    const ru_keyrec *rec;    /* the descriptor's record of the key */
     const char *unit;        /* unit as written in a file ("" plain) */
 } param_ref;
 
@@ -42,32 +42,28 @@ static ru_status split_name(const char *pk, char *part, char *key, ru_error *err
     return RU_OK;
 }
 
-/* "law follower-tanh", "kind ntc" or the type name, for messages. */
+/* "law follower-tanh", "wave sine", "kind ntc" or "type resistor", for messages. */
 static void part_what(const ru_part *p, char *buf, size_t size)
 {
-    if (p->type == RU_PART_AMPLIFIER)
-        snprintf(buf, size, "law %s", ru_law_name(p->amp.law));
-    else if (p->type == RU_PART_THERMAL)
-        snprintf(buf, size, "kind %s", p->thermal.kind == RU_THERMAL_NTC ? "ntc" : "lamp");
+    const ru_part_desc *d = ru_part_desc_get(p->type);
+    const ru_variant *v = ru_part_variant(p);
+    if (d && d->selector && v)
+        snprintf(buf, size, "%s %s", d->selector, v->name);
     else
         snprintf(buf, size, "type %s", ru_part_type_name(p->type));
 }
 
-static int is_value_rec(const ru_ld_keyrec *r)
-{
-    return strcmp(r->key, "points") != 0; /* a list, not one double */
-}
+static const ru_keyrec no_keys[] = {{NULL, NULL, 0, 0, 0.0}};
 
 /* The "no such key" error, listing the keys the part has. */
 static ru_status no_key(const ru_circuit *c, const ru_part *p, const char *key,
-                        const ru_ld_keyrec *recs, ru_error *err)
+                        const ru_keyrec *recs, ru_error *err)
 {
     char list[256] = "", what[48];
     size_t len = 0;
     for (size_t i = 0; recs[i].key && len < sizeof list; i++)
-        if (is_value_rec(&recs[i]))
-            len += (size_t)snprintf(list + len, sizeof list - len, "%s%s", len ? ", " : "",
-                                    recs[i].key);
+        len += (size_t)snprintf(list + len, sizeof list - len, "%s%s", len ? ", " : "",
+                                recs[i].key);
     part_what(p, what, sizeof what);
     return ru_error_set(err, RU_EINPUT, ru_circuit_file(c), p->line, p->col,
                         "part %s: %s is not a value of %s (values: %s)", p->name, key,
@@ -85,13 +81,13 @@ static ru_status resolve(const ru_circuit *c, const char *pk, param_ref *ref, ru
         return ru_error_set(err, RU_EINPUT, NULL, 0, 0, "%s: no part %s in the circuit", pk,
                             part);
     const ru_part *p = ru_circuit_part(c, (size_t)ref->part);
-    const char *sig;
-    const ru_ld_keyrec *recs = ru_ld_part_keys(p, &ref->base, &sig);
+    const ru_part_desc *d = ru_part_desc_get(p->type);
+    const ru_variant *v = ru_part_variant(p);
+    const ru_keyrec *recs = d && v ? v->keys : no_keys;
     for (size_t i = 0; recs[i].key; i++)
-        if (is_value_rec(&recs[i]) && strcmp(recs[i].key, key) == 0) {
+        if (strcmp(recs[i].key, key) == 0) {
             ref->rec = &recs[i];
-            const char *u = recs[i].unit;
-            ref->unit = !u ? "" : strcmp(u, "sig") == 0 ? sig : u;
+            ref->unit = ru_key_unit(d, &recs[i]);
             return RU_OK;
         }
     return no_key(c, p, key, recs, err);
@@ -99,7 +95,7 @@ static ru_status resolve(const ru_circuit *c, const char *pk, param_ref *ref, ru
 
 static double *slot(ru_part *p, const param_ref *ref)
 {
-    return (double *)((char *)p + ref->base + ref->rec->offset);
+    return ru_key_slot(p, ref->rec);
 }
 
 ru_status ru_circuit_set_param(ru_circuit *c, const char *part_dot_key, double value,
