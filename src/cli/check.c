@@ -76,15 +76,14 @@ static void print_json(const ru_circuit *c, const ru_system *s)
     ru_json_begin_array(&j, "parts");
     for (size_t i = 0; i < ru_circuit_part_count(c); i++) {
         const ru_part *p = ru_circuit_part(c, i);
-        int nt = p->type == RU_PART_AMPLIFIER ? 3 : 2;
+        ru_terminal t[RU_PART_NODES];
+        int nt = ru_part_terminals(p, t, RU_PART_NODES);
         ru_json_begin_object(&j, NULL);
         ru_json_string(&j, "name", p->name);
         ru_json_string(&j, "type", ru_part_type_name(p->type));
         ru_json_begin_array(&j, "nodes");
-        for (int k = 0; k < nt; k++)
-            ru_json_string(&j, NULL, ru_circuit_node_name(c, p->node[k]));
-        if (p->type == RU_PART_AMPLIFIER && ru_part_inv_node(p) != p->node[2])
-            ru_json_string(&j, NULL, ru_circuit_node_name(c, ru_part_inv_node(p)));
+        for (int k = 0; k < nt && k < RU_PART_NODES; k++)
+            ru_json_string(&j, NULL, ru_circuit_node_name(c, t[k].node));
         ru_json_end_array(&j);
         ru_json_end_object(&j);
     }
