@@ -524,9 +524,8 @@ double ru_system_autonomous_from(const ru_system *s)
         return INFINITY;
     double t = 0.0;
     for (size_t i = 0; i < s->nparts; i++) {
-        const ru_part *p = ru_circuit_part(s->c, i);
-        if (is_source(p))
-            t = fmax(t, ru_wave_constant_from(&p->wave));
+        if (desc_of(s, i)->source != RU_SOURCE_NONE)
+            t = fmax(t, ru_wave_constant_from(&ru_circuit_part(s->c, i)->wave));
     }
     return t;
 }
