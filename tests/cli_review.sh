@@ -12,7 +12,7 @@ export RINGUP_MODELS=${RINGUP_MODELS:-$src/models}
 # A sample spacing not shorter than the run is bad input (exit 1) and the message
 # names the file and both times, whether the spacing is given, written in the file
 # or automatic (72 per period of the 5 kHz tone is 2.8 us, longer than 1 ns).
-"$ru" run "$vdp" --sample 30m >"$tmp/out" 2>"$tmp/err"
+"$ru" run "$vdp" --stop 20m --sample 30m >"$tmp/out" 2>"$tmp/err"
 check "sample longer than stop: status" 1 $?
 grepcheck "sample longer than stop: message" "vdp-tank.yaml: .*sample spacing .*0.03 s.*stop 0.02 s" "$tmp/err"
 "$ru" run "$vdp" --stop 1n >"$tmp/out" 2>"$tmp/err"
@@ -72,7 +72,7 @@ grepcheck "one window cycle note" "^ok$" "$tmp/out"
 # A spacing of 1 ms on the 5 kHz tank (period 1/(2 pi sqrt(10 mH * 100 nF)) = 0.199 ms,
 # LC resonance) gives 0.2 samples per period: no cycle is seen, and the notes must
 # warn about the spacing from the predicted tone (not only say "run longer").
-"$ru" run "$vdp" --sample 1m --json >"$tmp/js" 2>"$tmp/err"
+"$ru" run "$vdp" --stop 20m --sample 1m --json >"$tmp/js" 2>"$tmp/err"
 check "undersampled: status" 0 $?
 /usr/bin/python3 - "$tmp/js" >"$tmp/out" 2>&1 <<'PY'
 import json, sys

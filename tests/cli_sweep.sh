@@ -40,7 +40,7 @@ check "no --vary" 1 $?
 
 # JSON: keys, one entry per value, an impossible value (L <= 0) in its own entry,
 # the tone against 1/(2 pi sqrt(LC)) with C = 100 nF.
-"$ru" sweep "$vdp" --vary L1.value=-5m:20m:6 --json --threads 2 >"$tmp/s.json" 2>"$tmp/err"
+"$ru" sweep "$vdp" --vary L1.value=-5m:20m:6 --stop 20m --json --threads 2 >"$tmp/s.json" 2>"$tmp/err"
 check "sweep json" 0 $?
 if [ -x $py ]; then
     $py - "$tmp/s.json" <<'PY'

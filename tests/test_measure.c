@@ -718,6 +718,44 @@ static void test_stall_after_transient(void **state)
     }
 }
 
+/* However long the run, the envelope keeps at most RU_ENV_KEEP points: the older half
+ * is thinned, the newest half (the settled window) stays whole. 2.2 x RU_ENV_KEEP
+ * cycles of a steady 1 V tone at 10 samples per period. Reference: the constructed
+ * tone (one point per period, amplitude 1 V; parabola error at 10 samples/period is
+ * (2 pi/10)^4/24 ~ 6e-3 at most, as in the harmonics budget). */
+static void test_envelope_thinned(void **state)
+{
+    (void)state;
+    const double f = 1000.0, dt = 1.0 / (10.0 * f);
+    const size_t cycles = (size_t)(2.2 * (double)RU_ENV_KEEP);
+    const double stop = (double)cycles / f;
+    ru_measure_cfg cfg;
+    ru_measure_cfg_default(&cfg, stop, dt);
+    ru_measure *m = NULL;
+    assert_int_equal(ru_measure_create(&cfg, &m), RU_OK);
+    for (size_t i = 0; i <= cycles * 10; i++) {
+        double t = (double)i * dt;
+        assert_int_equal(ru_measure_push(m, t, cos(2 * M_PI * f * t + PHASE0)), RU_OK);
+    }
+    const double *t, *a;
+    size_t n;
+    ru_measure_envelope(m, &t, &a, &n);
+    assert_true(n <= RU_ENV_KEEP);
+    assert_true(ru_measure_envelope_capacity(m) <= RU_ENV_KEEP + 1);
+    for (size_t i = 1; i < n; i++)
+        assert_true(t[i] > t[i - 1]);
+    /* the last 10 % of the run: one point per period, none lost */
+    size_t k = n;
+    while (k > 0 && t[k - 1] >= 0.9 * stop)
+        k--;
+    RU_ASSERT_NEAR((double)(n - k), 0.1 * (double)cycles, 2.0);
+    ru_measure_result r;
+    assert_int_equal(ru_measure_finish(m, &r), RU_OK);
+    assert_int_equal(r.settled, 1);
+    RU_ASSERT_REL(r.settled_amplitude_v, 1.0, 6e-3);
+    ru_measure_destroy(m);
+}
+
 static void test_bad_input(void **state)
 {
     (void)state;
@@ -761,6 +799,7 @@ int main(void)
         cmocka_unit_test(test_growth_window_30),
         cmocka_unit_test(test_grows_then_dies),
         cmocka_unit_test(test_memory_bounded),
+        cmocka_unit_test(test_envelope_thinned),
         cmocka_unit_test(test_ramp_hint),
         cmocka_unit_test(test_settling_dc_hint),
         cmocka_unit_test(test_ramp_no_hint),

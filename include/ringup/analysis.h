@@ -53,7 +53,10 @@ void ru_run_data_get(const ru_run_data *d, ru_run_data_view *v);
 
 typedef struct ru_run_request {
     const char *out_dir;   /* folder for wave.csv; NULL writes no file */
-    double stop_s;         /* > 0 overrides the file's stop time */
+    double stop_s;         /* > 0 overrides the file's stop time (and its stop: auto) */
+    int stop_auto;         /* 1: the automatic run length over the file's stop */
+    double cap_cycles;     /* > 0 overrides the automatic length's cap in cycles */
+    double cap_cpu_s;      /* > 0 overrides its cap in CPU seconds */
     double sample_s;       /* > 0 overrides the file's sample spacing */
     int accuracy;          /* -1: the file's; else an ru_accuracy */
     double tol_scale;      /* multiplies rtol and atol (1 normally; 0.1 for --verify) */
@@ -79,6 +82,9 @@ typedef struct ru_prediction {
     double frequency_hz;          /* = dominant.im_rad_per_s / (2 pi) */
     double kick_amplitude_v;      /* dominant-mode amplitude on the probe at t = 0 */
     double noise_amplitude_v;     /* the dominant mode's thermal level (kT) on the probe */
+    double slowest_decay_per_s;   /* smallest |real part| of the decaying poles other
+                                     than the dominant pair (a bias or thermal time
+                                     constant's inverse), NAN when none */
     double startup_time_s;        /* from growth rate, kick size and settled level */
     double settled_amplitude_v;   /* from the describing function (ringup/descfn.h) */
     double df_frequency_hz;       /* tone frequency where the describing function settles */
@@ -87,8 +93,29 @@ typedef struct ru_prediction {
     ru_loop_summary loop;
 } ru_prediction;
 
+/* How long the run went, and why it ended there (stop: auto runs in chunks until the
+ * verdict is certain or a cap is reached; a fixed stop runs to it). */
+typedef struct ru_stop_info {
+    int automatic;                /* 1: stop auto */
+    double first_s;               /* the first chunk (s) */
+    double cap_s;                 /* time cap (s), also the horizon of the solver */
+    double cap_basis_s;           /* the predicted (or estimated) start-up time (s),
+                                     NAN when none */
+    char cap_why[RU_NOTE_MAX];    /* what set the time cap, in words */
+    double cap_cycles;            /* cap in cycles of the predicted tone (0: none) */
+    double cap_cpu_s;             /* cap in CPU seconds of the run's thread */
+    double cpu_s;                 /* CPU seconds the transient took */
+    int chunks;                   /* chunks run */
+    char reason[RU_NOTE_MAX];     /* why it ended ("settled", "time cap", ...) */
+} ru_stop_info;
+
+#define RU_AUTO_CAP_MULT 10.0     /* time cap: 10x the predicted start-up time */
+#define RU_AUTO_CAP_CYCLES 1e5    /* cap in cycles of the predicted tone */
+#define RU_AUTO_CAP_CPU_S 60.0    /* cap in CPU seconds */
+
 typedef struct ru_run_report {
-    double stop_s;                /* run length used */
+    double stop_s;                /* run length used (the last sample's time) */
+    ru_stop_info stop;            /* the run length's plan and why it ended */
     double sample_s;              /* sample spacing used */
     char probe[2 * RU_NAME_MAX + 2]; /* "out" or "a-b" */
     double startup_level;         /* start-up threshold used (fraction of settled) */

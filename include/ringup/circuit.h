@@ -41,7 +41,8 @@ typedef enum {
 
 /* How to run the transient (the file's `run:` section). */
 typedef struct ru_run_opts {
-    double stop_s;                /* end time (s, > 0) */
+    double stop_s;                /* end time (s, > 0) when stop_auto is 0 */
+    int stop_auto;                /* 1: `stop: auto` (the default): run until settled */
     double sample_s;              /* output spacing (s); 0 means auto */
     ru_kick kick;
     ru_accuracy accuracy;

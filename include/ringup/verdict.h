@@ -46,7 +46,7 @@ typedef enum {
 #define RU_VERDICT_SEED_RATIO 10.0   /* started: >= 10x the physical start level */
 #define RU_VERDICT_FLOOR_RATIO 100.0 /* started: >= 100x the solver's noise floor */
 #define RU_VERDICT_GROWTH 1.5        /* grew: >= 1.5x the lowest point before the end */
-#define RU_VERDICT_CERTAIN_CYCLES 20 /* certain: at least 20 cycles in the window */
+#define RU_VERDICT_CERTAIN_CYCLES 10 /* certain: at least 10 cycles in the window ... */
 #define RU_VERDICT_DRIVES 16         /* driving frequencies considered */
 
 /* The short stable keyword of a verdict (JSON `verdict`). */
@@ -61,6 +61,8 @@ typedef struct ru_verdict_input {
     double floor_v;         /* the solver's noise floor on the probe (V), >= 0 */
     double growth_per_s;    /* predicted growth rate (dominant poles), NAN unknown */
     double period_s;        /* predicted period (s), NAN unknown */
+    double slow_per_s;      /* the slowest decaying pole's rate (bias, thermal), NAN
+                               unknown: certain also needs the window to span 1/this */
     double t_expect_s;      /* predicted start-up time (s), NAN unknown: with growing
                                poles, no start is called overdue before 3x this */
     double drive_hz[RU_VERDICT_DRIVES]; /* frequencies of the driving waveforms */
@@ -68,6 +70,9 @@ typedef struct ru_verdict_input {
     double op_distance;     /* largest |x - x_op| / scale over the states at the end
                                (NAN: no operating point) */
     double dc_scale_v;      /* the probe's voltage scale (supplies, >= 1 V) */
+    double state_motion;    /* largest |x_end - x_window_start| / scale over the states
+                               (NAN unknown): a quiet circuit sits still when this and
+                               the probe's DC motion are below 1e-3 */
     int final;              /* 1: the run ends here (stop or cap); 0: a check between
                                chunks of an automatic run */
 } ru_verdict_input;

@@ -35,6 +35,7 @@ typedef struct run_sink {
     ru_trace *trace;        /* NULL when no picture is wanted */
     double *x_last;         /* the state at the last sample (n entries) */
     int have_last;
+    ru_state_mark mark;     /* the state at the settled window's start */
 } run_sink;
 
 static ru_status sink_sample(void *user, double t_s, const double *x, size_t n)
@@ -55,6 +56,10 @@ static ru_status sink_sample(void *user, double t_s, const double *x, size_t n)
         ru_energy_balance_push(k->energy, t_s, x);
     memcpy(k->x_last, x, n * sizeof *x);
     k->have_last = 1;
+    if (!k->mark.have && t_s >= k->mark.t_s) {
+        memcpy(k->mark.x, x, n * sizeof *x);
+        k->mark.have = 1;
+    }
     return RU_OK;
 }
 
@@ -85,7 +90,8 @@ static ru_status resolve_probe(const ru_circuit *c, const ru_system *sys,
 }
 
 /* Sample spacing: the request's, the file's, or 72 samples per predicted period
- * (at least 64 even if the tone settles 10 % higher), else 20000 over the run. */
+ * (at least 64 even if the tone settles 10 % higher), else 20000 over the (first
+ * chunk of the) run. */
 static double choose_sample(const ru_run_request *rq, const ru_run_opts *ro,
                             const ru_prediction *pr, double stop_s)
 {
@@ -163,10 +169,12 @@ static ru_status run_transient(const ru_circuit *c, const ru_system *sys,
     run_sink k = {.sys = sys, .probe_pos = probe_pos, .probe_neg = probe_neg};
     double *x0 = calloc(n ? n : 1, sizeof *x0);
     k.x_last = calloc(n ? n : 1, sizeof *k.x_last);
+    k.mark.x = calloc(n ? n : 1, sizeof *k.mark.x);
     char path[4096];
-    if (!x0 || !k.x_last) {
+    if (!x0 || !k.x_last || !k.mark.x) {
         free(x0);
         free(k.x_last);
+        free(k.mark.x);
         return ru_error_set(err, RU_ENOMEM, NULL, 0, 0, "out of memory");
     }
     if ((st = ru_system_initial_state(sys, x0, err)) != RU_OK)
@@ -202,7 +210,8 @@ static ru_status run_transient(const ru_circuit *c, const ru_system *sys,
     if (rq->wav_path && (st = wav_open(rq, rep, &k.wav, err)) != RU_OK)
         goto cleanup;
     if (rq->keep) {
-        if ((st = ru_trace_create(rep->stop_s, 0, &rq->keep->trace)) != RU_OK) {
+        /* spanning the first chunk: the trace folds its columns as the run goes on */
+        if ((st = ru_trace_create(rep->stop.first_s, 0, &rq->keep->trace)) != RU_OK) {
             ru_error_set(err, st, NULL, 0, 0, "cannot set up the waveform trace");
             goto cleanup;
         }
@@ -213,7 +222,21 @@ static ru_status run_transient(const ru_circuit *c, const ru_system *sys,
         if ((st = ru_csv_open(sys, path, &k.csv, err)) != RU_OK)
             goto cleanup;
     }
-    st = ru_transient_run(sys, &to, x0, sink_sample, &k, &rep->solver, err);
+    ru_judge_ctx jc = {.c = c, .sys = sys, .probe_pos = probe_pos, .probe_neg = probe_neg,
+                       .x_op = x_op, .x_end = k.x_last, .mark = &k.mark, .rtol = to.rtol,
+                       .atol_rel = to.atol_rel, .seed_v = mc.kick_level_v,
+                       .seed_is_kick = ro->kick == RU_KICK_PRESET};
+    ru_transient *tr = NULL;
+    st = ru_transient_create(sys, &to, x0, sink_sample, &k, &tr, err);
+    if (st == RU_OK) {
+        ru_run_engine eng;
+        ru_run_engine_transient(tr, &eng);
+        st = ru_runloop(&eng, k.meas, &jc, rep, err);
+        ru_transient_stats(tr, &rep->solver);
+        if (st != RU_OK)
+            rep->solver.t_reached_s = rep->stop_s;
+    }
+    ru_transient_destroy(tr);
     if (st == RU_ENUMERIC)
         rep->partial = 1;
     if (k.csv) {
@@ -230,11 +253,7 @@ static ru_status run_transient(const ru_circuit *c, const ru_system *sys,
     if (st == RU_OK || st == RU_ENUMERIC) {
         ru_measure_finish(k.meas, &rep->meas);
         ru_predict_startup(rep);
-        ru_judge_ctx jc = {.c = c, .sys = sys, .probe_pos = probe_pos,
-                           .probe_neg = probe_neg, .x_op = x_op,
-                           .x_end = k.have_last ? k.x_last : NULL, .rtol = to.rtol,
-                           .atol_rel = to.atol_rel, .seed_v = mc.kick_level_v,
-                           .seed_is_kick = ro->kick == RU_KICK_PRESET};
+        jc.x_end = k.have_last ? k.x_last : NULL;
         ru_judge_final(&jc, rep);
         if (rq->keep && keep_envelope(rq->keep, k.meas) != RU_OK)
             st = ru_error_set(err, RU_ENOMEM, NULL, 0, 0, "out of memory");
@@ -251,6 +270,7 @@ cleanup:
     ru_measure_destroy(k.meas);
     free(x0);
     free(k.x_last);
+    free(k.mark.x);
     return st;
 }
 
@@ -288,6 +308,12 @@ static ru_status check_size(const ru_circuit *c, const ru_run_report *rep, ru_er
                             "the sample spacing (%g s) is not shorter than the run (stop "
                             "%g s): lengthen the run or shorten the sample spacing",
                             rep->sample_s, rep->stop_s);
+    if (rep->stop.automatic && !(16 * rep->sample_s < rep->stop.first_s))
+        return ru_error_set(err, RU_EINPUT, ru_circuit_file(c), 0, 0,
+                            "the sample spacing (%g s) leaves fewer than 16 samples in the "
+                            "first %g s of the automatic run length: shorten the sample "
+                            "spacing or give a stop time",
+                            rep->sample_s, rep->stop.first_s);
     double samples = rep->stop_s / rep->sample_s;
     double cycles = rep->pred.have_poles ? rep->stop_s * rep->pred.frequency_hz : 0;
     if (samples > RU_MAX_SAMPLES)
@@ -319,7 +345,6 @@ ru_status ru_analysis_run(const ru_circuit *c, const ru_run_request *rq,
     if ((st = resolve_probe(c, sys, rep, &pos, &neg, err)) != RU_OK)
         goto done;
     const ru_run_opts *ro = ru_circuit_run_opts_const(c);
-    rep->stop_s = rq->stop_s > 0 ? rq->stop_s : ro->stop_s;
     rep->startup_level = ru_circuit_measure_opts_const(c)->startup_level;
     const char *loop = rq->loop_part ? rq->loop_part : ru_circuit_measure_opts_const(c)->loop;
     if (rq->keep)
@@ -331,7 +356,9 @@ ru_status ru_analysis_run(const ru_circuit *c, const ru_run_request *rq,
     }
     if ((st = ru_predict(c, sys, loop, pos, neg, rep, rq->keep, x_op, err)) != RU_OK)
         goto done;
-    rep->sample_s = choose_sample(rq, ro, &rep->pred, rep->stop_s);
+    ru_predict_startup(rep);
+    ru_stop_plan(c, sys, rq, rep);
+    rep->sample_s = choose_sample(rq, ro, &rep->pred, rep->stop.first_s);
     if ((st = check_size(c, rep, err)) != RU_OK)
         goto done;
     if (ro->kick == RU_KICK_NOISE && !has_noise_source(c)) {

@@ -6,6 +6,7 @@
 
 #include "ringup/analysis.h"
 #include "ringup/system.h"
+#include "ringup/transient.h"
 #include "measure/energy.h"
 
 
@@ -51,6 +52,14 @@ void ru_predict_startup(ru_run_report *rep);
 /* After the transient: start-up prediction and the comparison notes. */
 void ru_selfcheck(ru_run_report *rep);
 
+/* The state when the run passes t_s (the start of the settled window), kept by the
+ * sink: whether the circuit sits still is read from it and the last state. */
+typedef struct ru_state_mark {
+    double t_s;             /* when to take it (s) */
+    double *x;              /* n states, owned by the run */
+    int have;               /* 1: taken */
+} ru_state_mark;
+
 /* What the verdict needs to know about the run besides its figures (judge.c). */
 typedef struct ru_judge_ctx {
     const ru_circuit *c;
@@ -58,6 +67,7 @@ typedef struct ru_judge_ctx {
     int probe_pos, probe_neg;
     const double *x_op;     /* operating point (n states), NULL when not found */
     const double *x_end;    /* the state at the last sample, NULL when none */
+    ru_state_mark *mark;    /* the state at the window's start, NULL when none */
     double rtol, atol_rel;  /* the tolerances the transient used */
     double seed_v;          /* physical start level on the probe (V; 0 unknown) */
     int seed_is_kick;       /* 1: a preset kick */
@@ -69,5 +79,31 @@ void ru_judge(const ru_judge_ctx *j, const ru_run_report *rep, int final,
 
 /* The final verdict: judged, applied to rep->meas, rep->verdict and its notes. */
 void ru_judge_final(const ru_judge_ctx *j, ru_run_report *rep);
+
+/* A time-domain engine as the run loop drives it (runloop.c): advance delivers the
+ * samples up to a time to the sinks it was made with; time is the last sample's;
+ * done says the horizon is reached; stats reads the counters so far. */
+typedef struct ru_run_engine {
+    void *self;
+    ru_status (*advance)(void *self, double t_until_s, ru_error *err);
+    double (*time)(const void *self);
+    int (*done)(const void *self);
+    void (*stats)(const void *self, ru_solver_stats *st);
+} ru_run_engine;
+
+/* The direct transient (ringup/transient.h) as a run engine. */
+void ru_run_engine_transient(ru_transient *tr, ru_run_engine *e);
+
+/* Plans the run length into rep->stop, and the horizon into rep->stop_s: the fixed
+ * stop, or for stop: auto the first chunk and the caps (from the prediction in
+ * rep->pred, the power-on ramps and the request). */
+void ru_stop_plan(const ru_circuit *c, const ru_system *sys, const ru_run_request *rq,
+                  ru_run_report *rep);
+
+/* Runs the engine to the plan in rep->stop: one chunk for a fixed stop, else chunks
+ * judged in turn (the measurement m is finished after each) until the verdict is
+ * certain or a cap is reached; rep->stop_s becomes the run's length. */
+ru_status ru_runloop(const ru_run_engine *e, ru_measure *m, const ru_judge_ctx *jc,
+                     ru_run_report *rep, ru_error *err);
 
 #endif

@@ -38,13 +38,13 @@ static double node_scale(const ru_system *s, const double *scale, int node)
  * tolerances allow on a state at the probe's DC level: rtol |v| + atol) and the
  * largest distance of the final state from the operating point in state scales. */
 static void levels(const ru_judge_ctx *j, const ru_run_report *rep, double *vscale,
-                   double *floor_v, double *op_dist)
+                   double *floor_v, double *op_dist, double *motion)
 {
     size_t n = ru_system_size(j->sys);
     double *scale = malloc((n ? n : 1) * sizeof *scale);
     *vscale = 1.0;
     *floor_v = 0.0;
-    *op_dist = NAN;
+    *op_dist = *motion = NAN;
     if (!scale)
         return;
     ru_system_state_scale(j->sys, scale);
@@ -58,6 +58,12 @@ static void levels(const ru_judge_ctx *j, const ru_run_report *rep, double *vsca
         for (size_t i = 0; i < n; i++)
             d = fmax(d, fabs(j->x_end[i] - j->x_op[i]) / (scale[i] > 0 ? scale[i] : 1.0));
         *op_dist = d;
+    }
+    if (j->mark && j->mark->have && j->x_end) {
+        double d = 0.0;
+        for (size_t i = 0; i < n; i++)
+            d = fmax(d, fabs(j->x_end[i] - j->mark->x[i]) / (scale[i] > 0 ? scale[i] : 1.0));
+        *motion = d;
     }
     free(scale);
 }
@@ -75,9 +81,10 @@ void ru_judge(const ru_judge_ctx *j, const ru_run_report *rep, int final,
         in.growth_per_s = p->growth_rate_per_s;
         in.period_s = p->frequency_hz > 0 ? 1.0 / p->frequency_hz : NAN;
         in.t_expect_s = p->startup_time_s;
+        in.slow_per_s = p->slowest_decay_per_s;
     }
     in.ndrive = drives(j->c, in.drive_hz, RU_VERDICT_DRIVES);
-    levels(j, rep, &in.dc_scale_v, &in.floor_v, &in.op_distance);
+    levels(j, rep, &in.dc_scale_v, &in.floor_v, &in.op_distance, &in.state_motion);
     in.final = final;
     ru_verdict_judge(&in, out);
 }
@@ -99,8 +106,8 @@ void ru_judge_final(const ru_judge_ctx *j, ru_run_report *rep)
     ru_judge(j, rep, 1, &v);
     rep->verdict = v.verdict;
     rep->seed_v = j->seed_v;
-    double vs, op;
-    levels(j, rep, &vs, &rep->floor_v, &op);
+    double vs, op, mo;
+    levels(j, rep, &vs, &rep->floor_v, &op, &mo);
     ru_report_note(rep, "%s", v.note);
     settle_notes(rep, &v);
     ru_verdict_apply(&v, &rep->meas);

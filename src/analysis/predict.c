@@ -132,6 +132,10 @@ static void predict_poles(const ru_system *s, const double *x_op, int pos, int n
                             "small-signal model has no oscillation to predict");
         goto done;
     }
+    for (size_t i = 0; i < n; i++)
+        if (poles[i].re_per_s < 0 && (int)i != d && poles[i].im_rad_per_s != -poles[d].im_rad_per_s &&
+            !(fabs(poles[i].re_per_s) >= pr->slowest_decay_per_s))
+            pr->slowest_decay_per_s = fabs(poles[i].re_per_s);
     pr->have_poles = 1;
     pr->dominant = poles[d];
     pr->growth_rate_per_s = poles[d].re_per_s;
@@ -208,7 +212,7 @@ ru_status ru_predict(const ru_circuit *c, const ru_system *s, const char *loop_p
     ru_prediction *pr = &rep->pred;
     pr->growth_rate_per_s = pr->frequency_hz = NAN;
     pr->kick_amplitude_v = pr->startup_time_s = pr->settled_amplitude_v = NAN;
-    pr->noise_amplitude_v = NAN;
+    pr->noise_amplitude_v = pr->slowest_decay_per_s = NAN;
     pr->df_frequency_hz = NAN;
     int floating;
     if (ru_circuit_find_floating_node(c, &floating)) {

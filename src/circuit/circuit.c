@@ -42,6 +42,7 @@ ru_status ru_circuit_create(const char *title, ru_circuit **out)
     snprintf(c->title, sizeof c->title, "%s", title ? title : "");
     c->stray_f = 1e-12;
     c->run.stop_s = 10e-3;
+    c->run.stop_auto = 1;
     c->run.kick = RU_KICK_POWER_ON;
     c->run.accuracy = RU_ACCURACY_NORMAL;
     c->run.seed = 1;

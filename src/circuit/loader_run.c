@@ -155,8 +155,14 @@ ru_status ru_ld_run(ld_doc *d, ru_circuit *c, const ru_ypair *rp,
         s = ru_ld_only_keys(d, map, "run", keys, err);
     ru_run_opts *run = ru_circuit_run_opts(c);
     const ru_ypair *p;
-    if (s == RU_OK && (p = ru_ld_find(map, "stop")) != NULL)
-        s = positive_time(d, p, err, &run->stop_s);
+    if (s == RU_OK && (p = ru_ld_find(map, "stop")) != NULL) {
+        const char *text;
+        s = ru_ld_scalar(d, p, "run", err, &text);
+        if (s == RU_OK && strcmp(text, "auto") == 0)
+            run->stop_auto = 1;
+        else if (s == RU_OK && (s = positive_time(d, p, err, &run->stop_s)) == RU_OK)
+            run->stop_auto = 0;
+    }
     if (s == RU_OK && (p = ru_ld_find(map, "sample")) != NULL) {
         const char *text;
         s = ru_ld_scalar(d, p, "run", err, &text);

@@ -16,7 +16,7 @@ static void print_settings(const ru_circuit *c)
     const ru_measure_opts *mo = ru_circuit_measure_opts_const(c);
     char a[32], b[32];
     printf("run: stop %s, sample %s, accuracy %s, kick ",
-           ru_format_si(ro->stop_s, "s", 4, a, sizeof a),
+           ro->stop_auto ? "auto" : ru_format_si(ro->stop_s, "s", 4, a, sizeof a),
            ro->sample_s > 0 ? ru_format_si(ro->sample_s, "s", 4, b, sizeof b) : "auto",
            acc[ro->accuracy]);
     if (ro->kick == RU_KICK_PRESET) {

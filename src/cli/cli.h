@@ -54,6 +54,10 @@ int cli_value(const cli_opt *opts, const char *name, const char *unit, double *o
 /* As cli_value, and the value (when given) must be positive. */
 int cli_positive(const cli_opt *opts, const char *name, const char *unit, double *out);
 
+/* --stop T or --stop auto into the request (stop_s or stop_auto); returns 1, or 0
+ * after a message. */
+int cli_stop(const cli_opt *opts, ru_run_request *rq);
+
 /* --accuracy draft|normal|precise into *accuracy (an ru_accuracy; unchanged when
  * the option is absent); returns 0, or 1 after a message. */
 int cli_accuracy(const cli_opt *opts, int *accuracy);

@@ -170,6 +170,16 @@ fail:
     return 3;
 }
 
+int cli_stop(const cli_opt *opts, ru_run_request *rq)
+{
+    const char *v = cli_get(opts, "stop");
+    if (v && !strcmp(v, "auto")) {
+        rq->stop_auto = 1;
+        return 1;
+    }
+    return cli_positive(opts, "stop", "s", &rq->stop_s);
+}
+
 int cli_accuracy(const cli_opt *opts, int *accuracy)
 {
     static const char *const names[] = {"draft", "normal", "precise"};

@@ -149,7 +149,7 @@ int cmd_compare(int argc, char **argv)
                        NULL},
                       {"models", "A,B,C", "presets to put in that part", NULL},
                       {"out", "DIR", "write DIR/MODEL/wave.csv for every model", NULL},
-                      {"stop", "T", "run length (default: the file's)", NULL},
+                      {"stop", "T", "run length, or auto (default: the file's)", NULL},
                       {"accuracy", "LEVEL", "draft, normal or precise", NULL},
                       {"threads", "N", "parallel runs (default: one per processor)", NULL},
                       {"json", NULL, "print JSON on stdout (keys in README)", NULL},
@@ -176,7 +176,7 @@ int cmd_compare(int argc, char **argv)
     ru_run_request rq;
     ru_run_request_default(&rq);
     double threads = 0;
-    if (!cli_positive(opts, "stop", "s", &rq.stop_s) ||
+    if (!cli_stop(opts, &rq) ||
         !cli_positive(opts, "threads", NULL, &threads))
         return 1;
     if (cli_accuracy(opts, &rq.accuracy) != 0)

@@ -7,6 +7,8 @@
 #include "ringup/batch.h"
 #include "ringup/json.h"
 
+#include <math.h>
+
 static void json_measured(ru_json *j, const ru_run_report *r)
 {
     const ru_measure_result *m = &r->meas;
@@ -37,6 +39,16 @@ void cli_json_run_body(ru_json *j, const ru_run_report *r)
     ru_json_number(j, "startup_time_s", p->startup_time_s);
     ru_json_number(j, "settled_amplitude_v", p->settled_amplitude_v);
     ru_json_number(j, "settled_frequency_hz", p->df_frequency_hz);
+    ru_json_end_object(j);
+    const ru_stop_info *si = &r->stop;
+    ru_json_begin_object(j, "stop");
+    ru_json_bool(j, "auto", si->automatic);
+    ru_json_string(j, "reason", si->reason);
+    ru_json_number(j, "first_s", si->first_s);
+    ru_json_number(j, "cap_s", si->cap_s);
+    ru_json_number(j, "cap_cycles", si->automatic && si->cap_cycles > 0 ? si->cap_cycles : NAN);
+    ru_json_number(j, "cap_cpu_s", si->automatic ? si->cap_cpu_s : NAN);
+    ru_json_int(j, "chunks", si->chunks);
     ru_json_end_object(j);
     ru_json_begin_object(j, "solver");
     ru_json_int(j, "steps", r->solver.steps);

@@ -242,7 +242,7 @@ static int read_opts(const cli_opt *opts, ru_mc_opts *o)
     double samples = (double)o->samples, seed = (double)o->seed, threads = 0;
     if (!cli_positive(opts, "samples", NULL, &samples) || !cli_value(opts, "seed", NULL, &seed) ||
         !cli_positive(opts, "threads", NULL, &threads) ||
-        !cli_positive(opts, "stop", "s", &o->request.stop_s))
+        !cli_stop(opts, &o->request))
         return 1;
     if (samples != floor(samples) || samples > RU_MC_MAX_SAMPLES) {
         fprintf(stderr, "ringup montecarlo: --samples wants a whole number from 1 to %d "
@@ -274,7 +274,7 @@ int cmd_montecarlo(int argc, char **argv)
                       {"seed", "S", "seed of the draws (default 1)", NULL},
                       {"distribution", "D", "uniform (default) or normal (sigma tol/3, "
                                             "truncated at tol)", NULL},
-                      {"stop", "T", "run length (default: the file's)", NULL},
+                      {"stop", "T", "run length, or auto (default: the file's)", NULL},
                       {"accuracy", "LEVEL", "draft, normal or precise", NULL},
                       {"threads", "N", "parallel runs (default: one per processor)", NULL},
                       {"json", NULL, "print JSON on stdout (keys in README)", NULL},

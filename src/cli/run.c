@@ -62,9 +62,20 @@ static void print_text(const ru_circuit *c, const ru_run_report *r, int auto_sam
     const ru_prediction *p = &r->pred;
     char a[40], b[40];
     printf("%s: %s\n", ru_circuit_file(c), ru_circuit_title(c));
-    printf("probe %s, stop %s, sample %s%s\n\n", r->probe,
+    printf("probe %s, stop %s%s, sample %s%s\n", r->probe, r->stop.automatic ? "auto: " : "",
            ru_format_si(r->stop_s, "s", 4, a, sizeof a),
            ru_format_si(r->sample_s, "s", 4, b, sizeof b), auto_sample ? " (auto)" : "");
+    if (r->stop.automatic) {
+        char cap[40], cpu[40];
+        ru_format_si(r->stop.cap_s, "s", 4, cap, sizeof cap);
+        ru_format_si(r->stop.cap_cpu_s, "s", 3, cpu, sizeof cpu);
+        printf("  ended: %s, after %d chunk%s; caps: %s (%s)", r->stop.reason,
+               r->stop.chunks, r->stop.chunks == 1 ? "" : "s", cap, r->stop.cap_why);
+        if (r->stop.cap_cycles > 0)
+            printf(", %.3g cycles", r->stop.cap_cycles);
+        printf(", %s CPU\n", cpu);
+    }
+    printf("\n");
     printf("  %-20s %-16s %s\n", "", "measured", "predicted");
     char vb[40];
     snprintf(vb, sizeof vb, "%s (%s)", yes_no(m->started), ru_verdict_name(r->verdict));
@@ -405,8 +416,7 @@ static int set_request(const cli_opt *opts, ru_run_request *rq)
     ru_run_request_default(rq);
     rq->out_dir = cli_get(opts, "out");
     rq->loop_part = cli_get(opts, "loop");
-    if (!cli_positive(opts, "stop", "s", &rq->stop_s) ||
-        !cli_positive(opts, "sample", "s", &rq->sample_s))
+    if (!cli_stop(opts, rq) || !cli_positive(opts, "sample", "s", &rq->sample_s))
         return 0;
     if (!set_wav(opts, rq))
         return 0;
@@ -417,7 +427,8 @@ int cmd_run(int argc, char **argv)
 {
     cli_opt opts[] = {
         {"out", "DIR", "write DIR/wave.csv (every node voltage and inductor current)", NULL},
-        {"stop", "T", "run length, e.g. 20m (default: the file's run.stop)", NULL},
+        {"stop", "T", "run length, e.g. 20m, or auto: until settled (default: the file's "
+                      "run.stop, auto when it has none)", NULL},
         {"sample", "T", "output spacing (default: 72 samples per predicted period)", NULL},
         {"accuracy", "LEVEL", "draft, normal or precise (default: the file's)", NULL},
         {"loop", "PART", "amplifier whose loop gain is reported", NULL},

@@ -145,7 +145,7 @@ static int read_run_opts(const cli_opt *opts, ru_run_request *rq, double *thread
 {
     ru_run_request_default(rq);
     *threads = 0;
-    if (!cli_positive(opts, "stop", "s", &rq->stop_s) ||
+    if (!cli_stop(opts, rq) ||
         !cli_positive(opts, "threads", NULL, threads))
         return 1;
     if (*threads != floor(*threads) || *threads > 1024) {
@@ -161,7 +161,7 @@ int cmd_sweep(int argc, char **argv)
                        NULL},
                       {"out", "DIR", "write DIR/NN-VALUE/wave.csv for every value", NULL},
                       {"log", NULL, "geometric spacing between LO and HI", NULL},
-                      {"stop", "T", "run length (default: the file's)", NULL},
+                      {"stop", "T", "run length, or auto (default: the file's)", NULL},
                       {"accuracy", "LEVEL", "draft, normal or precise", NULL},
                       {"threads", "N", "parallel runs (default: one per processor)", NULL},
                       {"json", NULL, "print JSON on stdout (keys in README)", NULL},

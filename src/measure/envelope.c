@@ -129,8 +129,26 @@ static double seek_update(const ru_envelope *e, ru_seek *s, uint64_t idx, double
     return sg * (dc - d);
 }
 
+/* Keeps every second point of the older half (RU_ENV_KEEP): the newer half, where
+ * the settled window lies, stays whole. Indices into the envelope move with it. */
+static void thin_older_half(ru_envelope *e)
+{
+    size_t half = e->n_env / 2, k = 0;
+    for (size_t i = 0; i < half; i += 2, k++) {
+        e->env_t[k] = e->env_t[i];
+        e->env_a[k] = e->env_a[i];
+    }
+    size_t drop = half - k;
+    memmove(e->env_t + k, e->env_t + half, (e->n_env - half) * sizeof *e->env_t);
+    memmove(e->env_a + k, e->env_a + half, (e->n_env - half) * sizeof *e->env_a);
+    e->n_env -= drop;
+    e->env_from = e->env_from >= half ? e->env_from - drop : e->env_from / 2;
+}
+
 ru_status ru_envelope_add_point(ru_envelope *e, double t_s, double a_v)
 {
+    if (e->n_env >= RU_ENV_KEEP)
+        thin_older_half(e);
     if (e->n_env == e->cap_env) {
         size_t cap = e->cap_env ? 2 * e->cap_env : 64;
         double *nt = realloc(e->env_t, cap * sizeof *nt);

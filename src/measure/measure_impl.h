@@ -57,6 +57,11 @@ typedef struct ru_envelope {
     size_t cap_env;      /* capacity of env_t and env_a */
 } ru_envelope;
 
+/* Envelope points kept at most (4 MiB): when full, the older half is thinned to every
+ * second point, so the newest points (the settled window) stay whole and memory
+ * stays flat however long a run goes. */
+#define RU_ENV_KEEP ((size_t)1 << 18)
+
 /* Hysteresis as a fraction of the current half-cycle swing (common practice). */
 #define RU_ENV_HYST 0.2
 /* With a period hint P: an extremum holds (is not passed) for RU_ENV_HOLD * P. */

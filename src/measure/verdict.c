@@ -36,8 +36,8 @@ const char *ru_verdict_name(ru_verdict v)
 void ru_verdict_input_default(ru_verdict_input *in)
 {
     memset(in, 0, sizeof *in);
-    in->growth_per_s = in->period_s = in->t_expect_s = NAN;
-    in->op_distance = NAN;
+    in->growth_per_s = in->period_s = in->t_expect_s = in->slow_per_s = NAN;
+    in->op_distance = in->state_motion = NAN;
     in->dc_scale_v = 1.0;
     in->final = 1;
 }
@@ -48,6 +48,7 @@ typedef struct facts {
     int above_floor;   /* well above the solver's noise floor */
     int above_seed;    /* well above the physical start level */
     int decaying, growing, dc_still;
+    int still;         /* the probe's DC and every state sit still (no tone case) */
     int lhp, rhp;      /* the poles' sign, when known */
     int window_long;   /* the window spans the poles' decay time (or they grow) */
     int overdue;       /* a predicted start is overdue (or no start is predicted) */
@@ -67,12 +68,14 @@ static void gather(const ru_verdict_input *in, facts *f)
     f->decaying = f->tone && f->drift < -BAND;
     f->growing = f->tone && f->drift > BAND;
     f->dc_still = !isfinite(m->dc_motion_v) || fabs(m->dc_motion_v) <= DC_STILL * in->dc_scale_v;
+    f->still = f->dc_still && !(in->state_motion > DC_STILL);
     f->lhp = isfinite(in->growth_per_s) && in->growth_per_s < 0;
     f->rhp = isfinite(in->growth_per_s) && in->growth_per_s > 0;
     f->window_long = !f->lhp || m->window_s * fabs(in->growth_per_s) >= 1.0;
     f->overdue = !f->rhp || (in->final && isfinite(in->t_expect_s) &&
                              f->t_run >= EXPECT_MULT * in->t_expect_s);
-    f->cycles_ok = m->window_points >= RU_VERDICT_CERTAIN_CYCLES;
+    f->cycles_ok = m->window_points >= RU_VERDICT_CERTAIN_CYCLES &&
+                   !(in->slow_per_s > 0 && m->window_s * in->slow_per_s < 1.0);
 }
 
 static int driven_at(const ru_verdict_input *in, double f_hz)
@@ -180,7 +183,7 @@ static void judge_quiet(const ru_verdict_input *in, const facts *f, ru_verdict_r
 {
     const ru_measure_result *m = in->meas;
     if (!f->tone && isfinite(in->op_distance) && in->op_distance >= LATCH_AWAY &&
-        f->dc_still) {
+        f->still) {
         set(o, RU_VERDICT_LATCHED, 1, 0,
             "latched: no oscillation; the circuit sits still at a DC state %.3g of its "
             "scale away from its operating point (probe at %.4g V): it ran to a rail "
@@ -188,11 +191,17 @@ static void judge_quiet(const ru_verdict_input *in, const facts *f, ru_verdict_r
             in->op_distance, m->dc_level_v);
         return;
     }
-    if (!f->dc_still) {
-        set(o, RU_VERDICT_UNDECIDED, 0, 0,
-            "no sustained tone yet and the DC level still moves (%.3g V over the last "
-            "10 %% of the run): the bias is still settling; run longer",
-            m->dc_motion_v);
+    if (!f->still) {
+        if (f->dc_still)
+            set(o, RU_VERDICT_UNDECIDED, 0, 0,
+                "no sustained tone yet and the circuit's state still moves (%.3g of "
+                "its scale over the last 10 %% of the run): run longer",
+                in->state_motion);
+        else
+            set(o, RU_VERDICT_UNDECIDED, 0, 0,
+                "no sustained tone yet and the DC level still moves (%.3g V over the "
+                "last 10 %% of the run): the bias is still settling; run longer",
+                m->dc_motion_v);
         return;
     }
     if (f->rhp && !f->overdue) {
