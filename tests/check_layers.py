@@ -31,7 +31,7 @@ PUBLIC = {
     "system.h": "system",
     "transient.h": "engines", "smallsig.h": "engines", "descfn.h": "engines",
     "steady.h": "engines",
-    "envfollow.h": "engines",
+    "envfollow.h": "engines", "margin.h": "engines",
     "measure.h": "measure", "verdict.h": "measure",
     "wavefile.h": "output", "plot.h": "output", "wav.h": "output",
     "json.h": "output",

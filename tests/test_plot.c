@@ -125,7 +125,7 @@ static void fill_structs(fixture *x)
     x->models[1] = (ru_plot_model){"soft-follower", NENV, x->env_t, x->env2_v, 0.41, 4.5e-3};
     x->models[2] = (ru_plot_model){"exp-stage #2", NENV, x->env_t, x->env3_v, NAN, 2.6e-3};
     x->set = (ru_plot_set){&x->wave, &x->growth, &x->spec, &x->pm, &x->loop, &x->resp,
-                           x->models, 3, NULL, NULL, NULL};
+                           x->models, 3, NULL, NULL, NULL, NULL};
 }
 
 static int setup(void **state)
@@ -241,7 +241,7 @@ static void minimal_set(ru_plot_set *m, ru_plot_wave *w, ru_plot_growth *g,
     *r = (ru_plot_bode){0, "v(a)/v(b)", 2, ff, mm, pp, NAN, NAN};
     *md = (ru_plot_model){"m", 2, tt, ee, NAN, NAN};
     *s = (ru_plot_spectrum){5000.0, nanh, 9, NAN};
-    *m = (ru_plot_set){w, g, s, p, l, r, md, 1, NULL, NULL, NULL};
+    *m = (ru_plot_set){w, g, s, p, l, r, md, 1, NULL, NULL, NULL, NULL};
 }
 
 /* PNG signature and IHDR size. Reference: PNG specification (W3C/ISO 15948) 5.2

@@ -165,6 +165,21 @@ typedef struct ru_plot_phase_noise {
     double period_jitter_s;    /* shown in the subtitle */
 } ru_plot_phase_noise;
 
+/* Negative-resistance analysis: the impedance the rest of the circuit presents to
+ * a part, Re Z with the -ESR line (Re Z must lie below it to start) and Im Z with
+ * the part's own reactance negated (they meet at the operating frequency). */
+typedef struct ru_plot_margin {
+    const char *part;          /* the part's name */
+    size_t n;                  /* points (>= 2), frequencies ascending, > 0 */
+    const double *f_hz;
+    const double *re_ohm;      /* Re Z of the rest */
+    const double *im_ohm;      /* Im Z of the rest */
+    const double *part_x_ohm;  /* the part's reactance (NULL: not drawn) */
+    double esr_ohm;            /* the part's resistance (NAN: no line) */
+    double f_op_hz;            /* operating frequency (NAN: none) */
+    double margin;             /* shown in the subtitle (NAN: none) */
+} ru_plot_margin;
+
 /* ---- checks before any simulation work ---- */
 
 /* Checks that `format` is png, svg or pdf (NULL or "" = png) and its cairo driver
@@ -203,6 +218,9 @@ ru_status ru_plot_floquet_file(const char *dir, const char *format,
                                const ru_plot_floquet *f, ru_error *err);
 ru_status ru_plot_phase_noise_file(const char *dir, const char *format,
                                    const ru_plot_phase_noise *p, ru_error *err);
+/* DIR/margin.EXT. */
+ru_status ru_plot_margin_file(const char *dir, const char *format,
+                              const ru_plot_margin *m, ru_error *err);
 
 /* ---- every figure at once, and reports ---- */
 
@@ -219,6 +237,7 @@ typedef struct ru_plot_set {
     const ru_plot_period *period;   /* periodic steady state */
     const ru_plot_floquet *floquet;
     const ru_plot_phase_noise *phase_noise;
+    const ru_plot_margin *margin;   /* negative-resistance analysis */
 } ru_plot_set;
 
 /* Writes every figure present in set into dir; stops at the first failure. */

@@ -20,6 +20,8 @@ static const cli_command commands[] = {
     {"models", "list the amplifier and part presets", cmd_models},
     {"steady", "the periodic steady state: exact settled tone, Floquet multipliers",
      cmd_steady},
+    {"margin", "negative resistance seen by a part (crystal margin, drive level)",
+     cmd_margin},
 };
 
 static void usage(FILE *fp)

@@ -180,6 +180,12 @@ ru_status ru_plot_phase_noise_file(const char *dir, const char *format,
     return plot_file(&plot_fig_phase_noise, dir, format, p, err);
 }
 
+ru_status ru_plot_margin_file(const char *dir, const char *format,
+                              const ru_plot_margin *m, ru_error *err)
+{
+    return plot_file(&plot_fig_margin, dir, format, m, err);
+}
+
 ru_status ru_plot_compare_envelopes_file(const char *dir, const char *format,
                                          const ru_plot_model *m, size_t n,
                                          ru_error *err)
@@ -224,5 +230,7 @@ ru_status ru_plot_set_files(const char *dir, const char *format, const ru_plot_s
         st = ru_plot_floquet_file(dir, format, set->floquet, err);
     if (st == RU_OK && set->phase_noise)
         st = ru_plot_phase_noise_file(dir, format, set->phase_noise, err);
+    if (st == RU_OK && set->margin)
+        st = ru_plot_margin_file(dir, format, set->margin, err);
     return st;
 }

@@ -42,7 +42,8 @@ typedef struct plot_figure {
 
 extern const plot_figure plot_fig_wave, plot_fig_growth, plot_fig_spectrum,
     plot_fig_poles, plot_fig_loop, plot_fig_response, plot_fig_cmp_env,
-    plot_fig_cmp_fig, plot_fig_period, plot_fig_floquet, plot_fig_phase_noise;
+    plot_fig_cmp_fig, plot_fig_period, plot_fig_floquet, plot_fig_phase_noise,
+    plot_fig_margin;
 
 /* Data of the comparison figures (a pointer and a count in one object). */
 typedef struct plot_models {

@@ -23,7 +23,7 @@
 #include <plplot/plplot.h>
 #endif
 
-#define REPORT_FIGS 11
+#define REPORT_FIGS 12
 
 typedef struct report_fig {
     const plot_figure *fig;
@@ -61,6 +61,8 @@ static size_t report_list(const ru_plot_set *set, plot_models *pm, report_fig *f
         f[n++] = (report_fig){&plot_fig_floquet, set->floquet, "Floquet multipliers"};
     if (set->phase_noise)
         f[n++] = (report_fig){&plot_fig_phase_noise, set->phase_noise, "Phase noise"};
+    if (set->margin)
+        f[n++] = (report_fig){&plot_fig_margin, set->margin, "Negative resistance"};
     return n;
 }
 
