@@ -13,6 +13,7 @@
 #include "ru_test.h"
 
 #include "ringup/plot.h"
+#include "output/plot_impl.h"
 
 #include <errno.h>
 #include <pthread.h>
@@ -490,10 +491,39 @@ static void test_two_threads(void **state)
     assert_int_equal(sa, sb); /* same data, same picture */
 }
 
+/* Text helpers of the figures: one spelling of micro, and lines fitted to a width. */
+static void test_text_helpers(void **state)
+{
+    (void)state;
+    char buf[64];
+    /* Reference: the SI brochure (BIPM, 9th ed., table 7): the micro prefix symbol
+     * is µ; the axis labels already write it so (plot_si_scale). */
+    assert_string_equal(plot_si_text(12.3e-6, "s", 3, buf, sizeof buf), "12.3 µs");
+    assert_string_equal(plot_si_text(4.7e3, "ohm", 2, buf, sizeof buf), "4.7 kohm");
+    assert_string_equal(plot_si_text(2.0, "V", 3, buf, sizeof buf), "2.00 V");
+    /* A short line keeps its size; a long one shrinks (not below 0.7 of it), and
+     * one too long for that is cut with an ellipsis that fits the width. */
+    snprintf(buf, sizeof buf, "short");
+    RU_ASSERT_NEAR(plot_fit_text(buf, sizeof buf, 0.9, 1.0), 1.0, 0);
+    char longer[200];
+    memset(longer, 'x', 90);
+    longer[90] = '\0';
+    double sc = plot_fit_text(longer, sizeof longer, 0.9, 1.0);
+    assert_true(sc < 1.0 && sc >= 0.7);
+    assert_int_equal(strlen(longer), 90);
+    memset(longer, 'x', 190);
+    longer[190] = '\0';
+    sc = plot_fit_text(longer, sizeof longer, 0.9, 1.0);
+    RU_ASSERT_NEAR(sc, 0.7, 1e-12);
+    assert_non_null(strstr(longer, "…"));
+    assert_true(strlen(longer) < 190);
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
         cmocka_unit_test(test_trace_matches_bruteforce),
+        cmocka_unit_test(test_text_helpers),
         cmocka_unit_test_setup_teardown(test_png_every_figure, setup, teardown),
         cmocka_unit_test_setup_teardown(test_svg_every_figure, setup, teardown),
         cmocka_unit_test_setup_teardown(test_pdf_figure_and_report, setup, teardown),

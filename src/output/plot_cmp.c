@@ -135,7 +135,7 @@ static void cmp_bars(const plot_models *pm, int which, double vx0, double vx1)
         }
         plot_rect(0, v[k] * f, y - 0.3, y + 0.3, plot_series_colour(k));
         if (which)
-            snprintf(buf, sizeof buf, " %s", ru_format_si(v[k], "s", 3, a, sizeof a));
+            snprintf(buf, sizeof buf, " %s", plot_si_text(v[k], "s", 3, a, sizeof a));
         else
             snprintf(buf, sizeof buf, " %.3g %%", v[k]);
         plot_text(v[k] * f, y, 0.0, PC_INK, 0.8, buf);

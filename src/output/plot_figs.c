@@ -32,6 +32,26 @@ static ru_status check_wave(const void *data, ru_error *err)
 }
 
 #ifdef RU_HAVE_PLPLOT
+/* Columns of the trace inside [ta, tb] (plot units). */
+static size_t wave_columns_in(const ru_trace_view *tv, double kt, double ta, double tb)
+{
+    size_t n = 0;
+    for (size_t i = 0; i < tv->n; i++)
+        n += tv->t_s[i] * kt >= ta && tv->t_s[i] * kt <= tb;
+    return n;
+}
+
+/* Each column as its own vertical stroke from min to max: for a window with few
+ * columns, where joining them would draw a sawtooth the circuit never made. */
+static void wave_bars(const ru_trace_view *tv, double kt, double kv)
+{
+    for (size_t i = 0; i < tv->n; i++) {
+        double x[2] = {tv->t_s[i] * kt, tv->t_s[i] * kt};
+        double y[2] = {tv->min_v[i] * kv, tv->max_v[i] * kv};
+        plot_line(2, x, y, PC_BLUE, 2.0, 1);
+    }
+}
+
 /* Zig-zag through each column's min and max, so a column narrower than a period
  * shows the full swing and a resolved waveform shows its shape. */
 static void wave_trace(const ru_trace_view *tv, double kt, double kv)
@@ -92,7 +112,7 @@ static void wave_range(const ru_plot_wave *w, double dc, double *lo, double *hi)
 }
 
 static void wave_marks(const ru_plot_wave *w, double dc, double kt, double kv,
-                       double t0, double t1, double ylo, double yhi)
+                       double t0, double t1, double ylo, double yhi, int label)
 {
     char buf[96], a[32];
     if (isfinite(w->settled_v)) {
@@ -105,34 +125,61 @@ static void wave_marks(const ru_plot_wave *w, double dc, double kt, double kv,
     if (isfinite(w->startup_time_s)) {
         double x = w->startup_time_s * kt, tx[2] = {x, x}, ty[2] = {ylo, yhi};
         plot_line(2, tx, ty, PC_GREEN, 2.0, 1);
-        ru_format_si(w->startup_time_s, "s", 3, a, sizeof a);
+        if (!label)
+            return;
+        plot_si_text(w->startup_time_s, "s", 3, a, sizeof a);
         snprintf(buf, sizeof buf, " start-up %s ", a);
         double just = (x - t0) > 0.75 * (t1 - t0) ? 1.0 : 0.0;
         plot_text(x, ylo + 0.04 * (yhi - ylo), just, PC_GREEN, 0.95, buf);
     }
 }
 
+/* One panel of the waveform figure: frame, trace, envelope and marks over the
+ * time window [ta, tb] (plot units; PLplot clips what lies outside). */
+static void wave_panel(const ru_plot_wave *w, double dc, double kt, double kv,
+                       double vy0, double vy1, double ta, double tb, double ylo,
+                       double yhi, const char *xl, const char *yl, int label)
+{
+    plot_frame(PLOT_VX0, PLOT_VX1, vy0, vy1, ta, tb, ylo, yhi, 0, 0, 0, 0, xl, yl);
+    if (wave_columns_in(&w->trace, kt, ta, tb) < 300)
+        wave_bars(&w->trace, kt, kv);
+    else
+        wave_trace(&w->trace, kt, kv);
+    if (w->nenv > 0)
+        wave_envelope(w, dc, kt, kv);
+    wave_marks(w, dc, kt, kv, ta, tb, ylo, yhi, label);
+}
+
+/* When the start-up takes less than this fraction of the run, a second panel
+ * below the whole run shows the first 2.5 start-up times, so the growth itself is
+ * readable. */
+#define WAVE_ZOOM_FRACTION 0.25
+
 static void draw_wave(const void *data)
 {
     const ru_plot_wave *w = data;
-    const char *tp, *vp;
+    const char *tp, *vp, *zp;
     char title[200], sub[200], xl[64], yl[96], pr[80], a[32];
     double dc = isfinite(w->dc_v) ? w->dc_v : 0.0, ylo, yhi;
     double t0 = fmin(0.0, w->trace.t_s[0]), t1 = w->trace.t_s[w->trace.n - 1];
+    int zoom = isfinite(w->startup_time_s) && w->startup_time_s > 0 &&
+               w->startup_time_s < WAVE_ZOOM_FRACTION * (t1 - t0);
     wave_range(w, dc, &ylo, &yhi);
     double kt = plot_si_scale(fmax(fabs(t0), fabs(t1)), &tp);
     double kv = plot_si_scale(fmax(fabs(ylo), fabs(yhi)), &vp);
     plot_pad(&ylo, &yhi, 0.08);
-    ylo *= kv, yhi *= kv, t0 *= kt, t1 *= kt;
+    ylo *= kv, yhi *= kv;
     plot_escape(pr, sizeof pr, w->probe ? w->probe : "probe");
     pladv(0);
     snprintf(title, sizeof title, "Start-up of v(%s) from power-on", pr);
     if (isfinite(w->settled_v))
         snprintf(sub, sizeof sub, "settles at %s peak around %s",
-                 ru_format_si(w->settled_v, "V", 4, a, sizeof a),
-                 ru_format_si(dc, "V", 3, yl, sizeof yl));
+                 plot_si_text(w->settled_v, "V", 4, a, sizeof a),
+                 plot_si_text(dc, "V", 3, yl, sizeof yl));
     else
         snprintf(sub, sizeof sub, "no settled amplitude");
+    if (zoom)
+        snprintf(sub + strlen(sub), sizeof sub - strlen(sub), "; below, the start-up");
     if (w->title && *w->title) {
         char t[120];
         plot_escape(t, sizeof t, w->title);
@@ -141,23 +188,32 @@ static void draw_wave(const void *data)
     plot_titles(title, sub);
     plot_axis_label(xl, sizeof xl, "time from power-on", tp, kt, "s");
     snprintf(yl, sizeof yl, "v(%s) (%sV)", pr, vp);
-    plot_frame(PLOT_VX0, PLOT_VX1, PLOT_VY0, PLOT_VY1, t0, t1, ylo, yhi, 0, 0, 0, 0, xl,
-               yl);
-    wave_trace(&w->trace, kt, kv);
+    if (!zoom) {
+        wave_panel(w, dc, kt, kv, PLOT_VY0, PLOT_VY1, t0 * kt, t1 * kt, ylo, yhi, xl, yl,
+                   1);
+    } else {
+        double tz = fmin(t1, 2.5 * w->startup_time_s);
+        double kz = plot_si_scale(tz, &zp);
+        char zl[64];
+        plot_axis_label(zl, sizeof zl, "time from power-on, start-up enlarged", zp, kz,
+                        "s");
+        wave_panel(w, dc, kt, kv, 0.555, PLOT_VY1, t0 * kt, t1 * kt, ylo, yhi, xl, yl, 0);
+        /* the zoomed stretch, shaded in the whole-run panel */
+        plot_rect(t0 * kt, tz * kt, yhi - 0.03 * (yhi - ylo), yhi, PC_TINT_BLUE);
+        wave_panel(w, dc, kz, kv, PLOT_VY0, 0.40, t0 * kz, tz * kz, ylo, yhi, zl, yl, 1);
+    }
+    plot_legend lg = {0};
+    plot_legend_add(&lg, PC_BLUE, 0, 1.5, "waveform");
     if (w->nenv > 0)
-        wave_envelope(w, dc, kt, kv);
-    wave_marks(w, dc, kt, kv, t0, t1, ylo, yhi);
-    double lx = PLOT_VX0, ly = 0.855;
-    plot_legend_item(&lx, &ly, PC_BLUE, 0, 1.5, "waveform");
-    if (w->nenv > 0)
-        plot_legend_item(&lx, &ly, PC_VERMIL, 0, 2.0, "envelope (DC ± amplitude)");
+        plot_legend_add(&lg, PC_VERMIL, 0, 2.0, "envelope (DC ± amplitude)");
     if (isfinite(w->settled_v))
-        plot_legend_item(&lx, &ly, PC_INK, 1, 1.2, "settled");
+        plot_legend_add(&lg, PC_INK, 1, 1.2, "settled");
     if (isfinite(w->startup_time_s)) {
         snprintf(yl, sizeof yl, "start-up (%.0f %%)",
                  100.0 * (w->startup_level > 0 ? w->startup_level : 0.9));
-        plot_legend_item(&lx, &ly, PC_GREEN, 0, 2.0, yl);
+        plot_legend_add(&lg, PC_GREEN, 0, 2.0, yl);
     }
+    plot_legend_draw(&lg);
 }
 #else
 #define draw_wave NULL
@@ -239,16 +295,17 @@ static void growth_points(const ru_plot_growth *g, double kt, double *lo, double
 static void growth_legend(const ru_plot_growth *g, int have_fit)
 {
     char buf[128];
-    double lx = PLOT_VX0, ly = 0.855;
-    plot_legend_item(&lx, &ly, PC_BLUE, 2, 1, "envelope (per cycle)");
+    plot_legend lg = {0};
+    plot_legend_add(&lg, PC_BLUE, 2, 1, "envelope (per cycle)");
     if (have_fit) {
         snprintf(buf, sizeof buf, "fit σ = %.4g /s", g->sigma_per_s);
-        plot_legend_item(&lx, &ly, PC_VERMIL, 0, 2.0, buf);
+        plot_legend_add(&lg, PC_VERMIL, 0, 2.0, buf);
     }
     if (isfinite(g->predicted_per_s)) {
         snprintf(buf, sizeof buf, "poles σ = %.4g /s", g->predicted_per_s);
-        plot_legend_item(&lx, &ly, PC_INK, 1, 2.0, buf);
+        plot_legend_add(&lg, PC_INK, 1, 2.0, buf);
     }
+    plot_legend_draw(&lg);
 }
 
 static void growth_subtitle(const ru_plot_growth *g, int have_fit, char *sub,
@@ -260,8 +317,8 @@ static void growth_subtitle(const ru_plot_growth *g, int have_fit, char *sub,
         return;
     }
     int k = snprintf(sub, size, "fit over %s to %s (shaded)",
-                     ru_format_si(g->fit_t0_s, "s", 3, a, sizeof a),
-                     ru_format_si(g->fit_t1_s, "s", 3, b, sizeof b));
+                     plot_si_text(g->fit_t0_s, "s", 3, a, sizeof a),
+                     plot_si_text(g->fit_t1_s, "s", 3, b, sizeof b));
     if (isfinite(g->predicted_per_s) && k > 0 && (size_t)k < size)
         snprintf(sub + k, size - (size_t)k, "; measured %+.2f %% against the poles",
                  100.0 * (g->sigma_per_s / g->predicted_per_s - 1.0));
@@ -289,14 +346,23 @@ static void draw_growth(const void *data)
         plot_rect(g->fit_t0_s * kt, g->fit_t1_s * kt, lo, hi, PC_TINT_ORANGE);
     plot_frame(PLOT_VX0, PLOT_VX1, PLOT_VY0, PLOT_VY1, t0 * kt, t1 * kt, lo, hi, 0, 0, 1, 0,
                xl, "envelope amplitude (V peak, log scale)");
-    if (have_fit)
-        plot_text(0.5 * (g->fit_t0_s + g->fit_t1_s) * kt, lo + 0.04 * (hi - lo), 0.5,
-                  PC_VERMIL, 0.85, "fit window");
+    if (have_fit) { /* centred on the window, but never past the frame's edges */
+        double xm = 0.5 * (g->fit_t0_s + g->fit_t1_s) * kt, half = 0.08 * (t1 - t0) * kt;
+        double just = 0.5, x = xm;
+        if (xm - half < t0 * kt) {
+            just = 0.0;
+            x = fmax(g->fit_t0_s * kt, t0 * kt) + 0.005 * (t1 - t0) * kt;
+        } else if (xm + half > t1 * kt) {
+            just = 1.0;
+            x = fmin(g->fit_t1_s * kt, t1 * kt) - 0.005 * (t1 - t0) * kt;
+        }
+        plot_text(x, lo + 0.04 * (hi - lo), just, PC_VERMIL, 0.85, "fit window");
+    }
     if (isfinite(g->settled_v) && g->settled_v > 0) {
         double x[2] = {t0 * kt, t1 * kt}, y[2] = {log10(g->settled_v), log10(g->settled_v)};
         char a[32], buf[48];
         plot_line(2, x, y, PC_MUTED, 1.0, 2);
-        snprintf(buf, sizeof buf, "settled %s ", ru_format_si(g->settled_v, "V", 3, a,
+        snprintf(buf, sizeof buf, "settled %s ", plot_si_text(g->settled_v, "V", 3, a,
                                                              sizeof a));
         plot_text(t1 * kt, y[0] + 0.04 * (hi - lo), 1.0, PC_MUTED, 0.85, buf);
     }
@@ -370,7 +436,7 @@ static void draw_spectrum(const void *data)
         snprintf(sub, sizeof sub, "THD not known");
     plot_titles("Harmonics of the settled tone, relative to the fundamental", sub);
     snprintf(xl, sizeof xl, "harmonic (H1 = fundamental, %s)",
-             ru_format_si(s->frequency_hz, "Hz", 4, a, sizeof a));
+             plot_si_text(s->frequency_hz, "Hz", 4, a, sizeof a));
     plvpor(PLOT_VX0, PLOT_VX1, PLOT_VY0, PLOT_VY1);
     plwind(0.5, s->nharm + 1.5, floor_db, 10.0);
     plcol0(PC_GRID);
@@ -380,10 +446,11 @@ static void draw_spectrum(const void *data)
     plmtex("b", 3.3, 0.5, 0.5, xl);
     plmtex("l", 4.2, 0.5, 0.5, "level (dBc)");
     spectrum_bars(s, floor_db);
-    double lx = PLOT_VX0, ly = 0.855;
-    plot_legend_item(&lx, &ly, PC_INK, 3, 1, "fundamental (0 dBc)");
-    plot_legend_item(&lx, &ly, PC_BLUE, 3, 1, "odd harmonics");
-    plot_legend_item(&lx, &ly, PC_SKY, 3, 1, "even harmonics");
+    plot_legend lg = {0};
+    plot_legend_add(&lg, PC_INK, 3, 1, "fundamental (0 dBc)");
+    plot_legend_add(&lg, PC_BLUE, 3, 1, "odd harmonics");
+    plot_legend_add(&lg, PC_SKY, 3, 1, "even harmonics");
+    plot_legend_draw(&lg);
 }
 #else
 #define draw_spectrum NULL

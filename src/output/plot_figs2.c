@@ -103,7 +103,7 @@ static void poles_drift(const ru_plot_poles *p, double kx, double ky)
     size_t ends[2] = {0, p->ndrift - 1};
     for (int e = 0; e < (p->ndrift > 1 ? 2 : 1); e++) { /* amplitudes under the ends */
         const ru_pole *q = &p->drift[ends[e]];
-        snprintf(buf, sizeof buf, "%s", ru_format_si(p->drift_amp_v[ends[e]], "V", 3, a,
+        snprintf(buf, sizeof buf, "%s", plot_si_text(p->drift_amp_v[ends[e]], "V", 3, a,
                                                      sizeof a));
         plot_text(q->re_per_s * kx, q->im_rad_per_s / TWO_PI * ky - 0.05 * (wy1 - wy0), 0.5,
                   PC_GREEN, 0.8, buf);
@@ -119,7 +119,7 @@ static void poles_subtitle(const ru_plot_poles *p, char *sub, size_t size)
     }
     const ru_pole *d = &p->poles[p->dominant];
     snprintf(sub, size, "dominant pair σ = %+.4g /s, im/2π = %s: %s", d->re_per_s,
-             ru_format_si(d->im_rad_per_s / TWO_PI, "Hz", 4, a, sizeof a),
+             plot_si_text(d->im_rad_per_s / TWO_PI, "Hz", 4, a, sizeof a),
              d->re_per_s > 0   ? "right of the axis, the oscillation grows"
              : d->re_per_s < 0 ? "left of the axis, it decays"
                                : "on the axis, it neither grows nor decays");
@@ -170,16 +170,17 @@ static void draw_poles(const void *data)
     if (p->ndrift > 0)
         poles_drift(p, kx, ky);
     poles_marks(p, kx, ky);
-    double lx = PLOT_VX0, ly = 0.855;
-    plot_legend_item(&lx, &ly, PC_BLUE, 4, 2.0, "pole");
+    plot_legend lg = {0};
+    plot_legend_add(&lg, PC_BLUE, 4, 2.0, "pole");
     if (p->dominant >= 0)
-        plot_legend_item(&lx, &ly, PC_VERMIL, 5, 2.0, "dominant pair");
+        plot_legend_add(&lg, PC_VERMIL, 5, 2.0, "dominant pair");
     if (p->ndrift > 0) {
         snprintf(sub, sizeof sub, "drift with amplitude, %s → %s",
-                 ru_format_si(p->drift_amp_v[0], "V", 3, a, sizeof a),
-                 ru_format_si(p->drift_amp_v[p->ndrift - 1], "V", 3, xl, sizeof xl));
-        plot_legend_item(&lx, &ly, PC_GREEN, 0, 2.0, sub);
+                 plot_si_text(p->drift_amp_v[0], "V", 3, a, sizeof a),
+                 plot_si_text(p->drift_amp_v[p->ndrift - 1], "V", 3, xl, sizeof xl));
+        plot_legend_add(&lg, PC_GREEN, 0, 2.0, sub);
     }
+    plot_legend_draw(&lg);
 }
 #else
 #define draw_poles NULL
@@ -292,7 +293,7 @@ static void bode_mark(const ru_plot_bode *b, char *sub, size_t size)
 {
     char a[32];
     double db = 20.0 * log10(b->mark_mag);
-    ru_format_si(b->mark_hz, "Hz", 4, a, sizeof a);
+    plot_si_text(b->mark_hz, "Hz", 4, a, sizeof a);
     if (b->is_loop)
         snprintf(sub, size, "phase 0° at %s: |L| = %.4g (%+.2f dB), %s", a, b->mark_mag,
                  db, b->mark_mag > 1 ? "above one: the loop starts (Barkhausen)"
@@ -351,14 +352,14 @@ static void draw_bode(const void *data)
     bode_curve(b, 1, shift, 0);
     if (isfinite(b->mark_hz) && b->mark_mag > 0)
         bode_vline(log10(b->mark_hz), plo, phi);
-    double lx = PLOT_VX0, ly = 0.855;
-    plot_legend_item(&lx, &ly, PC_BLUE, 0, 2.0, "magnitude");
-    plot_legend_item(&lx, &ly, PC_GREEN, 0, 2.0, "phase");
+    plot_legend lg = {0};
+    plot_legend_add(&lg, PC_BLUE, 0, 2.0, "magnitude");
+    plot_legend_add(&lg, PC_GREEN, 0, 2.0, "phase");
     if (isfinite(b->mark_hz) && b->mark_mag > 0)
-        plot_legend_item(&lx, &ly, PC_VERMIL, 1, 1.5,
-                         b->is_loop ? "0° crossing" : "peak");
+        plot_legend_add(&lg, PC_VERMIL, 1, 1.5, b->is_loop ? "0° crossing" : "peak");
     if (!b->is_loop)
-        plot_legend_item(&lx, &ly, PC_TINT_ORANGE, 3, 1, "gain above one");
+        plot_legend_add(&lg, PC_TINT_ORANGE, 3, 1, "gain above one");
+    plot_legend_draw(&lg);
 }
 #else
 #define draw_bode NULL

@@ -97,6 +97,34 @@ void plot_frame(double vx0, double vx1, double vy0, double vy1, double xlo, doub
 #define PLOT_VY0 0.11
 #define PLOT_VY1 0.82
 
+/* A figure's legend, laid out as a whole above the plot area (between the
+ * subtitle and the frame): entries are added, then drawn in one row at the
+ * normal size if they fit, else with smaller text, else in two rows of small
+ * text, so the legend never reaches into the plot. Up to PLOT_LEGEND_MAX entries
+ * (more are dropped); text longer than 95 bytes is cut. */
+#define PLOT_LEGEND_MAX 12
+typedef struct plot_legend {
+    int n;
+    struct {
+        int colour, style;
+        double width;
+        char text[96];
+    } e[PLOT_LEGEND_MAX];
+} plot_legend;
+void plot_legend_add(plot_legend *lg, int colour, int style, double width,
+                     const char *text);
+void plot_legend_draw(const plot_legend *lg);
+
+/* ru_format_si for a figure: the same text with the micro prefix written µ, as
+ * the axis labels write it (plot_si_scale), so one figure spells it one way. */
+char *plot_si_text(double v, const char *unit, int digits, char *buf, size_t size);
+
+/* Fits one line of text into width (a fraction of the page) at scale: returns the
+ * scale to draw it at (down to 0.7 of it) and, when even that is too wide, cuts
+ * buf to fit and ends it with an ellipsis. Widths are estimated from the number
+ * of characters (0.0115 of the page per character at scale 1). */
+double plot_fit_text(char *buf, size_t size, double width, double scale);
+
 /* One legend entry at page position (*x, *y) in [0,1] page coordinates: a short
  * sample (style 0 line, 1 dashed line, 2 dot, 3 filled box, 4 cross, 5 ring) and
  * text. Moves *x past

@@ -8,6 +8,7 @@
  *   colours for data, titles at the top left, units with SI prefixes in brackets.
  * Built without PLplot, plot_device refuses every format and nothing else is used. */
 #include "output/plot_impl.h"
+#include "ringup/format.h"
 
 #include <math.h>
 #include <pthread.h>
@@ -129,6 +130,54 @@ int plot_series_colour(size_t i)
     return c[i % (sizeof c / sizeof c[0])];
 }
 
+char *plot_si_text(double v, const char *unit, int digits, char *buf, size_t size)
+{
+    char tmp[64];
+    ru_format_si(v, unit, digits, tmp, sizeof tmp);
+    char *sp = strchr(tmp, ' ');
+    /* "12.3 us" -> "12.3 µs": the prefix is the letter after the space unless the
+     * unit itself starts there (no SI unit starts with u) */
+    if (sp && sp[1] == 'u' && !(unit && unit[0] == 'u'))
+        snprintf(buf, size, "%.*s µ%s", (int)(sp - tmp), tmp, sp + 2);
+    else
+        snprintf(buf, size, "%s", tmp);
+    return buf;
+}
+
+/* Characters of a UTF-8 string as drawn (continuation bytes and PLplot's escape
+ * doubling not counted). */
+static size_t plot_chars(const char *text)
+{
+    size_t n = 0;
+    for (const unsigned char *p = (const unsigned char *)text; *p; p++)
+        if ((*p & 0xC0) != 0x80 && !(*p == '#' && p[1] == '#'))
+            n++;
+    return n;
+}
+
+#define PLOT_CHAR_W 0.0115 /* page width per character at scale 1 (measured on the
+                              960-pixel PNGs for the proportional font) */
+
+double plot_fit_text(char *buf, size_t size, double width, double scale)
+{
+    double need = PLOT_CHAR_W * scale * (double)plot_chars(buf);
+    if (need <= width)
+        return scale;
+    double s = scale * width / need;
+    if (s >= 0.7 * scale)
+        return s;
+    s = 0.7 * scale;
+    size_t keep = (size_t)(width / (PLOT_CHAR_W * s)) - 1, n = 0, j = 0;
+    for (; buf[j] && n < keep; j++)
+        if (((unsigned char)buf[j] & 0xC0) != 0x80)
+            n++;
+    while (j > 0 && ((unsigned char)buf[j] & 0xC0) == 0x80)
+        j--; /* never cut inside a character */
+    if (j + 4 <= size)
+        snprintf(buf + j, size - j, "…");
+    return s;
+}
+
 double plot_si_scale(double maxabs, const char **prefix)
 {
     static const char *const p[] = {"f", "p", "n", "µ", "m", "", "k", "M", "G", "T"};
@@ -187,15 +236,22 @@ void plot_pad(double *lo, double *hi, double frac)
 #ifdef RU_HAVE_PLPLOT
 void plot_titles(const char *title, const char *subtitle)
 {
+    char buf[512];
+    double room = 0.985 - PLOT_VX0;
     plvpor(PLOT_VX0, PLOT_VX1, PLOT_VY0, PLOT_VY1);
     plcol0(PC_INK);
-    plschr(0, 1.35);
-    plmtex("t", 4.2, 0.0, 0.0, title);
-    plschr(0, 0.95);
+    snprintf(buf, sizeof buf, "%s", title ? title : "");
+    double sc = plot_fit_text(buf, sizeof buf, room, 1.35);
+    plschr(0, sc);
+    plmtex("t", 4.2 * 1.35 / sc, 0.0, 0.0, buf);
     if (subtitle && *subtitle) {
+        snprintf(buf, sizeof buf, "%s", subtitle);
+        sc = plot_fit_text(buf, sizeof buf, room, 0.95);
+        plschr(0, sc);
         plcol0(PC_MUTED);
-        plmtex("t", 4.0, 0.0, 0.0, subtitle);
+        plmtex("t", 4.0 * 0.95 / sc, 0.0, 0.0, buf);
     }
+    plschr(0, 0.95);
     plcol0(PC_INK);
 }
 
@@ -235,41 +291,93 @@ void plot_frame(double vx0, double vx1, double vy0, double vy1, double xlo, doub
         plmtex("l", 4.2, 0.5, 0.5, ylab);
 }
 
-void plot_legend_item(double *x, double *y, int colour, int style, double width,
-                      const char *text)
+void plot_legend_add(plot_legend *lg, int colour, int style, double width,
+                     const char *text)
+{
+    if (lg->n >= PLOT_LEGEND_MAX)
+        return;
+    lg->e[lg->n].colour = colour;
+    lg->e[lg->n].style = style;
+    lg->e[lg->n].width = width;
+    snprintf(lg->e[lg->n].text, sizeof lg->e[0].text, "%s", text ? text : "");
+    lg->n++;
+}
+
+static void legend_entry(double x, double y, int colour, int style, double width,
+                         double sc, const char *text);
+
+/* Width of entry i at text scale sc (sample, gap to the text, text, gap after). */
+static double legend_width(const plot_legend *lg, int i, double sc)
+{
+    return 0.04 + PLOT_CHAR_W * sc * (double)plot_chars(lg->e[i].text) + 0.02;
+}
+
+void plot_legend_draw(const plot_legend *lg)
+{
+    double room = 0.985 - PLOT_VX0, total = 0;
+    for (int i = 0; i < lg->n; i++)
+        total += legend_width(lg, i, 0.95);
+    double sc = 0.95;
+    int rows = 1;
+    if (total > room) { /* smaller text, then two rows */
+        double fixed = 0.06 * lg->n, text = total - fixed;
+        sc = text > 0 ? 0.95 * (room - fixed) / text : 0.95;
+        if (sc < 0.78) {
+            sc = 0.78;
+            rows = 2;
+        }
+    }
+    double x = PLOT_VX0, y = rows == 1 ? 0.855 : 0.868;
+    for (int i = 0; i < lg->n; i++) {
+        double w = legend_width(lg, i, sc);
+        if (rows == 2 && x > PLOT_VX0 && x + w > 0.985 && y > 0.85) {
+            x = PLOT_VX0;
+            y = 0.840;
+        }
+        legend_entry(x, y, lg->e[i].colour, lg->e[i].style, lg->e[i].width, sc,
+                     lg->e[i].text);
+        x += w;
+    }
+}
+
+/* One legend entry at page position (x, y), text at scale sc; no wrapping. */
+static void legend_entry(double x, double y, int colour, int style, double width,
+                         double sc, const char *text)
 {
     PLFLT vx0, vx1, vy0, vy1, wx0, wx1, wy0, wy1;
-    /* width of the text estimated from its length: about 0.0118 of the page width
-     * per character at this size (measured on the rendered 960-pixel PNGs) */
-    size_t nch = 0;
-    for (const unsigned char *p = (const unsigned char *)text; *p; p++)
-        if ((*p & 0xC0) != 0x80 && *p != '#')
-            nch++;
-    double need = 0.04 + 0.0118 * (double)nch;
-    if (*x > PLOT_VX0 && *x + need > 0.98) { /* wrap to a new row */
-        *x = PLOT_VX0;
-        *y -= 0.036;
-    }
     plgvpd(&vx0, &vx1, &vy0, &vy1);
     plgvpw(&wx0, &wx1, &wy0, &wy1);
     plvpor(0, 1, 0, 1);
     plwind(0, 1, 0, 1);
     if (style == 2) {
-        plot_dot(*x + 0.015, *y, colour, 5.0);
+        plot_dot(x + 0.015, y, colour, 5.0);
     } else if (style == 3) {
-        plot_rect(*x, *x + 0.03, *y - 0.012, *y + 0.012, colour);
+        plot_rect(x, x + 0.03, y - 0.012, y + 0.012, colour);
     } else if (style == 4) {
-        plot_cross(*x + 0.015, *y, colour, 6.0);
+        plot_cross(x + 0.015, y, colour, 6.0);
     } else if (style == 5) {
-        plot_ring(*x + 0.015, *y, colour, 9.0);
+        plot_ring(x + 0.015, y, colour, 9.0);
     } else {
-        double lx[2] = {*x, *x + 0.03}, ly[2] = {*y, *y};
+        double lx[2] = {x, x + 0.03}, ly[2] = {y, y};
         plot_line(2, lx, ly, colour, width, style == 1 ? 2 : 1);
     }
     plcol0(PC_INK);
-    plptex(*x + 0.038, *y, 1, 0, 0, text);
+    plschr(0, sc);
+    plptex(x + 0.038, y, 1, 0, 0, text);
+    plschr(0, 0.95);
     plvpor(vx0, vx1, vy0, vy1);
     plwind(wx0, wx1, wy0, wy1);
+}
+
+void plot_legend_item(double *x, double *y, int colour, int style, double width,
+                      const char *text)
+{
+    double need = 0.04 + PLOT_CHAR_W * 0.95 * (double)plot_chars(text);
+    if (*x > PLOT_VX0 && *x + need > 0.98) { /* wrap to a new row */
+        *x = PLOT_VX0;
+        *y -= 0.036;
+    }
+    legend_entry(*x, *y, colour, style, width, 0.95, text);
     *x += need + 0.02;
 }
 
