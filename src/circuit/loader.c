@@ -134,12 +134,20 @@ ru_status ru_circuit_apply_model(ru_circuit *c, const char *part, const char *mo
         return ru_error_set(err, RU_EINPUT, file, 0, 0, "no part %s to give model %s",
                             part ? part : "(none)", model ? model : "(none)");
     ru_part np = *ru_circuit_part(c, (size_t)k);
-    if (np.type != RU_PART_AMPLIFIER && np.type != RU_PART_DIODE &&
-        np.type != RU_PART_THERMAL)
+    const ru_part_desc *d = ru_part_desc_get(np.type);
+    if (!d || !d->presets) {
+        char list[160] = ""; /* the types that take one */
+        size_t len = 0;
+        for (int t = 0, k = 0; t < RU_PART_TYPE_COUNT && len < sizeof list; t++) {
+            const ru_part_desc *o = ru_part_desc_get((ru_part_type)t);
+            if (o && o->presets)
+                len += (size_t)snprintf(list + len, sizeof list - len, "%s%s", k++ ? ", " : "",
+                                        o->name);
+        }
         return ru_error_set(err, RU_EINPUT, file, np.line, np.col,
-                            "part %s: a %s takes no model (only amplifiers, diodes and "
-                            "thermal resistors do)",
-                            part, ru_part_type_name(np.type));
+                            "part %s: a %s takes no model (only parts of type %s do)", part,
+                            ru_part_type_name(np.type), list);
+    }
     if (!model || !ru_ld_valid_preset_name(model))
         return ru_error_set(err, RU_EINPUT, file, np.line, np.col,
                             "part %s: '%s' is not a preset name (letters, digits, -, _ "
@@ -213,9 +221,10 @@ static ru_status list_one(const char *dir, ru_model_info *info, ru_error *err)
     snprintf(who, sizeof who, "preset %s", info->name);
     ru_part part;
     ru_part_init(&part, RU_PART_AMPLIFIER, info->name);
-    int kind;
+    ru_part_type type;
+    const char *kind;
     if (s == RU_OK)
-        s = ru_ld_preset_values(&pd, who, &part, &kind, info, err);
+        s = ru_ld_preset_values(&pd, who, &part, &type, &kind, info, err);
     ru_ld_close(&pd);
     free(text);
     return s;

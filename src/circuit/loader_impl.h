@@ -1,6 +1,7 @@
 /* loader_impl.h: private helpers shared by the circuit-file loader's sources
- * (loader.c: YAML handling and the top level; loader_run.c: run and measure;
- * loader_parts.c: parts, waveforms, amplifiers and preset files).
+ * (loader.c: the top level; loader_run.c: run and measure; loader_parts.c: the
+ * parts; loader_preset.c: preset files; loader_keys.c: keys and lists as the
+ * part descriptors list them; yamldoc.c: the parsed document and its readers).
  *
  * Invariants: an ld_doc holds one parsed YAML file whose anchors, aliases and
  * tags have been refused before anything reads a value; every error goes through
@@ -13,6 +14,7 @@
 #include "ringup/status.h"
 
 #include "circuit/yamltree.h"
+#include "parts/desc.h"
 
 /* One parsed YAML file. */
 typedef struct ld_doc {
@@ -85,11 +87,13 @@ ru_status ru_ld_need_mapping(const ld_doc *d, const ru_ypair *p, const char *who
 ru_status ru_ld_run(ld_doc *d, ru_circuit *c, const ru_ypair *p, ru_error *err);
 ru_status ru_ld_measure(ld_doc *d, ru_circuit *c, const ru_ypair *p, ru_error *err);
 
-/* Reads a preset document's values into part (the sub-struct of the preset's
- * kind, defaults first); *kind gets the preset kind (an ru_law, or the diode and
- * thermal-resistor kinds after them); info (may be NULL) gets the listing. */
-ru_status ru_ld_preset_values(ld_doc *pd, const char *who, ru_part *part, int *kind,
-                              ru_model_info *info, ru_error *err);
+/* Reads a preset document's values into part (the record of the preset's kind,
+ * its defaults first; part keeps its own type); *type gets the type the preset
+ * fits, *kind the spelling of its kind (static text: a law, "diode", ...); info
+ * (may be NULL) gets the listing (loader_preset.c). */
+ru_status ru_ld_preset_values(ld_doc *pd, const char *who, ru_part *part,
+                              ru_part_type *type, const char **kind, ru_model_info *info,
+                              ru_error *err);
 
 /* Loads models_dir/NAME.yaml into part (which must be of the type the preset is
  * for): the part's values of that type are replaced by defaults < preset, and the
@@ -101,6 +105,35 @@ ru_status ru_ld_preset_into(const char *models_dir, const char *name, ru_part *p
 /* Whether name is a valid preset name (letters, digits, -, _ and ., not
  * starting with '.'). */
 int ru_ld_valid_preset_name(const char *name);
+
+/* ---- keys as the part descriptors list them (loader_keys.c) ---- */
+
+#define RU_LD_KEYS_MAX 24 /* most keys allowed on one part or preset */
+
+/* Appends key (ignored when NULL), or every key and list key of v, to the
+ * NULL-terminated list (at most RU_LD_KEYS_MAX - 1 entries). */
+void ru_ld_add_key(const char **list, const char *key);
+void ru_ld_add_keys(const char **list, const ru_variant *v);
+
+/* Every key of map must be in allowed; a key some other type, variant or law has
+ * "does not apply to `what`", anything else is an unknown key. */
+ru_status ru_ld_check_keys(const ld_doc *d, const ru_ynode *map, const char *who,
+                           const char *const *allowed, const char *what, ru_error *err);
+
+/* The numeric keys recs present in map into part ("sig" units are sig); a missing
+ * required key is an error at place. */
+ru_status ru_ld_read_keys(const ld_doc *d, const ru_ynode *map, const ru_ynode *place,
+                          const char *who, const ru_keyrec *recs, const char *sig,
+                          ru_part *part, ru_error *err);
+
+/* The list keys (NULL: none) present in map into part; a list is required while
+ * part holds fewer entries than its minimum. */
+ru_status ru_ld_read_lists(const ld_doc *d, const ru_ynode *map, const ru_ynode *place,
+                           const char *who, const ru_listrec *lists, ru_part *part,
+                           ru_error *err);
+
+/* "dc, step, sine, pulse": the names of d's variants, for messages. */
+void ru_ld_variant_names(const ru_part_desc *d, char *buf, size_t size);
 
 /* Reads the `parts:` mapping into ctx->c. */
 ru_status ru_ld_parts(ld_ctx *ctx, const ru_ypair *parts);

@@ -45,7 +45,8 @@ typedef struct ru_listrec {
     size_t count_offset; /* byte offset of the int count */
     int increasing;      /* 1: column 0 must increase strictly */
     const char *what;    /* "numbers (c0 first)", "pairs [vin, vout]" */
-    const char *item;    /* one entry, for messages: "a number", "a voltage" */
+    const char *item;    /* one number, for messages: "a number", "a voltage" */
+    const char *entry;   /* one entry of width 2, for messages: "a pair [vin, vout]" */
     const char *col0;    /* column 0's name in messages ("vin") */
 } ru_listrec;
 
@@ -115,6 +116,12 @@ typedef struct ru_part_desc {
                                    with the defaults; 0, 0: none) */
     const char *sig_unit;    /* what unit "sig" stands for (sources), else NULL */
     int presets;             /* 1: takes `model: NAME` (models/NAME.yaml) */
+    size_t model;            /* presets: offset of the char[RU_NAME_MAX] that names
+                                the preset in ru_part */
+    int preset_by_variant;   /* presets: a preset's `law:` names the variant (an
+                                amplifier law); 0: it names the type, and the
+                                selector key, if any, may follow in the preset */
+    int selector_or_model;   /* 1: exactly one of the selector and model is given */
     /* checks beyond the generic ones (terminals in range, value/series/tol
        finite, tol in [0, 1)); NULL: none */
     ru_status (*check)(const ru_part *p, const ru_part_env *env, ru_error *err);

@@ -110,6 +110,7 @@ const ru_part_desc ru_part_diode = {
     .record = offsetof(ru_part, diode),
     .record_size = sizeof(ru_diode),
     .presets = 1,
+    .model = offsetof(ru_part, diode.model),
     .check = check,
     .dc_links = ru_part_links_two,
     .stamp = stamp,

@@ -170,6 +170,7 @@ const ru_part_desc ru_part_thermal = {
     .record = offsetof(ru_part, thermal),
     .record_size = sizeof(ru_thermal),
     .presets = 1,
+    .model = offsetof(ru_part, thermal.model),
     .check = check,
     .dc_links = ru_part_links_two,
     .state_group = RU_STATES_INTERNAL,
