@@ -47,6 +47,46 @@ typedef struct ru_df_result {
     char note[256];            /* why not found, or a caveat; "" otherwise */
 } ru_df_result;
 
+/* The balance as a handle: solved amplitudes are kept, so sigma(A) can be asked at
+ * any amplitude (each query continues from the nearest solution). Not shared
+ * between threads (one handle per thread; the system may be shared). */
+typedef struct ru_df ru_df;
+
+/* Constructor: the balance at the small-signal limit (1e-6 of the circuit's
+ * voltage scale) for the probe (node indices, neg 0 for ground) at the operating
+ * point x_op. RU_ERANGE when there is no complex pole pair (nothing oscillates),
+ * RU_EINPUT when the probe is not a free node or does not see the mode,
+ * RU_ENOCONVERGE, RU_ENOMEM. */
+ru_status ru_df_create(const ru_system *s, const double *x_op, int probe_pos,
+                       int probe_neg, ru_df **out, ru_error *err);
+
+/* Destructor; NULL is harmless. */
+void ru_df_destroy(ru_df *d);
+
+/* sigma(A), w(A) and the DC shift at probe amplitude amp_v (> 0). RU_ENOCONVERGE
+ * when the continuation cannot reach it. */
+ru_status ru_df_at(ru_df *d, double amp_v, ru_df_point *p, ru_error *err);
+
+/* The sweep and zero of ru_df_analyse on a handle; after a zero is found the
+ * settled balance can be read with ru_df_zero_state. */
+ru_status ru_df_find(ru_df *d, double amp_max_v, ru_df_point *curve, size_t max_pts,
+                     size_t *npts, ru_df_result *res, ru_error *err);
+
+/* The one-harmonic state where sigma = 0 (after ru_df_find found it):
+ * x(theta) = x0 + x_re cos(theta) - x_im sin(theta), n entries each, and w.
+ * RU_EINPUT when no zero was found. */
+ru_status ru_df_zero_state(const ru_df *d, double *x0, double *x_re, double *x_im,
+                           double *w_rad_per_s);
+
+/* Start-up time from the envelope equation dA/dt = sigma(A) A (the describing
+ * function's growth rate at each amplitude, method of averaging):
+ *   t = integral from a_from to a_to of dA / (A sigma(A)),
+ * by adaptive Simpson in ln A (relative tolerance 1e-7); below the first balance
+ * sigma is the linear limit's. RU_ERANGE when sigma is not positive over the whole
+ * range (the envelope never gets there) or the levels are not 0 < a_from < a_to. */
+ru_status ru_df_startup_time(ru_df *d, double a_from_v, double a_to_v, double *t_s,
+                             ru_error *err);
+
 /* Sweeps the probe amplitude from a small value (the linear limit) up to amp_max_v
  * (0: 100x the largest supply or 100 V), on a geometric grid of at most max_pts
  * points (curve may be NULL), stops past the zero of sigma, and refines the zero.

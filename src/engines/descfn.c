@@ -1,19 +1,17 @@
-/* descfn.c: describing-function amplitude prediction by one-harmonic balance (see
- * ringup/descfn.h for the equations).
+/* descfn.c: the one-harmonic balance of the describing-function method (see
+ * ringup/descfn.h for the equations): residual, analytic Jacobian and damped Newton
+ * (descfn_impl.h), and the scalar describing functions of a law.
  *
- * Unknowns u = [x0 (n), Xr (n), Xi (n), sigma, w]: 3n + 2 reals. Equations:
- * DC balance (n), fundamental balance real and imaginary (2n), probe phasor = A
- * (real, 2). The cycle is sampled at RU_DF_SAMPLES angles (harmonics up to 31 are
- * resolved without aliasing into the DC and the fundamental); the Jacobian is
- * analytic, built from dr/dx at every angle. Newton is damped on a row-equilibrated
- * residual norm. The amplitude is continued geometrically from the linear limit
- * (the dominant eigenvector) until sigma changes sign, then the zero is refined by
- * the secant method. */
-#include "ringup/descfn.h"
+ * Equations: DC balance (n), fundamental balance real and imaginary (2n), probe
+ * phasor = A (real, 2). The cycle is sampled at RU_DF_SAMPLES angles (harmonics up
+ * to 31 are resolved without aliasing into the DC and the fundamental); the
+ * Jacobian is analytic, built from dr/dx at every angle. Newton is damped on a
+ * row-equilibrated residual norm. The continuation in amplitude lives in
+ * descfn_curve.c. */
+#include "engines/descfn_impl.h"
 
 #include "parts/laws.h"
 #include "engines/modes.h"
-#include "engines/smallsig_impl.h"
 
 #include <lapacke.h>
 #include <math.h>
@@ -21,24 +19,8 @@
 #include <stdlib.h>
 #include <string.h>
 
-#define RU_DF_SAMPLES 64      /* angles per cycle */
-#define RU_DF_NEWTON_MAX 40   /* Newton iterations per amplitude */
-#define RU_DF_POINTS_MAX 400  /* continuation steps before giving up */
 
-typedef struct hb {
-    const ru_system *s;
-    size_t n, m;          /* states, unknowns (3n + 2) */
-    int kp, kn;           /* probe states (-1: ground or driven) */
-    double amp_v;         /* the probe amplitude being balanced */
-    double *M;            /* mass matrix n*n */
-    double *x, *r, *D;    /* scratch: state, residual, dr/dx at one angle */
-    double *S[6];         /* sums of D weighted by 1, c, s, cc, cs, ss */
-    double *F, *Jac;      /* balance residual m, its Jacobian m*m */
-    double *rowscale;     /* 1 / largest |Jac| entry of each row */
-    lapack_int *piv;
-} hb;
-
-static void hb_free(hb *h)
+void ru_df_hb_free(ru_df_hb *h)
 {
     free(h->M);
     free(h->x);
@@ -50,9 +32,11 @@ static void hb_free(hb *h)
     free(h->Jac);
     free(h->rowscale);
     free(h->piv);
+    free(h->du);
+    free(h->ut);
 }
 
-static ru_status hb_init(hb *h, const ru_system *s, int kp, int kn)
+ru_status ru_df_hb_init(ru_df_hb *h, const ru_system *s, int kp, int kn)
 {
     memset(h, 0, sizeof *h);
     h->s = s;
@@ -71,7 +55,10 @@ static ru_status hb_init(hb *h, const ru_system *s, int kp, int kn)
     h->Jac = malloc(m * m * sizeof *h->Jac);
     h->rowscale = malloc(m * sizeof *h->rowscale);
     h->piv = malloc(m * sizeof *h->piv);
-    int ok = h->M && h->x && h->r && h->D && h->F && h->Jac && h->rowscale && h->piv;
+    h->du = malloc(m * sizeof *h->du);
+    h->ut = malloc(m * sizeof *h->ut);
+    int ok = h->M && h->x && h->r && h->D && h->F && h->Jac && h->rowscale && h->piv &&
+             h->du && h->ut;
     for (int k = 0; k < 6; k++)
         ok = ok && h->S[k];
     if (!ok)
@@ -80,13 +67,13 @@ static ru_status hb_init(hb *h, const ru_system *s, int kp, int kn)
     return RU_OK;
 }
 
-static double probe_of(const hb *h, const double *v)
+double ru_df_hb_probe(const ru_df_hb *h, const double *v)
 {
     return (h->kp >= 0 ? v[h->kp] : 0.0) - (h->kn >= 0 ? v[h->kn] : 0.0);
 }
 
 /* F(u) and, when jac is set, its Jacobian into h->Jac. */
-static ru_status hb_eval(hb *h, const double *u, int jac)
+static ru_status hb_eval(ru_df_hb *h, const double *u, int jac)
 {
     size_t n = h->n, m = h->m, N = RU_DF_SAMPLES;
     const double *x0 = u, *xr = u + n, *xi = u + 2 * n;
@@ -128,8 +115,8 @@ static ru_status hb_eval(hb *h, const double *u, int jac)
         E1r[i] -= sigma * mr - w * mi;
         E1i[i] -= sigma * mi + w * mr;
     }
-    h->F[3 * n] = probe_of(h, xr) - h->amp_v;
-    h->F[3 * n + 1] = probe_of(h, xi);
+    h->F[3 * n] = ru_df_hb_probe(h, xr) - h->amp_v;
+    h->F[3 * n + 1] = ru_df_hb_probe(h, xi);
     if (!jac)
         return RU_OK;
     double *J = h->Jac;
@@ -170,7 +157,7 @@ static ru_status hb_eval(hb *h, const double *u, int jac)
 }
 
 /* Row scales from the Jacobian, fixed for one Newton solve (equilibration). */
-static void set_rowscale(hb *h)
+static void set_rowscale(ru_df_hb *h)
 {
     for (size_t i = 0; i < h->m; i++) {
         double mx = 0;
@@ -180,7 +167,7 @@ static void set_rowscale(hb *h)
     }
 }
 
-static double merit(const hb *h)
+static double merit(const ru_df_hb *h)
 {
     double s = 0;
     for (size_t i = 0; i < h->m; i++) {
@@ -191,13 +178,13 @@ static double merit(const hb *h)
 }
 
 /* Damped Newton for amplitude h->amp_v from the guess u (overwritten). */
-static ru_status hb_solve(hb *h, double *u, double vscale)
+ru_status ru_df_hb_solve(ru_df_hb *h, double *u, double vscale)
 {
     size_t m = h->m, n = h->n;
-    double *du = malloc(m * sizeof *du), *ut = malloc(m * sizeof *ut);
-    ru_status st = (du && ut) ? RU_ENOCONVERGE : RU_ENOMEM;
-    if (st == RU_ENOMEM || hb_eval(h, u, 1) != RU_OK)
-        goto done;
+    double *du = h->du, *ut = h->ut;
+    ru_status st = RU_ENOCONVERGE;
+    if (hb_eval(h, u, 1) != RU_OK)
+        return st;
     set_rowscale(h);
     double f0 = merit(h);
     for (int it = 0; it < RU_DF_NEWTON_MAX; it++) {
@@ -230,20 +217,18 @@ static ru_status hb_solve(hb *h, double *u, double vscale)
         }
     }
 done:
-    free(du);
-    free(ut);
     return st;
 }
 
 /* Linear-limit guess: x0 = x_op, X = A v / v_probe, (sigma, w) = the eigenvalue. */
-static ru_status initial_guess(hb *h, const double *x_op, ru_pole dom, double *u)
+ru_status ru_df_hb_guess(ru_df_hb *h, const double *x_op, ru_pole dom, double *u)
 {
     size_t n = h->n;
     double *v = malloc(2 * n * sizeof *v);
     ru_pole lam;
     ru_status st = v ? ru_mode_near(h->s, x_op, dom, &lam, v, v + n, NULL, NULL) : RU_ENOMEM;
     if (st == RU_OK) {
-        double pr = probe_of(h, v), pi = probe_of(h, v + n), d = pr * pr + pi * pi;
+        double pr = ru_df_hb_probe(h, v), pi = ru_df_hb_probe(h, v + n), d = pr * pr + pi * pi;
         if (!(d > 0)) {
             st = RU_EINPUT;
         } else {
@@ -261,199 +246,12 @@ static ru_status initial_guess(hb *h, const double *x_op, ru_pole dom, double *u
 }
 
 /* Scales the oscillating part of u by a new amplitude (continuation predictor). */
-static void rescale(hb *h, double *u, double amp_new)
+void ru_df_hb_rescale(ru_df_hb *h, double *u, double amp_new)
 {
     double f = amp_new / h->amp_v;
     for (size_t i = h->n; i < 3 * h->n; i++)
         u[i] *= f;
     h->amp_v = amp_new;
-}
-
-static ru_df_point point_of(const hb *h, const double *u, double dc0)
-{
-    ru_df_point p = {h->amp_v, u[3 * h->n], u[3 * h->n + 1] / (2 * M_PI),
-                     probe_of(h, u) - dc0};
-    return p;
-}
-
-typedef struct df_run {
-    hb h;
-    double *u, *u_prev;
-    double vscale, dc0;
-} df_run;
-
-/* Refines sigma(A) = 0 inside the bracket [a_pos (sigma > 0), a_neg (sigma < 0)]
- * by regula falsi with the Illinois modification (superlinear, never leaves the
- * bracket), starting from the solution at a_neg held in r->u. */
-static void refine_zero(df_run *r, double a_pos, double s_pos, double a_neg, double s_neg,
-                        ru_df_result *res)
-{
-    int side = 0; /* which end moved last: halve the other's value (Illinois) */
-    for (int it = 0; it < 60 && fabs(a_neg - a_pos) > 1e-12 * a_neg; it++) {
-        double a = (a_pos * s_neg - a_neg * s_pos) / (s_neg - s_pos);
-        memcpy(r->u_prev, r->u, r->h.m * sizeof *r->u);
-        double a_from = r->h.amp_v;
-        rescale(&r->h, r->u, a);
-        if (hb_solve(&r->h, r->u, r->vscale) != RU_OK) {
-            memcpy(r->u, r->u_prev, r->h.m * sizeof *r->u);
-            r->h.amp_v = a_from;
-            break;
-        }
-        double sg = r->u[3 * r->h.n];
-        if (sg > 0) {
-            a_pos = a;
-            s_pos = sg;
-            if (side == 1)
-                s_neg *= 0.5;
-            side = 1;
-        } else {
-            a_neg = a;
-            s_neg = sg;
-            if (side == -1)
-                s_pos *= 0.5;
-            side = -1;
-        }
-        if (fabs(sg) < 1e-12 * fabs(r->u[3 * r->h.n + 1]))
-            break;
-    }
-    res->found = 1;
-    res->settled_amplitude_v = r->h.amp_v;
-    res->frequency_hz = r->u[3 * r->h.n + 1] / (2 * M_PI);
-    res->dc_level_v = probe_of(&r->h, r->u);
-}
-
-static double voltage_scale(const ru_system *s)
-{
-    size_t n = ru_system_size(s);
-    double *sc = malloc(n * sizeof *sc), v = 1.0;
-    if (!sc)
-        return v;
-    ru_system_state_scale(s, sc);
-    for (size_t i = 0; i < ru_system_free_nodes(s); i++)
-        v = fmax(v, sc[i]);
-    free(sc);
-    return v;
-}
-
-/* ru_df_analyse; with u_out (3n entries) the balance at the settled amplitude
- * (x0, Xr, Xi of every state) when one is found. */
-static ru_status df_analyse(const ru_system *s, const double *x_op, int probe_pos,
-                            int probe_neg, double amp_max_v, ru_df_point *curve,
-                            size_t max_pts, size_t *npts, ru_df_result *res,
-                            double *u_out, ru_error *err)
-{
-    memset(res, 0, sizeof *res);
-    res->settled_amplitude_v = res->frequency_hz = res->dc_level_v = NAN;
-    *npts = 0;
-    df_run r;
-    memset(&r, 0, sizeof r);
-    int kp = ru_system_node_state(s, probe_pos), kn = ru_system_node_state(s, probe_neg);
-    if (kp < 0 && kn < 0)
-        return ru_error_set(err, RU_EINPUT, NULL, 0, 0,
-                            "the probe is not a free node: no amplitude to balance");
-    ru_status st = hb_init(&r.h, s, kp, kn);
-    r.u = malloc(r.h.m * sizeof *r.u);
-    r.u_prev = malloc(r.h.m * sizeof *r.u_prev);
-    ru_pole *poles = malloc(r.h.n * sizeof *poles);
-    if (st != RU_OK || !r.u || !r.u_prev || !poles) {
-        st = ru_error_set(err, RU_ENOMEM, NULL, 0, 0, "out of memory");
-        goto done;
-    }
-    r.vscale = voltage_scale(s);
-    if (!(amp_max_v > 0))
-        amp_max_v = 100.0 * r.vscale;
-    if ((st = ru_poles_compute(s, x_op, poles, err)) != RU_OK)
-        goto done;
-    int d = ru_poles_dominant(poles, r.h.n);
-    if (d < 0) {
-        snprintf(res->note, sizeof res->note, "no complex pole pair: nothing oscillates");
-        goto done;
-    }
-    r.h.amp_v = 1e-6 * r.vscale;
-    if ((st = initial_guess(&r.h, x_op, poles[d], r.u)) != RU_OK ||
-        (st = hb_solve(&r.h, r.u, r.vscale)) != RU_OK) {
-        st = ru_error_set(err, st == RU_EINPUT ? RU_EINPUT : RU_ENOCONVERGE, NULL, 0, 0,
-                          "describing function: no balance even at the small-signal "
-                          "limit (the probe may not see the dominant mode)");
-        goto done;
-    }
-    r.dc0 = probe_of(&r.h, r.u);
-    double factor = pow(amp_max_v / r.h.amp_v, 1.0 / 120.0);
-    double a_prev = r.h.amp_v, s_prev = r.u[3 * r.h.n];
-    for (int step = 0; step < RU_DF_POINTS_MAX; step++) {
-        if (curve && *npts < max_pts)
-            curve[(*npts)++] = point_of(&r.h, r.u, r.dc0);
-        if (s_prev < 0 && step == 0)
-            snprintf(res->note, sizeof res->note,
-                     "the poles are left of the jw axis: it does not start from a small "
-                     "kick");
-        double a_next = a_prev * factor;
-        if (a_next > amp_max_v)
-            break;
-        memcpy(r.u_prev, r.u, r.h.m * sizeof *r.u);
-        rescale(&r.h, r.u, a_next);
-        if (hb_solve(&r.h, r.u, r.vscale) != RU_OK) {
-            memcpy(r.u, r.u_prev, r.h.m * sizeof *r.u);
-            r.h.amp_v = a_prev;
-            factor = sqrt(factor);
-            if (factor < 1.0005) {
-                snprintf(res->note, sizeof res->note,
-                         "the one-harmonic balance has no solution above %.3g V (hard "
-                         "limiting or strong harmonics): the amplitude is not predicted",
-                         a_prev);
-                break;
-            }
-            continue;
-        }
-        double s_now = r.u[3 * r.h.n];
-        if (s_prev > 0 && s_now <= 0) {
-            if (curve && *npts < max_pts)
-                curve[(*npts)++] = point_of(&r.h, r.u, r.dc0);
-            refine_zero(&r, a_prev, s_prev, a_next, s_now, res);
-            goto done;
-        }
-        a_prev = a_next;
-        s_prev = s_now;
-    }
-    if (!res->note[0])
-        snprintf(res->note, sizeof res->note,
-                 "the growth rate stays positive up to %.3g V: no amplitude limit found",
-                 a_prev);
-    st = RU_OK;
-done:
-    if (st == RU_OK && res->found && u_out)
-        memcpy(u_out, r.u, 3 * r.h.n * sizeof *u_out);
-    free(poles);
-    free(r.u);
-    free(r.u_prev);
-    hb_free(&r.h);
-    return st;
-}
-
-ru_status ru_df_analyse(const ru_system *s, const double *x_op, int probe_pos,
-                        int probe_neg, double amp_max_v, ru_df_point *curve,
-                        size_t max_pts, size_t *npts, ru_df_result *res, ru_error *err)
-{
-    return df_analyse(s, x_op, probe_pos, probe_neg, amp_max_v, curve, max_pts, npts,
-                      res, NULL, err);
-}
-
-ru_status ru_df_settled_state(const ru_system *s, const double *x_op, int probe_pos,
-                              int probe_neg, double *x_dc, double *x_re, double *x_im,
-                              ru_df_result *res, ru_error *err)
-{
-    size_t n = ru_system_size(s), npts = 0;
-    double *u = malloc((3 * n + 2) * sizeof *u);
-    if (!u)
-        return ru_error_set(err, RU_ENOMEM, NULL, 0, 0, "out of memory");
-    ru_status st = df_analyse(s, x_op, probe_pos, probe_neg, 0, NULL, 0, &npts, res, u, err);
-    if (st == RU_OK && res->found) {
-        memcpy(x_dc, u, n * sizeof *u);
-        memcpy(x_re, u + n, n * sizeof *u);
-        memcpy(x_im, u + 2 * n, n * sizeof *u);
-    }
-    free(u);
-    return st;
 }
 
 double ru_df_gain(ru_df_law_fn f, void *user, double x0, double a, int samples)
