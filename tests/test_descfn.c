@@ -133,6 +133,53 @@ static void test_vdp_curve(void **state)
     ru_circuit_destroy(c);
 }
 
+/* The handle on the same tank: sigma at amplitudes off the sweep's grid, and the
+ * start-up time. Reference: with sigma(A) = s0 (1 - A^2/A*^2) the envelope
+ * equation dA/dt = sigma(A) A integrates to the averaged van der Pol envelope,
+ * t(a0 -> a1) = ln[(a1^2/a0^2) (A*^2 - a0^2) / (A*^2 - a1^2)] / (2 s0)
+ * (method of averaging, e.g. Strogatz, Nonlinear Dynamics and Chaos, sec. 7.6,
+ * from memory). The adaptive Simpson rule runs to 1e-7 relative; 1e-6. */
+static void test_vdp_startup_integral(void **state)
+{
+    (void)state;
+    ru_circuit *c = load("stray: 1p\n"
+                         "parts:\n"
+                         "  L1: {type: inductor, nodes: [t, gnd], value: 2.2mH}\n"
+                         "  C1: {type: capacitor, nodes: [t, gnd], value: 47n}\n"
+                         "  G1: {type: poly-conductance, nodes: [t, gnd], "
+                         "coeffs: [0, -0.8m, 0, 0.05m]}\n");
+    ru_system *s = NULL;
+    ru_error err;
+    assert_int_equal(ru_system_create(c, &s, &err), RU_OK);
+    double x[2] = {0, 0};
+    ru_df *d = NULL;
+    assert_int_equal(ru_df_create(s, x, ru_circuit_find_node(c, "t"), 0, &d, &err), RU_OK);
+    const double a = 0.8e-3, b = 0.05e-3, cap = 47e-9 + 1e-12, s0 = a / (2 * cap);
+    const double amax = 2 * sqrt(a / (3 * b));
+    const double amps[] = {3.3e-4, 0.71, 2.9, 4.05};
+    for (int i = 0; i < 4; i++) {
+        ru_df_point p;
+        assert_int_equal(ru_df_at(d, amps[i], &p, &err), RU_OK);
+        RU_ASSERT_NEAR(p.growth_rate_per_s, s0 * (1 - amps[i] * amps[i] / (amax * amax)),
+                       1e-9 * s0);
+    }
+    const double from[] = {1e-9, 1e-4, 0.5}, to[] = {0.9, 0.5, 0.99};
+    for (int i = 0; i < 3; i++) {
+        double t, a0 = from[i] * amax, a1 = to[i] * amax;
+        assert_int_equal(ru_df_startup_time(d, a0, a1, &t, &err), RU_OK);
+        double want = log(a1 * a1 / (a0 * a0) * (amax * amax - a0 * a0) /
+                          (amax * amax - a1 * a1)) / (2 * s0);
+        RU_ASSERT_REL(t, want, 1e-6);
+    }
+    /* above the settled amplitude sigma < 0: the envelope never gets there */
+    double t;
+    assert_int_equal(ru_df_startup_time(d, 0.1, 1.2 * amax, &t, &err), RU_ERANGE);
+    assert_true(isnan(t));
+    ru_df_destroy(d);
+    ru_system_destroy(s);
+    ru_circuit_destroy(c);
+}
+
 /* A lossy tank has no amplitude to settle at: not found, with a note. */
 static void test_no_start(void **state)
 {
@@ -162,6 +209,7 @@ int main(void)
         cmocka_unit_test(test_saturation_df),
         cmocka_unit_test(test_follower_small_signal),
         cmocka_unit_test(test_vdp_curve),
+        cmocka_unit_test(test_vdp_startup_integral),
         cmocka_unit_test(test_no_start),
     };
     return cmocka_run_group_tests_name("descfn", tests, NULL, NULL);

@@ -80,12 +80,19 @@ typedef struct ru_prediction {
     ru_pole dominant;             /* dominant pair (im > 0 member) */
     double growth_rate_per_s;     /* = dominant.re_per_s */
     double frequency_hz;          /* = dominant.im_rad_per_s / (2 pi) */
-    double kick_amplitude_v;      /* dominant-mode amplitude on the probe at t = 0 */
+    double kick_amplitude_v;      /* start level: the dominant mode's amplitude on the
+                                     probe that its growth extrapolates back to at t = 0
+                                     (noise: the log-mean over noise realisations) */
     double noise_amplitude_v;     /* the dominant mode's thermal level (kT) on the probe */
     double slowest_decay_per_s;   /* smallest |real part| of the decaying poles other
                                      than the dominant pair (a bias or thermal time
                                      constant's inverse), NAN when none */
-    double startup_time_s;        /* from growth rate, kick size and settled level */
+    int start_kind;               /* what sets it: 0 preset, 1 power-on, 2 noise */
+    int start_driven;             /* 1: a periodic source drives: no start level */
+    double start_rms_v;           /* noise: rms of the accumulated noise (else NAN) */
+    double start_log_sd;          /* noise: s.d. of ln(start level) between runs */
+    double startup_time_s;        /* integral of dA / (A sigma(A)) up to the start-up
+                                     level (describing function) */
     double settled_amplitude_v;   /* from the describing function (ringup/descfn.h) */
     double df_frequency_hz;       /* tone frequency where the describing function settles */
     int have_loop;                /* loop gain evaluated */

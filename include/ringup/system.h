@@ -78,8 +78,10 @@ ru_status ru_system_jacobian(const ru_system *s, double t, const double *x, doub
 
 /* How sources are evaluated for the DC and small-signal engines. */
 typedef struct ru_eval_point {
-    double t_s;          /* time; ignored when dc is set */
-    int dc;              /* 1: every source at its final (DC) value, derivatives 0 */
+    double t_s;          /* time; ignored when dc is 1 */
+    int dc;              /* 1: every source at its final (DC) value, derivatives 0;
+                            2: every source at its value at t_s, derivatives 0 (the
+                            DC circuit of that moment) */
     double source_scale; /* multiplies every source value (1 normally; source stepping) */
 } ru_eval_point;
 

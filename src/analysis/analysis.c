@@ -252,7 +252,6 @@ static ru_status run_transient(const ru_circuit *c, const ru_system *sys,
     }
     if (st == RU_OK || st == RU_ENUMERIC) {
         ru_measure_finish(k.meas, &rep->meas);
-        ru_predict_startup(rep);
         jc.x_end = k.have_last ? k.x_last : NULL;
         ru_judge_final(&jc, rep);
         if (rq->keep && keep_envelope(rq->keep, k.meas) != RU_OK)
@@ -356,7 +355,6 @@ ru_status ru_analysis_run(const ru_circuit *c, const ru_run_request *rq,
     }
     if ((st = ru_predict(c, sys, loop, pos, neg, rep, rq->keep, x_op, err)) != RU_OK)
         goto done;
-    ru_predict_startup(rep);
     ru_stop_plan(c, sys, rq, rep);
     rep->sample_s = choose_sample(rq, ro, &rep->pred, rep->stop.first_s);
     if ((st = check_size(c, rep, err)) != RU_OK)

@@ -45,11 +45,7 @@ ru_status ru_predict(const ru_circuit *c, const ru_system *s, const char *loop_p
                      int probe_pos, int probe_neg, ru_run_report *rep, ru_run_data *keep,
                      double *x_op, ru_error *err);
 
-/* The predicted start-up time into rep->pred (from the growth rate, the kick and
- * the describing function's amplitude, else the measured one); quiet (no notes). */
-void ru_predict_startup(ru_run_report *rep);
-
-/* After the transient: start-up prediction and the comparison notes. */
+/* After the transient: the comparison of measured against predicted figures. */
 void ru_selfcheck(ru_run_report *rep);
 
 /* The state when the run passes t_s (the start of the settled window), kept by the

@@ -1,57 +1,21 @@
 /* predict.c: the small-signal side of a run and the self-checks.
  *
- * Before the transient: operating point, poles, the dominant pair, the size of the
- * kick as seen by the dominant mode on the probe (modal projection with left and
- * right eigenvectors), and the loop gain. After it: the predicted start-up time and
- * the comparison of measured against predicted figures. */
+ * Before the transient: operating point, poles, the dominant pair, the level the
+ * dominant mode starts from (engines/startlevel.h: the kick's projection, the
+ * supplies' ramp, the accumulated noise), the describing function's settled
+ * amplitude and the start-up time from its growth-rate curve, and the loop gain.
+ * After it: the comparison of measured against predicted figures. */
 #include "analysis/analysis_impl.h"
 
 #include "ringup/descfn.h"
 #include "ringup/smallsig.h"
 #include "engines/modes.h"
+#include "engines/startlevel.h"
 
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
-
-/* Amplitude on the probe of the dominant mode excited by dx: 2 |c| |v_probe| with
- * c = u^H dx / (u^H v) for the right (v) and left (u) eigenvectors of lambda. */
-static double modal_amplitude(const ru_system *s, const double *x_op, const double *dx,
-                              ru_pole dom, int kpos, int kneg)
-{
-    size_t n = ru_system_size(s);
-    double amp = NAN;
-    double *v = malloc(4 * n * sizeof *v);
-    ru_pole lam;
-    if (!v || ru_mode_near(s, x_op, dom, &lam, v, v + n, v + 2 * n, v + 3 * n) != RU_OK)
-        goto done;
-    const double *vre = v, *vim = v + n, *ure = v + 2 * n, *uim = v + 3 * n;
-    double uh_dx_re = 0, uh_dx_im = 0, uh_v_re = 0, uh_v_im = 0;
-    for (size_t i = 0; i < n; i++) {
-        uh_dx_re += ure[i] * dx[i];
-        uh_dx_im += -uim[i] * dx[i];
-        uh_v_re += ure[i] * vre[i] + uim[i] * vim[i]; /* conj(u) * v */
-        uh_v_im += ure[i] * vim[i] - uim[i] * vre[i];
-    }
-    double den = uh_v_re * uh_v_re + uh_v_im * uh_v_im;
-    if (!(den > 0))
-        goto done;
-    double c_abs = hypot(uh_dx_re, uh_dx_im) / sqrt(den);
-    double pr = 0, pi = 0;
-    if (kpos >= 0) {
-        pr += vre[kpos];
-        pi += vim[kpos];
-    }
-    if (kneg >= 0) {
-        pr -= vre[kneg];
-        pi -= vim[kneg];
-    }
-    amp = 2.0 * c_abs * hypot(pr, pi);
-done:
-    free(v);
-    return amp;
-}
 
 /* Phasor of node k in the mode (0 for ground and driven nodes). */
 static void node_phasor(const ru_system *s, const double *vre, const double *vim, int node,
@@ -116,10 +80,9 @@ static void predict_poles(const ru_system *s, const double *x_op, int pos, int n
     size_t n = ru_system_size(s);
     ru_prediction *pr = &rep->pred;
     ru_pole *poles = malloc(n * sizeof *poles);
-    double *x0 = malloc(n * sizeof *x0);
     ru_error e;
     ru_error_clear(&e);
-    if (!poles || !x0)
+    if (!poles)
         goto done;
     if (ru_poles_compute(s, x_op, poles, &e) != RU_OK) {
         ru_report_note(rep, "poles not computed: %s", e.msg);
@@ -141,42 +104,76 @@ static void predict_poles(const ru_system *s, const double *x_op, int pos, int n
     pr->growth_rate_per_s = poles[d].re_per_s;
     pr->frequency_hz = poles[d].im_rad_per_s / (2 * M_PI);
     pr->noise_amplitude_v = noise_amplitude(s, x_op, poles[d], pos, neg);
-    if (ru_circuit_run_opts_const(ru_system_circuit(s))->kick == RU_KICK_NOISE) {
-        pr->kick_amplitude_v = pr->noise_amplitude_v;
-    } else if (ru_system_initial_state(s, x0, NULL) == RU_OK) {
-        for (size_t i = 0; i < n; i++)
-            x0[i] -= x_op[i];
-        pr->kick_amplitude_v =
-            modal_amplitude(s, x_op, x0, poles[d], ru_system_node_state(s, pos),
-                            neg > 0 ? ru_system_node_state(s, neg) : -1);
+    ru_start_level sl;
+    ru_status st = ru_start_level_compute(s, x_op, poles[d], pos, neg, 1e6,
+                                          RU_NOISE_TEMP_C, &sl, &e);
+    pr->start_kind = (int)sl.kind;
+    if (st != RU_OK) {
+        ru_report_note(rep, "no start level: %s", e.msg);
+    } else if (sl.driven) {
+        pr->start_driven = 1;
+    } else {
+        pr->kick_amplitude_v = sl.level_v;
+        pr->start_rms_v = sl.kind == RU_START_NOISE ? sl.noise_rms_v : NAN;
+        pr->start_log_sd = sl.log_sd;
     }
 done:
     free(poles);
-    free(x0);
 }
 
-/* Settled amplitude by the describing-function method (ringup/descfn.h). */
+/* Start-up time from the describing function's growth-rate curve: the envelope
+ * obeys dA/dt = sigma(A) A, so it takes t = integral dA / (A sigma(A)) from the
+ * start level to the start-up level (a share of the settled amplitude). */
+static void predict_startup(ru_df *df, double amp_v, ru_run_report *rep)
+{
+    ru_prediction *pr = &rep->pred;
+    double a0 = pr->kick_amplitude_v, top = rep->startup_level * amp_v;
+    if (pr->start_driven) {
+        ru_report_note(rep, "no start-up prediction: a periodic source keeps driving "
+                            "the circuit, so there is no start level");
+        return;
+    }
+    if (!isfinite(a0))
+        return; /* the note says why */
+    if (!(a0 < top)) {
+        ru_report_note(rep, "no start-up prediction: the kick (%.3g V in the dominant "
+                            "mode) is not below the start-up level (%.3g V), so the start "
+                            "is not a growth from a small level",
+                       a0, top);
+        return;
+    }
+    ru_error e;
+    ru_error_clear(&e);
+    if (ru_df_startup_time(df, a0, top, &pr->startup_time_s, &e) != RU_OK)
+        ru_report_note(rep, "no start-up prediction: %s", e.msg);
+}
+
+/* Settled amplitude by the describing-function method (ringup/descfn.h), then the
+ * start-up time from its sigma(A). */
 static void predict_amplitude(const ru_system *s, const double *x_op, int pos, int neg,
                               ru_run_report *rep, ru_run_data *keep)
 {
-    ru_df_result df;
+    ru_df_result res;
     size_t npts = 0;
+    ru_df *df = NULL;
     ru_error e;
     ru_error_clear(&e);
-    ru_status st = ru_df_analyse(s, x_op, pos, neg, 0, keep ? keep->df : NULL,
-                                 keep ? RU_RUN_DATA_DF_MAX : 0, &npts, &df, &e);
+    ru_status st = ru_df_create(s, x_op, pos, neg, &df, &e);
+    if (st == RU_OK)
+        st = ru_df_find(df, 0, keep ? keep->df : NULL, keep ? RU_RUN_DATA_DF_MAX : 0,
+                        &npts, &res, &e);
     if (keep)
         keep->ndf = npts;
-    if (st != RU_OK) {
+    if (st != RU_OK)
         ru_report_note(rep, "no amplitude prediction: %s", e.msg);
-        return;
+    else if (!res.found)
+        ru_report_note(rep, "no amplitude prediction: %s", res.note);
+    if (st == RU_OK && res.found) {
+        rep->pred.settled_amplitude_v = res.settled_amplitude_v;
+        rep->pred.df_frequency_hz = res.frequency_hz;
+        predict_startup(df, res.settled_amplitude_v, rep);
     }
-    if (!df.found) {
-        ru_report_note(rep, "no amplitude prediction: %s", df.note);
-        return;
-    }
-    rep->pred.settled_amplitude_v = df.settled_amplitude_v;
-    rep->pred.df_frequency_hz = df.frequency_hz;
+    ru_df_destroy(df);
 }
 
 static ru_status predict_loop(const ru_circuit *c, const ru_system *s, const char *loop,
@@ -213,7 +210,9 @@ ru_status ru_predict(const ru_circuit *c, const ru_system *s, const char *loop_p
     pr->growth_rate_per_s = pr->frequency_hz = NAN;
     pr->kick_amplitude_v = pr->startup_time_s = pr->settled_amplitude_v = NAN;
     pr->noise_amplitude_v = pr->slowest_decay_per_s = NAN;
-    pr->df_frequency_hz = NAN;
+    pr->df_frequency_hz = pr->start_rms_v = NAN;
+    pr->start_log_sd = 0;
+    pr->start_driven = 0;
     int floating;
     if (ru_circuit_find_floating_node(c, &floating)) {
         ru_report_note(rep, "no prediction: node %s has no DC path to ground, so there "
@@ -245,28 +244,6 @@ done:
     return st;
 }
 
-/* Start-up time of an envelope that grows as exp(sigma t) at first and levels off
- * like the averaged van der Pol envelope a^2 = A^2 / (1 + (A^2/a0^2 - 1) e^{-2 sigma t}):
- * t = ln((A^2/a0^2 - 1) / (1/level^2 - 1)) / (2 sigma). Exact for a cubic limiter
- * (van der Pol, method of averaging); a model for other laws. */
-static double startup_model(double sigma, double a0, double amp, double level)
-{
-    if (!(sigma > 0) || !(a0 > 0) || !(amp > a0) || !(level > 0 && level < 1))
-        return NAN;
-    double r = amp * amp / (a0 * a0) - 1.0;
-    return log(r / (1.0 / (level * level) - 1.0)) / (2.0 * sigma);
-}
-
-void ru_predict_startup(ru_run_report *rep)
-{
-    ru_prediction *pr = &rep->pred;
-    double amp = isfinite(pr->settled_amplitude_v) ? pr->settled_amplitude_v
-                                                   : rep->meas.settled_amplitude_v;
-    if (pr->have_poles && pr->kick_amplitude_v < 0.1 * amp)
-        pr->startup_time_s = startup_model(pr->growth_rate_per_s, pr->kick_amplitude_v,
-                                           amp, rep->startup_level);
-}
-
 void ru_selfcheck(ru_run_report *rep)
 {
     if (rep->partial) {
@@ -276,14 +253,6 @@ void ru_selfcheck(ru_run_report *rep)
     }
     const ru_measure_result *m = &rep->meas;
     ru_prediction *pr = &rep->pred;
-    double amp = isfinite(pr->settled_amplitude_v) ? pr->settled_amplitude_v
-                                                   : m->settled_amplitude_v;
-    ru_predict_startup(rep);
-    if (pr->have_poles && isfinite(amp) && !(pr->kick_amplitude_v < 0.1 * amp))
-        ru_report_note(rep, "no start-up prediction: the kick (%.3g V in the dominant "
-                            "mode) is not small against the settled amplitude, so the "
-                            "start is not a small-signal growth",
-                       pr->kick_amplitude_v);
     if (pr->have_poles && isfinite(m->growth_rate_per_s) && pr->growth_rate_per_s != 0) {
         rep->growth_mismatch =
             (m->growth_rate_per_s - pr->growth_rate_per_s) / fabs(pr->growth_rate_per_s);

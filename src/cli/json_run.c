@@ -39,6 +39,11 @@ void cli_json_run_body(ru_json *j, const ru_run_report *r)
     ru_json_number(j, "startup_time_s", p->startup_time_s);
     ru_json_number(j, "settled_amplitude_v", p->settled_amplitude_v);
     ru_json_number(j, "settled_frequency_hz", p->df_frequency_hz);
+    ru_json_number(j, "start_level_v", p->kick_amplitude_v);
+    ru_json_string(j, "start_level_kind", p->start_kind == 0   ? "preset"
+                                          : p->start_kind == 2 ? "noise"
+                                                               : "power-on");
+    ru_json_number(j, "start_level_rms_v", p->start_rms_v);
     ru_json_end_object(j);
     const ru_stop_info *si = &r->stop;
     ru_json_begin_object(j, "stop");

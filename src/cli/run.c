@@ -56,6 +56,31 @@ static void print_harmonics(const ru_measure_result *m)
     printf("\n");
 }
 
+/* Where the exponential growth starts from, and what sets that level. */
+static void print_start_level(const ru_prediction *p)
+{
+    char a[40], b[40];
+    if (!isfinite(p->kick_amplitude_v))
+        return;
+    ru_format_si(p->kick_amplitude_v, "V", 3, a, sizeof a);
+    if (p->start_kind == 2) {
+        printf("start level: %s on the probe (noise: the growing mode's accumulated "
+               "thermal noise, log-mean; rms %s",
+               a, ru_format_si(p->start_rms_v, "V", 3, b, sizeof b));
+        if (p->growth_rate_per_s > 0)
+            printf("; one run's start-up scatters by about %s, 1 s.d.",
+                   ru_format_si(p->start_log_sd / p->growth_rate_per_s, "s", 2, b,
+                                sizeof b));
+        printf(")\n");
+    } else {
+        printf("start level: %s on the probe (%s)\n", a,
+               p->start_kind == 0 ? "preset: its share in the dominant mode, with the "
+                                    "supplies' ramp"
+                                  : "power-on: the dominant mode's response to the "
+                                    "supplies' ramp");
+    }
+}
+
 static void print_text(const ru_circuit *c, const ru_run_report *r, int auto_sample)
 {
     const ru_measure_result *m = &r->meas;
@@ -104,9 +129,7 @@ static void print_text(const ru_circuit *c, const ru_run_report *r, int auto_sam
                ru_format_si(m->growth_fit_t1_s, "s", 3, b, sizeof b), m->growth_fit_rms);
     else
         printf("\n"); /* why the growth rate is missing is among the notes */
-    if (isfinite(p->startup_time_s))
-        printf("kick: %s on the probe in the dominant mode\n",
-               ru_format_si(p->kick_amplitude_v, "V", 3, a, sizeof a));
+    print_start_level(p);
     if (p->have_loop) {
         if (p->loop.found)
             printf("loop gain of %s: phase 0 at %s, |L| = %.4g (%+.2f dB): %s\n",

@@ -231,13 +231,13 @@ double ru_wave_constant_from(const ru_wave *w)
 void ru_wave_eval(const ru_wave *w, double t_s, int dc, double scale, double *v,
                   double *dvdt)
 {
-    if (dc) {
+    if (dc == 1) {
         *v = scale * ru_wave_final(w);
         *dvdt = 0.0;
         return;
     }
     *v = scale * ru_wave_value(w, t_s);
-    *dvdt = scale * ru_wave_slope(w, t_s);
+    *dvdt = dc ? 0.0 : scale * ru_wave_slope(w, t_s); /* 2: frozen at t */
 }
 
 /* ---- keys, checks and listing ----------------------------------------------- */

@@ -27,8 +27,9 @@ ru_status ru_wave_check(const ru_part *p, const ru_part_env *env, ru_error *err)
 /* Listing text of p's waveform in unit ("12 V", "sine 1 V at 1000 Hz"). */
 void ru_wave_describe(const ru_part *p, const char *unit, char *buf, size_t size);
 
-/* Value and slope at time t_s scaled by scale, or with dc set the final value and
- * slope 0: the source as an evaluation point sees it. */
+/* Value and slope at time t_s scaled by scale, or with dc 1 the final value and
+ * slope 0, with dc 2 the value at t_s and slope 0: the source as an evaluation
+ * point sees it. */
 void ru_wave_eval(const ru_wave *w, double t_s, int dc, double scale, double *v,
                   double *dvdt);
 

@@ -56,7 +56,7 @@ struct ru_system {
 /* Evaluated sources: t, DC flag and scale (from ru_eval_point). */
 typedef struct ru_src_eval {
     double t_s;    /* time (s) */
-    int dc;        /* 1: final values, slopes 0 */
+    int dc;        /* 1: final values, slopes 0; 2: values at t_s, slopes 0 */
     double scale;  /* multiplies every source */
 } ru_src_eval;
 
