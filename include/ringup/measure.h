@@ -66,6 +66,8 @@ typedef struct ru_measure_result {
     double growth_fit_t0_s;      /* fit window start and end times */
     double growth_fit_t1_s;
     double growth_fit_rms;       /* rms residual of ln(envelope) in the fit */
+    double growth_fit_level_v;   /* the fitted exponential at t = 0: the level the
+                                    growth extrapolates back to (NAN without a fit) */
     int growth_fit_points;
     double frequency_hz;
     double settled_amplitude_v;

@@ -121,6 +121,13 @@ done:
     free(poles);
 }
 
+/* Shares of the predicted start-up time above which the slowest other time
+ * constant withholds the prediction, or makes it rough (our own rule, from the
+ * corpus in tests/data/predict: a state that needs a third of the start-up to
+ * follow no longer sits on the quasi-static balance). */
+#define RU_SLOW_WITHHOLD 0.3
+#define RU_SLOW_NOTE 0.05
+
 /* Start-up time from the describing function's growth-rate curve: the envelope
  * obeys dA/dt = sigma(A) A, so it takes t = integral dA / (A sigma(A)) from the
  * start level to the start-up level (a share of the settled amplitude). */
@@ -144,8 +151,29 @@ static void predict_startup(ru_df *df, double amp_v, ru_run_report *rep)
     }
     ru_error e;
     ru_error_clear(&e);
-    if (ru_df_startup_time(df, a0, top, &pr->startup_time_s, &e) != RU_OK)
+    double t;
+    if (ru_df_startup_time(df, a0, top, &t, &e) != RU_OK) {
         ru_report_note(rep, "no start-up prediction: %s", e.msg);
+        return;
+    }
+    /* The envelope equation takes every other state as following the amplitude at
+     * once (a quasi-static balance). A slow decaying mode (a bias capacitor, a lamp
+     * or thermistor warming) that is not short against the start-up breaks that. */
+    double tau = pr->slowest_decay_per_s > 0 ? 1.0 / pr->slowest_decay_per_s : 0;
+    if (tau > RU_SLOW_WITHHOLD * t) {
+        ru_report_note(rep, "no start-up prediction: a time constant of %.3g s (a bias "
+                            "capacitor, a lamp or thermistor) is not short against the "
+                            "%.3g s the envelope equation gives, so the amplitude does "
+                            "not follow the quasi-static growth-rate curve",
+                       tau, t);
+        return;
+    }
+    pr->startup_time_s = t;
+    if (tau > RU_SLOW_NOTE * t)
+        ru_report_note(rep, "the predicted start-up time is rough: a time constant of "
+                            "%.3g s is %.0f %% of it, and the envelope equation takes the "
+                            "slow states as following the amplitude at once",
+                       tau, 100 * tau / t);
 }
 
 /* Settled amplitude by the describing-function method (ringup/descfn.h), then the
@@ -265,6 +293,20 @@ void ru_selfcheck(ru_run_report *rep)
                            "is large; try --verify",
                            100 * rep->growth_mismatch);
     }
+    /* the start level against the one the measured growth extrapolates back to:
+     * beyond 3 s.d. of the noise's scatter, or a factor 1.5, the start is not the
+     * small-signal growth from the kick the prediction assumes */
+    double lev = pr->kick_amplitude_v, fit = m->growth_fit_level_v;
+    double lim = fmax(log(1.5), 3 * pr->start_log_sd);
+    if (m->started && isfinite(lev) && lev > 0 && isfinite(fit) && fit > 0 &&
+        fabs(log(fit / lev)) > lim)
+        ru_report_note(rep, "the measured growth extrapolates back to %.3g V at t = 0, the "
+                            "predicted start level is %.3g V: the start is not the "
+                            "small-signal growth of the dominant mode from the kick (a "
+                            "large-signal bias transient after power-on, or a slow state "
+                            "moving during the growth), so the start-up prediction is off "
+                            "by about %.2g s",
+                       fit, lev, log(fit / lev) / -pr->growth_rate_per_s);
     if (pr->have_poles && pr->growth_rate_per_s < 0 && m->started)
         ru_report_note(rep, "the poles are in the left half-plane yet the run started: "
                             "a large kick can start a hard-excited oscillator");

@@ -186,6 +186,7 @@ static void print_json(const ru_run_report *r, int partial, const char *wav_path
     ru_json_number(&j, "t_end_s", m->growth_fit_t1_s);
     ru_json_int(&j, "cycles", m->growth_fit_points);
     ru_json_number(&j, "rms_residual", m->growth_fit_rms);
+    ru_json_number(&j, "level_v", m->growth_fit_level_v);
     ru_json_end_object(&j);
     if (r->pred.have_loop) {
         ru_json_begin_object(&j, "loop");

@@ -351,6 +351,12 @@ static void growth_fit(const ru_envelope *e, const ru_measure_cfg *c, size_t fro
     }
     r->growth_rate_per_s = slope;
     r->growth_fit_rms = rms;
+    double tm = 0, ym = 0; /* the fitted line at t = 0: the level the growth extrapolates to */
+    for (size_t i = i0; i < i1; i++) {
+        tm += e->env_t[i] / (double)(i1 - i0);
+        ym += log(e->env_a[i]) / (double)(i1 - i0);
+    }
+    r->growth_fit_level_v = exp(ym - slope * tm);
     r->growth_fit_t0_s = e->env_t[i0];
     r->growth_fit_t1_s = e->env_t[i1 - 1];
     r->growth_fit_points = (int)(i1 - i0);
@@ -440,6 +446,7 @@ static void result_init(ru_measure_result *r)
     memset(r, 0, sizeof *r);
     r->startup_time_s = r->growth_rate_per_s = NAN;
     r->growth_fit_t0_s = r->growth_fit_t1_s = r->growth_fit_rms = NAN;
+    r->growth_fit_level_v = NAN;
     r->frequency_hz = r->settled_amplitude_v = r->settling_time_s = NAN;
     r->thd_percent = r->dc_level_v = r->envelope_drift = r->fundamental_v = NAN;
     r->window_spread = r->window_s = r->first_cycle_t_s = NAN;

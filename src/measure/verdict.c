@@ -287,7 +287,7 @@ void ru_verdict_apply(const ru_verdict_result *v, ru_measure_result *m)
     }
     if (!m->started) {
         m->growth_rate_per_s = m->growth_fit_t0_s = m->growth_fit_t1_s = NAN;
-        m->growth_fit_rms = NAN;
+        m->growth_fit_rms = m->growth_fit_level_v = NAN;
         m->growth_fit_points = 0;
         snprintf(m->growth_note, RU_NOTE_MAX, "%s", v->note);
     }
