@@ -69,17 +69,26 @@ static ru_status resolve_probe(const ru_circuit *c, const ru_system *sys,
     const ru_measure_opts *mo = ru_circuit_measure_opts_const(c);
     *pos = mo->probe_pos;
     *neg = mo->probe_neg;
-    if (*pos < 0) { /* no probe named: the first free node */
+    if (*pos < 0) { /* no probe named: an amplifier's output, else the first free node */
         *neg = 0;
-        for (size_t i = 1; i < ru_circuit_node_count(c); i++) {
-            if (ru_system_node_state(sys, (int)i) >= 0) {
-                *pos = (int)i;
-                break;
+        const char *why = "the first free node";
+        char amp[RU_NAME_MAX + 32] = "";
+        for (size_t i = 0; i < ru_circuit_part_count(c) && *pos < 0; i++) {
+            const ru_part *p = ru_circuit_part(c, i);
+            if (p->type == RU_PART_AMPLIFIER && ru_system_node_state(sys, p->node[1]) >= 0) {
+                *pos = p->node[1];
+                snprintf(amp, sizeof amp, "the output of amplifier %s", p->name);
+                why = amp;
             }
         }
+        for (size_t i = 1; i < ru_circuit_node_count(c) && *pos < 0; i++)
+            if (ru_system_node_state(sys, (int)i) >= 0)
+                *pos = (int)i;
         if (*pos < 0)
             return ru_error_set(err, RU_EINPUT, ru_circuit_file(c), 0, 0,
                                 "the circuit has no free node to probe");
+        ru_report_note(rep, "no probe named in the file (measure: {probe: NODE}): "
+                            "measuring v(%s), %s", ru_circuit_node_name(c, *pos), why);
     }
     if (*neg > 0)
         snprintf(rep->probe, sizeof rep->probe, "%s-%s", ru_circuit_node_name(c, *pos),
@@ -102,6 +111,31 @@ static double choose_sample(const ru_run_request *rq, const ru_run_opts *ro,
     if (pr->have_poles && pr->frequency_hz > 0)
         return 1.0 / (72.0 * pr->frequency_hz);
     return stop_s / 20000.0;
+}
+
+/* A sample spacing given by the caller or the file that cannot show the predicted
+ * tone at all (fewer than RU_MIN_SAMPLES_PER_PERIOD samples per period) is bad
+ * input: the run would only say "did not start". Between that and 16 the run goes
+ * on with a note (ru_selfcheck). */
+#define RU_MIN_SAMPLES_PER_PERIOD 4.0
+static ru_status check_sampling(const ru_circuit *c, const ru_run_request *rq,
+                                const ru_run_opts *ro, const ru_run_report *rep,
+                                ru_error *err)
+{
+    const ru_prediction *pr = &rep->pred;
+    if (!(rq->sample_s > 0 || ro->sample_s > 0) || !pr->have_poles ||
+        !(pr->frequency_hz > 0))
+        return RU_OK;
+    double per = 1.0 / (rep->sample_s * pr->frequency_hz);
+    if (per >= RU_MIN_SAMPLES_PER_PERIOD)
+        return RU_OK;
+    return ru_error_set(err, RU_EINPUT, ru_circuit_file(c), 0, 0,
+                        "sample spacing %.4g s gives %.2g samples per period of the "
+                        "predicted %.4g Hz tone (the dominant poles): at least %.0f are "
+                        "needed to see the oscillation at all and 16 to measure it; use "
+                        "a sample of %.3g s or less, or leave it auto",
+                        rep->sample_s, per, pr->frequency_hz, RU_MIN_SAMPLES_PER_PERIOD,
+                        1.0 / (64.0 * pr->frequency_hz));
 }
 
 /* The WAV sink, planned from the run's spacing, length and predicted tone. */
@@ -357,7 +391,8 @@ ru_status ru_analysis_run(const ru_circuit *c, const ru_run_request *rq,
         goto done;
     ru_stop_plan(c, sys, rq, rep);
     rep->sample_s = choose_sample(rq, ro, &rep->pred, rep->stop.first_s);
-    if ((st = check_size(c, rep, err)) != RU_OK)
+    if ((st = check_sampling(c, rq, ro, rep, err)) != RU_OK ||
+        (st = check_size(c, rep, err)) != RU_OK)
         goto done;
     if (ro->kick == RU_KICK_NOISE && !has_noise_source(c)) {
         st = ru_error_set(err, RU_EINPUT, ru_circuit_file(c), 0, 0,

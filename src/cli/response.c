@@ -199,6 +199,13 @@ int cmd_response(int argc, char **argv)
         rc = 1;
         goto done;
     }
+    if (in == out) {
+        fprintf(stderr, "ringup response: --from and --to are the same node (%s): the "
+                        "transfer of a node to itself is 1 at every frequency; read another "
+                        "node\n", cli_get(opts, "to"));
+        rc = 1;
+        goto done;
+    }
     if (ru_circuit_find_floating_node(c, &fl)) {
         fprintf(stderr, "%s: node %s has no DC path to ground: there is no operating point\n",
                 ru_circuit_file(c), ru_circuit_node_name(c, fl));

@@ -179,9 +179,24 @@ static void judge_tone(const ru_verdict_input *in, const facts *f, ru_verdict_re
 }
 
 /* A small tone, or none: no-start, latched or undecided. */
+/* "the envelope decays 12 % over ..." for a slow decay; a fast one, whose change
+ * over the window exceeds half its mean there, is said as a multiple, never as a
+ * percentage above 100. */
+static const char *decay_phrase(double drift, char *buf, size_t size)
+{
+    if (-drift <= 0.5)
+        snprintf(buf, size, "the envelope decays %.3g %% over the last 10 %% of the run",
+                 -100 * drift);
+    else
+        snprintf(buf, size, "the envelope decays fast: over the last 10 %% of the run "
+                            "it falls by %.2gx its mean there", -drift);
+    return buf;
+}
+
 static void judge_quiet(const ru_verdict_input *in, const facts *f, ru_verdict_result *o)
 {
     const ru_measure_result *m = in->meas;
+    char dp[160];
     if (!f->tone && isfinite(in->op_distance) && in->op_distance >= LATCH_AWAY &&
         f->still) {
         set(o, RU_VERDICT_LATCHED, 1, 0,
@@ -223,9 +238,9 @@ static void judge_quiet(const ru_verdict_input *in, const facts *f, ru_verdict_r
             "no oscillation in the last 10 %% of the run%s",
             f->rhp ? ", although the poles predict growth" : "");
     else if (f->decaying) /* a visible decay needs no long window to be sure */
-        set(o, RU_VERDICT_NO_START, !f->rhp || f->overdue, 0,
-            "the envelope decays %.3g %% over the last 10 %% of the run%s",
-            -100 * f->drift, f->rhp ? ", although the poles predict growth" : "");
+        set(o, RU_VERDICT_NO_START, !f->rhp || f->overdue, 0, "%s%s",
+            decay_phrase(f->drift, dp, sizeof dp),
+            f->rhp ? ", although the poles predict growth" : "");
     else
         set(o, RU_VERDICT_NO_START, certain, 0,
             "the tone at the end (%.3g V) stays at the level noise and the start give "
@@ -268,10 +283,10 @@ void ru_verdict_judge(const ru_verdict_input *in, ru_verdict_result *o)
         return;
     }
     if (f.decaying && f.rhp && !f.overdue) {
+        char dp[160];
         set(o, RU_VERDICT_UNDECIDED, 0, 0,
-            "the envelope decays %.3g %% over the last 10 %% of the run although the "
-            "poles say it grows (%.4g /s): run longer",
-            -100 * f.drift, in->growth_per_s);
+            "%s although the poles say it grows (%.4g /s): run longer",
+            decay_phrase(f.drift, dp, sizeof dp), in->growth_per_s);
         return;
     }
     judge_quiet(in, &f, o);

@@ -26,10 +26,16 @@ static void set_variant(ru_part *p, int i) { p->amp.law = (ru_law)i; }
 
 static ru_status check(const ru_part *p, const ru_part_env *env, ru_error *err)
 {
-    if (p->node[0] == p->node[2] || p->node[1] == p->node[2])
-        return ru_part_fail(env, p, err, "in and out must differ from ref");
+    /* in may be ref (an inverting op-amp stage with in: gnd); the control voltage
+     * v(in) - v(inv) must not vanish identically, and the output must not be tied
+     * to its own reference */
+    if (p->node[1] == p->node[2])
+        return ru_part_fail(env, p, err, "out must differ from ref");
     if (p->node[0] == ru_part_inv_node(p))
-        return ru_part_fail(env, p, err, "in and inv must differ");
+        return ru_part_fail(env, p, err,
+                            p->node[3] < 0 ? "in must differ from ref when no inv is "
+                                             "given (the control voltage is v(in) - v(ref))"
+                                           : "in and inv must differ");
     const ru_amp *a = &p->amp;
     double all[] = {a->gain,    a->swing_v, a->center_v, a->rout_ohm, a->is_a,
                     a->n,       a->beta,    a->vsat_v,   a->temp_c,   a->itail_a,
