@@ -391,8 +391,8 @@ ru_status ru_analysis_run(const ru_circuit *c, const ru_run_request *rq,
         goto done;
     ru_stop_plan(c, sys, rq, rep);
     rep->sample_s = choose_sample(rq, ro, &rep->pred, rep->stop.first_s);
-    if ((st = check_sampling(c, rq, ro, rep, err)) != RU_OK ||
-        (st = check_size(c, rep, err)) != RU_OK)
+    if ((st = check_size(c, rep, err)) != RU_OK ||
+        (st = check_sampling(c, rq, ro, rep, err)) != RU_OK)
         goto done;
     if (ro->kick == RU_KICK_NOISE && !has_noise_source(c)) {
         st = ru_error_set(err, RU_EINPUT, ru_circuit_file(c), 0, 0,
