@@ -56,4 +56,22 @@ grepcheck "sampling message" "gives 1 samples per period of the predicted 5017 H
 check "run without a probe" 0 $?
 grepcheck "probe note" "no probe named in the file .*measuring v\(o\), the output of amplifier U1" "$tmp/out"
 
+# Tables fit their columns to the longest value: every cell starts under its
+# header, whatever the lengths (here a growth rate in e-notation).
+"$ru" compare "$src/examples/follower-colpitts.yaml" --part A1 \
+    --models soft-follower,emitter-follower >"$tmp/cmp" 2>"$tmp/err"
+check "compare" 0 $?
+if [ -x /usr/bin/python3 ]; then
+    ok=$(/usr/bin/python3 -c '
+import re, sys
+lines = open(sys.argv[1]).read().split("\n")
+h = next(i for i, l in enumerate(lines) if l.startswith("  model "))
+starts = [m.start() for m in re.finditer(r"(?<=  )\S", "  " + lines[h][2:])]
+rows = [l for l in lines[h + 1:h + 3]]
+good = all(all(r[s - 1] == " " and r[s] != " " for s in starts) for r in rows)
+print(1 if good and len(starts) == 11 else 0)
+' "$tmp/cmp")
+    check "compare columns aligned under their headers" 1 "$ok"
+fi
+
 finish

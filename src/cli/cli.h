@@ -92,6 +92,24 @@ void cli_capture_begin(cli_capture *cap, int want, int echo);
 int cli_capture_printing(const cli_capture *cap); /* 1: print the text now */
 char *cli_capture_end(cli_capture *cap);
 
+/* A text table whose columns fit their contents (table.c): add rows (the header
+ * first), print, free. cli_table_add_text adds a row of a first cell and one free
+ * text (an error) that spans the rest. Out of memory drops rows, never crashes. */
+#define CLI_TABLE_COLS 16
+typedef struct cli_table_row {
+    char *cell[CLI_TABLE_COLS];
+    char *text; /* free text after the first cell, or NULL */
+} cli_table_row;
+typedef struct cli_table {
+    size_t ncols, nrows, cap;
+    cli_table_row *rows;
+} cli_table;
+void cli_table_init(cli_table *t, size_t ncols);
+void cli_table_add(cli_table *t, const char *const *cells);
+void cli_table_add_text(cli_table *t, const char *first, const char *text);
+void cli_table_print(const cli_table *t, FILE *fp, const char *indent);
+void cli_table_free(cli_table *t);
+
 /* --plots DIR, --plot-format FMT, --report FILE of a command. */
 typedef struct cli_plot_req {
     const char *dir;     /* NULL: no figure files */

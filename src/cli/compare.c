@@ -49,17 +49,18 @@ static void cell_si(double v, const char *unit, char *buf, size_t size)
     ru_format_si(v, unit, 4, buf, size);
 }
 
-static void print_row(const variant *v, const ru_batch_item *it)
+static void add_row(cli_table *t, const variant *v, const ru_batch_item *it)
 {
     if (it->status != RU_OK) {
-        char msg[RU_ERROR_TEXT + RU_ERROR_FILE + 32];
+        char msg[RU_ERROR_TEXT + RU_ERROR_FILE + 32], text[sizeof msg + 8];
         ru_error_format(&it->error, msg, sizeof msg);
-        printf("  %-18s error: %s\n", v->model, msg);
+        snprintf(text, sizeof text, "error: %s", msg);
+        cli_table_add_text(t, v->model, text);
         return;
     }
     const ru_measure_result *m = &it->report.meas;
     const ru_prediction *p = &it->report.pred;
-    char a[24], b[24], c[24], d[24], e[24];
+    char a[24], b[24], c[24], d[24], e[24], f[24], g[24], h[24];
     cell_si(m->startup_time_s, "s", a, sizeof a);
     cell_si(m->frequency_hz, "Hz", c, sizeof c);
     cell_si(m->settled_amplitude_v, "V", d, sizeof d);
@@ -68,25 +69,30 @@ static void print_row(const variant *v, const ru_batch_item *it)
         snprintf(b, sizeof b, "%.4g /s", m->growth_rate_per_s);
     else
         snprintf(b, sizeof b, "-");
-    printf("  %-18s %-8s %-8s %-11s %-11s %-12s %-10s %-10s", v->model,
-           m->started ? "yes" : "no", m->settled ? "yes" : "no", a, b, c, d, e);
-    if (isfinite(m->thd_percent))
-        printf(" %-8.3g %-7.1f %-7.1f\n", m->thd_percent, m->harmonics_dbc[0],
-               m->harmonics_dbc[1]);
-    else
-        printf(" %-8s %-7s %-7s\n", "-", "-", "-");
+    int thd = isfinite(m->thd_percent);
+    snprintf(f, sizeof f, thd ? "%.3g" : "-", m->thd_percent);
+    snprintf(g, sizeof g, thd ? "%.1f" : "-", m->harmonics_dbc[0]);
+    snprintf(h, sizeof h, thd ? "%.1f" : "-", m->harmonics_dbc[1]);
+    const char *row[] = {v->model, m->started ? "yes" : "no", m->settled ? "yes" : "no",
+                         a, b, c, d, e, f, g, h};
+    cli_table_add(t, row);
 }
 
 static void print_table(const ru_circuit *c, const char *part, const variant *v,
                         const ru_batch_item *items, size_t n)
 {
+    static const char *const head[] = {"model", "started", "settled", "start-up",
+                                       "growth", "frequency", "amplitude", "predicted",
+                                       "THD %", "HD2 dB", "HD3 dB"};
     printf("%s: %s\nmodels in part %s, same circuit otherwise\n\n", ru_circuit_file(c),
            ru_circuit_title(c), part);
-    printf("  %-18s %-8s %-8s %-11s %-11s %-12s %-10s %-10s %-8s %-7s %-7s\n", "model",
-           "started", "settled", "start-up", "growth", "frequency", "amplitude", "predicted", "THD %", "HD2 dB",
-           "HD3 dB");
+    cli_table t;
+    cli_table_init(&t, sizeof head / sizeof head[0]);
+    cli_table_add(&t, head);
     for (size_t i = 0; i < n; i++)
-        print_row(&v[i], &items[i]);
+        add_row(&t, &v[i], &items[i]);
+    cli_table_print(&t, stdout, "  ");
+    cli_table_free(&t);
     for (size_t i = 0; i < n; i++)
         for (int k = 0; k < items[i].report.nnotes && items[i].status == RU_OK; k++)
             printf("note (%s): %s\n", v[i].model, items[i].report.notes[k]);
