@@ -84,6 +84,34 @@ static void test_follower_small_signal(void **state)
                   a.gain / a.rout_ohm * (1 - 0.25 * 0.02 * 0.02), 1e-6);
 }
 
+/* Each law's describing-function contribution (its descriptor's df_out). */
+static void test_law_contributions(void **state)
+{
+    (void)state;
+    ru_amp a;
+    ru_amp_defaults(&a, RU_LAW_DIFF_PAIR_TANH);
+    a.itail_a = 2e-3;
+    double s = 2.0 * a.n * 8.617333262e-5 * (a.temp_c + 273.15); /* 2 n kT/q */
+    /* Reference: small-signal limit = the slope itail/(2 n vt) of itail tanh(vc/(2 n
+     * vt)) (the pair's transconductance); the cubic term moves it by (a/s)^2/4 =
+     * 2.5e-11 at a = 1e-5 s: 1e-9 relative. */
+    RU_ASSERT_REL(ru_df_amp_gain(&a, 0.0, 0.0, 1e-5 * s), a.itail_a / s, 1e-9);
+    /* Reference: driven hard (a = 100 s) the pair is a limiter of level itail:
+     * 4 itail/(pi a) (the ideal relay's describing function), less the rounded
+     * corners, a factor 1 - pi^2/(24 (a/s)^2) (from the asymptotics of
+     * integral (1 - tanh u) u du = pi^2/24; checked against scipy.integrate.quad,
+     * which gives 0.999958873 at a/s = 100). The remainder is O((s/a)^4): 2e-8. */
+    double k = 100.0, amp = k * s;
+    RU_ASSERT_REL(ru_df_amp_gain(&a, 0.0, 0.0, amp),
+                  4.0 * a.itail_a / (PI * amp) * (1.0 - PI * PI / (24.0 * k * k)), 1e-7);
+    /* The opamp's output follows vc only through its integrator: it has no
+     * memoryless describing function (NAN by definition, ringup/descfn.h). */
+    ru_amp_defaults(&a, RU_LAW_OPAMP);
+    assert_true(isnan(ru_df_amp_gain(&a, 0.0, 0.0, 0.1)));
+    a.law = RU_LAW_COUNT;
+    assert_true(isnan(ru_df_amp_gain(&a, 0.0, 0.0, 0.1)));
+}
+
 static ru_circuit *load(const char *text)
 {
     ru_circuit *c = NULL;
@@ -208,6 +236,7 @@ int main(void)
         cmocka_unit_test(test_cubic_df),
         cmocka_unit_test(test_saturation_df),
         cmocka_unit_test(test_follower_small_signal),
+        cmocka_unit_test(test_law_contributions),
         cmocka_unit_test(test_vdp_curve),
         cmocka_unit_test(test_vdp_startup_integral),
         cmocka_unit_test(test_no_start),

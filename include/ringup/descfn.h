@@ -116,7 +116,10 @@ double ru_df_gain(ru_df_law_fn f, void *user, double x0, double a, int samples);
 /* The describing function of an amplifier's law: the output current's in-phase
  * fundamental over the control amplitude a (a transconductance, A/V) with the
  * control voltage vc = vc0 + a sin t and the output held at vo0. For a law that
- * is a voltage source behind rout (follower-tanh), that is N_voltage / rout. */
+ * is a voltage source behind rout (follower-tanh), that is N_voltage / rout. Each
+ * law gives its own contribution (its descriptor's df_out); NAN for a law whose
+ * output follows vc only through an internal state (opamp), which has no
+ * memoryless describing function, and for an unknown law. */
 double ru_df_amp_gain(const struct ru_amp *amp, double vc0_v, double vo0_v, double a_v);
 
 #ifdef __cplusplus

@@ -268,19 +268,21 @@ double ru_df_gain(ru_df_law_fn f, void *user, double x0, double a, int samples)
 
 typedef struct amp_at {
     const ru_amp *amp;
+    const ru_law_desc *law;
     double vo0_v;
 } amp_at;
 
 static double amp_out(void *user, double vc)
 {
     const amp_at *p = user;
-    ru_law_eval e;
-    ru_law_eval_amp(p->amp, vc, p->vo0_v, &e);
-    return e.i_out;
+    return p->law->df_out(p->amp, vc, p->vo0_v);
 }
 
 double ru_df_amp_gain(const ru_amp *amp, double vc0_v, double vo0_v, double a_v)
 {
-    amp_at p = {amp, vo0_v};
+    const ru_law_desc *law = ru_law_get(amp->law);
+    if (!law || !law->df_out) /* no memoryless describing function (opamp) */
+        return NAN;
+    amp_at p = {amp, law, vo0_v};
     return ru_df_gain(amp_out, &p, vc0_v, a_v, 4096);
 }
