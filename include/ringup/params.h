@@ -1,12 +1,14 @@
 /* ringup/params.h: one numeric value of a part by name, `PART.KEY`, and the sweep
  * specification `PART.KEY=LO:HI:N` of `ringup sweep`.
  *
- * Keys and units are those of the circuit file (README, "Parts"): the loader's own
- * key tables are read, so `R1.value` (ohm), `C1.tol` (a fraction, written `5%` or
- * `0.05`), `L1.series` (ohm), `VS.value`/`VS.rise` and the other wave keys, every
- * amplifier-law key (`A1.gain`, `Q1.is`, `U1.gbw`, ...), diode keys and
- * thermal-resistor keys (temperatures in deg C, as in the file). Lists (`coeffs`,
- * `points`) and names (`type`, `wave`, `law`, `kind`, `model`, nodes) are not
+ * Keys and units are those of the circuit file (README, "Parts"): the part
+ * descriptors' key tables are read, as the loader does, so `R1.value` (ohm),
+ * `C1.tol` (a fraction, written `5%` or `0.05`), `L1.series` (ohm),
+ * `VS.value`/`VS.rise` and the other wave keys, every amplifier-law key
+ * (`A1.gain`, `Q1.is`, `U1.gbw`, ...), diode keys, thermal-resistor keys
+ * (temperatures in deg C, as in the file) and a transconductor's `G1.gm` (S):
+ * every numeric key. Lists (`coeffs`, `points`) and names (`type`, `wave`,
+ * `law`, `kind`, `model`, nodes) are not
  * values and are refused. The part name may itself contain '.', so the key is what
  * follows the last '.'.
  *
@@ -40,7 +42,7 @@ ru_status ru_circuit_get_param(const ru_circuit *c, const char *part_dot_key,
                                double *value, ru_error *err);
 
 /* The unit PART.KEY is written in, as in the circuit file: "ohm", "F", "H", "V",
- * "A", "s", "Hz", "C", "V/s", "K/W", "J/K", "K", "%" or "" (a plain number).
+ * "A", "s", "Hz", "C", "V/s", "K/W", "J/K", "K", "S", "%" or "" (a plain number).
  * *unit points to static text. Same errors as the getter. */
 ru_status ru_circuit_param_unit(const ru_circuit *c, const char *part_dot_key,
                                 const char **unit, ru_error *err);

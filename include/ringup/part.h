@@ -31,6 +31,8 @@ typedef enum {
     RU_PART_AMPLIFIER, /* behavioral amplifier: nodes in, out, ref, inv (see ru_amp) */
     RU_PART_DIODE,     /* junction diode: nodes anode, cathode (see ru_diode) */
     RU_PART_THERMAL,   /* thermal resistor (lamp or NTC): nodes a,b (see ru_thermal) */
+    RU_PART_TRANSCONDUCTOR, /* gm*(v(cp) - v(cn)) flows p -> n through it: nodes p, n,
+                               cp, cn; value is gm (S) */
     RU_PART_TYPE_COUNT
 } ru_part_type;
 
@@ -198,7 +200,7 @@ typedef struct ru_part {
     ru_part_type type;
     int node[RU_PART_NODES]; /* a,b for two-terminal parts; in,out,ref,inv for
                                 amplifiers (inv -1: the same node as ref) */
-    double value;            /* R (ohm), C (farad), L (henry); unused otherwise */
+    double value;            /* R (ohm), C (F), L (H), a transconductor's gm (S) */
     double series_ohm;       /* inductor: series resistance (ohm, >= 0) */
     double tol;              /* relative tolerance for Monte Carlo (0.01 = 1 %) */
     double coeffs[RU_POLY_MAX]; /* poly-conductance c_0.. (A/V^k) */

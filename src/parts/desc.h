@@ -205,6 +205,6 @@ void ru_part_set_variant_none(ru_part *p, int i);
 /* The descriptors, one per family file. */
 extern const ru_part_desc ru_part_resistor, ru_part_capacitor, ru_part_inductor,
     ru_part_supply, ru_part_current, ru_part_poly, ru_part_amplifier, ru_part_diode,
-    ru_part_thermal;
+    ru_part_thermal, ru_part_transconductor;
 
 #endif
