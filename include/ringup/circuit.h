@@ -76,6 +76,13 @@ void ru_circuit_destroy(ru_circuit *c);
  * memory or the name is empty or too long. line/col record the first mention. */
 int ru_circuit_node(ru_circuit *c, const char *name, int line, int col);
 
+/* " (did you mean NAME?)" into buf when a node (or part) name of the circuit is
+ * a likely misspelling of name, else ""; returns buf. For messages. */
+const char *ru_circuit_suggest_node(const ru_circuit *c, const char *name, char *buf,
+                                    size_t size);
+const char *ru_circuit_suggest_part(const ru_circuit *c, const char *name, char *buf,
+                                    size_t size);
+
 /* Index of an existing node, or -1. */
 int ru_circuit_find_node(const ru_circuit *c, const char *name);
 

@@ -7,6 +7,8 @@
  * src/parts/). */
 #include "ringup/circuit.h"
 
+#include "base/suggest.h"
+
 #include "parts/desc.h"
 
 #include <math.h>
@@ -354,4 +356,39 @@ size_t ru_circuit_warning_count(const ru_circuit *c) { return c->nwarn; }
 const char *ru_circuit_warning(const ru_circuit *c, size_t i)
 {
     return i < c->nwarn ? c->warnings[i] : "";
+}
+
+/* Names as an array for ru_suggest (malloc'd; NULL when out of memory). */
+static const char **name_list(const ru_circuit *c, int parts, size_t *n)
+{
+    *n = parts ? c->nparts : c->nnodes;
+    const char **v = malloc((*n ? *n : 1) * sizeof *v);
+    for (size_t i = 0; v && i < *n; i++)
+        v[i] = parts ? c->parts[i].name : ru_circuit_node_name(c, (int)i);
+    return v;
+}
+
+static const char *suggest(const ru_circuit *c, int parts, const char *name, char *buf,
+                           size_t size)
+{
+    size_t n;
+    const char **v = name_list(c, parts, &n);
+    if (size)
+        buf[0] = '\0';
+    if (v)
+        ru_suggest_text(name, v, n, buf, size);
+    free(v);
+    return buf;
+}
+
+const char *ru_circuit_suggest_node(const ru_circuit *c, const char *name, char *buf,
+                                    size_t size)
+{
+    return suggest(c, 0, name, buf, size);
+}
+
+const char *ru_circuit_suggest_part(const ru_circuit *c, const char *name, char *buf,
+                                    size_t size)
+{
+    return suggest(c, 1, name, buf, size);
 }

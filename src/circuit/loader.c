@@ -43,6 +43,48 @@ static ru_status warn_floating(ru_circuit *c, const char *file)
     return ru_circuit_add_warning(c, text);
 }
 
+/* Warns about every node that only one part touches: no current can flow through
+ * it, so it is almost always a misspelt node name (the warning says which name is
+ * close) or a part left unconnected. */
+static ru_status warn_single(ru_circuit *c, const char *file)
+{
+    size_t nn = ru_circuit_node_count(c), np = ru_circuit_part_count(c);
+    int *count = calloc(nn ? nn : 1, sizeof *count), *last = malloc((nn ? nn : 1) * sizeof *last);
+    ru_status st = count && last ? RU_OK : RU_ENOMEM;
+    for (size_t i = 0; count && last && i < nn; i++)
+        last[i] = -1;
+    for (size_t i = 0; st == RU_OK && i < np; i++) {
+        ru_terminal t[8];
+        int k = ru_part_terminals(ru_circuit_part(c, i), t, 8);
+        for (int j = 0; j < k && j < 8; j++) {
+            int nd = t[j].node;
+            if (nd > 0 && (size_t)nd < nn && last[nd] != (int)i) {
+                count[nd]++;
+                last[nd] = (int)i;
+            }
+        }
+    }
+    int floating = -1; /* already warned about (warn_floating) */
+    ru_circuit_find_floating_node(c, &floating);
+    for (size_t nd = 1; st == RU_OK && nd < nn; nd++) {
+        if (count[nd] != 1 || (int)nd == floating)
+            continue;
+        int line, col;
+        ru_circuit_node_place(c, (int)nd, &line, &col);
+        const char *name = ru_circuit_node_name(c, (int)nd);
+        char text[RU_ERROR_TEXT + RU_ERROR_FILE], dym[RU_NAME_MAX + 24];
+        snprintf(text, sizeof text,
+                 "%s:%d:%d: warning: node %s connects to one part only (%s): no current "
+                 "can flow through it; a misspelt node name?%s",
+                 file, line, col, name, ru_circuit_part(c, (size_t)last[nd])->name,
+                 ru_circuit_suggest_node(c, name, dym, sizeof dym));
+        st = ru_circuit_add_warning(c, text);
+    }
+    free(count);
+    free(last);
+    return st;
+}
+
 static ru_status read_top(ld_doc *d, const char *models_dir, ru_circuit **out,
                           ru_error *err)
 {
@@ -67,7 +109,8 @@ static ru_status read_top(ld_doc *d, const char *models_dir, ru_circuit **out,
     ld_ctx ctx = {d, c, models_dir, err};
     if (s == RU_OK)
         s = ru_ld_parts(&ctx, p);
-    if (s == RU_OK && (s = warn_floating(c, d->file)) != RU_OK)
+    if (s == RU_OK && ((s = warn_floating(c, d->file)) != RU_OK ||
+                       (s = warn_single(c, d->file)) != RU_OK))
         ru_error_set(err, s, d->file, 0, 0, "out of memory adding a warning");
     if (s == RU_OK && (p = ru_ld_find(d->root, "run")) != NULL)
         s = ru_ld_run(d, c, p, err);

@@ -9,6 +9,8 @@
  * stored only after they parsed. */
 #include "circuit/loader_impl.h"
 
+#include "base/suggest.h"
+
 #include <stdio.h>
 #include <string.h>
 
@@ -89,7 +91,13 @@ ru_status ru_ld_check_keys(const ld_doc *d, const ru_ynode *map, const char *who
         if (any_part_key(key) || strcmp(key, "description") == 0)
             return ru_ld_fail(d, k, err, "%s: key %s does not apply to %s", who, key,
                               what);
-        return ru_ld_fail(d, k, err, "%s: unknown key %s", who, key);
+        size_t n = 0;
+        while (allowed[n])
+            n++;
+        char dym[RU_NAME_MAX + 24];
+        return ru_ld_fail(d, k, err, "%s: unknown key %s%s", who, key,
+                          ru_suggest_text(key, (const char *const *)allowed, n, dym,
+                                          sizeof dym));
     }
     return RU_OK;
 }

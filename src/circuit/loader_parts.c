@@ -12,6 +12,8 @@
  * mention. */
 #include "circuit/loader_impl.h"
 
+#include "base/suggest.h"
+
 #include <stdio.h>
 #include <string.h>
 
@@ -193,7 +195,13 @@ static ru_status read_type(ld_ctx *x, const ru_ynode *map, const ru_ynode *place
         *type = d->type;
         return RU_OK;
     }
-    char names[320];
+    char names[320], dym[RU_NAME_MAX + 24];
+    const char *all[RU_PART_TYPE_COUNT];
+    for (int t = 0; t < RU_PART_TYPE_COUNT; t++)
+        all[t] = ru_part_type_name((ru_part_type)t);
+    if (ru_suggest_text(text, all, RU_PART_TYPE_COUNT, dym, sizeof dym)[0])
+        return ru_ld_fail(x->d, ru_ld_val(p), x->err, "%s: unknown type '%s'%s", who, text,
+                          dym);
     size_t len = 0;
     names[0] = '\0';
     for (int t = 0, k = 0; t < RU_PART_TYPE_COUNT && len < sizeof names; t++) {

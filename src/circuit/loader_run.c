@@ -74,9 +74,10 @@ static ru_status read_preset_kick(ld_doc *d, ru_circuit *c, const ru_ynode *kmap
         const ru_ypair *p = &nodes->pairs[i];
         const char *name = ru_ld_key(p);
         int k = ru_circuit_find_node(c, name);
+        char dym[RU_NAME_MAX + 24];
         if (k < 0)
-            return ru_ld_fail(d, p->key, err,
-                              "run: kick preset: node %s does not exist", name);
+            return ru_ld_fail(d, p->key, err, "run: kick preset: node %s does not exist%s",
+                              name, ru_circuit_suggest_node(c, name, dym, sizeof dym));
         if (k == 0)
             return ru_ld_fail(d, p->key, err,
                               "run: kick preset: ground cannot be preset");
@@ -187,9 +188,11 @@ static ru_status probe_node(ld_doc *d, ru_circuit *c, const ru_ynode *v,
                             const char *name, int allow_gnd, ru_error *err, int *node)
 {
     *node = ru_circuit_find_node(c, name);
+    char dym[RU_NAME_MAX + 24];
     if (*node < 0)
-        return ru_ld_fail(d, v, err, "measure: key probe: node %s does not exist",
-                          name[0] ? name : "(empty)");
+        return ru_ld_fail(d, v, err, "measure: key probe: node %s does not exist%s",
+                          name[0] ? name : "(empty)",
+                          ru_circuit_suggest_node(c, name, dym, sizeof dym));
     if (*node == 0 && !allow_gnd)
         return ru_ld_fail(d, v, err, "measure: key probe: ground is always 0 V; probe "
                                      "another node");
@@ -227,9 +230,10 @@ static ru_status read_loop(ld_doc *d, ru_circuit *c, const ru_ypair *p,
     if (s != RU_OK)
         return s;
     int k = ru_circuit_find_part(c, text);
+    char dym[RU_NAME_MAX + 24];
     if (k < 0)
-        return ru_ld_fail(d, ru_ld_val(p), err,
-                          "measure: key loop: there is no part %s", text);
+        return ru_ld_fail(d, ru_ld_val(p), err, "measure: key loop: there is no part %s%s",
+                          text, ru_circuit_suggest_part(c, text, dym, sizeof dym));
     if (ru_circuit_part(c, (size_t)k)->type != RU_PART_AMPLIFIER)
         return ru_ld_fail(d, ru_ld_val(p), err,
                           "measure: key loop: part %s is not an amplifier", text);

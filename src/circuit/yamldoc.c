@@ -12,6 +12,8 @@
 #define _POSIX_C_SOURCE 200809L /* open, fstat, O_CLOEXEC */
 #include "circuit/loader_impl.h"
 
+#include "base/suggest.h"
+
 #include <errno.h>
 #include <fcntl.h>
 #include <stdarg.h>
@@ -216,9 +218,15 @@ ru_status ru_ld_only_keys(const ld_doc *d, const ru_ynode *map, const char *who,
         int ok = 0;
         for (size_t k = 0; allowed[k] && !ok; k++)
             ok = strcmp(ru_ld_key(p), allowed[k]) == 0;
-        if (!ok)
-            return ru_ld_fail(d, p->key, err, "%s%sunknown key %s", who, ru_ld_sep(who),
-                              ru_ld_key(p));
+        if (!ok) {
+            size_t n = 0;
+            while (allowed[n])
+                n++;
+            char dym[RU_NAME_MAX + 24];
+            return ru_ld_fail(d, p->key, err, "%s%sunknown key %s%s", who, ru_ld_sep(who),
+                              ru_ld_key(p),
+                              ru_suggest_text(ru_ld_key(p), allowed, n, dym, sizeof dym));
+        }
     }
     return RU_OK;
 }
