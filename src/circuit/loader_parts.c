@@ -199,9 +199,11 @@ static ru_status read_type(ld_ctx *x, const ru_ynode *map, const ru_ynode *place
     const char *all[RU_PART_TYPE_COUNT];
     for (int t = 0; t < RU_PART_TYPE_COUNT; t++)
         all[t] = ru_part_type_name((ru_part_type)t);
-    if (ru_suggest_text(text, all, RU_PART_TYPE_COUNT, dym, sizeof dym)[0])
-        return ru_ld_fail(x->d, ru_ld_val(p), x->err, "%s: unknown type '%s'%s", who, text,
-                          dym);
+    const char *close = ru_suggest(text, all, RU_PART_TYPE_COUNT);
+    if (close)
+        snprintf(dym, sizeof dym, "did you mean %s? ", close);
+    else
+        dym[0] = '\0';
     size_t len = 0;
     names[0] = '\0';
     for (int t = 0, k = 0; t < RU_PART_TYPE_COUNT && len < sizeof names; t++) {
@@ -209,8 +211,8 @@ static ru_status read_type(ld_ctx *x, const ru_ynode *map, const ru_ynode *place
         const char *sep = !k++ ? "" : t == RU_PART_TYPE_COUNT - 1 ? " or " : ", ";
         len += (size_t)snprintf(names + len, sizeof names - len, "%s%s", sep, name);
     }
-    return ru_ld_fail(x->d, ru_ld_val(p), x->err, "%s: unknown type '%s' (%s)", who, text,
-                      names);
+    return ru_ld_fail(x->d, ru_ld_val(p), x->err, "%s: unknown type '%s' (%s%s)", who, text,
+                      dym, names);
 }
 
 static ru_status read_part(ld_ctx *x, const ru_ypair *pair)
