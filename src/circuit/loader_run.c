@@ -39,7 +39,8 @@ static const ru_part *holding_supply(const ru_circuit *c, int k)
         progress = 0;
         for (size_t i = 0; i < np; i++) {
             const ru_part *p = ru_circuit_part(c, i);
-            if (p->type != RU_PART_SUPPLY)
+            const ru_part_desc *d = ru_part_desc_get(p->type);
+            if (!d || d->source != RU_SOURCE_VOLTAGE) /* only supplies hold nodes */
                 continue;
             int a = p->node[0], b = p->node[1];
             int fa = a == 0 || by[a], fb = b == 0 || by[b];
@@ -234,7 +235,8 @@ static ru_status read_loop(ld_doc *d, ru_circuit *c, const ru_ypair *p,
     if (k < 0)
         return ru_ld_fail(d, ru_ld_val(p), err, "measure: key loop: there is no part %s%s",
                           text, ru_circuit_suggest_part(c, text, dym, sizeof dym));
-    if (ru_circuit_part(c, (size_t)k)->type != RU_PART_AMPLIFIER)
+    const ru_part_desc *pd = ru_part_desc_get(ru_circuit_part(c, (size_t)k)->type);
+    if (!pd || !pd->loop) /* the parts whose loop the system can break */
         return ru_ld_fail(d, ru_ld_val(p), err,
                           "measure: key loop: part %s is not an amplifier", text);
     snprintf(ru_circuit_measure_opts(c)->loop, RU_NAME_MAX, "%s", text);
