@@ -1,5 +1,6 @@
 /* response.c: `ringup response FILE --from N --to M`: the network's transfer from
- * an ideal source at node N to node M over log-spaced frequencies. */
+ * an ideal source at node N to node M over log-spaced frequencies, refined
+ * adaptively where the curve turns sharply between grid points. */
 #include "cli/cli.h"
 
 #include "ringup/format.h"
@@ -14,8 +15,10 @@
 #include <string.h>
 
 typedef struct resp_data {
-    size_t npts;
+    size_t npts;        /* points held (the grid and the refinements) */
+    size_t nbase;       /* points of the log-spaced grid (--points) */
     double *f_hz, *mag, *phase_deg;
+    unsigned char *base; /* 1: a point of the log-spaced grid (the text table's rows) */
     double peak_f_hz;   /* the peak refined between grid points */
     double peak_mag;
     double peak_phase_deg;
@@ -51,26 +54,127 @@ static void range_from_poles(const ru_system *s, const double *x, double *fmin, 
     *fmax = hi * 30;
 }
 
+/* Adaptive refinement: where two neighbours differ by more than REFINE_DB in
+ * magnitude or REFINE_DEG in phase (a sharp resonance between grid points, such as
+ * a crystal's), the geometric midpoint is added, pass after pass, until every step
+ * is smooth, the neighbours are closer than 1e-9 relative, or REFINE_MAX_FACTOR
+ * times the grid's points (at least REFINE_MIN_CAP) are held. The grid's own points stay (d->base). */
+#define REFINE_DB 1.0
+#define REFINE_DEG 10.0
+#define REFINE_MAX_FACTOR 8
+#define REFINE_MIN_CAP 4000
+#define REFINE_PASSES 40
+
+static int rough(const resp_data *d, size_t i)
+{
+    double dp = d->phase_deg[i + 1] - d->phase_deg[i];
+    dp -= 360.0 * round(dp / 360.0);
+    double a = d->mag[i], b = d->mag[i + 1];
+    double ddb = a > 0 && b > 0 ? fabs(20.0 * log10(b / a)) : INFINITY;
+    return (ddb > REFINE_DB || fabs(dp) > REFINE_DEG) &&
+           d->f_hz[i + 1] / d->f_hz[i] > 1.0 + 1e-9;
+}
+
+static ru_status refine(const ru_system *s, const double *x, int in, int out, resp_data *d,
+                        ru_error *err)
+{
+    size_t cap = d->nbase * REFINE_MAX_FACTOR; /* + 1 below: the peak (insert_point) */
+    if (cap < REFINE_MIN_CAP)
+        cap = REFINE_MIN_CAP;
+    cap++;
+    double *f = realloc(d->f_hz, cap * sizeof *f);
+    if (f)
+        d->f_hz = f;
+    double *m = realloc(d->mag, cap * sizeof *m);
+    if (m)
+        d->mag = m;
+    double *ph = realloc(d->phase_deg, cap * sizeof *ph);
+    if (ph)
+        d->phase_deg = ph;
+    unsigned char *bs = realloc(d->base, cap);
+    if (bs)
+        d->base = bs;
+    if (!f || !m || !ph || !bs)
+        return ru_error_set(err, RU_ENOMEM, NULL, 0, 0, "out of memory refining the sweep");
+    for (int pass = 0; pass < REFINE_PASSES; pass++) {
+        size_t add = 0;
+        for (size_t i = 0; i + 1 < d->npts; i++)
+            add += rough(d, i);
+        if (add == 0 || d->npts + add + 1 > cap)
+            break;
+        /* move from the end, inserting midpoints where a step is rough */
+        size_t j = d->npts + add;
+        for (size_t i = d->npts; i-- > 0;) {
+            int split = i + 1 < d->npts && rough(d, i);
+            double fi = d->f_hz[i], fn = i + 1 < d->npts ? d->f_hz[i + 1] : 0;
+            if (split) {
+                j--;
+                d->f_hz[j] = sqrt(fi * fn);
+                d->base[j] = 0;
+                d->mag[j] = NAN; /* evaluated below */
+            }
+            j--;
+            d->f_hz[j] = fi;
+            d->mag[j] = d->mag[i];
+            d->phase_deg[j] = d->phase_deg[i];
+            d->base[j] = d->base[i];
+        }
+        d->npts += add;
+        for (size_t i = 0; i < d->npts; i++) {
+            if (!isnan(d->mag[i]))
+                continue;
+            ru_status st = ru_response_at(s, x, in, out, d->f_hz[i], &d->mag[i],
+                                          &d->phase_deg[i], err);
+            if (st != RU_OK)
+                return st;
+        }
+    }
+    return RU_OK;
+}
+
+/* Puts the refined peak among the points (in order; refine leaves room for it), so
+ * the curve drawn and the points listed reach it. */
+static void insert_point(resp_data *d, double f_hz, double mag, double phase_deg)
+{
+    size_t i = 0;
+    while (i < d->npts && d->f_hz[i] < f_hz)
+        i++;
+    if (i < d->npts && d->f_hz[i] == f_hz)
+        return;
+    memmove(d->f_hz + i + 1, d->f_hz + i, (d->npts - i) * sizeof *d->f_hz);
+    memmove(d->mag + i + 1, d->mag + i, (d->npts - i) * sizeof *d->mag);
+    memmove(d->phase_deg + i + 1, d->phase_deg + i, (d->npts - i) * sizeof *d->phase_deg);
+    memmove(d->base + i + 1, d->base + i, d->npts - i);
+    d->f_hz[i] = f_hz;
+    d->mag[i] = mag;
+    d->phase_deg[i] = phase_deg;
+    d->base[i] = 0;
+    d->npts++;
+}
+
 static ru_status sweep(const ru_system *s, const double *x, int in, int out, double fmin,
                        double fmax, resp_data *d, ru_error *err)
 {
     d->f0_hz = d->mag0 = NAN;
+    d->npts = d->nbase;
     for (size_t i = 0; i < d->npts; i++) {
         double u = d->npts > 1 ? (double)i / (double)(d->npts - 1) : 0;
         d->f_hz[i] = fmin * pow(fmax / fmin, u);
+        d->base[i] = 1;
         ru_status st = ru_response_at(s, x, in, out, d->f_hz[i], &d->mag[i],
                                       &d->phase_deg[i], err);
         if (st != RU_OK)
             return st;
-        if (i > 0 && !isfinite(d->f0_hz)) {
-            double p0 = d->phase_deg[i - 1], p1 = d->phase_deg[i];
-            if ((p0 <= 0 && p1 > 0) || (p0 >= 0 && p1 < 0)) {
-                if (fabs(p1 - p0) < 180) { /* not the +-180 wrap */
-                    double w = p0 / (p0 - p1);
-                    d->f0_hz = d->f_hz[i - 1] * pow(d->f_hz[i] / d->f_hz[i - 1], w);
-                    d->mag0 = d->mag[i - 1] + w * (d->mag[i] - d->mag[i - 1]);
-                }
-            }
+    }
+    ru_status st = refine(s, x, in, out, d, err);
+    if (st != RU_OK)
+        return st;
+    for (size_t i = 1; i < d->npts && !isfinite(d->f0_hz); i++) {
+        double p0 = d->phase_deg[i - 1], p1 = d->phase_deg[i];
+        if (((p0 <= 0 && p1 > 0) || (p0 >= 0 && p1 < 0)) && fabs(p1 - p0) < 180) {
+            double w = p0 / (p0 - p1); /* not the +-180 wrap */
+            d->f0_hz = d->f_hz[i - 1] * pow(d->f_hz[i] / d->f_hz[i - 1], w);
+            d->mag0 = d->mag[i - 1] + w * (d->mag[i] - d->mag[i - 1]);
         }
     }
     return RU_OK;
@@ -83,11 +187,14 @@ static void print_text(const ru_circuit *c, const char *from, const char *to,
     printf("%s: %s\ntransfer v(%s)/v(%s), %s driven by an ideal source\n\n",
            ru_circuit_file(c), ru_circuit_title(c), to, from, from);
     printf("  %-14s %-12s %-10s %s\n", "frequency", "gain", "gain dB", "phase");
-    size_t stride = d->npts > 41 ? (d->npts - 1) / 40 : 1;
-    for (size_t i = 0; i < d->npts; i += stride)
+    size_t stride = d->nbase > 41 ? (d->nbase - 1) / 40 : 1;
+    for (size_t i = 0, k = 0; i < d->npts; i++) {
+        if (!d->base[i] || k++ % stride != 0)
+            continue; /* the text shows the log-spaced grid, every stride-th point */
         printf("  %-14s %-12.5g %+-10.2f %+7.2f deg\n",
                ru_format_si(d->f_hz[i], "Hz", 4, a, sizeof a), d->mag[i],
                20 * log10(d->mag[i]), d->phase_deg[i]);
+    }
     printf("\npeak: gain %.5g (%+.2f dB) at %s, phase %+.2f deg\n", d->peak_mag,
            20 * log10(d->peak_mag), ru_format_si(d->peak_f_hz, "Hz", 5, a, sizeof a),
            d->peak_phase_deg);
@@ -185,7 +292,7 @@ int cmd_response(int argc, char **argv)
     if ((rc = cli_load(file, cli_get(opts, "json") != NULL, &c)) != 0)
         return rc;
     ru_system *s = NULL;
-    resp_data d = {.npts = (size_t)npts};
+    resp_data d = {.npts = (size_t)npts, .nbase = (size_t)npts};
     double *x = NULL;
     ru_error err;
     ru_error_clear(&err);
@@ -216,7 +323,8 @@ int cmd_response(int argc, char **argv)
     d.f_hz = calloc(d.npts, sizeof *d.f_hz);
     d.mag = calloc(d.npts, sizeof *d.mag);
     d.phase_deg = calloc(d.npts, sizeof *d.phase_deg);
-    if (!x || !d.f_hz || !d.mag || !d.phase_deg) {
+    d.base = calloc(d.npts, 1);
+    if (!x || !d.f_hz || !d.mag || !d.phase_deg || !d.base) {
         rc = 2;
         goto done;
     }
@@ -236,13 +344,14 @@ int cmd_response(int argc, char **argv)
         goto done;
     }
     if (sweep(s, x, in, out, fmin, fmax, &d, &err) != RU_OK ||
-        ru_response_peak(s, x, in, out, fmin, fmax, d.npts, &d.peak_f_hz, &d.peak_mag,
+        ru_response_peak(s, x, in, out, fmin, fmax, d.nbase, &d.peak_f_hz, &d.peak_mag,
                          &err) != RU_OK) {
         rc = cli_fail(&err);
         goto done;
     }
     double pm;
     ru_response_at(s, x, in, out, d.peak_f_hz, &pm, &d.peak_phase_deg, NULL);
+    insert_point(&d, d.peak_f_hz, d.peak_mag, d.peak_phase_deg);
     if (cli_get(opts, "json"))
         print_json(&d);
     cli_capture cap; /* the text for the report, on the terminal unless --json */
@@ -264,6 +373,7 @@ done:
     free(d.f_hz);
     free(d.mag);
     free(d.phase_deg);
+    free(d.base);
     ru_system_destroy(s);
     ru_circuit_destroy(c);
     return rc;

@@ -76,7 +76,40 @@ static void wave_trace(const ru_trace_view *tv, double kt, double kv)
     }
 }
 
-/* dc +- envelope, one side at a time. */
+/* The moving DC level at envelope point i: the midpoint of the probe's extremes
+ * over the trace columns within half a period of the point (the envelope's own
+ * definition, (max - following min)/2 about their midpoint, so the band touches
+ * the peaks even while a bias settles); the period is the spacing of envelope
+ * points (one per cycle). Without trace columns there, the settled DC. */
+static double wave_centre(const ru_plot_wave *w, size_t i, double dc)
+{
+    const ru_trace_view *tv = &w->trace;
+    double t = w->env_t_s[i];
+    double per = i + 1 < w->nenv ? w->env_t_s[i + 1] - t
+                 : i > 0         ? t - w->env_t_s[i - 1]
+                                 : 0.0;
+    size_t lo = 0, hi = tv->n; /* first column at or after t - per/2 */
+    while (lo < hi) {
+        size_t mid = (lo + hi) / 2;
+        if (tv->t_s[mid] < t - 0.5 * per)
+            lo = mid + 1;
+        else
+            hi = mid;
+    }
+    double mx = -INFINITY, mn = INFINITY;
+    for (size_t k = lo; k < tv->n && tv->t_s[k] <= t + 0.5 * per; k++) {
+        mx = fmax(mx, tv->max_v[k]);
+        mn = fmin(mn, tv->min_v[k]);
+    }
+    if (!(mx >= mn)) { /* no column inside: the nearest one */
+        size_t k = lo < tv->n ? lo : tv->n - 1;
+        mx = tv->max_v[k];
+        mn = tv->min_v[k];
+    }
+    return isfinite(mx) && isfinite(mn) ? 0.5 * (mx + mn) : dc;
+}
+
+/* moving DC +- envelope, one side at a time. */
 static void wave_envelope(const ru_plot_wave *w, double dc, double kt, double kv)
 {
     double x[CHUNK + 1], y[CHUNK + 1];
@@ -86,11 +119,11 @@ static void wave_envelope(const ru_plot_wave *w, double dc, double kt, double kv
             size_t m = 0;
             if (i > 0) {
                 x[m] = w->env_t_s[i - 1] * kt;
-                y[m++] = (dc + side * w->env_v[i - 1]) * kv;
+                y[m++] = (wave_centre(w, i - 1, dc) + side * w->env_v[i - 1]) * kv;
             }
             for (size_t j = 0; j < CHUNK && i < w->nenv; j++, i++) {
                 x[m] = w->env_t_s[i] * kt;
-                y[m++] = (dc + side * w->env_v[i]) * kv;
+                y[m++] = (wave_centre(w, i, dc) + side * w->env_v[i]) * kv;
             }
             plot_line(m, x, y, PC_VERMIL, 2.0, 1);
         }
@@ -205,7 +238,7 @@ static void draw_wave(const void *data)
     plot_legend lg = {0};
     plot_legend_add(&lg, PC_BLUE, 0, 1.5, "waveform");
     if (w->nenv > 0)
-        plot_legend_add(&lg, PC_VERMIL, 0, 2.0, "envelope (DC ± amplitude)");
+        plot_legend_add(&lg, PC_VERMIL, 0, 2.0, "envelope (moving DC ± amplitude)");
     if (isfinite(w->settled_v))
         plot_legend_add(&lg, PC_INK, 1, 1.2, "settled");
     if (isfinite(w->startup_time_s)) {

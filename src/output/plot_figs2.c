@@ -240,6 +240,45 @@ static void bode_phase_range(const ru_plot_bode *b, double *shift, double *lo, d
     *lo = 45.0 * floor((*lo - 10) / 45.0), *hi = 45.0 * ceil((*hi + 10) / 45.0);
 }
 
+/* The frequency axis: log10(f) normally; for a narrow sweep (fmax/fmin below
+ * BODE_NARROW, where a log axis has no decade to label, such as a crystal's
+ * resonance) a linear axis of the offset from the centre frequency, in ppm when
+ * the span is under 0.1 % of it, else in SI-prefixed hertz. */
+#define BODE_NARROW 1.25
+typedef struct bode_axis {
+    int lin;      /* 1: linear offset axis */
+    double fc_hz; /* centre (Hz) */
+    double k;     /* plot units per hertz of offset */
+    char label[96];
+} bode_axis;
+
+static void bode_axis_for(const ru_plot_bode *b, bode_axis *ax)
+{
+    double f0 = b->f_hz[0], f1 = b->f_hz[b->n - 1];
+    memset(ax, 0, sizeof *ax);
+    if (f1 / f0 >= BODE_NARROW) {
+        snprintf(ax->label, sizeof ax->label, "frequency (log scale)");
+        return;
+    }
+    char c[32];
+    ax->lin = 1;
+    ax->fc_hz = 0.5 * (f0 + f1);
+    plot_si_text(ax->fc_hz, "Hz", 6, c, sizeof c);
+    if ((f1 - f0) / ax->fc_hz < 1e-3) {
+        ax->k = 1e6 / ax->fc_hz;
+        snprintf(ax->label, sizeof ax->label, "offset from %s (ppm)", c);
+    } else {
+        const char *pre;
+        ax->k = plot_si_scale(0.5 * (f1 - f0), &pre);
+        snprintf(ax->label, sizeof ax->label, "offset from %s (%sHz)", c, pre);
+    }
+}
+
+static double bode_x(const bode_axis *ax, double f_hz)
+{
+    return ax->lin ? (f_hz - ax->fc_hz) * ax->k : log10(f_hz);
+}
+
 /* Draws (or, with tint, shades down to 0 dB) the m points gathered so far. */
 static void bode_flush(double *x, double *y, size_t m, int phase, int tint)
 {
@@ -257,7 +296,8 @@ static void bode_flush(double *x, double *y, size_t m, int phase, int tint)
 /* Magnitude (dB) or phase (deg) curve in chunks; with tint, the area between the
  * curve and 0 dB where the gain exceeds one is shaded instead (runs start and end
  * at the interpolated 0 dB crossings). */
-static void bode_curve(const ru_plot_bode *b, int phase, double shift, int tint)
+static void bode_curve(const ru_plot_bode *b, const bode_axis *ax, int phase, double shift,
+                       int tint)
 {
     double x[CHUNK + 4], y[CHUNK + 4], prev = 0, acc = 0, px = 0, pv = 0;
     size_t m = 0;
@@ -266,7 +306,7 @@ static void bode_curve(const ru_plot_bode *b, int phase, double shift, int tint)
         int ok = phase || b->mag[i] > 0;
         double v = phase ? bode_phase_at(b, i, &prev, &acc) + shift
                          : (ok ? 20.0 * log10(b->mag[i]) : 0.0);
-        double xi = log10(b->f_hz[i]);
+        double xi = bode_x(ax, b->f_hz[i]);
         int in = ok && (!tint || v > 0);
         if (in) {
             if (m == 0 && tint && pok)
@@ -314,7 +354,10 @@ static void draw_bode(const void *data)
     const ru_plot_bode *b = data;
     char title[200], sub[200], what[120];
     double lo = 0, hi = 0, shift, plo, phi;
-    double fx0 = log10(b->f_hz[0]), fx1 = log10(b->f_hz[b->n - 1]);
+    bode_axis ax;
+    bode_axis_for(b, &ax);
+    double fx0 = bode_x(&ax, b->f_hz[0]), fx1 = bode_x(&ax, b->f_hz[b->n - 1]);
+    int lg10 = !ax.lin;
     for (size_t i = 0; i < b->n; i++)
         if (b->mag[i] > 0)
             lo = fmin(lo, 20 * log10(b->mag[i])), hi = fmax(hi, 20 * log10(b->mag[i]));
@@ -336,22 +379,22 @@ static void draw_bode(const void *data)
     plvpor(PLOT_VX0, PLOT_VX1, 0.48, PLOT_VY1);
     plwind(fx0, fx1, lo, hi);
     if (!b->is_loop)
-        bode_curve(b, 0, 0, 1);
-    plot_frame(PLOT_VX0, PLOT_VX1, 0.48, PLOT_VY1, fx0, fx1, lo, hi, 1, 1, 0, 0, NULL,
+        bode_curve(b, &ax, 0, 0, 1);
+    plot_frame(PLOT_VX0, PLOT_VX1, 0.48, PLOT_VY1, fx0, fx1, lo, hi, lg10, lg10, 0, 0, NULL,
                b->is_loop ? "|L| (dB)" : "|H| (dB)");
     double zx[2] = {fx0, fx1}, zy[2] = {0, 0};
     plot_line(2, zx, zy, PC_INK, 2.0, 1);
     plot_text(fx0, 0.07 * (hi - lo), 0.0, PC_INK, 0.8, " 0 dB: gain of one");
-    bode_curve(b, 0, 0, 0);
+    bode_curve(b, &ax, 0, 0, 0);
     if (isfinite(b->mark_hz) && b->mark_mag > 0)
-        bode_vline(log10(b->mark_hz), lo, hi);
-    plot_frame(PLOT_VX0, PLOT_VX1, PLOT_VY0, 0.42, fx0, fx1, plo, phi, 1, 1, 0,
-               phi - plo > 360 ? 180 : (phi - plo > 180 ? 90 : 45),
-               "frequency (log scale)", "phase (degrees)");
+        bode_vline(bode_x(&ax, b->mark_hz), lo, hi);
+    plot_frame(PLOT_VX0, PLOT_VX1, PLOT_VY0, 0.42, fx0, fx1, plo, phi, lg10, lg10, 0,
+               phi - plo > 360 ? 180 : (phi - plo > 180 ? 90 : 45), ax.label,
+               "phase (degrees)");
     plot_line(2, zx, zy, PC_INK, 1.5, 1);
-    bode_curve(b, 1, shift, 0);
+    bode_curve(b, &ax, 1, shift, 0);
     if (isfinite(b->mark_hz) && b->mark_mag > 0)
-        bode_vline(log10(b->mark_hz), plo, phi);
+        bode_vline(bode_x(&ax, b->mark_hz), plo, phi);
     plot_legend lg = {0};
     plot_legend_add(&lg, PC_BLUE, 0, 2.0, "magnitude");
     plot_legend_add(&lg, PC_GREEN, 0, 2.0, "phase");
