@@ -24,6 +24,9 @@ extern "C" {
 #endif
 
 #define RU_PRESET_MAX 32 /* most nodes a preset kick may set */
+#define RU_PARTS_MAX 10000 /* most parts of a circuit (README "Limits") */
+#define RU_NODES_MAX 2000  /* most nodes besides ground (README "Limits") */
+#define RU_TITLE_MAX 255   /* longest title, in bytes */
 
 typedef struct ru_circuit ru_circuit;
 
@@ -73,7 +76,8 @@ ru_status ru_circuit_clone(const ru_circuit *c, ru_circuit **out);
 void ru_circuit_destroy(ru_circuit *c);
 
 /* Index of a node, added if new ("gnd" and "0" are 0). Returns -1 when out of
- * memory or the name is empty or too long. line/col record the first mention. */
+ * memory, the name is empty or too long, or the circuit already has RU_NODES_MAX
+ * nodes besides ground. line/col record the first mention. */
 int ru_circuit_node(ru_circuit *c, const char *name, int line, int col);
 
 /* " (did you mean NAME?)" into buf when a node (or part) name of the circuit is
@@ -102,7 +106,8 @@ ru_status ru_circuit_replace_part(ru_circuit *c, size_t i, const ru_part *p,
 
 size_t ru_circuit_part_count(const ru_circuit *c);
 const ru_part *ru_circuit_part(const ru_circuit *c, size_t i);
-/* Mutable access for batch runs that change a value; the caller keeps it valid. */
+/* Mutable access for batch runs that change a value; the caller keeps it valid
+ * and never changes its name (use ru_circuit_replace_part for that). */
 ru_part *ru_circuit_part_mut(ru_circuit *c, size_t i);
 /* Index of the part with this name, or -1. */
 int ru_circuit_find_part(const ru_circuit *c, const char *name);

@@ -35,9 +35,14 @@ extern "C" {
 
 typedef struct ru_system ru_system;
 
+/* Most ODE states of a system (README "Limits"): the dense Jacobian and its LU
+ * take n^2 doubles and n^3/3 operations per factorization. */
+#define RU_STATES_MAX 1000
+
 /* Constructor. Fails with RU_EINPUT (err names the part) when a supply has neither
- * terminal on ground or on a driven node, or two supplies fix the same node. The
- * circuit must outlive the system. */
+ * terminal on ground or on a driven node, or two supplies fix the same node, and
+ * when the circuit has more than RU_STATES_MAX states. The circuit must outlive
+ * the system. */
 ru_status ru_system_create(const ru_circuit *c, ru_system **out, ru_error *err);
 
 /* Destructor; NULL is harmless. */

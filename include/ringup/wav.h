@@ -70,6 +70,8 @@ extern "C" {
 #define RU_WAV_CEILING_DBFS (-1.0)          /* highest peak level accepted */
 #define RU_WAV_MAX_BUFFER ((size_t)1 << 25) /* buffered probe samples (256 MiB) */
 #define RU_WAV_MAX_FRAMES ((size_t)1 << 25) /* audio frames (11.6 min at 48 kHz) */
+#define RU_WAV_PITCH_MIN_HZ 20.0            /* lowest --wav-pitch: the audible band */
+#define RU_WAV_PITCH_MAX_HZ 20000.0         /* highest --wav-pitch */
 
 typedef enum {
     RU_WAV_PCM24 = 0, /* 24-bit integer PCM */

@@ -334,7 +334,11 @@ static double noise_band(const ru_run_report *rep)
  * 170 solver steps each at normal accuracy). A long study can be split into runs. */
 #define RU_MAX_SAMPLES 5e7
 #define RU_MAX_CYCLES 2e6
-static ru_status check_size(const ru_circuit *c, const ru_run_report *rep, ru_error *err)
+/* wave.csv: at most RU_MAX_CSV_BYTES, estimated at 16 bytes a value (",%.10g" of a
+ * value such as -0.001234567891 is 16; exponents make some longer, zeros shorter) */
+#define RU_MAX_CSV_BYTES 2e9
+static ru_status check_size(const ru_circuit *c, const ru_run_request *rq,
+                            const ru_run_report *rep, ru_error *err)
 {
     if (!(rep->sample_s < rep->stop_s))
         return ru_error_set(err, RU_EINPUT, ru_circuit_file(c), 0, 0,
@@ -360,6 +364,16 @@ static ru_status check_size(const ru_circuit *c, const ru_run_report *rep, ru_er
                             "the run spans %.3g cycles of the %.4g Hz tone, more than "
                             "%.0e (hours of solver time): shorten the run",
                             cycles, rep->pred.frequency_hz, RU_MAX_CYCLES);
+    size_t cols = 1 + ru_circuit_node_count(c) - 1;
+    for (size_t i = 0; i < ru_circuit_part_count(c); i++)
+        cols += ru_circuit_part(c, i)->type == RU_PART_INDUCTOR;
+    double bytes = (samples + 1) * (double)cols * 16.0;
+    if (rq->out_dir && bytes > RU_MAX_CSV_BYTES)
+        return ru_error_set(err, RU_EINPUT, ru_circuit_file(c), 0, 0,
+                            "wave.csv would take about %.3g GB (%.3g samples of %zu "
+                            "columns), more than %.0f GB: lengthen the sample spacing or "
+                            "shorten the run",
+                            bytes / 1e9, samples + 1, cols, RU_MAX_CSV_BYTES / 1e9);
     return RU_OK;
 }
 
@@ -391,7 +405,7 @@ ru_status ru_analysis_run(const ru_circuit *c, const ru_run_request *rq,
         goto done;
     ru_stop_plan(c, sys, rq, rep);
     rep->sample_s = choose_sample(rq, ro, &rep->pred, rep->stop.first_s);
-    if ((st = check_size(c, rep, err)) != RU_OK ||
+    if ((st = check_size(c, rq, rep, err)) != RU_OK ||
         (st = check_sampling(c, rq, ro, rep, err)) != RU_OK)
         goto done;
     if (ro->kick == RU_KICK_NOISE && !has_noise_source(c)) {

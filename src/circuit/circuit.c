@@ -2,16 +2,19 @@
  *
  * Invariants kept here: node 0 is ground and is named "gnd"; every part accepted by
  * ru_circuit_add_part has finite values in range and node indices that exist; part
- * names are unique. Loader and tests both build through these calls, so the value
+ * names are unique and found by hash (nameindex.c), so building n parts costs
+ * O(n); at most RU_PARTS_MAX parts and RU_NODES_MAX nodes. Loader and tests both build through these calls, so the value
  * checks live in one place (check_values, which asks each part's descriptor,
  * src/parts/). */
 #include "ringup/circuit.h"
 
 #include "base/suggest.h"
+#include "circuit/nameindex.h"
 
 #include "parts/desc.h"
 
 #include <math.h>
+#include <stddef.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -31,6 +34,7 @@ struct ru_circuit {
     size_t nparts, cap_parts;
     char **warnings;
     size_t nwarn;
+    ru_name_index node_ix, part_ix; /* names to indices (nameindex.h) */
     ru_run_opts run;
     ru_measure_opts measure;
 };
@@ -69,8 +73,12 @@ void ru_circuit_destroy(ru_circuit *c)
     free(c->warnings);
     free(c->nodes);
     free(c->parts);
+    ru_name_index_free(&c->node_ix);
+    ru_name_index_free(&c->part_ix);
     free(c);
 }
+
+#define PART_NAMES(c) ((const char *)(c)->parts + offsetof(ru_part, name)), sizeof(ru_part)
 
 static void *dup_array(const void *src, size_t n, size_t size)
 {
@@ -93,7 +101,11 @@ ru_status ru_circuit_clone(const ru_circuit *c, ru_circuit **out)
     d->cap_parts = c->nparts;
     d->warnings = NULL;
     d->nwarn = 0;
-    if (!d->nodes || !d->parts) {
+    memset(&d->node_ix, 0, sizeof d->node_ix);
+    memset(&d->part_ix, 0, sizeof d->part_ix);
+    if (!d->nodes || !d->parts ||
+        ru_name_index_rebuild(&d->node_ix, d->nodes, sizeof *d->nodes, d->nnodes) != RU_OK ||
+        ru_name_index_rebuild(&d->part_ix, PART_NAMES(d), d->nparts) != RU_OK) {
         ru_circuit_destroy(d);
         return RU_ENOMEM;
     }
@@ -113,10 +125,8 @@ int ru_circuit_find_node(const ru_circuit *c, const char *name)
         return -1;
     if (strcmp(name, "gnd") == 0 || strcmp(name, "0") == 0)
         return 0;
-    for (size_t i = 1; i < c->nnodes; i++)
-        if (strcmp(c->nodes[i].name, name) == 0)
-            return (int)i;
-    return -1;
+    long k = ru_name_index_find(&c->node_ix, c->nodes, sizeof *c->nodes, name);
+    return k > 0 ? (int)k : -1;
 }
 
 int ru_circuit_node(ru_circuit *c, const char *name, int line, int col)
@@ -128,6 +138,8 @@ int ru_circuit_node(ru_circuit *c, const char *name, int line, int col)
         if (k >= 0)
             return k;
     }
+    if (c->nnodes > RU_NODES_MAX) /* ground and RU_NODES_MAX others */
+        return -1;
     if (c->nnodes == c->cap_nodes) {
         size_t cap = c->cap_nodes ? 2 * c->cap_nodes : 16;
         node_rec *n = realloc(c->nodes, cap * sizeof *n);
@@ -140,6 +152,8 @@ int ru_circuit_node(ru_circuit *c, const char *name, int line, int col)
     snprintf(r->name, sizeof r->name, "%s", name);
     r->line = line;
     r->col = col;
+    if (ru_name_index_add(&c->node_ix, c->nodes, sizeof *c->nodes, c->nnodes) != RU_OK)
+        return -1;
     return (int)c->nnodes++;
 }
 
@@ -222,8 +236,12 @@ ru_status ru_circuit_replace_part(ru_circuit *c, size_t i, const ru_part *p,
         return ru_error_set(err, RU_EINPUT, c->file, p->line, p->col,
                             "part %s: the name is empty or taken", p->name);
     ru_status s = check_values(c, p, err);
+    int renamed = s == RU_OK && strcmp(c->parts[i].name, p->name) != 0;
     if (s == RU_OK)
         c->parts[i] = *p;
+    if (renamed && ru_name_index_rebuild(&c->part_ix, PART_NAMES(c), c->nparts) != RU_OK)
+        s = ru_error_set(err, RU_ENOMEM, c->file, p->line, p->col,
+                         "out of memory renaming part %s", p->name);
     return s;
 }
 
@@ -232,6 +250,10 @@ ru_status ru_circuit_add_part(ru_circuit *c, const ru_part *p, ru_error *err)
     ru_status s = check_part(c, p, err);
     if (s != RU_OK)
         return s;
+    if (c->nparts >= RU_PARTS_MAX)
+        return ru_error_set(err, RU_EINPUT, c->file, p->line, p->col,
+                            "part %s: a circuit holds at most %d parts", p->name,
+                            RU_PARTS_MAX);
     if (c->nparts == c->cap_parts) {
         size_t cap = c->cap_parts ? 2 * c->cap_parts : 16;
         ru_part *q = realloc(c->parts, cap * sizeof *q);
@@ -241,7 +263,11 @@ ru_status ru_circuit_add_part(ru_circuit *c, const ru_part *p, ru_error *err)
         c->parts = q;
         c->cap_parts = cap;
     }
-    c->parts[c->nparts++] = *p;
+    c->parts[c->nparts] = *p;
+    if (ru_name_index_add(&c->part_ix, PART_NAMES(c), c->nparts) != RU_OK)
+        return ru_error_set(err, RU_ENOMEM, c->file, p->line, p->col,
+                            "out of memory adding part %s", p->name);
+    c->nparts++;
     return RU_OK;
 }
 
@@ -259,10 +285,7 @@ ru_part *ru_circuit_part_mut(ru_circuit *c, size_t i)
 
 int ru_circuit_find_part(const ru_circuit *c, const char *name)
 {
-    for (size_t i = 0; i < c->nparts; i++)
-        if (strcmp(c->parts[i].name, name) == 0)
-            return (int)i;
-    return -1;
+    return (int)ru_name_index_find(&c->part_ix, PART_NAMES(c), name);
 }
 
 const char *ru_circuit_title(const ru_circuit *c) { return c->title; }

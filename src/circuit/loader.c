@@ -94,6 +94,9 @@ static ru_status read_top(ld_doc *d, const char *models_dir, ru_circuit **out,
     const ru_ypair *p = ru_ld_find(d->root, "title");
     if (s == RU_OK && p)
         s = ru_ld_scalar(d, p, "", err, &title);
+    if (s == RU_OK && strlen(title) > RU_TITLE_MAX)
+        s = ru_ld_fail(d, ru_ld_val(p), err, "key title is %zu bytes long, more than the %d "
+                       "a title may have", strlen(title), RU_TITLE_MAX);
     ru_circuit *c = NULL;
     if (s == RU_OK && (s = ru_circuit_create(title, &c)) != RU_OK)
         ru_error_set(err, s, d->file, 0, 0, "out of memory creating the circuit");

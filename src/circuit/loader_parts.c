@@ -32,6 +32,11 @@ static ru_status node_of(ld_ctx *x, const ru_ynode *v, const ru_ynode *place,
                           who, key, name ? name : "", RU_NAME_MAX - 1);
     int line, col;
     ru_ld_place(x->d, v, &line, &col);
+    if (ru_circuit_find_node(x->c, name) < 0 && ru_circuit_node_count(x->c) > RU_NODES_MAX)
+        return ru_ld_fail(x->d, v, x->err,
+                          "%s: key %s: node %s would be node %d; a circuit holds at most %d "
+                          "nodes besides ground",
+                          who, key, name, RU_NODES_MAX + 1, RU_NODES_MAX);
     *node = ru_circuit_node(x->c, name, line, col);
     if (*node < 0)
         return ru_error_set(x->err, RU_ENOMEM, x->d->file, line, col,

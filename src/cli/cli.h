@@ -52,6 +52,14 @@ const char *cli_get(const cli_opt *opts, const char *name);
  * returns 0 when it does not parse. */
 int cli_value(const cli_opt *opts, const char *name, const char *unit, double *out);
 
+#define RU_CLI_THREADS_MAX 1024 /* most --threads */
+
+/* A whole-number option: decimal digits only (no sign, exponent or SI prefix),
+ * from lo to hi; *out is left alone when the option is absent. Prints an error
+ * naming the option, the text and the range, and returns 0, when it is not. */
+int cli_int(const cli_opt *opts, const char *name, unsigned long long lo,
+            unsigned long long hi, unsigned long long *out);
+
 /* As cli_value, and the value (when given) must be positive. */
 int cli_positive(const cli_opt *opts, const char *name, const char *unit, double *out);
 

@@ -121,6 +121,26 @@ int cli_value(const cli_opt *opts, const char *name, const char *unit, double *o
     return 1;
 }
 
+int cli_int(const cli_opt *opts, const char *name, unsigned long long lo,
+            unsigned long long hi, unsigned long long *out)
+{
+    const char *v = cli_get(opts, name);
+    if (!v)
+        return 1;
+    int ok = v[0] != '\0' && strlen(v) <= 20;
+    for (const char *q = v; ok && *q; q++)
+        ok = *q >= '0' && *q <= '9';
+    errno = 0;
+    unsigned long long n = ok ? strtoull(v, NULL, 10) : 0;
+    if (!ok || errno == ERANGE || n < lo || n > hi) {
+        fprintf(stderr, "ringup: option --%s: '%s' is not a whole number from %llu to %llu\n",
+                name, v, lo, hi);
+        return 0;
+    }
+    *out = n;
+    return 1;
+}
+
 int cli_fail(const ru_error *err)
 {
     char buf[RU_ERROR_TEXT + RU_ERROR_FILE + 64];

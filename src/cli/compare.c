@@ -181,9 +181,8 @@ int cmd_compare(int argc, char **argv)
         return 1;
     ru_run_request rq;
     ru_run_request_default(&rq);
-    double threads = 0;
-    if (!cli_stop(opts, &rq) ||
-        !cli_positive(opts, "threads", NULL, &threads))
+    unsigned long long threads = 0;
+    if (!cli_stop(opts, &rq) || !cli_int(opts, "threads", 1, RU_CLI_THREADS_MAX, &threads))
         return 1;
     if (cli_accuracy(opts, &rq.accuracy) != 0)
         return 1;

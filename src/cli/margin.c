@@ -271,13 +271,9 @@ int cmd_margin(int argc, char **argv)
                        opts, &file);
     if (rc >= 0)
         return rc;
-    double npts = 401;
-    if (!cli_value(opts, "points", NULL, &npts))
+    unsigned long long npts = 401;
+    if (!cli_int(opts, "points", 2, 100000, &npts))
         return 1;
-    if (!(npts >= 2 && npts <= 100000) || npts != floor(npts)) {
-        fprintf(stderr, "ringup margin: --points takes a whole number from 2 to 100000\n");
-        return 1;
-    }
     const char *pname = cli_get(opts, "part");
     if (!pname) {
         fprintf(stderr, "ringup margin: --part NAME is required\n");

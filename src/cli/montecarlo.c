@@ -239,23 +239,12 @@ static int plot_units(const cli_plot_req *pr, const ru_circuit *c, const ru_mc_o
 static int read_opts(const cli_opt *opts, ru_mc_opts *o)
 {
     ru_mc_opts_default(o);
-    double samples = (double)o->samples, seed = (double)o->seed, threads = 0;
-    if (!cli_positive(opts, "samples", NULL, &samples) || !cli_value(opts, "seed", NULL, &seed) ||
-        !cli_positive(opts, "threads", NULL, &threads) ||
-        !cli_stop(opts, &o->request))
+    unsigned long long samples = o->samples, seed = o->seed, threads = 0;
+    if (!cli_int(opts, "samples", 1, RU_MC_MAX_SAMPLES, &samples) ||
+        !cli_int(opts, "seed", 0, 9007199254740992ULL, &seed) ||
+        !cli_int(opts, "threads", 1, RU_CLI_THREADS_MAX, &threads) ||
+        !cli_positive(opts, "stop", "s", &o->request.stop_s))
         return 1;
-    if (samples != floor(samples) || samples > RU_MC_MAX_SAMPLES) {
-        fprintf(stderr, "ringup montecarlo: --samples wants a whole number from 1 to %d "
-                        "(each unit is a full run; only its figures are kept)\n",
-                RU_MC_MAX_SAMPLES);
-        return 1;
-    }
-    if (seed < 0 || seed != floor(seed) || seed > 9007199254740992.0 ||
-        threads != floor(threads) || threads > 1024) {
-        fprintf(stderr, "ringup montecarlo: --seed and --threads want whole numbers "
-                        "(seed >= 0, threads up to 1024)\n");
-        return 1;
-    }
     const char *dist = cli_get(opts, "distribution");
     if (dist && strcmp(dist, "uniform") && strcmp(dist, "normal")) {
         fprintf(stderr, "ringup montecarlo: --distribution takes uniform or normal\n");

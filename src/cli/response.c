@@ -277,14 +277,11 @@ int cmd_response(int argc, char **argv)
                        opts, &file);
     if (rc >= 0)
         return rc;
-    double fmin = NAN, fmax = NAN, npts = 201;
+    double fmin = NAN, fmax = NAN;
+    unsigned long long npts = 201;
     if (!cli_value(opts, "fmin", "Hz", &fmin) || !cli_value(opts, "fmax", "Hz", &fmax) ||
-        !cli_value(opts, "points", NULL, &npts))
+        !cli_int(opts, "points", 2, 100000, &npts))
         return 1;
-    if (!(npts >= 2 && npts <= 100000) || npts != floor(npts)) {
-        fprintf(stderr, "ringup response: --points takes a whole number from 2 to 100000\n");
-        return 1;
-    }
     cli_plot_req plots;
     if ((rc = cli_plot_check(opts, &plots)) != 0)
         return rc;

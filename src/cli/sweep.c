@@ -144,14 +144,10 @@ static void free_points(point *p, size_t n)
 static int read_run_opts(const cli_opt *opts, ru_run_request *rq, double *threads)
 {
     ru_run_request_default(rq);
-    *threads = 0;
-    if (!cli_stop(opts, rq) ||
-        !cli_positive(opts, "threads", NULL, threads))
+    unsigned long long n = 0;
+    if (!cli_stop(opts, rq) || !cli_int(opts, "threads", 1, RU_CLI_THREADS_MAX, &n))
         return 1;
-    if (*threads != floor(*threads) || *threads > 1024) {
-        fprintf(stderr, "ringup: option --threads wants a whole number up to 1024\n");
-        return 1;
-    }
+    *threads = (double)n;
     return cli_accuracy(opts, &rq->accuracy);
 }
 

@@ -55,6 +55,12 @@ static ru_status check_time(const ru_wav_opts *o, ru_error *err)
     if (!(o->pitch_hz >= 0 && o->pitch_hz < 1e9))
         return ru_error_set(err, RU_ERANGE, NULL, 0, 0,
                             "WAV pitch must be > 0 Hz (got %g Hz)", o->pitch_hz);
+    if (o->pitch_hz > 0 && !(o->pitch_hz >= RU_WAV_PITCH_MIN_HZ &&
+                             o->pitch_hz <= RU_WAV_PITCH_MAX_HZ))
+        return ru_error_set(err, RU_ERANGE, NULL, 0, 0,
+                            "WAV pitch %g Hz is outside the audible band (%g Hz to %g kHz, "
+                            "common practice): the tone could not be heard",
+                            o->pitch_hz, RU_WAV_PITCH_MIN_HZ, RU_WAV_PITCH_MAX_HZ / 1e3);
     if (o->pitch_hz == 0 && !(o->time_scale > 0 && o->time_scale < 1e15))
         return ru_error_set(err, RU_ERANGE, NULL, 0, 0,
                             "WAV time scale must be > 0 (got %g)", o->time_scale);

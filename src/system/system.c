@@ -314,8 +314,14 @@ ru_status ru_system_create(const ru_circuit *c, ru_system **out, ru_error *err)
     }
     if (st == RU_OK) {
         count_states(s);
-        st = alloc_states(s);
-        if (st != RU_OK)
+        st = s->n > RU_STATES_MAX
+                 ? ru_error_set(err, RU_EINPUT, ru_circuit_file(c), 0, 0,
+                                "the circuit has %zu states (%zu free nodes, %zu branch "
+                                "currents, %zu internal), more than the %d the dense solver "
+                                "takes (its time grows with the cube of the states)",
+                                s->n, s->nfree, s->nind, s->nint, RU_STATES_MAX)
+                 : alloc_states(s);
+        if (st == RU_ENOMEM)
             ru_error_set(err, st, "", 0, 0, "out of memory");
     }
     if (st == RU_OK) {
