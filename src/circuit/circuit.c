@@ -3,9 +3,9 @@
  * Invariants kept here: node 0 is ground and is named "gnd"; every part accepted by
  * ru_circuit_add_part has finite values in range and node indices that exist; part
  * names are unique and found by hash (nameindex.c), so building n parts costs
- * O(n); at most RU_PARTS_MAX parts and RU_NODES_MAX nodes. Loader and tests both build through these calls, so the value
- * checks live in one place (check_values, which asks each part's descriptor,
- * src/parts/). */
+ * O(n); at most RU_PARTS_MAX parts and RU_NODES_MAX nodes. Loader and tests both
+ * build through these calls, so the value checks live in one place (check_values,
+ * which asks each part's descriptor, src/parts/). */
 #include "ringup/circuit.h"
 
 #include "base/suggest.h"
