@@ -137,6 +137,41 @@ void ru_system_apply_jump(const ru_system *s, double t, double *x);
 ru_status ru_system_set_noise(ru_system *s, unsigned long seed, double bandwidth_hz,
                               double temp_c);
 
+/* Small-signal noise sources of the parts, for phase-noise analysis (independent of
+ * the noise kick above). Each source is one independent noise of one-sided density
+ * S(f) = S_white(x) (1 + fc / f) entering the residual along b(x):
+ *   thermal     every resistor (4kT/R, a current across it), every inductor's series
+ *               resistance (4kTR, a voltage in its branch), every thermal resistor
+ *               (4kT/R(T) at its own temperature T = tamb + rise)
+ *   shot        every diode (2q|i|) and every exp-stage output (2q|i_out|, the
+ *               junction's collector current)
+ * Resistors and inductors have no temperature of their own: they are at temp_c. */
+typedef enum ru_noise_kind {
+    RU_NOISE_THERMAL, /* Johnson-Nyquist */
+    RU_NOISE_SHOT,    /* Schottky's shot noise */
+    RU_NOISE_KIND_COUNT
+} ru_noise_kind;
+
+typedef struct ru_noise_info {
+    int part;                 /* index of the part in the circuit */
+    ru_noise_kind kind;
+    double flicker_corner_hz; /* fc (0: white) */
+    const char *label;        /* "thermal", "shot", ... (static text) */
+} ru_noise_info;
+
+/* Number of noise sources; their order is fixed by the circuit. */
+size_t ru_system_noise_count(const ru_system *s);
+
+/* Source k (0 <= k < count); RU_ERANGE for k out of range. */
+ru_status ru_system_noise_info(const ru_system *s, size_t k, ru_noise_info *info);
+
+/* Noise columns at state x (sources at their DC values): B is n*m row-major with
+ * m = ru_system_noise_count(s); column k is sqrt(S_white,k(x)) M^{-1} b_k(x), so
+ * that x' = f(x) + B w(t) with w of unit one-sided density in every entry (two-sided
+ * 1/2). Resistors and inductors are at temp_c. RU_ENOMEM, RU_ERANGE (bad temp_c). */
+ru_status ru_system_noise_columns(const ru_system *s, const double *x, double temp_c,
+                                  double *B);
+
 /* Typical magnitude of each state (volts for nodes, amperes for inductors) for
  * absolute tolerances: from the supplies, sources and presets. scale has n entries. */
 void ru_system_state_scale(const ru_system *s, double *scale);

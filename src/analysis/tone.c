@@ -4,7 +4,7 @@
  * Order: system -> probe -> operating point (its failure only removes the
  * describing-function start; a given start state still works) -> shooting Newton
  * -> CSV. The tone owns the system and the steady state; nothing is shared. */
-#include "ringup/tone.h"
+#include "analysis/tone_impl.h"
 
 #include "ringup/smallsig.h"
 #include "ringup/system.h"
@@ -15,23 +15,19 @@
 #include <stdlib.h>
 #include <string.h>
 
-struct ru_tone {
-    ru_system *sys;
-    ru_steady *steady;
-    double *x_op;                    /* operating point, NULL when not found */
-    ru_tone_spectrum spec;           /* the probe's harmonics (NAN: not known) */
-    char probe[2 * RU_NAME_MAX + 2];
-};
 
 void ru_tone_request_default(ru_tone_request *rq)
 {
     memset(rq, 0, sizeof *rq);
+    rq->temp_c = 27.0;
+    rq->noise_factor = 1.0;
 }
 
 void ru_tone_destroy(ru_tone *t)
 {
     if (!t)
         return;
+    ru_ppv_destroy(t->ppv);
     ru_steady_destroy(t->steady);
     ru_system_destroy(t->sys);
     free(t->x_op);
@@ -162,6 +158,8 @@ ru_status ru_tone_run(const ru_circuit *c, const ru_tone_request *rq, ru_tone **
     }
     if (st == RU_OK)
         tone_harmonics(t);
+    if (st == RU_OK && rq->jitter)
+        st = ru_tone_noise_run(c, t, rq, err);
     if (st == RU_OK && rq->out_dir) {
         ru_steady_view v;
         ru_steady_get(t->steady, &v);

@@ -26,6 +26,7 @@ int cmd_sweep(int argc, char **argv);
 int cmd_montecarlo(int argc, char **argv);
 int cmd_steady(int argc, char **argv);
 int cmd_margin(int argc, char **argv);
+int cmd_jitter(int argc, char **argv);
 
 /* One option of a command: "--name VALUE" (or --name=VALUE) or a flag. */
 typedef struct cli_opt {

@@ -22,6 +22,8 @@ static const cli_command commands[] = {
      cmd_steady},
     {"margin", "negative resistance seen by a part (crystal margin, drive level)",
      cmd_margin},
+    {"jitter", "phase noise and jitter of the settled tone (PPV), Leeson beside it",
+     cmd_jitter},
 };
 
 static void usage(FILE *fp)

@@ -1,0 +1,150 @@
+/* system_noise.c: the parts' small-signal noise sources for phase-noise analysis
+ * (ringup/system.h): which parts are noisy, how each noise enters the residual, and
+ * its white density at a state. The order of sources is the order of the parts,
+ * one source per noisy part; it never depends on the state.
+ *
+ * Densities (one-sided): Johnson-Nyquist thermal noise 4kT/R of a resistance as a
+ * current across it, or 4kTR as a voltage in series (Nyquist, Phys. Rev. 32 (1928)
+ * 110); Schottky's shot noise 2q|I| of a junction current. */
+#include "system/system_impl.h"
+
+#include "parts/laws.h"
+
+#include <math.h>
+#include <stdlib.h>
+#include <string.h>
+
+/* The source a part has (0 or 1), its kind and label. */
+static int part_noise(const ru_part *p, ru_noise_kind *kind)
+{
+    switch (p->type) {
+    case RU_PART_RESISTOR:
+    case RU_PART_THERMAL:
+        *kind = RU_NOISE_THERMAL;
+        return 1;
+    case RU_PART_INDUCTOR:
+        *kind = RU_NOISE_THERMAL;
+        return p->series_ohm > 0;
+    case RU_PART_DIODE:
+        *kind = RU_NOISE_SHOT;
+        return 1;
+    case RU_PART_AMPLIFIER:
+        *kind = RU_NOISE_SHOT;
+        return p->amp.law == RU_LAW_EXP_STAGE;
+    default:
+        return 0;
+    }
+}
+
+size_t ru_system_noise_count(const ru_system *s)
+{
+    size_t m = 0;
+    ru_noise_kind kind;
+    for (size_t i = 0; i < s->nparts; i++)
+        m += (size_t)part_noise(ru_circuit_part(s->c, i), &kind);
+    return m;
+}
+
+/* Part index of source k, or -1. */
+static int source_part(const ru_system *s, size_t k, ru_noise_kind *kind)
+{
+    for (size_t i = 0; i < s->nparts; i++)
+        if (part_noise(ru_circuit_part(s->c, i), kind) && k-- == 0)
+            return (int)i;
+    return -1;
+}
+
+ru_status ru_system_noise_info(const ru_system *s, size_t k, ru_noise_info *info)
+{
+    ru_noise_kind kind = RU_NOISE_THERMAL;
+    int part = source_part(s, k, &kind);
+    memset(info, 0, sizeof *info);
+    if (part < 0)
+        return RU_ERANGE;
+    info->part = part;
+    info->kind = kind;
+    info->flicker_corner_hz = 0.0;
+    info->label = kind == RU_NOISE_THERMAL ? "thermal" : "shot";
+    return RU_OK;
+}
+
+/* b of a current flowing a -> b through the part (it leaves a, enters b). */
+static void branch_vec(const ru_system *s, int a, int b, double *col)
+{
+    int sa = s->node_state[a], sb = s->node_state[b];
+    if (sa >= 0)
+        col[sa] -= 1.0;
+    if (sb >= 0)
+        col[sb] += 1.0;
+}
+
+/* Density (one-sided) and entry vector b of the source of part i at node voltages v
+ * and state x; returns the density. */
+static double source_at(const ru_system *s, size_t i, const double *v, const double *x,
+                        double kt_j, double *col)
+{
+    const ru_part *p = ru_circuit_part(s->c, i);
+    int a = p->node[0], b = p->node[1];
+    switch (p->type) {
+    case RU_PART_RESISTOR:
+        branch_vec(s, a, b, col);
+        return 4.0 * kt_j / p->value;
+    case RU_PART_INDUCTOR: /* a series voltage e adds e/L to di/dt */
+        col[s->part_state[i]] += 1.0 / p->value;
+        return 4.0 * kt_j * p->series_ohm;
+    case RU_PART_THERMAL: {
+        double rise = x[s->part_state[i]], drdx;
+        double r = ru_thermal_resistance(&p->thermal, rise, &drdx);
+        double t_k = p->thermal.tamb_c + 273.15 + rise;
+        branch_vec(s, a, b, col);
+        return 4.0 * RU_K_BOLTZMANN * fmax(t_k, 0.0) / r;
+    }
+    case RU_PART_DIODE: {
+        double g, id = ru_diode_current(&p->diode, v[a] - v[b], &g);
+        branch_vec(s, a, b, col);
+        return 2.0 * RU_Q_ELECTRON * fabs(id);
+    }
+    case RU_PART_AMPLIFIER: { /* exp-stage: shot noise of the output current */
+        int inv = ru_part_inv_node(p);
+        int st = ru_sys_part_nstates(p) ? s->part_state[i] : -1;
+        ru_law_eval e;
+        ru_law_eval_state(&p->amp, v[p->node[0]] - v[inv], v[p->node[1]] - v[p->node[2]],
+                          st >= 0 ? x[st] : 0.0, &e);
+        branch_vec(s, p->node[2], p->node[1], col); /* into out, out of ref */
+        return 2.0 * RU_Q_ELECTRON * fabs(e.i_out);
+    }
+    default:
+        return 0.0;
+    }
+}
+
+ru_status ru_system_noise_columns(const ru_system *s, const double *x, double temp_c,
+                                  double *B)
+{
+    if (!(temp_c > -273.15) || !isfinite(temp_c))
+        return RU_ERANGE;
+    size_t n = s->n, m = ru_system_noise_count(s);
+    double *v = malloc((2 * s->nnodes + n) * sizeof *v);
+    if (!v)
+        return RU_ENOMEM;
+    double *dv = v + s->nnodes, *col = dv + s->nnodes;
+    ru_src_eval e = {0.0, 1, 1.0};
+    ru_sys_node_values(s, &e, x, v, dv);
+    double kt = RU_K_BOLTZMANN * (temp_c + 273.15);
+    memset(B, 0, n * m * sizeof *B);
+    ru_noise_kind kind;
+    size_t k = 0;
+    for (size_t i = 0; i < s->nparts; i++) {
+        if (!part_noise(ru_circuit_part(s->c, i), &kind))
+            continue;
+        memset(col, 0, n * sizeof *col);
+        double dens = source_at(s, i, v, x, kt, col);
+        ru_sys_csolve(s, col);
+        double g = sqrt(fmax(dens, 0.0));
+        for (size_t r = 0; r < n; r++)
+            B[r * m + k] = g * col[r];
+        k++;
+    }
+    free(v);
+    return RU_OK;
+}
