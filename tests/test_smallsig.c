@@ -3,6 +3,7 @@
  * Circuits are built with the builder API (our own values). Each check names its
  * reference; tolerances are explained beside them. Networks that are linear are
  * linearised at x = 0 (their linearisation does not depend on x). */
+#include "base/cplx.h"
 #include "ru_test.h"
 
 #include "ringup/circuit.h"
@@ -455,7 +456,7 @@ static double complex log_det(lapack_complex_double *k, size_t n)
     for (size_t i = 0; i < n; i++) {
         sum += clog(k[i * n + i]);
         if (piv[i] != (lapack_int)i + 1)
-            sum += CMPLX(0.0, PI);
+            sum += RU_CMPLX(0.0, PI);
     }
     free(piv);
     return sum;
@@ -494,12 +495,12 @@ static void test_loop_determinant_identity(void **state)
     for (int q = 0; q < 3; q++) {
         double w = 2.0 * PI * fs[q], re, im;
         for (size_t i = 0; i < n * n; i++) {
-            k1[i] = CMPLX(-dr[i], w * m[i]);
-            k2[i] = CMPLX(-a0[i], w * m[i]);
+            k1[i] = RU_CMPLX(-dr[i], w * m[i]);
+            k2[i] = RU_CMPLX(-a0[i], w * m[i]);
         }
         double complex ratio = cexp(log_det(k1, n) - log_det(k2, n));
         assert_int_equal(ru_loopgain_at(s, part, x, fs[q], &re, &im, &err), RU_OK);
-        double complex one_minus_l = 1.0 - CMPLX(re, im);
+        double complex one_minus_l = 1.0 - RU_CMPLX(re, im);
         RU_ASSERT_NEAR(cabs(one_minus_l - ratio), 0.0, 1e-9 * cabs(ratio));
     }
     /* The stage inverts: at low frequency L is real and negative, |L| > 1. */

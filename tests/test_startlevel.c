@@ -2,6 +2,7 @@
  * linear tank with a negative conductance, where the growing part of the response
  * has a closed form: a current source ramped into the tank, a step, and the
  * thermal noise of a resistor across it. Circuits are our own values. */
+#include "base/cplx.h"
 #include "ru_test.h"
 
 #include "engines/startlevel.h"
@@ -62,7 +63,7 @@ static ru_start_level level_of(const char *text, double *lam_re, double *lam_im)
  * refinement to 1e-10), so 1e-7 relative. */
 static double ramp_level(double re, double im, double T)
 {
-    double complex lam = CMPLX(re, im);
+    double complex lam = RU_CMPLX(re, im);
     if (T == 0)
         return I0 / (C * im);
     return I0 * cabs(1 - cexp(-lam * T)) / (T * C * cabs(lam) * im);

@@ -154,7 +154,7 @@ ru_status ru_ld_scalar(const ld_doc *d, const ru_ypair *p, const char *who, ru_e
 ru_status ru_ld_value(const ld_doc *d, const ru_ypair *p, const char *who, const char *unit,
                       ru_error *err, double *out)
 {
-    const char *text;
+    const char *text = NULL;
     ru_status s = ru_ld_scalar(d, p, who, err, &text);
     if (s != RU_OK)
         return s;

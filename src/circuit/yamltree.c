@@ -188,7 +188,7 @@ static ru_status on_scalar(builder *b, const yaml_event_t *e)
     if (memchr(e->data.scalar.value, '\0', len))
         return fail_at(b, line_of(e->start_mark), col_of(e->start_mark),
                        "a value holds a NUL character (\\0 is not allowed)");
-    ru_ynode *n;
+    ru_ynode *n = NULL;
     ru_status s = new_node(b, RU_YAML_SCALAR, e->start_mark, &n);
     char *text = s == RU_OK ? arena_alloc(b->y, len + 1) : NULL;
     if (s == RU_OK && !text)
@@ -213,7 +213,7 @@ static ru_status on_start(builder *b, const yaml_event_t *e, ru_yaml_type type)
         return fail_at(b, line_of(e->start_mark), col_of(e->start_mark),
                        "mappings and lists nest deeper than %d levels", RU_YAML_DEPTH_MAX);
     }
-    ru_ynode *n;
+    ru_ynode *n = NULL;
     ru_status s = new_node(b, type, e->start_mark, &n);
     if (s != RU_OK)
         return s;

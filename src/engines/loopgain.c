@@ -8,6 +8,7 @@
  * Response: (jwM - dr/dx) v = 0 for every row but the driven input node's, which
  * becomes v_in = 1; the answer is v_out. Ground and supply-driven output nodes
  * carry no signal (0). Invariants: all work arrays belong to one call. */
+#include "base/cplx.h"
 #include "engines/smallsig_impl.h"
 
 #include <complex.h>
@@ -64,7 +65,7 @@ static ru_status ctx_alloc(lin_ctx *c, size_t n, ru_error *err)
 static void fill_k(lin_ctx *c, double w)
 {
     for (size_t i = 0; i < c->n * c->n; i++)
-        c->K[i] = CMPLX(-c->A[i], w * c->M[i]);
+        c->K[i] = RU_CMPLX(-c->A[i], w * c->M[i]);
 }
 
 static ru_status solve_k(lin_ctx *c, double f_hz, ru_error *err)

@@ -7,6 +7,7 @@
  * from its formula (resistor, capacitor, inductor with its series resistance) or,
  * for other parts, from the whole circuit's driving-point admittance less the
  * rest's: Y_part = Y_whole - Y_rest, both linearized at the same point. */
+#include "base/cplx.h"
 #include "engines/margin_impl.h"
 
 #include "ringup/smallsig.h"
@@ -36,7 +37,7 @@ ru_status ru_margin_port_z(size_t n, const double *A, const double *M, int ka, i
         goto done;
     }
     for (size_t i = 0; i < n * n; i++)
-        K[i] = CMPLX(-A[i], w * M[i]);
+        K[i] = RU_CMPLX(-A[i], w * M[i]);
     for (size_t i = 0; i < n; i++)
         v[i] = 0;
     if (ka >= 0)
@@ -258,7 +259,7 @@ ru_status ru_margin_part_z(const ru_margin *m, double f_hz, double *re_ohm,
         st = ru_margin_rest_z(m, f_hz, &rr, &ri, err);
     if (st != RU_OK)
         return st;
-    double complex y = 1.0 / CMPLX(wr, wi) - 1.0 / CMPLX(rr, ri);
+    double complex y = 1.0 / RU_CMPLX(wr, wi) - 1.0 / RU_CMPLX(rr, ri);
     if (!(cabs(y) > 0))
         return ru_error_set(err, RU_ENUMERIC, NULL, 0, 0,
                             "margin: part %s draws no small-signal current", p->name);
@@ -282,11 +283,11 @@ void ru_margin_dominant(const ru_margin *m, double *re_per_s, double *im_rad_per
 /* X_part + Im Z at f. */
 static ru_status total_x(const ru_margin *m, double f, double *x, ru_error *err)
 {
-    double pr, pi, rr, ri;
+    double pr = 0, pi = 0, rr = 0, ri = 0;
     ru_status st = ru_margin_part_z(m, f, &pr, &pi, err);
     if (st == RU_OK)
         st = ru_margin_rest_z(m, f, &rr, &ri, err);
-    *x = pi + ri;
+    *x = st == RU_OK ? pi + ri : NAN;
     return st;
 }
 

@@ -13,6 +13,7 @@
  * continued from the linear solution up the amplitude grid. The port voltage's
  * phasor is V = (Xc_a - Xc_b) - j (Xs_a - Xs_b), Z = V / I. At each amplitude the
  * frequency is moved (secant) until X_part + Im Z = 0. */
+#include "base/cplx.h"
 #include "engines/margin_impl.h"
 
 #include <complex.h>
@@ -188,7 +189,7 @@ static double complex hb_z(const hb *h, double cur)
         vc -= h->u[n + (size_t)m->kb];
         vs -= h->u[2 * n + (size_t)m->kb];
     }
-    return CMPLX(vc / cur, -vs / cur);
+    return RU_CMPLX(vc / cur, -vs / cur);
 }
 
 /* The linear solution at amplitude cur and w as the first guess. */
@@ -201,7 +202,7 @@ static ru_status hb_linear_guess(hb *h, double cur, double w)
     ru_status st = (K && v && piv) ? RU_OK : RU_ENOMEM;
     if (st == RU_OK) {
         for (size_t i = 0; i < n * n; i++)
-            K[i] = CMPLX(-m->A[i], w * m->M[i]);
+            K[i] = RU_CMPLX(-m->A[i], w * m->M[i]);
         for (size_t i = 0; i < n; i++)
             v[i] = 0;
         if (m->ka >= 0)

@@ -1,6 +1,7 @@
 /* startlevel.c: the dominant mode's start level from the actual kick: the
  * initial state's projection, the response to every source's ramp and jump, and
  * the accumulated thermal noise (equations in engines/startlevel.h). */
+#include "base/cplx.h"
 #include "engines/startlevel.h"
 
 #include "engines/modes.h"
@@ -76,11 +77,11 @@ static ru_status ctx_init(mode_ctx *c, const ru_system *s, const double *x_op, r
     ru_system_state_scale(s, c->xscale);
     if ((st = ru_mode_near(s, x_op, dom, &lam, w, w + n, w + 2 * n, w + 3 * n)) != RU_OK)
         goto done;
-    c->lam = CMPLX(lam.re_per_s, lam.im_rad_per_s);
+    c->lam = RU_CMPLX(lam.re_per_s, lam.im_rad_per_s);
     c->uhv = 0;
     for (size_t i = 0; i < n; i++) {
-        c->v[i] = CMPLX(w[i], w[n + i]);
-        c->u[i] = CMPLX(w[2 * n + i], w[3 * n + i]);
+        c->v[i] = RU_CMPLX(w[i], w[n + i]);
+        c->u[i] = RU_CMPLX(w[2 * n + i], w[3 * n + i]);
         c->uhv += conj(c->u[i]) * c->v[i];
     }
     /* M^T Y = [u_re u_im] (M is real): Y = M^{-T} u */
@@ -96,7 +97,7 @@ static ru_status ctx_init(mode_ctx *c, const ru_system *s, const double *x_op, r
                       (lapack_int)n) != 0) /* row-major M read as column-major is M^T */
         goto done;
     for (size_t i = 0; i < n; i++)
-        c->ut[i] = CMPLX(rhs[i], rhs[n + i]);
+        c->ut[i] = RU_CMPLX(rhs[i], rhs[n + i]);
     st = RU_OK;
     int kp = ru_system_node_state(s, pos), kn = ru_system_node_state(s, neg);
     double complex pv = (kp >= 0 ? c->v[kp] : 0) - (kn >= 0 ? c->v[kn] : 0);
