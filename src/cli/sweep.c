@@ -215,11 +215,16 @@ int cmd_sweep(int argc, char **argv)
             if (cli_capture_printing(&cap))
                 print_table(c, &s, p, items);
             char *text = cli_capture_end(&cap);
+            /* figure legends name the key with each value: "L1.value = 5.000 mH" */
             const char **labels = calloc(s.n, sizeof *labels);
-            for (size_t i = 0; labels && i < s.n; i++)
-                labels[i] = p[i].label;
-            rc = labels ? cli_plot_items(&plots, c, items, s.n, labels, text) : 2;
+            char (*named)[RU_PARAM_NAME_MAX + 40] = calloc(s.n, sizeof *named);
+            for (size_t i = 0; labels && named && i < s.n; i++) {
+                snprintf(named[i], sizeof named[i], "%s = %s", s.param, p[i].label);
+                labels[i] = named[i];
+            }
+            rc = labels && named ? cli_plot_items(&plots, c, items, s.n, labels, text) : 2;
             free(labels);
+            free(named);
             free(text);
         }
     }

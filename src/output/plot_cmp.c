@@ -125,8 +125,9 @@ static void cmp_bars(const plot_models *pm, int which, double vx0, double vx1)
         plot_axis_label(lab, sizeof lab, "start-up time", pre, f, "s");
     else
         snprintf(lab, sizeof lab, "THD (%%)");
-    plot_frame(vx0, vx1, PLOT_VY0, PLOT_VY1 - 0.04, 0, top, 0.4, pm->n + 0.6, 0, 0, 0, 0,
-               lab, NULL);
+    /* a half-width panel: about four intervals, so the tick numbers never touch */
+    plot_frame_ticks(vx0, vx1, PLOT_VY0, PLOT_VY1 - 0.04, 0, top, 0.4, pm->n + 0.6, 0, 0, 0,
+                     plot_nice_step(top, 4), 0, lab, NULL);
     for (size_t k = 0; k < pm->n; k++) {
         double y = (double)(pm->n - k);
         if (!isfinite(v[k])) {

@@ -89,6 +89,12 @@ void plot_titles(const char *title, const char *subtitle);
 void plot_frame(double vx0, double vx1, double vy0, double vy1, double xlo, double xhi,
                 double ylo, double yhi, int xlog, int xhz, int ylog, double ytick,
                 const char *xlab, const char *ylab);
+/* The same with a given x tick spacing (0: PLplot's choice). */
+void plot_frame_ticks(double vx0, double vx1, double vy0, double vy1, double xlo,
+                      double xhi, double ylo, double yhi, int xlog, int xhz, int ylog,
+                      double xtick, double ytick, const char *xlab, const char *ylab);
+/* A 1, 2 or 5 times a power of ten step giving about n intervals over span. */
+double plot_nice_step(double span, int n);
 #define PAGE_W 960 /* page size (pixels for PNG, points for PDF and SVG) */
 #define PAGE_H 600
 /* Default single-panel viewport. */

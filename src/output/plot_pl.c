@@ -270,19 +270,39 @@ void plot_frame(double vx0, double vx1, double vy0, double vy1, double xlo, doub
                 double ylo, double yhi, int xlog, int xhz, int ylog, double ytick,
                 const char *xlab, const char *ylab)
 {
+    plot_frame_ticks(vx0, vx1, vy0, vy1, xlo, xhi, ylo, yhi, xlog, xhz, ylog, 0.0, ytick,
+                     xlab, ylab);
+}
+
+double plot_nice_step(double span, int n)
+{
+    if (!(span > 0) || n < 1)
+        return 0.0;
+    double raw = span / n, mag = pow(10.0, floor(log10(raw)));
+    static const double m[] = {1, 2, 5, 10};
+    for (int i = 0; i < 4; i++)
+        if (m[i] * mag >= raw * (1.0 - 1e-9))
+            return m[i] * mag;
+    return 10 * mag;
+}
+
+void plot_frame_ticks(double vx0, double vx1, double vy0, double vy1, double xlo,
+                      double xhi, double ylo, double yhi, int xlog, int xhz, int ylog,
+                      double xtick, double ytick, const char *xlab, const char *ylab)
+{
     char xo[16], yo[16];
     plvpor(vx0, vx1, vy0, vy1);
     plwind(xlo, xhi, ylo, yhi);
     plwidth(1.0);
     pllsty(1);
     plcol0(PC_GRID);
-    plbox(xlog ? "gh" : "g", 0, 0, ylog ? "gh" : "g", ytick, 0);
+    plbox(xlog ? "gh" : "g", xtick, 0, ylog ? "gh" : "g", ytick, 0);
     plcol0(PC_INK);
     snprintf(xo, sizeof xo, "bcnst%s", xlog ? (xhz ? "lo" : "l") : "");
     snprintf(yo, sizeof yo, "%s%s", ylab ? "bcnstv" : "bc", ylog ? "l" : "");
     if (xhz)
         plslabelfunc(plot_hz_label, NULL);
-    plbox(xo, 0, 0, yo, ytick, 0);
+    plbox(xo, xtick, 0, yo, ytick, 0);
     if (xhz)
         plslabelfunc(NULL, NULL);
     if (xlab)
