@@ -30,7 +30,7 @@ PUBLIC = {
     "circuit.h": "circuit", "loader.h": "circuit", "params.h": "circuit",
     "system.h": "system",
     "transient.h": "engines", "smallsig.h": "engines", "descfn.h": "engines",
-    "steady.h": "engines", "ppv.h": "engines",
+    "steady.h": "engines", "ppv.h": "engines", "hb.h": "engines",
     "envfollow.h": "engines", "margin.h": "engines",
     "measure.h": "measure", "verdict.h": "measure",
     "wavefile.h": "output", "plot.h": "output", "wav.h": "output",

@@ -15,6 +15,7 @@
 #include "ringup/transient.h"
 #include "ringup/verdict.h"
 #include "ringup/descfn.h"
+#include "ringup/hb.h"
 #include "ringup/plot.h"
 #include "ringup/wav.h"
 
@@ -95,6 +96,8 @@ typedef struct ru_prediction {
                                      level (describing function) */
     double settled_amplitude_v;   /* from the describing function (ringup/descfn.h) */
     double df_frequency_hz;       /* tone frequency where the describing function settles */
+    int have_hb;                  /* the harmonic balance found a tone */
+    ru_hb_tone hb;                /* its settled tone (ringup/hb.h) */
     int have_loop;                /* loop gain evaluated */
     char loop_part[RU_NAME_MAX];
     ru_loop_summary loop;

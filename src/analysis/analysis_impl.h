@@ -45,6 +45,11 @@ ru_status ru_predict(const ru_circuit *c, const ru_system *s, const char *loop_p
                      int probe_pos, int probe_neg, ru_run_report *rep, ru_run_data *keep,
                      double *x_op, ru_error *err);
 
+/* The describing function's amplitude, the harmonic balance's tone and the
+ * start-up time into rep->pred (predict_tone.c); failures become notes. */
+void ru_predict_tone(const ru_system *s, const double *x_op, int pos, int neg,
+                     ru_run_report *rep, ru_run_data *keep);
+
 /* After the transient: the comparison of measured against predicted figures. */
 void ru_selfcheck(ru_run_report *rep);
 

@@ -121,89 +121,6 @@ done:
     free(poles);
 }
 
-/* Shares of the predicted start-up time above which the slowest other time
- * constant withholds the prediction, or makes it rough (our own rule, from the
- * corpus in tests/data/predict: a state that needs a third of the start-up to
- * follow no longer sits on the quasi-static balance). */
-#define RU_SLOW_WITHHOLD 0.3
-#define RU_SLOW_NOTE 0.05
-
-/* Start-up time from the describing function's growth-rate curve: the envelope
- * obeys dA/dt = sigma(A) A, so it takes t = integral dA / (A sigma(A)) from the
- * start level to the start-up level (a share of the settled amplitude). */
-static void predict_startup(ru_df *df, double amp_v, ru_run_report *rep)
-{
-    ru_prediction *pr = &rep->pred;
-    double a0 = pr->kick_amplitude_v, top = rep->startup_level * amp_v;
-    if (pr->start_driven) {
-        ru_report_note(rep, "no start-up prediction: a periodic source keeps driving "
-                            "the circuit, so there is no start level");
-        return;
-    }
-    if (!isfinite(a0))
-        return; /* the note says why */
-    if (!(a0 < top)) {
-        ru_report_note(rep, "no start-up prediction: the kick (%.3g V in the dominant "
-                            "mode) is not below the start-up level (%.3g V), so the start "
-                            "is not a growth from a small level",
-                       a0, top);
-        return;
-    }
-    ru_error e;
-    ru_error_clear(&e);
-    double t;
-    if (ru_df_startup_time(df, a0, top, &t, &e) != RU_OK) {
-        ru_report_note(rep, "no start-up prediction: %s", e.msg);
-        return;
-    }
-    /* The envelope equation takes every other state as following the amplitude at
-     * once (a quasi-static balance). A slow decaying mode (a bias capacitor, a lamp
-     * or thermistor warming) that is not short against the start-up breaks that. */
-    double tau = pr->slowest_decay_per_s > 0 ? 1.0 / pr->slowest_decay_per_s : 0;
-    if (tau > RU_SLOW_WITHHOLD * t) {
-        ru_report_note(rep, "no start-up prediction: a time constant of %.3g s (a bias "
-                            "capacitor, a lamp or thermistor) is not short against the "
-                            "%.3g s the envelope equation gives, so the amplitude does "
-                            "not follow the quasi-static growth-rate curve",
-                       tau, t);
-        return;
-    }
-    pr->startup_time_s = t;
-    if (tau > RU_SLOW_NOTE * t)
-        ru_report_note(rep, "the predicted start-up time is rough: a time constant of "
-                            "%.3g s is %.0f %% of it, and the envelope equation takes the "
-                            "slow states as following the amplitude at once",
-                       tau, 100 * tau / t);
-}
-
-/* Settled amplitude by the describing-function method (ringup/descfn.h), then the
- * start-up time from its sigma(A). */
-static void predict_amplitude(const ru_system *s, const double *x_op, int pos, int neg,
-                              ru_run_report *rep, ru_run_data *keep)
-{
-    ru_df_result res;
-    size_t npts = 0;
-    ru_df *df = NULL;
-    ru_error e;
-    ru_error_clear(&e);
-    ru_status st = ru_df_create(s, x_op, pos, neg, &df, &e);
-    if (st == RU_OK)
-        st = ru_df_find(df, 0, keep ? keep->df : NULL, keep ? RU_RUN_DATA_DF_MAX : 0,
-                        &npts, &res, &e);
-    if (keep)
-        keep->ndf = npts;
-    if (st != RU_OK)
-        ru_report_note(rep, "no amplitude prediction: %s", e.msg);
-    else if (!res.found)
-        ru_report_note(rep, "no amplitude prediction: %s", res.note);
-    if (st == RU_OK && res.found) {
-        rep->pred.settled_amplitude_v = res.settled_amplitude_v;
-        rep->pred.df_frequency_hz = res.frequency_hz;
-        predict_startup(df, res.settled_amplitude_v, rep);
-    }
-    ru_df_destroy(df);
-}
-
 static ru_status predict_loop(const ru_circuit *c, const ru_system *s, const char *loop,
                               const double *x_op, ru_run_report *rep, ru_run_data *keep,
                               ru_error *err)
@@ -264,7 +181,7 @@ ru_status ru_predict(const ru_circuit *c, const ru_system *s, const char *loop_p
         memcpy(x_op_out, x_op, n * sizeof *x_op);
     predict_poles(s, x_op, probe_pos, probe_neg, rep, keep);
     if (pr->have_poles && pr->growth_rate_per_s > 0)
-        predict_amplitude(s, x_op, probe_pos, probe_neg, rep, keep);
+        ru_predict_tone(s, x_op, probe_pos, probe_neg, rep, keep);
     if (loop_part && loop_part[0])
         st = predict_loop(c, s, loop_part, x_op, rep, keep, err);
 done:
@@ -310,8 +227,18 @@ void ru_selfcheck(ru_run_report *rep)
     if (pr->have_poles && pr->growth_rate_per_s < 0 && m->started)
         ru_report_note(rep, "the poles are in the left half-plane yet the run started: "
                             "a large kick can start a hard-excited oscillator");
-    /* the describing function predicts the fundamental: compare like with like */
-    if (isfinite(pr->settled_amplitude_v) && isfinite(m->fundamental_v) &&
+    /* the balances predict the fundamental: compare like with like */
+    const ru_hb_tone *h = pr->have_hb && pr->hb.converged ? &pr->hb : NULL;
+    if (h && isfinite(m->fundamental_v) &&
+        (fabs(m->fundamental_v / h->fundamental_v - 1) > 0.02 ||
+         fabs(m->frequency_hz / h->frequency_hz - 1) > 0.005))
+        ru_report_note(rep, "the measured tone differs from the harmonic balance's (%d "
+                            "harmonics): fundamental %+.2f %%, frequency %+.3f %%; the run "
+                            "may not have settled, or the settled state is not one "
+                            "periodic tone",
+                       h->harmonics, 100 * (m->fundamental_v / h->fundamental_v - 1),
+                       100 * (m->frequency_hz / h->frequency_hz - 1));
+    if (!h && isfinite(pr->settled_amplitude_v) && isfinite(m->fundamental_v) &&
         fabs(m->fundamental_v / pr->settled_amplitude_v - 1) > 0.05)
         ru_report_note(rep, "measured fundamental differs from the describing-function "
                             "prediction by %+.1f %%: that method keeps only the "

@@ -82,6 +82,30 @@ int cli_load(const char *file, int quiet, ru_circuit **out);
 /* The run keys of DESIGN.md (measured, predicted, solver) into an open object. */
 void cli_json_run_body(ru_json *j, const ru_run_report *r);
 
+/* The harmonic balance's settled tone as the object "harmonic_balance". */
+void cli_json_hb(ru_json *j, const ru_hb_tone *h);
+
+/* `poles --amplitude` (poles_amp.c): the describing function's curve, a short
+ * table at shares of the settled amplitude (the crossing of the jw axis marked) and
+ * the harmonic balance's tone. */
+#define CLI_AMP_CURVE 200
+#define CLI_AMP_ROWS 12
+typedef struct cli_amp {
+    ru_df_point curve[CLI_AMP_CURVE]; /* the sweep, every point */
+    size_t ncurve;
+    ru_df_point rows[CLI_AMP_ROWS];   /* the table */
+    size_t nrows;
+    int crossing;                     /* row where sigma = 0, or -1 */
+    ru_df_result df;
+    int have_hb;
+    ru_hb_tone hb;
+    char hb_note[RU_ERROR_TEXT + 32];
+} cli_amp;
+ru_status cli_amp_compute(const ru_system *s, const double *x_op, int pos, int neg,
+                          cli_amp *t, ru_error *err);
+void cli_amp_print(const cli_amp *t, const char *probe);
+void cli_amp_json(ru_json *j, const cli_amp *t);
+
 /* The run's `notes` array (why a figure is null, self-checks) into an open object. */
 void cli_json_notes(ru_json *j, const ru_run_report *r);
 

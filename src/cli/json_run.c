@@ -29,6 +29,24 @@ static void json_measured(ru_json *j, const ru_run_report *r)
     ru_json_number(j, "dc_level_v", m->dc_level_v);
 }
 
+void cli_json_hb(ru_json *j, const ru_hb_tone *h)
+{
+    ru_json_begin_object(j, "harmonic_balance");
+    ru_json_bool(j, "converged", h->converged);
+    ru_json_int(j, "harmonics", h->harmonics);
+    ru_json_number(j, "settled_amplitude_v", h->amplitude_v);
+    ru_json_number(j, "fundamental_v", h->fundamental_v);
+    ru_json_number(j, "frequency_hz", h->frequency_hz);
+    ru_json_number(j, "dc_level_v", h->dc_level_v);
+    ru_json_number(j, "thd_percent", h->thd_percent);
+    ru_json_begin_array(j, "harmonics_dbc");
+    for (int k = 0; k < RU_HB_REPORT - 1; k++)
+        ru_json_number(j, NULL, h->harmonics_dbc[k]);
+    ru_json_end_array(j);
+    ru_json_string(j, "note", h->note);
+    ru_json_end_object(j);
+}
+
 void cli_json_run_body(ru_json *j, const ru_run_report *r)
 {
     json_measured(j, r);
@@ -44,6 +62,11 @@ void cli_json_run_body(ru_json *j, const ru_run_report *r)
                                           : p->start_kind == 2 ? "noise"
                                                                : "power-on");
     ru_json_number(j, "start_level_rms_v", p->start_rms_v);
+    if (p->have_hb) {
+        cli_json_hb(j, &p->hb);
+    } else {
+        ru_json_null(j, "harmonic_balance");
+    }
     ru_json_end_object(j);
     const ru_stop_info *si = &r->stop;
     ru_json_begin_object(j, "stop");

@@ -22,34 +22,10 @@ typedef struct poles_result {
     ru_loop_summary loop;
     int have_loop;
     int probe_pos, probe_neg; /* probe for the amplitude curve */
-    ru_df_point *curve;       /* describing-function curve (--amplitude), or NULL */
-    size_t ncurve;
-    ru_df_result df;
+    cli_amp *amp;             /* --amplitude: curve, table and balance, or NULL */
     double loop_f[RU_RUN_DATA_LOOP_POINTS], loop_mag[RU_RUN_DATA_LOOP_POINTS],
         loop_ph[RU_RUN_DATA_LOOP_POINTS];
 } poles_result;
-
-#define CURVE_MAX 200
-
-static void print_curve(const ru_circuit *c, const poles_result *p)
-{
-    char a[40], b[40];
-    const char *pn = ru_circuit_node_name(c, p->probe_pos);
-    printf("\ndominant pair against the amplitude on %s (describing function):\n", pn);
-    printf("  %-14s %-16s %s\n", "amplitude", "growth rate", "frequency");
-    size_t stride = p->ncurve > 30 ? p->ncurve / 30 : 1;
-    for (size_t i = 0; i < p->ncurve; i += stride)
-        printf("  %-14s %-+16.6g %s\n", ru_format_si(p->curve[i].amplitude_v, "V", 4, a, sizeof a),
-               p->curve[i].growth_rate_per_s,
-               ru_format_si(p->curve[i].frequency_hz, "Hz", 6, b, sizeof b));
-    if (p->df.found)
-        printf("predicted settled amplitude: %s at %s (where the growth rate reaches 0)\n",
-               ru_format_si(p->df.settled_amplitude_v, "V", 5, a, sizeof a),
-               ru_format_si(p->df.frequency_hz, "Hz", 6, b, sizeof b));
-    if (p->df.note[0])
-        printf("note: %s\n", p->df.note);
-    printf("(an approximation where the tone carries strong harmonics or a law has memory)\n");
-}
 
 static void print_text(const ru_circuit *c, const poles_result *p)
 {
@@ -79,8 +55,8 @@ static void print_text(const ru_circuit *c, const poles_result *p)
     } else {
         printf("\nno complex pole pair: nothing here oscillates\n");
     }
-    if (p->curve)
-        print_curve(c, p);
+    if (p->amp)
+        cli_amp_print(p->amp, ru_circuit_node_name(c, p->probe_pos));
     if (p->have_loop) {
         const ru_part *pt = ru_circuit_part(c, (size_t)p->loop_part);
         if (p->loop.found)
@@ -120,22 +96,8 @@ static void print_json(const ru_circuit *c, const poles_result *p)
     } else {
         ru_json_null(&j, "dominant");
     }
-    if (p->curve) {
-        ru_json_begin_array(&j, "amplitude_curve");
-        for (size_t i = 0; i < p->ncurve; i++) {
-            ru_json_begin_object(&j, NULL);
-            ru_json_number(&j, "amplitude_v", p->curve[i].amplitude_v);
-            ru_json_number(&j, "growth_rate_per_s", p->curve[i].growth_rate_per_s);
-            ru_json_number(&j, "frequency_hz", p->curve[i].frequency_hz);
-            ru_json_end_object(&j);
-        }
-        ru_json_end_array(&j);
-        ru_json_begin_object(&j, "predicted");
-        ru_json_number(&j, "settled_amplitude_v", p->df.found ? p->df.settled_amplitude_v : NAN);
-        ru_json_number(&j, "frequency_hz", p->df.found ? p->df.frequency_hz : NAN);
-        ru_json_string(&j, "note", p->df.note);
-        ru_json_end_object(&j);
-    }
+    if (p->amp)
+        cli_amp_json(&j, p->amp);
     if (p->have_loop) {
         ru_json_begin_object(&j, "loop");
         ru_json_string(&j, "part", ru_circuit_part(c, (size_t)p->loop_part)->name);
@@ -165,8 +127,7 @@ static ru_status amplitude_curve(const ru_circuit *c, poles_result *p, ru_error 
     if (p->probe_pos < 0)
         return ru_error_set(err, RU_EINPUT, ru_circuit_file(c), 0, 0,
                             "no free node to probe for the amplitude curve");
-    return ru_df_analyse(p->sys, p->x, p->probe_pos, p->probe_neg, 0, p->curve, CURVE_MAX,
-                         &p->ncurve, &p->df, err);
+    return cli_amp_compute(p->sys, p->x, p->probe_pos, p->probe_neg, p->amp, err);
 }
 
 static ru_status compute(const ru_circuit *c, const char *loop, poles_result *p,
@@ -194,7 +155,7 @@ static ru_status compute(const ru_circuit *c, const char *loop, poles_result *p,
     if ((st = ru_poles_compute(p->sys, p->x, p->poles, err)) != RU_OK)
         return st;
     p->dom = ru_poles_dominant(p->poles, n);
-    if (p->curve && (st = amplitude_curve(c, p, err)) != RU_OK)
+    if (p->amp && (st = amplitude_curve(c, p, err)) != RU_OK)
         return st;
     if (!loop || !loop[0])
         return RU_OK;
@@ -215,14 +176,15 @@ static int plot_poles(const cli_plot_req *pr, const ru_circuit *c, const poles_r
 {
     if (!pr->dir && !pr->report)
         return 0;
-    ru_pole drift[CURVE_MAX];
-    double amp[CURVE_MAX];
-    for (size_t i = 0; i < p->ncurve; i++) {
-        drift[i].re_per_s = p->curve[i].growth_rate_per_s;
-        drift[i].im_rad_per_s = 2 * M_PI * p->curve[i].frequency_hz;
-        amp[i] = p->curve[i].amplitude_v;
+    ru_pole drift[CLI_AMP_CURVE];
+    double amp[CLI_AMP_CURVE];
+    size_t nd = p->amp ? p->amp->ncurve : 0;
+    for (size_t i = 0; i < nd; i++) {
+        drift[i].re_per_s = p->amp->curve[i].growth_rate_per_s;
+        drift[i].im_rad_per_s = 2 * M_PI * p->amp->curve[i].frequency_hz;
+        amp[i] = p->amp->curve[i].amplitude_v;
     }
-    ru_plot_poles pp = {ru_system_size(p->sys), p->poles, p->dom, p->ncurve, amp, drift};
+    ru_plot_poles pp = {ru_system_size(p->sys), p->poles, p->dom, nd, amp, drift};
     ru_plot_bode loop = {1, p->have_loop ? ru_circuit_part(c, (size_t)p->loop_part)->name : "",
                          RU_RUN_DATA_LOOP_POINTS, p->loop_f, p->loop_mag, p->loop_ph,
                          p->loop.found ? p->loop.crossover_hz : NAN,
@@ -263,7 +225,7 @@ int cmd_poles(int argc, char **argv)
     const char *loop = cli_get(opts, "loop");
     if (!loop)
         loop = ru_circuit_measure_opts_const(c)->loop;
-    if (cli_get(opts, "amplitude") && !(p.curve = calloc(CURVE_MAX, sizeof *p.curve))) {
+    if (cli_get(opts, "amplitude") && !(p.amp = calloc(1, sizeof *p.amp))) {
         ru_circuit_destroy(c);
         return 2;
     }
@@ -284,7 +246,7 @@ int cmd_poles(int argc, char **argv)
     free(text);
     free(p.x);
     free(p.poles);
-    free(p.curve);
+    free(p.amp);
     ru_system_destroy(p.sys);
     ru_circuit_destroy(c);
     return rc;

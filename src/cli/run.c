@@ -81,6 +81,22 @@ static void print_start_level(const ru_prediction *p)
     }
 }
 
+/* The harmonic balance's H2 and H3 beside the measured list, and what gave the
+ * predicted tone. */
+static void print_predicted_harmonics(const ru_hb_tone *h)
+{
+    printf("  %-20s", "  predicted (dBc)");
+    for (int k = 0; k < 2; k++) {
+        double d = h->harmonics_dbc[k];
+        if (isfinite(d) && d > -200)
+            printf(" H%d %.1f", k + 2, d);
+        else
+            printf(" H%d <-200", k + 2);
+    }
+    printf("   (harmonic balance, %d harmonics%s)\n", h->harmonics,
+           h->converged ? "" : ", not converged");
+}
+
 static void print_text(const ru_circuit *c, const ru_run_report *r, int auto_sample)
 {
     const ru_measure_result *m = &r->meas;
@@ -112,17 +128,27 @@ static void print_text(const ru_circuit *c, const ru_run_report *r, int auto_sam
     row("start-up time", m->startup_time_s, p->startup_time_s, "s");
     rate_row("growth rate", m->growth_rate_per_s, p->growth_rate_per_s);
     row("frequency", m->frequency_hz, p->frequency_hz, "Hz");
-    if (isfinite(p->df_frequency_hz))
-        row("  at settled size", NAN, p->df_frequency_hz, "Hz");
-    row("settled amplitude", m->settled_amplitude_v, NAN, "V");
-    row("  fundamental", m->fundamental_v, p->settled_amplitude_v, "V");
+    const ru_hb_tone *h = p->have_hb ? &p->hb : NULL;
+    if (h || isfinite(p->df_frequency_hz))
+        row("  at settled size", NAN, h ? h->frequency_hz : p->df_frequency_hz, "Hz");
+    row("settled amplitude", m->settled_amplitude_v, h ? h->amplitude_v : NAN, "V");
+    row("  fundamental", m->fundamental_v, h ? h->fundamental_v : p->settled_amplitude_v,
+        "V");
     printf("  %-20s %s\n", "settled", isfinite(m->settled_amplitude_v) ? yes_no(m->settled) : "-");
     row("settling time", m->settling_time_s, NAN, "s");
-    printf("  %-20s %s\n", "THD",
-           isfinite(m->thd_percent) ? (snprintf(a, sizeof a, "%.4g %%", m->thd_percent), a)
-                                    : "-");
+    if (isfinite(m->thd_percent))
+        snprintf(a, sizeof a, "%.4g %%", m->thd_percent);
+    else
+        snprintf(a, sizeof a, "-");
+    if (h)
+        snprintf(b, sizeof b, "%.4g %%", h->thd_percent);
+    else
+        snprintf(b, sizeof b, "-");
+    printf("  %-20s %-16s %s\n", "THD", a, b);
     print_harmonics(m);
-    row("DC level", m->dc_level_v, NAN, "V");
+    if (h)
+        print_predicted_harmonics(h);
+    row("DC level", m->dc_level_v, h ? h->dc_level_v : NAN, "V");
     if (isfinite(m->growth_rate_per_s))
         printf("\ngrowth fit: %d cycles from %s to %s, rms residual %.2g\n",
                m->growth_fit_points, ru_format_si(m->growth_fit_t0_s, "s", 3, a, sizeof a),

@@ -9,6 +9,7 @@
  * sigma is refined by regula falsi (Illinois) inside the bracket the sweep found. */
 #include "engines/descfn_impl.h"
 
+#include "engines/envtime.h"
 #include "engines/modes.h"
 
 #include <math.h>
@@ -297,43 +298,22 @@ ru_status ru_df_zero_state(const ru_df *d, double *x0, double *x_re, double *x_i
 
 /* ---- start-up time: t = integral of d(ln A) / sigma(A) ---- */
 
-typedef struct quad {
-    ru_df *d;
-    ru_status st;        /* first failure */
-    int nonpositive;     /* 1: sigma <= 0 met inside the range */
-    int evals;
-} quad;
+enum { QUAD_FAILED = 1, QUAD_NONPOSITIVE = 2 };
 
-/* 1 / sigma at amplitude e^u. */
-static double inv_sigma(quad *q, double u)
+/* 1 / sigma at amplitude e^u (engines/envtime.h). */
+static double inv_sigma(void *user, double u, int *fail)
 {
     ru_df_point p;
     ru_error e;
-    if (q->st != RU_OK)
+    if (ru_df_at(user, exp(u), &p, &e) != RU_OK) {
+        *fail = QUAD_FAILED;
         return 0;
-    q->evals++;
-    if ((q->st = ru_df_at(q->d, exp(u), &p, &e)) != RU_OK)
-        return 0;
+    }
     if (!(p.growth_rate_per_s > 0)) {
-        q->nonpositive = 1;
-        q->st = RU_ERANGE;
+        *fail = QUAD_NONPOSITIVE;
         return 0;
     }
     return 1.0 / p.growth_rate_per_s;
-}
-
-/* Adaptive Simpson on [a, b] with f at a, (a+b)/2, b and the whole-interval rule. */
-static double simpson(quad *q, double a, double b, double fa, double fm, double fb,
-                      double whole, double tol, int depth)
-{
-    double m = 0.5 * (a + b), lm = 0.5 * (a + m), rm = 0.5 * (m + b);
-    double flm = inv_sigma(q, lm), frm = inv_sigma(q, rm);
-    double left = (m - a) / 6 * (fa + 4 * flm + fm), right = (b - m) / 6 * (fm + 4 * frm + fb);
-    double diff = left + right - whole;
-    if (q->st != RU_OK || depth <= 0 || fabs(diff) <= 15 * tol)
-        return left + right + diff / 15;
-    return simpson(q, a, m, fa, flm, fm, left, 0.5 * tol, depth - 1) +
-           simpson(q, m, b, fm, frm, fb, right, 0.5 * tol, depth - 1);
 }
 
 ru_status ru_df_startup_time(ru_df *d, double a_from_v, double a_to_v, double *t_s,
@@ -345,25 +325,24 @@ ru_status ru_df_startup_time(ru_df *d, double a_from_v, double a_to_v, double *t
                             "start-up integral: need 0 < start level < end level (got "
                             "%g, %g V)",
                             a_from_v, a_to_v);
-    quad q = {d, RU_OK, 0, 0};
-    double t = 0, lo = a_from_v;
+    double t = 0, lo = a_from_v, part = 0;
+    int fail = 0;
     if (lo < d->a_min) { /* below the first balance sigma is the poles' (linear limit) */
-        double f = inv_sigma(&q, log(d->a_min));
+        double f = inv_sigma(d, log(d->a_min), &fail);
         t += log(fmin(d->a_min, a_to_v) / lo) * f;
         lo = d->a_min;
     }
-    if (q.st == RU_OK && a_to_v > lo) {
-        double a = log(lo), b = log(a_to_v), m = 0.5 * (a + b);
-        double fa = inv_sigma(&q, a), fm = inv_sigma(&q, m), fb = inv_sigma(&q, b);
-        double whole = (b - a) / 6 * (fa + 4 * fm + fb);
-        t += simpson(&q, a, b, fa, fm, fb, whole, RU_DF_QUAD_REL * fabs(whole), 40);
+    if (!fail && a_to_v > lo) {
+        fail = ru_envtime_integrate(inv_sigma, d, log(lo), log(a_to_v), RU_DF_QUAD_REL,
+                                    &part);
+        t += part;
     }
-    if (q.nonpositive)
+    if (fail == QUAD_NONPOSITIVE)
         return ru_error_set(err, RU_ERANGE, NULL, 0, 0,
                             "the growth rate is not positive everywhere between the "
                             "start level and the end level");
-    if (q.st != RU_OK)
-        return ru_error_set(err, q.st, NULL, 0, 0,
+    if (fail)
+        return ru_error_set(err, RU_ENOCONVERGE, NULL, 0, 0,
                             "the one-harmonic balance failed inside the start-up range");
     *t_s = t;
     return RU_OK;

@@ -43,6 +43,9 @@ static int pole_in_view(const ru_plot_poles *p, const ru_pole *q)
     return hypot(q->re_per_s, q->im_rad_per_s) <= 4.0 * hypot(d->re_per_s, d->im_rad_per_s);
 }
 
+/* The view in 1/s on both axes: every pole in view and the drift, the jw axis with
+ * room on both sides, then widened along one axis so that a unit is as long on
+ * both (the page's plot area is wider than tall): angles and Q read true. */
 static void poles_range(const ru_plot_poles *p, double r[4], size_t *far, double *far_re)
 {
     r[0] = 0, r[1] = 0, r[2] = 0, r[3] = 0;
@@ -55,30 +58,41 @@ static void poles_range(const ru_plot_poles *p, double r[4], size_t *far, double
             continue;
         }
         r[0] = fmin(r[0], q->re_per_s), r[1] = fmax(r[1], q->re_per_s);
-        r[2] = fmin(r[2], -fabs(q->im_rad_per_s) / TWO_PI);
-        r[3] = fmax(r[3], fabs(q->im_rad_per_s) / TWO_PI);
+        r[2] = fmin(r[2], -fabs(q->im_rad_per_s));
+        r[3] = fmax(r[3], fabs(q->im_rad_per_s));
     }
-    double xs = fmax(r[1] - r[0], 0.05 * (r[3] - r[2]) * TWO_PI);
+    double xs = r[1] - r[0];
     if (!(xs > 0))
-        xs = 1.0;
+        xs = fmax(1.0, 0.05 * (r[3] - r[2]));
     r[0] -= 0.25 * xs, r[1] += 0.25 * xs;  /* room for the jw axis and labels */
     plot_pad(&r[2], &r[3], 0.15);
+    double w = (PLOT_VX1 - PLOT_VX0) * PAGE_W, h = (PLOT_VY1 - PLOT_VY0) * PAGE_H;
+    double dx = r[1] - r[0], dy = r[3] - r[2];
+    if (dy / dx > h / w) { /* too tall for the area: widen x about its middle */
+        double grow = dy * w / h - dx;
+        r[0] -= 0.5 * grow, r[1] += 0.5 * grow;
+    } else {
+        double grow = dx * h / w - dy;
+        r[2] -= 0.5 * grow, r[3] += 0.5 * grow;
+    }
 }
 
-static void poles_marks(const ru_plot_poles *p, double kx, double ky)
+static void poles_marks(const ru_plot_poles *p, double k)
 {
     for (size_t i = 0; i < p->n; i++)
         if (pole_in_view(p, &p->poles[i]))
-            plot_cross(p->poles[i].re_per_s * kx, p->poles[i].im_rad_per_s / TWO_PI * ky,
-                       PC_BLUE, 6.0);
+            plot_cross(p->poles[i].re_per_s * k, p->poles[i].im_rad_per_s * k, PC_BLUE, 6.0);
     if (p->dominant < 0)
         return;
     const ru_pole *d = &p->poles[p->dominant];
-    plot_ring(d->re_per_s * kx, d->im_rad_per_s / TWO_PI * ky, PC_VERMIL, 13.0);
-    plot_ring(d->re_per_s * kx, -d->im_rad_per_s / TWO_PI * ky, PC_VERMIL, 13.0);
+    for (int sgn = -1; sgn <= 1; sgn += 2) { /* a ray from the origin shows the angle */
+        double x[2] = {0, d->re_per_s * k}, y[2] = {0, sgn * d->im_rad_per_s * k};
+        plot_line(2, x, y, PC_VERMIL, 1.0, 2);
+        plot_ring(x[1], y[1], PC_VERMIL, 13.0);
+    }
 }
 
-static void poles_drift(const ru_plot_poles *p, double kx, double ky)
+static void poles_drift(const ru_plot_poles *p, double k)
 {
     double x[CHUNK + 1], y[CHUNK + 1];
     char buf[64], a[32];
@@ -86,12 +100,12 @@ static void poles_drift(const ru_plot_poles *p, double kx, double ky)
     while (i < p->ndrift) {
         size_t m = 0;
         if (i > 0) {
-            x[m] = p->drift[i - 1].re_per_s * kx;
-            y[m++] = p->drift[i - 1].im_rad_per_s / TWO_PI * ky;
+            x[m] = p->drift[i - 1].re_per_s * k;
+            y[m++] = p->drift[i - 1].im_rad_per_s * k;
         }
         for (size_t j = 0; j < CHUNK && i < p->ndrift; j++, i++) {
-            x[m] = p->drift[i].re_per_s * kx;
-            y[m++] = p->drift[i].im_rad_per_s / TWO_PI * ky;
+            x[m] = p->drift[i].re_per_s * k;
+            y[m++] = p->drift[i].im_rad_per_s * k;
         }
         plot_line(m, x, y, PC_GREEN, 2.0, 1);
         plcol0(PC_GREEN);
@@ -101,15 +115,27 @@ static void poles_drift(const ru_plot_poles *p, double kx, double ky)
     PLFLT wx0, wx1, wy0, wy1;
     plgvpw(&wx0, &wx1, &wy0, &wy1);
     size_t ends[2] = {0, p->ndrift - 1};
+    const ru_pole *q0 = &p->drift[0], *q1 = &p->drift[p->ndrift - 1];
+    double gap = hypot(q1->re_per_s - q0->re_per_s, q1->im_rad_per_s - q0->im_rad_per_s) * k;
+    if (p->ndrift > 1 && gap < 0.1 * (wx1 - wx0)) { /* ends too close for two labels */
+        char b2[32];
+        snprintf(buf, sizeof buf, "%s → %s", plot_si_text(p->drift_amp_v[0], "V", 3, a, sizeof a),
+                 plot_si_text(p->drift_amp_v[p->ndrift - 1], "V", 3, b2, sizeof b2));
+        plot_text(q0->re_per_s * k, q0->im_rad_per_s * k - 0.05 * (wy1 - wy0), 0.5, PC_GREEN,
+                  0.8, buf);
+        return;
+    }
     for (int e = 0; e < (p->ndrift > 1 ? 2 : 1); e++) { /* amplitudes under the ends */
         const ru_pole *q = &p->drift[ends[e]];
         snprintf(buf, sizeof buf, "%s", plot_si_text(p->drift_amp_v[ends[e]], "V", 3, a,
                                                      sizeof a));
-        plot_text(q->re_per_s * kx, q->im_rad_per_s / TWO_PI * ky - 0.05 * (wy1 - wy0), 0.5,
+        plot_text(q->re_per_s * k, q->im_rad_per_s * k - 0.05 * (wy1 - wy0), 0.5,
                   PC_GREEN, 0.8, buf);
     }
 }
 
+/* The dominant pair with its angle from the jw axis and its Q = |s| / (-2 sigma)
+ * (negative when it grows). */
 static void poles_subtitle(const ru_plot_poles *p, char *sub, size_t size)
 {
     char a[32];
@@ -118,31 +144,33 @@ static void poles_subtitle(const ru_plot_poles *p, char *sub, size_t size)
         return;
     }
     const ru_pole *d = &p->poles[p->dominant];
-    snprintf(sub, size, "dominant pair σ = %+.4g /s, im/2π = %s: %s", d->re_per_s,
-             plot_si_text(d->im_rad_per_s / TWO_PI, "Hz", 4, a, sizeof a),
-             d->re_per_s > 0   ? "right of the axis, the oscillation grows"
-             : d->re_per_s < 0 ? "left of the axis, it decays"
-                               : "on the axis, it neither grows nor decays");
+    double ang = atan2(fabs(d->re_per_s), fabs(d->im_rad_per_s)) * 180.0 / M_PI;
+    int n = snprintf(sub, size, "dominant pair σ = %+.4g /s, ω = %.4g rad/s (%s), %.3g° %s "
+                                "the jω axis",
+                     d->re_per_s, d->im_rad_per_s,
+                     plot_si_text(d->im_rad_per_s / TWO_PI, "Hz", 4, a, sizeof a), ang,
+                     d->re_per_s > 0 ? "right of" : d->re_per_s < 0 ? "left of" : "on");
+    if (d->re_per_s != 0 && n > 0 && (size_t)n < size)
+        snprintf(sub + n, size - (size_t)n, ", Q = %.3g",
+                 hypot(d->re_per_s, d->im_rad_per_s) / (-2 * d->re_per_s));
 }
 
 /* Shading of the right half plane, the axes and their labels. */
-static void poles_plane(const double r[4], double kx, double ky, size_t far,
-                        double far_re)
+static void poles_plane(const double r[4], double k, size_t far, double far_re)
 {
-    double ax[2] = {0, 0}, ay[2] = {r[2] * ky, r[3] * ky}, hx[2] = {r[0] * kx, r[1] * kx},
-           hy[2] = {0, 0}, ybot = r[2] * ky + 0.04 * (r[3] - r[2]) * ky;
+    double ax[2] = {0, 0}, ay[2] = {r[2] * k, r[3] * k}, hx[2] = {r[0] * k, r[1] * k},
+           hy[2] = {0, 0}, ybot = r[2] * k + 0.04 * (r[3] - r[2]) * k;
     char buf[96];
     plot_line(2, hx, hy, PC_MUTED, 1.0, 1);
     plot_line(2, ax, ay, PC_INK, 2.5, 1);
     plot_text(0, ybot, 1.0, PC_INK, 0.85, "jω axis ");
-    plot_text(r[1] * kx, ybot, 1.0, PC_VERMIL, 0.85, "grows ");
-    plot_text(r[0] * kx, ybot, 0.0, PC_MUTED, 0.85, " decays");
+    plot_text(r[1] * k, ybot, 1.0, PC_VERMIL, 0.85, "grows ");
+    plot_text(r[0] * k, ybot, 0.0, PC_MUTED, 0.85, " decays");
     if (far > 0) {
         int e = (int)floor(log10(fabs(far_re)));
         snprintf(buf, sizeof buf, " ← %zu more far left (fastest %.2f×10#u%d#d /s)", far,
                  far_re / pow(10.0, e), e);
-        plot_text(r[0] * kx, r[3] * ky - 0.05 * (r[3] - r[2]) * ky, 0.0, PC_MUTED, 0.85,
-                  buf);
+        plot_text(r[0] * k, r[3] * k - 0.05 * (r[3] - r[2]) * k, 0.0, PC_MUTED, 0.85, buf);
     }
 }
 
@@ -151,29 +179,31 @@ static void draw_poles(const void *data)
     const ru_plot_poles *p = data;
     double r[4], far_re;
     size_t far;
-    const char *xp, *yp;
-    char xl[64], yl[64], sub[200], a[32];
+    const char *pre;
+    char xl[64], yl[64], sub[240], a[32];
     poles_range(p, r, &far, &far_re);
-    double kx = plot_si_scale(fmax(fabs(r[0]), fabs(r[1])), &xp);
-    double ky = plot_si_scale(fmax(fabs(r[2]), fabs(r[3])), &yp);
+    /* one scale for both axes: the same unit (1/s, the imaginary part in rad/s) */
+    double k = plot_si_scale(fmax(fmax(fabs(r[0]), fabs(r[1])), fmax(fabs(r[2]), fabs(r[3]))),
+                             &pre);
     pladv(0);
     poles_subtitle(p, sub, sizeof sub);
-    plot_titles("Poles of the linearised circuit in the s-plane", sub);
-    plot_axis_label(xl, sizeof xl, "real part σ", xp, kx, "/s");
-    plot_axis_label(yl, sizeof yl, "imaginary part / 2π", yp, ky, "Hz");
+    plot_titles("Poles of the linearised circuit in the s-plane (same scale on both axes)",
+                sub);
+    plot_axis_label(xl, sizeof xl, "real part σ", pre, k, "/s");
+    plot_axis_label(yl, sizeof yl, "imaginary part ω", pre, k, "/s");
     plvpor(PLOT_VX0, PLOT_VX1, PLOT_VY0, PLOT_VY1);
-    plwind(r[0] * kx, r[1] * kx, r[2] * ky, r[3] * ky);
-    plot_rect(0, r[1] * kx, r[2] * ky, r[3] * ky, PC_TINT_ORANGE);
-    plot_frame(PLOT_VX0, PLOT_VX1, PLOT_VY0, PLOT_VY1, r[0] * kx, r[1] * kx, r[2] * ky,
-               r[3] * ky, 0, 0, 0, 0, xl, yl);
-    poles_plane(r, kx, ky, far, far_re);
+    plwind(r[0] * k, r[1] * k, r[2] * k, r[3] * k);
+    plot_rect(0, r[1] * k, r[2] * k, r[3] * k, PC_TINT_ORANGE);
+    plot_frame(PLOT_VX0, PLOT_VX1, PLOT_VY0, PLOT_VY1, r[0] * k, r[1] * k, r[2] * k,
+               r[3] * k, 0, 0, 0, 0, xl, yl);
+    poles_plane(r, k, far, far_re);
     if (p->ndrift > 0)
-        poles_drift(p, kx, ky);
-    poles_marks(p, kx, ky);
+        poles_drift(p, k);
+    poles_marks(p, k);
     plot_legend lg = {0};
     plot_legend_add(&lg, PC_BLUE, 4, 2.0, "pole");
     if (p->dominant >= 0)
-        plot_legend_add(&lg, PC_VERMIL, 5, 2.0, "dominant pair");
+        plot_legend_add(&lg, PC_VERMIL, 5, 2.0, "dominant pair (dashed: its angle)");
     if (p->ndrift > 0) {
         snprintf(sub, sizeof sub, "drift with amplitude, %s → %s",
                  plot_si_text(p->drift_amp_v[0], "V", 3, a, sizeof a),
