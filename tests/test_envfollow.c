@@ -343,6 +343,55 @@ static void test_cost_flat_in_q(void **state)
         fail_msg("rhs evaluations: %ld at Q = 1e3, %ld at Q = 1e6", rhs[0], rhs[1]);
 }
 
+/* A run in three advances (as the automatic run length drives it, each ending with
+ * cycles integrated in full) gives the figures of one advance: start-up time and
+ * amplitude to the envelope steps' tolerance (rtol_env 1e-6 at normal; 1e-4 allows
+ * for the different step sequences). */
+static void test_chunks_match_one_run(void **state)
+{
+    (void)state;
+    tank t = tank_make(1e3, 5, 1.0);
+    rig g;
+    rig_open(&g, &t, 2.5 * avg_startup(&t, 0.9), t.r);
+    ru_measure_result one, three;
+    ru_envf_stats st;
+    sink k1, k3;
+    run_env(&g, &t, RU_ACCURACY_NORMAL, &one, &st, &k1);
+    ru_envf_opts o;
+    ru_envf_opts_for(RU_ACCURACY_NORMAL, &o);
+    o.stop_s = g.stop_s;
+    o.sample_s = g.sample_s;
+    o.x_op = g.xop;
+    o.pole = g.pole;
+    o.probe_pos = g.probe;
+    memset(&k3, 0, sizeof k3);
+    k3.g = &g;
+    k3.m = measure_new(&g, &t);
+    ru_envf_sink sk = {.user = &k3, .sample = env_sample, .cycle = env_cycle};
+    ru_envf *ev = NULL;
+    ru_error e;
+    ru_error_clear(&e);
+    assert_int_equal(ru_envf_create(g.s, &o, g.x0, &sk, &ev, &e), RU_OK);
+    double stops[3] = {g.stop_s / 3, 0.6 * g.stop_s, g.stop_s};
+    for (int i = 0; i < 3; i++) {
+        if (ru_envf_advance(ev, stops[i], &e) != RU_OK)
+            fail_msg("advance: %s", e.msg);
+        RU_ASSERT_REL(ru_envf_time(ev), stops[i], 1e-9);
+    }
+    assert_true(ru_envf_done(ev));
+    ru_envf_get_stats(ev, &st);
+    assert_true(st.cycles_spanned > 0.8 * g.stop_s * t.f0);
+    ru_envf_destroy(ev);
+    assert_int_equal(ru_measure_finish(k3.m, &three), RU_OK);
+    judge(&g, &t, &three);
+    ru_measure_destroy(k3.m);
+    assert_true(three.started && three.settled);
+    RU_ASSERT_REL(three.startup_time_s, one.startup_time_s, 1e-4);
+    RU_ASSERT_REL(three.settled_amplitude_v, one.settled_amplitude_v, 1e-4);
+    RU_ASSERT_REL(k3.last_a, k1.last_a, 1e-4);
+    rig_close(&g);
+}
+
 /* A circuit whose cycles are not alike (a sine source) is refused with a reason. */
 static void test_refuses_driven(void **state)
 {
@@ -382,6 +431,7 @@ int main(void)
         cmocka_unit_test(test_q1e4_growth),
         cmocka_unit_test(test_vdp_eps_1e4),
         cmocka_unit_test(test_cost_flat_in_q),
+        cmocka_unit_test(test_chunks_match_one_run),
         cmocka_unit_test(test_refuses_driven),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);

@@ -76,6 +76,8 @@ static void test_percent(void **state)
     RU_ASSERT_REL(parse_ok("0.5%", "%"), 0.005, 1e-15);
     RU_ASSERT_REL(parse_ok("90%", "%"), 0.9, 1e-15);
     RU_ASSERT_REL(parse_ok("0.05", "%"), 0.05, 1e-15);
+    /* parts per million (a crystal's frequency tolerance): 1 ppm = 1e-6 */
+    RU_ASSERT_REL(parse_ok("20ppm", "%"), 20e-6, 1e-15);
 }
 
 /* Plain YAML numbers in C strtod decimal syntax. Source: ISO C11 7.22.1.3. */

@@ -66,7 +66,28 @@ typedef struct ru_run_request {
     const char *wav_path;  /* probe audio file (ringup/wav.h); NULL writes none */
     ru_wav_opts wav;       /* its rate, format, level, pitch, length; sample_s,
                               stop_s and tone_hint_hz are filled in by the run */
+    int engine;            /* an ru_engine: auto (default), direct or envelope */
 } ru_run_request;
+
+/* Which time-domain engine runs: the direct transient (every cycle integrated) or
+ * the envelope engine (ringup/envfollow.h: cycles skipped by envelope steps, for
+ * oscillators that take thousands of cycles to start). auto picks the envelope
+ * when the predicted start-up spans more than RU_ENGINE_AUTO_CYCLES cycles and the
+ * circuit allows it (autonomous after power-on, one growing mode, no noise kick),
+ * and says so in the notes. */
+typedef enum { RU_ENGINE_AUTO, RU_ENGINE_DIRECT, RU_ENGINE_ENVELOPE } ru_engine;
+#define RU_ENGINE_AUTO_CYCLES 3000.0
+#define RU_AUTO_CAP_CYCLES_ENVELOPE 1e9 /* the cycle cap when cycles are skipped */
+
+/* What the envelope engine did (engine_envelope = 1). */
+typedef struct ru_engine_info {
+    int envelope;                 /* 1: the envelope engine ran, 0: the direct one */
+    long cycles_integrated;       /* cycles integrated (every one the solver ran) */
+    double cycles_spanned;        /* cycles covered by envelope steps */
+    long env_steps;               /* envelope steps */
+    int fell_back;                /* 1: an envelope step failed, cycles went on */
+    double rtol_cycle;            /* tolerance of the cycle integrations */
+} ru_engine_info;
 
 /* Fills rq with "use the file's settings". */
 void ru_run_request_default(ru_run_request *rq);
@@ -142,6 +163,7 @@ typedef struct ru_run_report {
     int partial;                  /* 1: the transient stopped early (numerical failure) */
     int have_wav;                 /* 1: the WAV file was written */
     ru_wav_info wav;              /* what the WAV export did */
+    ru_engine_info engine;        /* which engine ran and what it did */
 } ru_run_report;
 
 /* Runs the analysis. Returns RU_OK, RU_EINPUT (bad probe, etc.), RU_ERANGE (WAV

@@ -22,9 +22,10 @@
  * A run: (1) the head: every cycle integrated from t = 0 while the sources still
  * move and until the cycle-to-cycle change is smooth; (2) envelope steps, with one
  * cycle computed alone from the envelope at each output point (every point_dt_s);
- * (3) the tail: the last tail_cycles cycles integrated in full to the stop time
- * (the settled waveform, THD, frequency). If an envelope step fails, the rest of
- * the run is integrated cycle by cycle and the stats say so.
+ * (3) the tail: the last tail_cycles cycles before each stop integrated in full
+ * (the settled waveform, THD, frequency); a run in several advances goes on from
+ * the tail to the next crossing and skips again. If an envelope step fails, the
+ * rest of the run is integrated cycle by cycle and the stats say so.
  *
  * Requirements: the circuit becomes autonomous (every source constant from some
  * time on, no noise) and has a dominant complex pole pair. Other growing modes
@@ -125,8 +126,24 @@ typedef struct ru_envf_stats {
  * (a source that never settles, the noise kick, no dominant pair). */
 int ru_envf_applicable(const ru_system *s, const ru_envf_opts *o, char *why, size_t len);
 
-/* Runs from t = 0 with initial state x0. stats and err may be NULL. RU_ENUMERIC
- * when even the cycle-by-cycle integration fails (samples delivered stay). */
+/* A run in steps, as the automatic run length drives it: create positions it at
+ * t = 0 with state x0 (o->stop_s is the horizon); each advance integrates to t
+ * (at most the horizon) and ends with the last tail_cycles cycles integrated in
+ * full, so that what is measured at t has a real settled window; the next advance
+ * goes on from there. Constructor / destructor (NULL is harmless). */
+typedef struct ru_envf ru_envf;
+ru_status ru_envf_create(const ru_system *s, const ru_envf_opts *o, const double *x0,
+                         const ru_envf_sink *sink, ru_envf **out, ru_error *err);
+void ru_envf_destroy(ru_envf *e);
+/* RU_ENUMERIC when even the cycle-by-cycle integration fails (samples delivered
+ * stay); an envelope step that fails falls back to cycles (stats say so). */
+ru_status ru_envf_advance(ru_envf *e, double t_until_s, ru_error *err);
+double ru_envf_time(const ru_envf *e);       /* where the run stands (s) */
+int ru_envf_done(const ru_envf *e);          /* 1: at the horizon */
+void ru_envf_get_stats(const ru_envf *e, ru_envf_stats *st);
+
+/* Runs from t = 0 with initial state x0 to o->stop_s in one advance. stats and err
+ * may be NULL. */
 ru_status ru_envf_run(const ru_system *s, const ru_envf_opts *o, const double *x0,
                       const ru_envf_sink *sink, ru_envf_stats *stats, ru_error *err);
 

@@ -23,6 +23,13 @@ ru_status ru_csv_open(const ru_system *s, const char *path, ru_csv **out, ru_err
 /* ru_sample_fn-compatible: writes one row. user is the ru_csv. */
 ru_status ru_csv_sample(void *user, double t_s, const double *x, size_t n);
 
+/* Constructor of a plain table (as envelope.csv): a header of the given column
+ * names, then rows of numbers written by ru_csv_row (the first column with the
+ * time's digits). Closed with ru_csv_close like a waveform. */
+ru_status ru_csv_open_table(const char *path, const char *const *cols, size_t ncols,
+                            ru_csv **out, ru_error *err);
+ru_status ru_csv_row(ru_csv *w, const double *v, size_t n);
+
 /* With dc = 1 the driven nodes are written at their sources' final values, not at
  * the row's time: for one period of a periodic steady state (steady.csv), whose
  * time starts at 0 but whose sources are long settled. */

@@ -24,23 +24,9 @@ void ru_run_request_default(ru_run_request *rq)
     ru_wav_opts_default(&rq->wav);
 }
 
-/* What the transient sink needs: the probe, the writers and the energy balance. */
-typedef struct run_sink {
-    const ru_system *sys;
-    int probe_pos, probe_neg;
-    ru_csv *csv;            /* NULL when no file is written */
-    ru_measure *meas;
-    ru_energy_balance *energy;
-    ru_wav *wav;            /* NULL when no audio is written */
-    ru_trace *trace;        /* NULL when no picture is wanted */
-    double *x_last;         /* the state at the last sample (n entries) */
-    int have_last;
-    ru_state_mark mark;     /* the state at the settled window's start */
-} run_sink;
-
-static ru_status sink_sample(void *user, double t_s, const double *x, size_t n)
+ru_status ru_run_sink_sample(void *user, double t_s, const double *x, size_t n)
 {
-    run_sink *k = user;
+    ru_run_sink *k = user;
     ru_status st = RU_OK;
     if (k->csv && (st = ru_csv_sample(k->csv, t_s, x, n)) != RU_OK)
         return st;
@@ -200,7 +186,7 @@ static ru_status run_transient(const ru_circuit *c, const ru_system *sys,
     const ru_run_opts *ro = ru_circuit_run_opts_const(c);
     size_t n = ru_system_size(sys);
     ru_status st = RU_OK;
-    run_sink k = {.sys = sys, .probe_pos = probe_pos, .probe_neg = probe_neg};
+    ru_run_sink k = {.sys = sys, .probe_pos = probe_pos, .probe_neg = probe_neg};
     double *x0 = calloc(n ? n : 1, sizeof *x0);
     k.x_last = calloc(n ? n : 1, sizeof *k.x_last);
     k.mark.x = calloc(n ? n : 1, sizeof *k.mark.x);
@@ -261,7 +247,11 @@ static ru_status run_transient(const ru_circuit *c, const ru_system *sys,
                        .atol_rel = to.atol_rel, .seed_v = mc.kick_level_v,
                        .seed_is_kick = ro->kick == RU_KICK_PRESET};
     ru_transient *tr = NULL;
-    st = ru_transient_create(sys, &to, x0, sink_sample, &k, &tr, err);
+    if (rep->engine.envelope) {
+        st = ru_envrun(sys, rq, rep, &k, x0, x_op, &jc, err);
+        goto closing;
+    }
+    st = ru_transient_create(sys, &to, x0, ru_run_sink_sample, &k, &tr, err);
     if (st == RU_OK) {
         ru_run_engine eng;
         ru_run_engine_transient(tr, &eng);
@@ -271,6 +261,7 @@ static ru_status run_transient(const ru_circuit *c, const ru_system *sys,
             rep->solver.t_reached_s = rep->stop_s;
     }
     ru_transient_destroy(tr);
+closing:
     if (st == RU_ENUMERIC)
         rep->partial = 1;
     if (k.csv) {
@@ -352,7 +343,8 @@ static ru_status check_size(const ru_circuit *c, const ru_run_request *rq,
                             "spacing or give a stop time",
                             rep->sample_s, rep->stop.first_s);
     double samples = rep->stop_s / rep->sample_s;
-    double cycles = rep->pred.have_poles ? rep->stop_s * rep->pred.frequency_hz : 0;
+    double cycles = rep->pred.have_poles && !rep->engine.envelope
+                        ? rep->stop_s * rep->pred.frequency_hz : 0;
     if (samples > RU_MAX_SAMPLES)
         return ru_error_set(err, RU_EINPUT, ru_circuit_file(c), 0, 0,
                             "the run would make %.3g output samples (stop %g s at a "
@@ -402,6 +394,8 @@ ru_status ru_analysis_run(const ru_circuit *c, const ru_run_request *rq,
         goto done;
     }
     if ((st = ru_predict(c, sys, loop, pos, neg, rep, rq->keep, x_op, err)) != RU_OK)
+        goto done;
+    if ((st = ru_engine_choose(c, sys, rq, rep, x_op, err)) != RU_OK)
         goto done;
     ru_stop_plan(c, sys, rq, rep);
     rep->sample_s = choose_sample(rq, ro, &rep->pred, rep->stop.first_s);

@@ -8,6 +8,7 @@
 #include "ringup/system.h"
 #include "ringup/transient.h"
 #include "measure/energy.h"
+#include "ringup/wavefile.h"
 
 
 struct ru_run_data {
@@ -74,6 +75,24 @@ typedef struct ru_judge_ctx {
     int seed_is_kick;       /* 1: a preset kick */
 } ru_judge_ctx;
 
+/* What the time-domain sinks need: the probe, the writers and the energy balance
+ * (analysis.c builds it; the envelope run adds its own on top, envrun.c). */
+typedef struct ru_run_sink {
+    const ru_system *sys;
+    int probe_pos, probe_neg;
+    ru_csv *csv;            /* NULL when no file is written */
+    ru_measure *meas;
+    ru_energy_balance *energy;
+    ru_wav *wav;            /* NULL when no audio is written */
+    ru_trace *trace;        /* NULL when no picture is wanted */
+    double *x_last;         /* the state at the last sample (n entries) */
+    int have_last;
+    ru_state_mark mark;     /* the state at the settled window's start */
+} ru_run_sink;
+
+/* One sample to every sink of k (an ru_sample_fn). */
+ru_status ru_run_sink_sample(void *user, double t_s, const double *x, size_t n);
+
 /* Judges the run as it stands in rep->meas (final: the run ends here). */
 void ru_judge(const ru_judge_ctx *j, const ru_run_report *rep, int final,
               ru_verdict_result *out);
@@ -106,5 +125,35 @@ void ru_stop_plan(const ru_circuit *c, const ru_system *sys, const ru_run_reques
  * certain or a cap is reached; rep->stop_s becomes the run's length. */
 ru_status ru_runloop(const ru_run_engine *e, ru_measure *m, const ru_judge_ctx *jc,
                      ru_run_report *rep, ru_error *err);
+
+/* Picks the engine (rq->engine, the prediction, what the circuit allows) into
+ * rep->engine with a note; RU_EINPUT when the envelope engine was asked for and
+ * cannot run this circuit (err says why). envrun.c. */
+ru_status ru_engine_choose(const ru_circuit *c, const ru_system *s,
+                           const ru_run_request *rq, ru_run_report *rep,
+                           const double *x_op, ru_error *err);
+
+/* The envelope engine's run (envrun.c): its samples through k (integrated stretches
+ * to the measurement; cycles computed alone as envelope points and to wave.csv),
+ * envelope.csv in rq->out_dir, the run loop, the WAV from the envelope and the
+ * cycle shape. */
+ru_status ru_envrun(const ru_system *s, const ru_run_request *rq, ru_run_report *rep,
+                    ru_run_sink *k, const double *x0, const double *x_op,
+                    const ru_judge_ctx *jc, ru_error *err);
+
+/* Picks the engine (rq->engine, the prediction, what the circuit allows) into
+ * rep->engine with a note; RU_EINPUT when the envelope engine was asked for and
+ * cannot run this circuit (err says why). envrun.c. */
+ru_status ru_engine_choose(const ru_circuit *c, const ru_system *s,
+                           const ru_run_request *rq, ru_run_report *rep,
+                           const double *x_op, ru_error *err);
+
+/* The envelope engine's run (envrun.c): its samples through k (integrated stretches
+ * to the measurement; cycles computed alone as envelope points and to wave.csv),
+ * envelope.csv in rq->out_dir, the run loop, the WAV from the envelope and the
+ * cycle shape. */
+ru_status ru_envrun(const ru_system *s, const ru_run_request *rq, ru_run_report *rep,
+                    ru_run_sink *k, const double *x0, const double *x_op,
+                    const ru_judge_ctx *jc, ru_error *err);
 
 #endif

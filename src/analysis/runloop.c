@@ -124,7 +124,9 @@ void ru_stop_plan(const ru_circuit *c, const ru_system *sys, const ru_run_reques
         cap_at_least(&cap, SLOW_CAP / p->slowest_decay_per_s, why, wn,
                      "30 of the slowest time constant, %s", 1 / p->slowest_decay_per_s);
     }
-    si->cap_cycles = rq->cap_cycles > 0 ? rq->cap_cycles : RU_AUTO_CAP_CYCLES;
+    si->cap_cycles = rq->cap_cycles > 0     ? rq->cap_cycles
+                     : rep->engine.envelope ? RU_AUTO_CAP_CYCLES_ENVELOPE
+                                            : RU_AUTO_CAP_CYCLES;
     if (isfinite(period) && si->cap_cycles * period < cap) {
         cap = si->cap_cycles * period;
         snprintf(why, wn, "%.3g cycles", si->cap_cycles);

@@ -5,7 +5,8 @@
  * ([+-] digits [. digits] [e[+-]digits]); hex, inf and nan are refused. PREFIX is
  * one of f p n u µ m k M G T (µ as U+00B5 or Greek mu U+03BC); UNIT must equal
  * the expected unit exactly (Ω or U+2126 stand for ohm). Case matters: m is milli,
- * M mega. A value with unit "%" written with the % sign is divided by 100.
+ * M mega. A value with unit "%" written with the % sign is divided by 100, and a
+ * fraction may also be written in parts per million: "20ppm" is 20e-6.
  * Invariant: on RU_OK *out is finite; on error *out is untouched. strtod is used
  * on a copy of the digits only, so the C locale's '.' is assumed. */
 #include "ringup/loader.h"
@@ -31,7 +32,7 @@ static const prefix_rec prefixes[] = {
 /* Units the parser knows by name, to tell a wrong unit from stray text. */
 static const char *const known_units[] = {"ohm", "\xce\xa9", "\xe2\x84\xa6", "F", "H",
                                           "V",   "A",        "s",            "Hz",
-                                          "%",   "C",        "S"};
+                                          "%",   "C",        "S",            "ppm"};
 
 static ru_status fail(char *why, size_t whylen, const char *fmt, ...)
 #if defined(__GNUC__)
@@ -111,6 +112,10 @@ static ru_status parse_suffix(const char *rest, const char *unit, double *scale,
     *scale = 1.0;
     *percent = 0;
     const char *u = rest;
+    if (unit && !strcmp(unit, "%") && !strcmp(rest, "ppm")) {
+        *scale = 1e-6;
+        return RU_OK;
+    }
     if (!unit_matches(rest, unit)) {
         for (size_t i = 0; i < sizeof prefixes / sizeof prefixes[0]; i++) {
             size_t n = strlen(prefixes[i].text);

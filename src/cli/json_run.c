@@ -78,6 +78,17 @@ void cli_json_run_body(ru_json *j, const ru_run_report *r)
     ru_json_number(j, "cap_cpu_s", si->automatic ? si->cap_cpu_s : NAN);
     ru_json_int(j, "chunks", si->chunks);
     ru_json_end_object(j);
+    ru_json_string(j, "engine", r->engine.envelope ? "envelope" : "direct");
+    if (r->engine.envelope) {
+        ru_json_begin_object(j, "envelope");
+        ru_json_int(j, "cycles_integrated", r->engine.cycles_integrated);
+        ru_json_number(j, "cycles_skipped",
+                       fmax(0.0, r->engine.cycles_spanned - (double)r->engine.cycles_integrated));
+        ru_json_number(j, "cycles_spanned", r->engine.cycles_spanned);
+        ru_json_int(j, "envelope_steps", r->engine.env_steps);
+        ru_json_bool(j, "fell_back", r->engine.fell_back);
+        ru_json_end_object(j);
+    }
     ru_json_begin_object(j, "solver");
     ru_json_int(j, "steps", r->solver.steps);
     ru_json_int(j, "rhs_evals", r->solver.rhs_evals);

@@ -167,6 +167,12 @@ static void print_text(const ru_circuit *c, const ru_run_report *r, int auto_sam
             printf("loop gain of %s: the phase never passes 0 degrees in the range "
                    "searched: no oscillation through this loop\n", p->loop_part);
     }
+    if (r->engine.envelope)
+        printf("engine: envelope: %ld cycles integrated, %.4g spanned by %ld envelope "
+               "steps%s\n",
+               r->engine.cycles_integrated, r->engine.cycles_spanned, r->engine.env_steps,
+               r->engine.fell_back ? " (an envelope step failed: the rest went cycle by "
+                                     "cycle)" : "");
     printf("solver: %ld steps, %ld right-hand-side evaluations, %ld Jacobians, rtol %.0e, "
            "%.3f s\n",
            r->solver.steps, r->solver.rhs_evals, r->solver.jac_evals, r->solver.rtol,
@@ -470,6 +476,16 @@ static int set_request(const cli_opt *opts, ru_run_request *rq)
         return 0;
     if (!set_wav(opts, rq))
         return 0;
+    const char *eng = cli_get(opts, "engine");
+    if (eng && !strcmp(eng, "direct"))
+        rq->engine = RU_ENGINE_DIRECT;
+    else if (eng && !strcmp(eng, "envelope"))
+        rq->engine = RU_ENGINE_ENVELOPE;
+    else if (eng && strcmp(eng, "auto")) {
+        fprintf(stderr, "ringup run: --engine takes auto, direct or envelope (got '%s')\n",
+                eng);
+        return 0;
+    }
     return cli_accuracy(opts, &rq->accuracy) == 0;
 }
 
@@ -481,6 +497,8 @@ int cmd_run(int argc, char **argv)
                       "run.stop, auto when it has none)", NULL},
         {"sample", "T", "output spacing (default: 72 samples per predicted period)", NULL},
         {"accuracy", "LEVEL", "draft, normal or precise (default: the file's)", NULL},
+        {"engine", "E", "auto (default), direct (every cycle) or envelope (cycles "
+                        "skipped, for slow starters)", NULL},
         {"loop", "PART", "amplifier whose loop gain is reported", NULL},
         {"verify", NULL, "rerun at 10x tighter tolerances and show what moved", NULL},
         {"wav", "FILE", "write the probe as mono audio (WAV); lower the volume before playing", NULL},

@@ -176,6 +176,59 @@ ru_status ru_csv_open(const ru_system *s, const char *path, ru_csv **out, ru_err
     return st;
 }
 
+ru_status ru_csv_open_table(const char *path, const char *const *cols, size_t ncols,
+                            ru_csv **out, ru_error *err)
+{
+    if (out)
+        *out = NULL;
+    if (!path || !path[0] || !out || !cols || ncols == 0)
+        return ru_error_set(err, RU_ERANGE, NULL, 0, 0,
+                            "CSV writer: missing path, columns or handle");
+    ru_csv *w = calloc(1, sizeof *w);
+    ru_status st = RU_ENOMEM;
+    if (w) {
+        w->path = strdup(path);
+        w->buf = malloc(RU_CSV_BUF);
+        w->ncols = ncols;
+        if (w->path && w->buf)
+            st = open_tmp(w);
+    }
+    if (st == RU_OK) {
+        fputs(cols[0], w->fp); /* the project's own column names: no quoting */
+        for (size_t i = 1; i < ncols; i++)
+            put_name(w->fp, cols[i], "", "");
+        fputc('\n', w->fp);
+        *out = w;
+        return RU_OK;
+    }
+    if (st == RU_ENOMEM)
+        ru_error_set(err, st, NULL, 0, 0, "CSV writer for '%s': out of memory", path);
+    else
+        ru_error_set(err, st, NULL, 0, 0, "%s", w->msg);
+    ru_csv_close(w, 0, NULL);
+    return st;
+}
+
+ru_status ru_csv_row(ru_csv *w, const double *v, size_t n)
+{
+    if (!w || !w->fp || w->sys)
+        return RU_ERANGE;
+    if (w->st != RU_OK)
+        return w->st;
+    if (n != w->ncols) {
+        w->st = RU_ERANGE;
+        snprintf(w->msg, sizeof w->msg, "CSV writer for '%s': row has %zu values, the "
+                 "table %zu columns", w->path, n, w->ncols);
+        return w->st;
+    }
+    int bad = 0;
+    for (size_t i = 0; i < n && !bad; i++)
+        bad = fprintf(w->fp, i ? ",%.10g" : "%.12g", v[i]) < 0;
+    if (!bad)
+        bad = fputc('\n', w->fp) == EOF;
+    return bad ? csv_fail(w, errno, "write") : RU_OK;
+}
+
 ru_status ru_csv_sample(void *user, double t_s, const double *x, size_t n)
 {
     ru_csv *w = user;
