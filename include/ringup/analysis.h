@@ -154,6 +154,7 @@ typedef struct ru_run_report {
     ru_measure_result meas;       /* figures, made to follow the verdict */
     ru_verdict verdict;           /* started, no-start, latched, undecided, driven */
     double seed_v;                /* physical start level on the probe (V; 0 unknown) */
+    int noise_on;                 /* 1: the run started from the resistors' thermal noise */
     double floor_v;               /* the solver's noise floor on the probe (V) */
     ru_prediction pred;
     double growth_mismatch;       /* (measured - predicted)/predicted growth rate */

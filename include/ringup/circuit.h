@@ -53,6 +53,8 @@ typedef struct ru_run_opts {
     int preset_node[RU_PRESET_MAX];
     double preset_v[RU_PRESET_MAX];
     unsigned long seed;           /* noise kick seed */
+    int noise;                    /* power-on: 1 (default) adds the resistors' thermal
+                                     noise (`kick: {power-on: {noise: off}}` for 0) */
 } ru_run_opts;
 
 /* What to measure (the file's `measure:` section). */
@@ -118,6 +120,9 @@ void ru_circuit_set_file(ru_circuit *c, const char *path);
 
 double ru_circuit_stray_f(const ru_circuit *c);
 ru_status ru_circuit_set_stray_f(ru_circuit *c, double stray_f); /* > 0, finite */
+
+/* 1 when the run starts from thermal noise: `kick: noise`, or power-on with noise on. */
+int ru_run_opts_noise(const ru_run_opts *ro);
 
 ru_run_opts *ru_circuit_run_opts(ru_circuit *c);
 const ru_run_opts *ru_circuit_run_opts_const(const ru_circuit *c);

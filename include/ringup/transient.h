@@ -32,11 +32,28 @@ typedef struct ru_transient_opts {
     double atol_rel;    /* absolute tolerance of state i = atol_rel * scale_i, where
                            scale_i comes from ru_system_state_scale */
     long max_steps;     /* internal steps allowed in all (0: no limit) */
+    double max_step_s;  /* longest internal step (s); 0: no limit */
+    const double *x_ref; /* NULL: the error of state i is weighed against
+                           rtol |x_i| + atol_i (CVODE's rule); else against
+                           rtol |x_i - x_ref_i| + atol_i: relative to the distance
+                           from a reference state (the operating point), so a small
+                           oscillation on a large DC bias is held to rtol of its own
+                           size (n entries, must outlive the run) */
 } ru_transient_opts;
 
 /* Tolerances of an accuracy setting (documented in README with the measurement
  * that justifies them). */
 void ru_transient_opts_for(ru_accuracy acc, ru_transient_opts *o);
+
+/* The integrator's own damping of an undamped oscillation, delta/omega per radian, at
+ * relative tolerance rtol with the error weighed relative to the operating point
+ * (x_ref) and atol a hundredth of rtol times the tone: the table measured on this
+ * engine (tests/bench_damping.c, kept in src/engines/tolerance.c). */
+double ru_transient_damping_per_rad(double rtol);
+
+/* The loosest rtol <= rtol_max whose damping per radian stays at or below
+ * rate_per_rad; *resolved = 0 (and the tightest measured rtol) when none does. */
+double ru_transient_rtol_for(double rate_per_rad, double rtol_max, int *resolved);
 
 typedef struct ru_solver_stats {
     long steps;          /* internal steps */

@@ -178,6 +178,60 @@ static ru_status keep_envelope(ru_run_data *d, const ru_measure *m)
     return RU_OK;
 }
 
+/* Accuracy chosen from the poles: the integrator's own damping (the table of
+ * ru_transient_damping_per_rad) must stay below RU_DAMP_SHARE of the predicted
+ * growth (or decay) rate, so rtol is tightened where the setting would not resolve
+ * it, with a note; the error is weighed relative to the operating point and the
+ * absolute tolerance set to a hundredth of rtol times the start level, so a tone
+ * that starts at the thermal level on a bias is held to rtol of its own size. */
+#define RU_DAMP_SHARE 0.03
+#define RU_ATOL_FLOOR 2e-14 /* of each state's scale: well above rounding */
+static void choose_tolerances(const ru_circuit *c, const ru_system *sys,
+                              ru_run_report *rep, int pos, int neg, const double *x_op,
+                              int accuracy, ru_transient_opts *to)
+{
+    (void)c;
+    const ru_prediction *p = &rep->pred;
+    static const char *const acc[] = {"draft", "normal", "precise"};
+    if (p->have_poles && p->growth_rate_per_s != 0 && p->frequency_hz > 0) {
+        double w = 2 * M_PI * p->frequency_hz, rate = fabs(p->growth_rate_per_s);
+        int resolved = 1;
+        double r = ru_transient_rtol_for(RU_DAMP_SHARE * rate / w, to->rtol, &resolved);
+        if (r < to->rtol) {
+            ru_report_note(rep, "accuracy %s (rtol %.0e) would damp the oscillation by "
+                           "about %.3g /s, more than %g %% of the predicted %s rate "
+                           "(%.4g /s): rtol tightened to %.2g",
+                           acc[accuracy >= 0 && accuracy < 3 ? accuracy : 1], to->rtol,
+                           ru_transient_damping_per_rad(to->rtol) * w,
+                           100 * RU_DAMP_SHARE,
+                           p->growth_rate_per_s > 0 ? "growth" : "decay", rate, r);
+            to->atol_rel *= r / to->rtol;
+            to->rtol = r;
+        }
+        if (!resolved)
+            ru_report_note(rep, "the predicted %s rate (%.4g /s) is within %g %% of "
+                           "the integrator's own damping even at the tightest "
+                           "tolerance (%.3g /s): the verdict may be the integrator's; "
+                           "confirm with a long run",
+                           p->growth_rate_per_s > 0 ? "growth" : "decay", rate,
+                           100 * RU_DAMP_SHARE, ru_transient_damping_per_rad(r) * w);
+    }
+    if (!x_op)
+        return;
+    to->x_ref = x_op;
+    size_t n = ru_system_size(sys);
+    double *scale = malloc((n ? n : 1) * sizeof *scale);
+    if (!scale)
+        return;
+    ru_system_state_scale(sys, scale);
+    int kp = ru_system_node_state(sys, pos), kn = neg > 0 ? ru_system_node_state(sys, neg) : -1;
+    double sp = fmax(kp >= 0 ? scale[kp] : 0, kn >= 0 ? scale[kn] : 0);
+    double seed = rep->seed_v > 0 ? rep->seed_v : p->noise_amplitude_v;
+    if (isfinite(seed) && seed > 0 && sp > 0)
+        to->atol_rel = fmax(RU_ATOL_FLOOR, fmin(to->atol_rel, 1e-2 * to->rtol * seed / sp));
+    free(scale);
+}
+
 static ru_status run_transient(const ru_circuit *c, const ru_system *sys,
                                const ru_run_request *rq, ru_run_report *rep,
                                int probe_pos, int probe_neg, const double *x_op,
@@ -200,12 +254,21 @@ static ru_status run_transient(const ru_circuit *c, const ru_system *sys,
     if ((st = ru_system_initial_state(sys, x0, err)) != RU_OK)
         goto cleanup;
     ru_transient_opts to;
-    ru_transient_opts_for(rq->accuracy >= 0 ? (ru_accuracy)rq->accuracy : ro->accuracy,
-                          &to);
+    int accuracy = rq->accuracy >= 0 ? rq->accuracy : (int)ro->accuracy;
+    ru_transient_opts_for((ru_accuracy)accuracy, &to);
     to.stop_s = rep->stop_s;
     to.sample_s = rep->sample_s;
     to.rtol *= rq->tol_scale;
     to.atol_rel *= rq->tol_scale;
+    /* A preset kick is a small-signal start whose size the modal projection gives;
+     * power-on moves the bias through a large-signal transient, whose projection
+     * says nothing about the envelope's floor: its seed is the thermal noise (or
+     * none with noise off). */
+    rep->seed_v = ro->kick == RU_KICK_PRESET ? preset_level(ro, rep)
+                  : rep->noise_on && isfinite(rep->pred.noise_amplitude_v)
+                      ? rep->pred.noise_amplitude_v
+                      : 0;
+    choose_tolerances(c, sys, rep, probe_pos, probe_neg, x_op, accuracy, &to);
     ru_measure_cfg mc;
     ru_measure_cfg_default(&mc, rep->stop_s, rep->sample_s);
     const ru_measure_opts *mo = ru_circuit_measure_opts_const(c);
@@ -214,19 +277,16 @@ static ru_status run_transient(const ru_circuit *c, const ru_system *sys,
     mc.growth_hi = mo->growth_hi;
     if (rep->pred.have_poles && rep->pred.frequency_hz > 0)
         mc.period_hint_s = 1.0 / rep->pred.frequency_hz;
-    /* A preset kick is a small-signal start whose size the modal projection gives;
-     * power-on moves the bias through a large-signal transient, whose projection
-     * says nothing about the envelope's floor, so it sets none. */
-    mc.kick_level_v = ro->kick == RU_KICK_PRESET ? preset_level(ro, rep)
-                      : ro->kick == RU_KICK_NOISE && isfinite(rep->pred.kick_amplitude_v)
-                          ? rep->pred.kick_amplitude_v
-                          : 0;
+    mc.kick_level_v = rep->seed_v;
     if ((st = ru_measure_create(&mc, &k.meas)) != RU_OK) {
         ru_error_set(err, st, NULL, 0, 0, "cannot set up the measurement");
         goto cleanup;
     }
-    if (ru_energy_balance_create(sys, rep->stop_s, &k.energy) != RU_OK)
+    if (ru_energy_balance_create(sys, rep->stop_s, &k.energy) != RU_OK ||
+        (x_op && ru_energy_balance_set_ref(k.energy, x_op) != RU_OK)) {
+        ru_energy_balance_destroy(k.energy);
         k.energy = NULL; /* the estimate is optional */
+    }
     if (rq->wav_path && (st = wav_open(rq, rep, &k.wav, err)) != RU_OK)
         goto cleanup;
     if (rq->keep) {
@@ -244,7 +304,8 @@ static ru_status run_transient(const ru_circuit *c, const ru_system *sys,
     }
     ru_judge_ctx jc = {.c = c, .sys = sys, .probe_pos = probe_pos, .probe_neg = probe_neg,
                        .x_op = x_op, .x_end = k.x_last, .mark = &k.mark, .rtol = to.rtol,
-                       .atol_rel = to.atol_rel, .seed_v = mc.kick_level_v,
+                       .atol_rel = to.atol_rel, .relative = to.x_ref != NULL,
+                       .seed_v = mc.kick_level_v,
                        .seed_is_kick = ro->kick == RU_KICK_PRESET};
     ru_transient *tr = NULL;
     if (rep->engine.envelope) {
@@ -408,7 +469,11 @@ ru_status ru_analysis_run(const ru_circuit *c, const ru_run_request *rq,
                           "resistance): this circuit has no thermal noise source");
         goto done;
     }
-    if (ro->kick == RU_KICK_NOISE &&
+    rep->noise_on = ru_run_opts_noise(ro) && has_noise_source(c);
+    if (ru_run_opts_noise(ro) && !rep->noise_on)
+        ru_report_note(rep, "no resistor and no inductor series resistance: no thermal "
+                            "noise to start from, the start is the power-on alone");
+    if (rep->noise_on &&
         (st = ru_system_set_noise(sys, ro->seed, noise_band(rep), RU_NOISE_TEMP_C)) != RU_OK) {
         ru_error_set(err, st, NULL, 0, 0, "cannot set up the noise kick");
         goto done;

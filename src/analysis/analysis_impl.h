@@ -71,6 +71,7 @@ typedef struct ru_judge_ctx {
     const double *x_end;    /* the state at the last sample, NULL when none */
     ru_state_mark *mark;    /* the state at the window's start, NULL when none */
     double rtol, atol_rel;  /* the tolerances the transient used */
+    int relative;           /* 1: its error weights were relative to x_op */
     double seed_v;          /* physical start level on the probe (V; 0 unknown) */
     int seed_is_kick;       /* 1: a preset kick */
 } ru_judge_ctx;

@@ -52,7 +52,9 @@ static void levels(const ru_judge_ctx *j, const ru_run_report *rep, double *vsca
     double sn = j->probe_neg > 0 ? node_scale(j->sys, scale, j->probe_neg) : 0.0;
     *vscale = fmax(1.0, fmax(sp, sn));
     double dc = isfinite(rep->meas.dc_level_v) ? fabs(rep->meas.dc_level_v) : *vscale;
-    *floor_v = j->rtol * dc + j->atol_rel * (sp + sn);
+    /* with weights relative to the operating point the DC level costs no accuracy;
+     * rounding of the DC level (1e-15) still does */
+    *floor_v = (j->relative ? 1e-15 : j->rtol) * dc + j->atol_rel * (sp + sn);
     if (j->x_op && j->x_end) {
         double d = 0.0;
         for (size_t i = 0; i < n; i++)
@@ -105,7 +107,6 @@ void ru_judge_final(const ru_judge_ctx *j, ru_run_report *rep)
     ru_verdict_result v;
     ru_judge(j, rep, 1, &v);
     rep->verdict = v.verdict;
-    rep->seed_v = j->seed_v;
     double vs, op, mo;
     levels(j, rep, &vs, &rep->floor_v, &op, &mo);
     ru_report_note(rep, "%s", v.note);

@@ -39,6 +39,11 @@ struct ru_circuit {
     ru_measure_opts measure;
 };
 
+int ru_run_opts_noise(const ru_run_opts *ro)
+{
+    return ro->kick == RU_KICK_NOISE || (ro->kick == RU_KICK_POWER_ON && ro->noise);
+}
+
 ru_status ru_circuit_create(const char *title, ru_circuit **out)
 {
     *out = NULL;
@@ -49,6 +54,7 @@ ru_status ru_circuit_create(const char *title, ru_circuit **out)
     c->stray_f = 1e-12;
     c->run.stop_s = 10e-3;
     c->run.stop_auto = 1;
+    c->run.noise = 1;
     c->run.kick = RU_KICK_POWER_ON;
     c->run.accuracy = RU_ACCURACY_NORMAL;
     c->run.seed = 1;

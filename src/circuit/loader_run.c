@@ -55,16 +55,42 @@ static const ru_part *holding_supply(const ru_circuit *c, int k)
     return p;
 }
 
-/* kick: {preset: {node: voltage, ...}} */
+/* kick: {power-on: {noise: on|off}} */
+static ru_status read_power_on_kick(ld_doc *d, ru_circuit *c, const ru_ypair *pp,
+                                    ru_error *err)
+{
+    static const char *const keys[] = {"noise", NULL};
+    static const char *const onoff[] = {"off", "on", NULL};
+    const ru_ynode *opts;
+    ru_status s = ru_ld_need_mapping(d, pp, "run: kick", err, &opts);
+    if (s == RU_OK)
+        s = ru_ld_only_keys(d, opts, "run: kick power-on", keys, err);
+    const ru_ypair *np = s == RU_OK ? ru_ld_find(opts, "noise") : NULL;
+    int on = 1;
+    if (s == RU_OK && np)
+        s = pick(d, np, "run: kick power-on", onoff, "on or off", err, &on);
+    if (s == RU_OK) {
+        ru_circuit_run_opts(c)->kick = RU_KICK_POWER_ON;
+        ru_circuit_run_opts(c)->noise = on;
+    }
+    return s;
+}
+
+/* kick: {preset: {node: voltage, ...}} or {power-on: {noise: ...}} */
 static ru_status read_preset_kick(ld_doc *d, ru_circuit *c, const ru_ynode *kmap,
                                   ru_error *err)
 {
-    static const char *const keys[] = {"preset", NULL};
+    static const char *const keys[] = {"preset", "power-on", NULL};
     const ru_ynode *nodes;
     ru_status s = ru_ld_only_keys(d, kmap, "run: kick", keys, err);
-    const ru_ypair *pp = ru_ld_find(kmap, "preset");
+    const ru_ypair *pp = ru_ld_find(kmap, "preset"), *po = ru_ld_find(kmap, "power-on");
+    if (s == RU_OK && pp && po)
+        s = ru_ld_fail(d, kmap, err, "run: kick takes one of power-on and preset");
+    if (s == RU_OK && po)
+        return read_power_on_kick(d, c, po, err);
     if (s == RU_OK && !pp)
-        s = ru_ld_fail(d, kmap, err, "run: kick needs power-on, noise or {preset: {...}}");
+        s = ru_ld_fail(d, kmap, err, "run: kick needs power-on, noise, {power-on: "
+                                     "{noise: off}} or {preset: {...}}");
     if (s == RU_OK)
         s = ru_ld_need_mapping(d, pp, "run: kick", err, &nodes);
     if (s != RU_OK)

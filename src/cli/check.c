@@ -26,8 +26,10 @@ static void print_settings(const ru_circuit *c)
                    ru_format_si(ro->preset_v[i], "V", 4, a, sizeof a));
     } else {
         printf("%s", ro->kick == RU_KICK_NOISE ? "noise" : "power-on");
-        if (ro->kick == RU_KICK_NOISE)
-            printf(" (seed %lu)", ro->seed);
+        if (ru_run_opts_noise(ro))
+            printf(" with thermal noise (seed %lu)", ro->seed);
+        else
+            printf(", noise off");
     }
     printf("\nmeasure: probe ");
     if (mo->probe_pos < 0)

@@ -445,7 +445,11 @@ ru_status ru_start_level_compute(const ru_system *s, const double *x_op, ru_pole
     out->step_v = c.probe * cabs(z_step);
     out->det_v = c.probe * cabs(z_inf);
     out->level_v = out->det_v;
-    if (out->kind == RU_START_NOISE) {
+    /* thermal noise: the noise kick, or power-on with its noise on (the default) */
+    int noisy = ru_run_opts_noise(ru_circuit_run_opts_const(ci));
+    if (noisy && out->kind != RU_START_NOISE && !(creal(c.lam) > 0))
+        goto done; /* a decaying mode accumulates no level: the ramp's share stays */
+    if (noisy) {
         double sigma = creal(c.lam);
         if (!(sigma > 0)) {
             st = ru_error_set(err, RU_ERANGE, NULL, 0, 0,
@@ -453,6 +457,8 @@ ru_status ru_start_level_compute(const ru_system *s, const double *x_op, ru_pole
             goto done;
         }
         double var = noise_drive(&c, noise_temp_c) / (2 * sigma), mean, sd;
+        if (!(var > 0) && out->kind != RU_START_NOISE)
+            goto done; /* no thermal source in the circuit: the ramp's share stays */
         rician_log(cabs(z_inf), var, &mean, &sd);
         out->noise_rms_v = c.probe * sqrt(var);
         out->level_v = c.probe * exp(mean);

@@ -135,6 +135,21 @@ static int tr_jac(realtype t, N_Vector y, N_Vector fy, SUNMatrix J, void *user,
     return 0;
 }
 
+/* Error weights relative to the reference state: 1/(rtol |y - x_ref| + atol). */
+static int tr_ewt(N_Vector y, N_Vector ewt, void *user)
+{
+    tr_run *r = user;
+    const double *x = N_VGetArrayPointer(y), *at = N_VGetArrayPointer(r->atol);
+    double *w = N_VGetArrayPointer(ewt);
+    for (size_t i = 0; i < r->n; i++) {
+        double d = r->o->rtol * fabs(x[i] - r->o->x_ref[i]) + at[i];
+        if (!(d > 0) || !isfinite(d))
+            return -1;
+        w[i] = 1.0 / d;
+    }
+    return 0;
+}
+
 /* Keeps CVODE's error text (warnings are dropped: nothing is printed). */
 static void tr_errh(int code, const char *module, const char *func, char *msg,
                     void *user)
@@ -161,7 +176,8 @@ static ru_status check_opts(const ru_system *s, const ru_transient_opts *o,
                             "samples per run (got %g s for stop %g s)",
                             o->sample_s, o->stop_s);
     if (!(isfinite(o->rtol) && o->rtol > 0 && o->rtol < 1) ||
-        !(isfinite(o->atol_rel) && o->atol_rel > 0) || o->max_steps < 0)
+        !(isfinite(o->atol_rel) && o->atol_rel > 0) || o->max_steps < 0 ||
+        !(isfinite(o->max_step_s) && o->max_step_s >= 0))
         return ru_error_set(err, RU_ERANGE, NULL, 0, 0,
                             "transient: tolerances must be in (0, 1) and max_steps "
                             ">= 0 (rtol %g, atol_rel %g, max_steps %ld)",
@@ -231,8 +247,13 @@ static ru_status setup_solver(tr_run *r, const double *x0, ru_error *err)
         at[i] = r->o->atol_rel * ((isfinite(at[i]) && at[i] > 0) ? at[i] : 1.0);
     int f = CVodeSetErrHandlerFn(r->cv, tr_errh, r);
     if (!f) f = CVodeInit(r->cv, tr_rhs, 0.0, r->y);
-    if (!f) f = CVodeSVtolerances(r->cv, r->o->rtol, r->atol);
-    if (!f) f = CVodeSetUserData(r->cv, r);
+    if (!f) f = CVodeSetUserData(r->cv, r); /* before the weight function takes it */
+    if (!f && r->o->x_ref)
+        f = CVodeWFtolerances(r->cv, tr_ewt);
+    else if (!f)
+        f = CVodeSVtolerances(r->cv, r->o->rtol, r->atol);
+    if (!f && r->o->max_step_s > 0)
+        f = CVodeSetMaxStep(r->cv, r->o->max_step_s);
     if (!f) f = CVodeSetLinearSolver(r->cv, r->LS, r->A);
     if (!f) f = CVodeSetJacFn(r->cv, tr_jac);
     if (!f) f = CVodeSetStabLimDet(r->cv, SUNTRUE);

@@ -9,6 +9,7 @@
 
 #include <math.h>
 #include <stdlib.h>
+#include <string.h>
 
 typedef struct store_cap {
     int a, b;   /* nodes */
@@ -29,6 +30,8 @@ struct ru_energy_balance {
     double *f;         /* x' at a sample */
     double *v, *vh;    /* nnodes: node voltages at t and at t + h (V) */
     double *dvs;       /* nnodes: dv/dt from the sources (unused, V/s) */
+    double *v_ref;     /* nnodes: node voltages of the reference state (0: none) */
+    double *x_ref;     /* n: the reference state (inductor currents read from it) */
     int driven_caps;   /* a capacitor has a driven terminal: vh is needed */
     double t_from_s;   /* accumulate from the last breakpoint on */
     int started;       /* a first sample has been taken */
@@ -68,12 +71,14 @@ static void energy_and_rate(ru_energy_balance *e, double t, const double *x, dou
     for (size_t i = 0; i < e->ncaps; i++) {
         const store_cap *c = &e->caps[i];
         double v = e->v[c->a] - e->v[c->b];
+        if (e->v_ref)
+            v -= e->v_ref[c->a] - e->v_ref[c->b];
         double dv = node_dv(e, c->a, h) - node_dv(e, c->b, h);
         E += 0.5 * c->c_f * v * v;
         P += c->c_f * v * dv;
     }
     for (size_t i = 0; i < e->ninds; i++) {
-        double cur = x[e->inds[i].state];
+        double cur = x[e->inds[i].state] - (e->x_ref ? e->x_ref[e->inds[i].state] : 0.0);
         E += 0.5 * e->inds[i].l_h * cur * cur;
         P += e->inds[i].l_h * cur * e->f[e->inds[i].state];
     }
@@ -135,10 +140,26 @@ ru_status ru_energy_balance_create(const ru_system *s, double stop_s,
     return RU_OK;
 }
 
+ru_status ru_energy_balance_set_ref(ru_energy_balance *e, const double *x_ref)
+{
+    size_t n = ru_system_size(e->sys);
+    size_t nn = ru_circuit_node_count(ru_system_circuit(e->sys));
+    e->v_ref = calloc(nn ? nn : 1, sizeof *e->v_ref);
+    e->x_ref = calloc(n ? n : 1, sizeof *e->x_ref);
+    if (!e->v_ref || !e->x_ref)
+        return RU_ENOMEM;
+    memcpy(e->x_ref, x_ref, n * sizeof *x_ref);
+    for (size_t k = 0; k < nn; k++)
+        e->v_ref[k] = ru_system_node_voltage_dc(e->sys, (int)k, x_ref);
+    return RU_OK;
+}
+
 void ru_energy_balance_destroy(ru_energy_balance *e)
 {
     if (!e)
         return;
+    free(e->v_ref);
+    free(e->x_ref);
     free(e->caps);
     free(e->inds);
     free(e->f);

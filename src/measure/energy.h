@@ -18,6 +18,11 @@ typedef struct ru_energy_balance ru_energy_balance;
 ru_status ru_energy_balance_create(const ru_system *s, double stop_s,
                                    ru_energy_balance **out);
 void ru_energy_balance_destroy(ru_energy_balance *e);
+/* Measures the stored energy from a reference state instead of zero (the operating
+ * point: C (v - v_op)^2/2 + L (i - i_op)^2/2). The balance holds for any such
+ * quadratic form, and without the energy the bias stores the estimate is not
+ * diluted by it: it reads the damping of the oscillation. Call before pushing. */
+ru_status ru_energy_balance_set_ref(ru_energy_balance *e, const double *x_ref);
 void ru_energy_balance_push(ru_energy_balance *e, double t_s, const double *x);
 /* sigma_num in 1/s (positive: the integrator removes energy), NAN when unknown. */
 double ru_energy_balance_damping(const ru_energy_balance *e);
