@@ -13,6 +13,7 @@
 #include "parts/laws.h"
 
 #include <stdio.h>
+#include <string.h>
 
 /* NIST CODATA 2018: k/e = 8.617333262e-5 V/K (exact ratio of the 2019 SI
  * constants). 300 K is 26.85 C. */
@@ -569,14 +570,18 @@ static void test_table(void **state)
         const ru_law_desc *d = ru_law_get((ru_law)l);
         assert_non_null(d);
         assert_int_equal(d->law, l);
-        assert_non_null(d->eval);
-        assert_int_equal(d->nstates, l == RU_LAW_OPAMP ? 1 : 0);
+        assert_true(d->eval != NULL || d->eval_at != NULL); /* one evaluator */
+        ru_amp da;
+        ru_amp_defaults(&da, (ru_law)l);
+        /* at its defaults only the opamp has a state */
+        assert_int_equal(ru_law_nstates(&da), l == RU_LAW_OPAMP ? 1 : 0);
     }
     assert_null(ru_law_get(RU_LAW_COUNT));
     assert_null(ru_law_get((ru_law)-1));
     ru_amp a = follower();
     a.law = RU_LAW_COUNT;
-    ru_law_eval e = {1, 1, 1, 1, 1, 1, 1, 1, 1, 1, 1};
+    ru_law_eval e;
+    memset(&e, 1, sizeof e); /* nonzero bytes: the call must zero them */
     assert_int_equal(ru_law_eval_amp(&a, 0.0, 0.0, &e), 0);
     RU_ASSERT_NEAR(e.i_out, 0.0, 0.0);
 }

@@ -748,10 +748,14 @@ static void test_models_list(void **state)
                            : strcmp(m[i].law, "thermal-resistor") == 0 ? "thermal-resistor"
                                                                        : "amplifier";
         char text[512];
+        /* a law with an upper rail (cmos-inverter) gets vdd: a supply node */
+        int rail = strcmp(m[i].law, "cmos-inverter") == 0;
         if (strcmp(type, "amplifier") == 0)
             snprintf(text, sizeof text,
-                     "parts:\n  X1: {type: amplifier, in: i, out: o, model: %s}\n"
-                     "  R1: {type: resistor, nodes: [i, gnd], value: 1k}\n", m[i].name);
+                     "parts:\n  X1: {type: amplifier, in: i, out: o, model: %s%s}\n"
+                     "  R1: {type: resistor, nodes: [i, gnd], value: 1k}\n%s", m[i].name,
+                     rail ? ", vdd: v" : "",
+                     rail ? "  V1: {type: supply, nodes: [v, gnd], value: 3V}\n" : "");
         else
             snprintf(text, sizeof text, "parts:\n  X1: {type: %s, nodes: [i, gnd], model: %s}\n",
                      type, m[i].name);

@@ -122,6 +122,11 @@ double ru_df_gain(ru_df_law_fn f, void *user, double x0, double a, int samples);
  * memoryless describing function, and for an unknown law. */
 double ru_df_amp_gain(const struct ru_amp *amp, double vc0_v, double vo0_v, double a_v);
 
+/* Same for a law with an upper rail (the cmos-inverter's vdd terminal) at vdd_v
+ * above ref; ru_df_amp_gain is this with vdd_v = 0. */
+double ru_df_amp_gain_rail(const struct ru_amp *amp, double vc0_v, double vo0_v,
+                           double vdd_v, double a_v);
+
 #ifdef __cplusplus
 }
 #endif

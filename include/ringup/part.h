@@ -19,7 +19,7 @@ extern "C" {
 #define RU_NAME_MAX 64   /* longest part, node or model name, with the NUL */
 #define RU_POLY_MAX 8    /* most coefficients of a poly-conductance (c_0..c_7) */
 #define RU_TABLE_MAX 64  /* most points of a `table` amplifier's transfer curve */
-#define RU_PART_NODES 4  /* node slots of a part */
+#define RU_PART_NODES 6  /* node slots of a part */
 
 typedef enum {
     RU_PART_RESISTOR,  /* nodes a,b; value in ohm */
@@ -70,11 +70,13 @@ typedef enum {
     RU_LAW_DIFF_PAIR_TANH,
     RU_LAW_OPAMP,
     RU_LAW_TABLE,
+    RU_LAW_MOS_EKV,
+    RU_LAW_CMOS_INVERTER,
     RU_LAW_COUNT
 } ru_law;
 
 /* The file spelling of a law ("follower-tanh", "exp-stage", "diff-pair-tanh",
- * "opamp", "table"). */
+ * "opamp", "table", "mos-ekv", "cmos-inverter"). */
 const char *ru_law_name(ru_law law);
 
 /* Parameters of a behavioral amplifier. The control voltage is vc = v(in) - v(inv)
@@ -126,7 +128,28 @@ const char *ru_law_name(ru_law law);
  *   with the weighted-harmonic-mean slopes of Fritsch & Butland (1984), the same
  *   curve as scipy's PchipInterpolator): C1, and monotone on every interval where
  *   the data are; beyond the ends it continues linearly with the end slopes. The
- *   source f(vc) sits behind rout from out to ref; the input draws nothing. */
+ *   source f(vc) sits behind rout from out to ref; the input draws nothing.
+ * mos-ekv: an MOS transistor by the charge-based EKV model (Enz, Krummenacher &
+ *   Vittoz, "An analytical MOS transistor model valid in all regions of operation
+ *   and dedicated to low-voltage and low-current applications", Analog Integrated
+ *   Circuits and Signal Processing 8 (1995) 83-114), with a constant slope factor
+ *   n: gate in, drain out, source and bulk together on ref (vgs is v(in) - v(inv),
+ *   inv being ref unless given).
+ *   The drain current (drain to source, n-channel)
+ *     id = is (F(vp/ut) - F((vp - vds)/ut)) (1 + |vds|/va),  F(u) = ln^2(1 + e^(u/2))
+ *     vp = (vgs - vth)/n,  is = 2 n k ut^2,  ut = kT/q
+ *   is one expression from weak inversion (id = is e^(vp/ut) (1 - e^(-vds/ut)))
+ *   through moderate to strong inversion (saturation: k/(2n) (vgs - vth)^2), in
+ *   both directions of vds; va (0: none) adds channel-length modulation (common
+ *   practice, not part of EKV 1995). polarity -1 is the p-channel device: every
+ *   voltage and current reversed, vth its magnitude. i_out = -polarity id (an
+ *   n-channel drain sinks). The gate draws no current; cgs (in-inv) and cgd
+ *   (in-out) are constant capacitances.
+ * cmos-inverter: two mos-ekv devices between the rails: gates on in, drains on
+ *   out, the n device's source on ref and the p device's on vdd (a terminal, the
+ *   upper rail). i_out = id_p(vdd - vin, vdd - vout) - id_n(vin, vout), and the
+ *   supply current id_p enters by vdd; the same n, temp and va for both devices.
+ *   cin (in-ref), cgd (in-out) and cout (out-ref) are constant capacitances. */
 typedef struct ru_amp {
     ru_law law;
     char model[RU_NAME_MAX]; /* preset name the values came from, "" when inline */
@@ -136,7 +159,8 @@ typedef struct ru_amp {
     double rout_ohm;         /* follower, opamp, table: output resistance (ohm, > 0);
                                 diff-pair: parallel output resistance (0: none) */
     double is_a;             /* exp-stage: saturation current (A) */
-    double n;                /* exp-stage, diff-pair: emission coefficient */
+    double n;                /* exp-stage, diff-pair: emission coefficient; mos-ekv,
+                                cmos-inverter: the EKV slope factor (>= 1) */
     double beta;             /* exp-stage: current gain ic/ib */
     double vsat_v;           /* exp-stage: saturation knee (V) */
     double temp_c;           /* exp-stage, diff-pair: junction temperature (deg C) */
@@ -150,6 +174,18 @@ typedef struct ru_amp {
     int npoints;             /* table: points used (2..RU_TABLE_MAX) */
     double pt_vin[RU_TABLE_MAX];  /* table: input voltages (V), strictly increasing */
     double pt_vout[RU_TABLE_MAX]; /* table: output voltages (V) */
+    double polarity;         /* mos-ekv: +1 n-channel, -1 p-channel */
+    double vth_v;            /* mos-ekv: threshold voltage VT0 (V, magnitude for p) */
+    double kmos_a_per_v2;    /* mos-ekv: transfer parameter beta = mu Cox W/L (A/V^2) */
+    double va_v;             /* mos-ekv, cmos-inverter: channel-length modulation
+                                voltage (V, 0: none) */
+    double cgs_f, cgd_f;     /* mos-ekv: gate-source and gate-drain capacitances (F);
+                                cmos-inverter: cgd is in-out (both devices) */
+    double vthn_v, vthp_v;   /* cmos-inverter: thresholds of the n and p devices (V,
+                                both positive) */
+    double kn_a_per_v2;      /* cmos-inverter: n device's beta (A/V^2) */
+    double kp_a_per_v2;      /* cmos-inverter: p device's beta (A/V^2) */
+    double cin_f, cout_f;    /* cmos-inverter: in-ref and out-ref capacitances (F) */
 } ru_amp;
 
 /* Junction diode (two-terminal part): i(anode -> cathode) = is*(exp(vj/(n vt)) - 1)
@@ -198,8 +234,9 @@ void ru_amp_defaults(ru_amp *a, ru_law law);
 typedef struct ru_part {
     char name[RU_NAME_MAX];
     ru_part_type type;
-    int node[RU_PART_NODES]; /* a,b for two-terminal parts; in,out,ref,inv for
-                                amplifiers (inv -1: the same node as ref) */
+    int node[RU_PART_NODES]; /* a,b for two-terminal parts; in,out,ref,inv,out2,vdd
+                                for amplifiers (inv -1: the same node as ref; out2
+                                and vdd -1: not connected) */
     double value;            /* R (ohm), C (F), L (H), a transconductor's gm (S) */
     double series_ohm;       /* inductor: series resistance (ohm, >= 0) */
     double tol;              /* relative tolerance for Monte Carlo (0.01 = 1 %) */

@@ -200,7 +200,8 @@ static ru_status check_values(const ru_circuit *c, const ru_part *p, ru_error *e
                             "part %s: unknown part type", p->name);
     for (const ru_term *t = d->terms; t->key; t++)
         for (int k = t->first; k < t->first + t->count; k++) {
-            if (t->absent == RU_TERM_SAME) { /* -1: the same as another terminal */
+            if (t->absent == RU_TERM_SAME || t->absent == RU_TERM_NONE) {
+                /* -1: the same as another terminal, or not connected */
                 if (p->node[k] >= (int)c->nnodes)
                     return ru_error_set(err, RU_EINPUT, c->file, p->line, p->col,
                                         "part %s: %s names no node", p->name, t->key);

@@ -113,7 +113,8 @@ static ru_status read_terms(ld_ctx *x, const ru_part_desc *d, const ru_ynode *ma
     for (const ru_term *t = d->terms; t->key; t++) {
         const ru_ypair *p = ru_ld_find(map, t->key);
         for (int k = 0; !p && k < t->count; k++) /* absent: its default */
-            part->node[t->first + k] = t->absent == RU_TERM_SAME ? -1 : 0;
+            part->node[t->first + k] =
+                t->absent == RU_TERM_SAME || t->absent == RU_TERM_NONE ? -1 : 0;
         if (!p && t->absent == RU_TERM_REQUIRED)
             return ru_ld_fail(x->d, place, x->err, "%s: missing required key %s", who,
                               t->key);

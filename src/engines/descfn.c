@@ -269,20 +269,27 @@ double ru_df_gain(ru_df_law_fn f, void *user, double x0, double a, int samples)
 typedef struct amp_at {
     const ru_amp *amp;
     const ru_law_desc *law;
-    double vo0_v;
+    ru_law_at at;
 } amp_at;
 
 static double amp_out(void *user, double vc)
 {
-    const amp_at *p = user;
-    return p->law->df_out(p->amp, vc, p->vo0_v);
+    amp_at *p = user;
+    p->at.vc = vc;
+    return p->law->df_out(p->amp, &p->at);
 }
 
-double ru_df_amp_gain(const ru_amp *amp, double vc0_v, double vo0_v, double a_v)
+double ru_df_amp_gain_rail(const ru_amp *amp, double vc0_v, double vo0_v, double vdd_v,
+                           double a_v)
 {
     const ru_law_desc *law = ru_law_get(amp->law);
     if (!law || !law->df_out) /* no memoryless describing function (opamp) */
         return NAN;
-    amp_at p = {amp, law, vo0_v};
+    amp_at p = {amp, law, {vc0_v, vo0_v, 0.0, vdd_v, 0.0}};
     return ru_df_gain(amp_out, &p, vc0_v, a_v, 4096);
+}
+
+double ru_df_amp_gain(const ru_amp *amp, double vc0_v, double vo0_v, double a_v)
+{
+    return ru_df_amp_gain_rail(amp, vc0_v, vo0_v, 0.0, a_v);
 }

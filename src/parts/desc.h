@@ -62,7 +62,8 @@ typedef struct ru_variant {
 enum {
     RU_TERM_REQUIRED, /* an error */
     RU_TERM_GND,      /* ground (node 0) */
-    RU_TERM_SAME      /* node -1: the same node as terminal same_as */
+    RU_TERM_SAME,     /* node -1: the same node as terminal same_as */
+    RU_TERM_NONE      /* node -1: not connected (a terminal only some variants use) */
 };
 
 /* A terminal key: a node name (count 1) or a list of count node names. */

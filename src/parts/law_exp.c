@@ -53,10 +53,10 @@ static void eval(const ru_amp *a, double vc, double vo, double xs, ru_law_eval *
 }
 
 /* The describing-function contribution: the output current, memoryless. */
-static double df_out(const ru_amp *a, double vc_v, double vo_v)
+static double df_out(const ru_amp *a, const ru_law_at *at)
 {
     ru_law_eval e;
-    eval(a, vc_v, vo_v, 0.0, &e);
+    eval(a, at->vc, at->vo, 0.0, &e);
     return e.i_out;
 }
 

@@ -38,25 +38,11 @@ static ru_status check(const ru_part *p, const ru_part_env *env, ru_error *err)
     return RU_OK;
 }
 
-/* Softplus ln(1 + e^z) and its derivative, the logistic function, without
- * overflow for any z. */
-static double softplus(double z, double *deriv)
-{
-    if (z > 0) {
-        double t = exp(-z);
-        *deriv = 1.0 / (1.0 + t);
-        return z + log1p(t);
-    }
-    double t = exp(z);
-    *deriv = t / (1.0 + t);
-    return log1p(t);
-}
-
 double ru_law_rail(const ru_amp *a, double u, double *deriv)
 {
     double k = a->knee_v, dlo, dhi;
-    double lo = softplus((u - a->vmin_v) / k, &dlo);
-    double hi = softplus((u - a->vmax_v) / k, &dhi);
+    double lo = ru_law_softplus((u - a->vmin_v) / k, &dlo);
+    double hi = ru_law_softplus((u - a->vmax_v) / k, &dhi);
     *deriv = dlo - dhi;
     return a->vmin_v + k * (lo - hi);
 }
@@ -67,8 +53,8 @@ double ru_law_rail(const ru_amp *a, double u, double *deriv)
 static double opamp_clamp(const ru_amp *a, double v, double *dk)
 {
     double k = a->knee_v, band = RU_OPAMP_BAND * k, dhi, dlo;
-    double hi = softplus((v - a->vmax_v - band) / k, &dhi);
-    double lo = softplus((a->vmin_v - band - v) / k, &dlo);
+    double hi = ru_law_softplus((v - a->vmax_v - band) / k, &dhi);
+    double lo = ru_law_softplus((a->vmin_v - band - v) / k, &dlo);
     *dk = a->slew_v_per_s / k * (dhi + dlo);
     return a->slew_v_per_s * (hi - lo);
 }

@@ -1,5 +1,5 @@
 /* law_util.c: what the amplifier laws and the junction parts share: the thermal
- * voltage, the limited exponential, the junction checks (laws.h). */
+ * voltage, the limited exponential, softplus, the junction checks (laws.h). */
 #include "parts/laws.h"
 
 #include <math.h>
@@ -30,4 +30,16 @@ ru_status ru_law_check_junction(const ru_part *p, const ru_part_env *env, ru_err
     if (a->temp_c <= -273.15)
         return ru_part_bad(env, p, err, "temp must be above absolute zero", a->temp_c);
     return RU_OK;
+}
+
+double ru_law_softplus(double z, double *deriv)
+{
+    if (z > 0) {
+        double t = exp(-z);
+        *deriv = 1.0 / (1.0 + t);
+        return z + log1p(t);
+    }
+    double t = exp(z);
+    *deriv = t / (1.0 + t);
+    return log1p(t);
 }

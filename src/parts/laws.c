@@ -15,6 +15,8 @@ static const ru_law_desc *const law_table[RU_LAW_COUNT] = {
     [RU_LAW_DIFF_PAIR_TANH] = &ru_law_diffpair,
     [RU_LAW_OPAMP] = &ru_law_opamp,
     [RU_LAW_TABLE] = &ru_law_tab,
+    [RU_LAW_MOS_EKV] = &ru_law_mos,
+    [RU_LAW_CMOS_INVERTER] = &ru_law_inverter,
 };
 
 const ru_law_desc *ru_law_get(ru_law law)
@@ -44,16 +46,33 @@ double ru_law_rest_state(const ru_amp *a)
     return d && d->rest ? d->rest(a) : 0.0;
 }
 
-int ru_law_eval_state(const ru_amp *a, double vc_v, double vo_v, double xs,
-                      ru_law_eval *e)
+int ru_law_eval_at(const ru_amp *a, const ru_law_at *at, ru_law_eval *e)
 {
     const ru_law_desc *d = ru_law_get(a->law);
     if (!d) {
         memset(e, 0, sizeof *e);
         return 0;
     }
-    d->eval(a, vc_v, vo_v, xs, e);
+    if (d->eval_at)
+        d->eval_at(a, at, e);
+    else
+        d->eval(a, at->vc, at->vo, at->xs, e);
     return 1;
+}
+
+int ru_law_eval_state(const ru_amp *a, double vc_v, double vo_v, double xs,
+                      ru_law_eval *e)
+{
+    const ru_law_at at = {vc_v, vo_v, 0.0, 0.0, xs};
+    return ru_law_eval_at(a, &at, e);
+}
+
+int ru_law_nstates(const ru_amp *a)
+{
+    const ru_law_desc *d = ru_law_get(a->law);
+    if (!d)
+        return 0;
+    return d->nstates_of ? d->nstates_of(a) : d->nstates;
 }
 
 int ru_law_eval_amp(const ru_amp *a, double vc_v, double vo_v, ru_law_eval *e)

@@ -11,6 +11,15 @@
  * (the opamp's output depends on vc only through its integrator). The input terms
  * are the loading the amplifier puts on its control nodes.
  *
+ * Laws with more terminals (ru_law_desc.terms) see, besides, vo2 = v(out2) -
+ * v(ref) (a second output: the pair's second collector) and vs = v(vdd) - v(ref)
+ * (an upper rail: the inverter's supply); they push i_out2 INTO out2 and i_sup
+ * INTO vdd, and ref takes back the sum i_out + i_out2 + i_sup (KCL over the
+ * part). Their controlled terms are every output current's d/d vc (d i_out2/d vc,
+ * d i_sup/d vc as well). A law whose control acts through its state
+ * (control_state: the exp-stage with a base resistance, its junction voltage
+ * behind rb) has d i_out/d xs as its controlled term instead.
+ *
  * Laws are table-driven (ru_law_get, laws.c): one file per law (law_*.c) defines
  * one ru_law_desc with its keys, checks, evaluator, internal state and
  * describing-function contribution; the amplifier part (amplifier.c) reaches
@@ -51,10 +60,43 @@ typedef struct ru_law_eval {
     double ddxs_dvc;   /* d dxs / d vc: the controlled term of a law with a state */
     double ddxs_dvo;   /* d dxs / d vo */
     double ddxs_dxs;   /* d dxs / d xs (1/s) */
+    double di_in_dxs;  /* d i_in / d xs (S for a voltage state) */
+    double i_out2;     /* current pushed into out2 (A; laws with RU_LAW_TERM_OUT2) */
+    double di_out2_dvc, di_out2_dvo2; /* its derivatives (S) */
+    double di_out_dvs; /* d i_out / d vs (S; laws with RU_LAW_TERM_VDD) */
+    double i_sup;      /* current pushed into vdd (A) */
+    double di_sup_dvc, di_sup_dvo, di_sup_dvs; /* its derivatives (S) */
 } ru_law_eval;
 
 typedef void (*ru_law_fn)(const ru_amp *a, double vc_v, double vo_v, double xs,
                           ru_law_eval *e);
+
+/* What a law sees: the voltages of its ports (see the head comment) and its state. */
+typedef struct ru_law_at {
+    double vc, vo; /* v(in) - v(inv), v(out) - v(ref) */
+    double vo2;    /* v(out2) - v(ref): 0 without out2 */
+    double vs;     /* v(vdd) - v(ref): 0 without vdd */
+    double xs;     /* the internal state (0 without one) */
+} ru_law_at;
+
+typedef void (*ru_law_at_fn)(const ru_amp *a, const ru_law_at *at, ru_law_eval *e);
+
+/* The terminals beyond in, out, ref, inv that a law uses (ru_law_desc.terms). */
+enum {
+    RU_LAW_TERM_OUT2 = 1, /* out2: a second output, required */
+    RU_LAW_TERM_VDD = 2   /* vdd: an upper rail, required */
+};
+
+/* The amplifier's node slots (ru_part.node[]), also the ends of a law's
+ * capacitances (ru_law_cap). */
+enum { RU_AMP_IN, RU_AMP_OUT, RU_AMP_REF, RU_AMP_INV, RU_AMP_OUT2, RU_AMP_VDD };
+
+/* A constant capacitance c_f between two of the amplifier's terminals (RU_AMP_*;
+ * inv resolved to ref when not given). */
+typedef struct ru_law_cap {
+    int a, b;
+    double c_f;
+} ru_law_cap;
 
 typedef struct ru_law_desc {
     ru_law law;        /* which law this entry describes */
@@ -73,7 +115,17 @@ typedef struct ru_law_desc {
        function of vc at vo (ru_df_amp_gain integrates it over a cycle); NULL for
        a law whose output follows vc only through its state (no memoryless
        describing function; the harmonic balance of ru_df_analyse covers it). */
-    double (*df_out)(const ru_amp *a, double vc_v, double vo_v);
+    double (*df_out)(const ru_amp *a, const ru_law_at *at);
+    /* Laws with more terminals or a state-borne control (NULL: none of these) */
+    int terms;             /* RU_LAW_TERM_* it requires */
+    ru_law_at_fn eval_at;  /* its evaluator seeing every port (then eval is NULL) */
+    int (*nstates_of)(const ru_amp *a);  /* states when they depend on the values;
+                                            NULL: nstates */
+    int control_state;     /* 1: with its state, the controlled term is d i_out/d xs
+                              and the control voltage is the state itself */
+    /* its constant capacitances (the mass matrix); NULL: none. Entries with
+       c_f == 0 are left out. */
+    int (*caps)(const ru_amp *a, ru_law_cap out[RU_PART_CAPS_MAX]);
 } ru_law_desc;
 
 /* The law spelled name, or -1. */
@@ -83,9 +135,23 @@ int ru_law_find(const char *name);
  * absolute zero. */
 ru_status ru_law_check_junction(const ru_part *p, const ru_part_env *env, ru_error *err);
 
+/* Checks shared by the MOS laws (mos-ekv, cmos-inverter): n >= 1, temp above
+ * absolute zero, va >= 0. */
+ru_status ru_law_check_mos(const ru_part *p, const ru_part_env *env, ru_error *err);
+
+/* The EKV drain current of an n-channel device with source and bulk at 0 V, gate
+ * at vg and drain at vd (Enz, Krummenacher & Vittoz 1995, with the constant slope
+ * factor n):
+ *   id = is (F(vp/ut) - F((vp - vd)/ut)) (1 + |vd|/va),  F(u) = ln^2(1 + e^(u/2)),
+ *   vp = (vg - vth)/n,  is = 2 n beta ut^2
+ * (va 0: no channel-length modulation); *gg = d id/d vg, *gd = d id/d vd. Finite
+ * for any finite voltages (F grows as u^2/4, underflows to 0). */
+double ru_ekv_current(double vth_v, double beta, double n, double ut_v, double va_v,
+                      double vg_v, double vd_v, double *gg, double *gd);
+
 /* The table entries, one per law file. */
 extern const ru_law_desc ru_law_follower, ru_law_exp, ru_law_diffpair, ru_law_opamp,
-    ru_law_tab;
+    ru_law_tab, ru_law_mos, ru_law_inverter;
 
 /* The table entry of a law, or NULL for an unknown law. */
 const ru_law_desc *ru_law_get(ru_law law);
@@ -94,6 +160,17 @@ const ru_law_desc *ru_law_get(ru_law law);
  * 0 for an unknown law (e zeroed). */
 int ru_law_eval_state(const ru_amp *a, double vc_v, double vo_v, double xs,
                       ru_law_eval *e);
+
+/* Evaluates the law at every port voltage (a law without extra terminals sees
+ * vc, vo and xs only); returns 0 for an unknown law (e zeroed). */
+int ru_law_eval_at(const ru_amp *a, const ru_law_at *at, ru_law_eval *e);
+
+/* The number of internal states of the amplifier's law (0 for an unknown law). */
+int ru_law_nstates(const ru_amp *a);
+
+/* Softplus ln(1 + e^z) without overflow for any z; *deriv gets the logistic
+ * function 1/(1 + e^-z), its derivative. */
+double ru_law_softplus(double z, double *deriv);
 
 /* Same with the state at its rest value ru_law_rest_state(a). */
 int ru_law_eval_amp(const ru_amp *a, double vc_v, double vo_v, ru_law_eval *e);

@@ -102,7 +102,7 @@ void ru_part_init(ru_part *p, ru_part_type type, const char *name)
     p->type = type;
     const ru_part_desc *d = ru_part_desc_get(type);
     for (const ru_term *t = d ? d->terms : NULL; t && t->key; t++)
-        if (t->absent == RU_TERM_SAME)
+        if (t->absent == RU_TERM_SAME || t->absent == RU_TERM_NONE)
             for (int k = 0; k < t->count; k++)
                 p->node[t->first + k] = -1;
 }
@@ -128,6 +128,8 @@ int ru_part_terminals(const ru_part *p, ru_terminal *out, int max)
                 if (node < 0 || node == other)
                     continue;
             }
+            if (t->absent == RU_TERM_NONE && node < 0) /* listed only when given */
+                continue;
             if (n < max)
                 out[n] = (ru_terminal){t->key, node};
             n++;
