@@ -497,8 +497,69 @@ static void test_value_errors(void **state)
                "part C1: value must be positive");
     expect_tok("parts:\n  L1: {type: inductor, nodes: [a, gnd], value: 0H}\n", 2, "L1",
                "part L1: value must be positive");
-    expect_tok("stray: 0\nparts:\n  R1: {type: resistor, nodes: [a, gnd], value: 1}\n", 1,
-               "0", "stray must be positive");
+    expect_tok("stray: -1p\nparts:\n  R1: {type: resistor, nodes: [a, gnd], value: 1}\n", 1,
+               "-1p", "key stray must be 0 or more");
+    /* per-node strays: the node must exist and not be ground; values >= 0 */
+    expect_tok("stray: {default: 1p, nodes: {b: 0}}\nparts:\n"
+               "  R1: {type: resistor, nodes: [a, gnd], value: 1}\n",
+               1, "b", "stray: nodes: node b does not exist");
+    expect_tok("stray: {nodes: {gnd: 0}}\nparts:\n"
+               "  R1: {type: resistor, nodes: [a, gnd], value: 1}\n",
+               1, "gnd", "ground has no stray capacitance");
+    expect_tok("stray: {nodes: {a: -2p}}\nparts:\n"
+               "  R1: {type: resistor, nodes: [a, gnd], value: 1}\n",
+               1, "-2p", "key a must be 0 or more");
+    expect_tok("stray: {deflt: 1p}\nparts:\n"
+               "  R1: {type: resistor, nodes: [a, gnd], value: 1}\n",
+               1, "deflt", "unknown key");
+    expect_tok("stray: {nodes: {a: 2H}}\nparts:\n"
+               "  R1: {type: resistor, nodes: [a, gnd], value: 1}\n",
+               1, "2H", "unit H does not fit, expected F");
+}
+
+/* Reference: README circuit-file format (`stray`: one value, or a default and
+ * per-node values; 0 is an ideal node with no capacitance). */
+static void test_stray_forms(void **state)
+{
+    (void)state;
+    ru_circuit *c = NULL;
+    ru_error err;
+    assert_int_equal(ru_circuit_load_string("stray: 0\nparts:\n"
+                                            "  R1: {type: resistor, nodes: [a, gnd], value: 1}\n"
+                                            "  C1: {type: capacitor, nodes: [a, gnd], value: 1n}\n",
+                                            NAME, RU_MODELS_DIR, &c, &err),
+                     RU_OK);
+    RU_ASSERT_NEAR(ru_circuit_stray_f(c), 0.0, 0.0);
+    RU_ASSERT_NEAR(ru_circuit_node_stray_f(c, ru_circuit_find_node(c, "a")), 0.0, 0.0);
+    ru_circuit_destroy(c);
+    assert_int_equal(ru_circuit_load_string("stray: {default: 2p, nodes: {b: 0, c: 5p}}\n"
+                                            "parts:\n"
+                                            "  R1: {type: resistor, nodes: [a, b], value: 1}\n"
+                                            "  R2: {type: resistor, nodes: [b, c], value: 1}\n"
+                                            "  R3: {type: resistor, nodes: [c, gnd], value: 1}\n",
+                                            NAME, RU_MODELS_DIR, &c, &err),
+                     RU_OK);
+    RU_ASSERT_REL(ru_circuit_stray_f(c), 2e-12, REL);
+    RU_ASSERT_REL(ru_circuit_node_stray_f(c, ru_circuit_find_node(c, "a")), 2e-12, REL);
+    RU_ASSERT_NEAR(ru_circuit_node_stray_f(c, ru_circuit_find_node(c, "b")), 0.0, 0.0);
+    RU_ASSERT_REL(ru_circuit_node_stray_f(c, ru_circuit_find_node(c, "c")), 5e-12, REL);
+    assert_true(ru_circuit_node_stray_set(c, ru_circuit_find_node(c, "b")));
+    assert_false(ru_circuit_node_stray_set(c, ru_circuit_find_node(c, "a")));
+    /* a clone keeps the per-node values */
+    ru_circuit *d = NULL;
+    assert_int_equal(ru_circuit_clone(c, &d), RU_OK);
+    RU_ASSERT_REL(ru_circuit_node_stray_f(d, ru_circuit_find_node(d, "c")), 5e-12, REL);
+    ru_circuit_destroy(d);
+    ru_circuit_destroy(c);
+    /* a mapping without default keeps 1 pF */
+    assert_int_equal(ru_circuit_load_string("stray: {nodes: {a: 0}}\nparts:\n"
+                                            "  R1: {type: resistor, nodes: [a, gnd], value: 1}\n"
+                                            "  R2: {type: resistor, nodes: [b, gnd], value: 1}\n",
+                                            NAME, RU_MODELS_DIR, &c, &err),
+                     RU_OK);
+    RU_ASSERT_REL(ru_circuit_node_stray_f(c, ru_circuit_find_node(c, "b")), 1e-12, REL);
+    RU_ASSERT_NEAR(ru_circuit_node_stray_f(c, ru_circuit_find_node(c, "a")), 0.0, 0.0);
+    ru_circuit_destroy(c);
 }
 
 /* Reference: README circuit-file format (run and measure names must exist). */
@@ -860,7 +921,8 @@ int main(void)
         cmocka_unit_test(test_shipped_presets),  cmocka_unit_test(test_yaml_errors),
         cmocka_unit_test(test_refs_refused),     cmocka_unit_test(test_billion_laughs),
         cmocka_unit_test(test_key_errors),       cmocka_unit_test(test_part_errors),
-        cmocka_unit_test(test_value_errors),     cmocka_unit_test(test_run_measure_errors),
+        cmocka_unit_test(test_value_errors),     cmocka_unit_test(test_stray_forms),
+        cmocka_unit_test(test_run_measure_errors),
         cmocka_unit_test(test_preset_errors),    cmocka_unit_test(test_io_errors),
         cmocka_unit_test(test_default_models_dir),
         cmocka_unit_test(test_new_parts),        cmocka_unit_test(test_new_part_errors),

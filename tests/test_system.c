@@ -131,8 +131,51 @@ static double lcg(unsigned long *seed)
 
 /* ---- Jacobian -------------------------------------------------------------- */
 
+/* The sparse assembly against the dense one at the same point: every entry of
+ * dr/dx lies in the pattern and has the same value (the same stamps add the same
+ * terms in the same order, so equal to the last bit), and the pattern's mass
+ * values are ru_system_mass's. The dense Jacobian itself is checked against
+ * finite differences (check_jacobian). */
+static void check_sparse(const ru_system *s, double t, const double *x)
+{
+    size_t n = ru_system_size(s);
+    ru_sparsity p;
+    ru_system_sparsity(s, &p);
+    assert_int_equal(p.n, n);
+    double *D = calloc(n * n, sizeof *D), *M = calloc(n * n, sizeof *M);
+    double *r1 = calloc(n, sizeof *r1), *r2 = calloc(n, sizeof *r2);
+    double *v = calloc((size_t)p.nnz, sizeof *v);
+    char *seen = calloc(n * n, 1);
+    ru_eval_point ep = {t, 0, 1.0};
+    assert_int_equal(ru_system_residual(s, &ep, x, r1, D), RU_OK);
+    assert_int_equal(ru_system_residual_sparse(s, &ep, x, r2, v), RU_OK);
+    ru_system_mass(s, M);
+    for (size_t i = 0; i < n; i++)
+        RU_ASSERT_NEAR(r2[i], r1[i], 0.0);
+    for (size_t j = 0; j < n; j++) {
+        int diag = 0;
+        for (long q = p.colptr[j]; q < p.colptr[j + 1]; q++) {
+            size_t i = (size_t)p.rowind[q];
+            assert_true(i < n);
+            if (q > p.colptr[j])
+                assert_true(p.rowind[q] > p.rowind[q - 1]); /* ascending */
+            diag |= i == j;
+            seen[i * n + j] = 1;
+            RU_ASSERT_NEAR(v[q], D[i * n + j], 0.0);
+            RU_ASSERT_NEAR(p.mass[q], M[i * n + j], 0.0);
+        }
+        assert_true(diag);
+    }
+    for (size_t e = 0; e < n * n; e++)
+        if (!seen[e] && (D[e] != 0 || M[e] != 0))
+            fail_msg("entry (%s, %s) = %g is outside the sparse pattern",
+                     ru_system_state_name(s, e / n), ru_system_state_name(s, e % n), D[e]);
+    free(D); free(M); free(r1); free(r2); free(v); free(seen);
+}
+
 static void check_jacobian(const ru_system *s, double t, const double *x)
 {
+    check_sparse(s, t, x);
     size_t n = ru_system_size(s);
     double *J = calloc(n * n, sizeof *J), *fp = calloc(n, sizeof *fp),
            *fm = calloc(n, sizeof *fm), *xx = calloc(n, sizeof *xx),

@@ -118,8 +118,18 @@ const char *ru_circuit_title(const ru_circuit *c);
 const char *ru_circuit_file(const ru_circuit *c);   /* "" when built in code */
 void ru_circuit_set_file(ru_circuit *c, const char *path);
 
+/* Stray capacitance from a free node to ground (F): the circuit's default (1 pF
+ * unless the file's `stray:` says otherwise), and one node's own value, which is
+ * that default unless the node has one of its own. 0 is allowed: a node with no
+ * capacitance at all is algebraic (its voltage follows from KCL at every instant;
+ * see ringup/system.h). Setters take finite values >= 0 (RU_ERANGE otherwise; a
+ * node must exist and not be ground). */
 double ru_circuit_stray_f(const ru_circuit *c);
-ru_status ru_circuit_set_stray_f(ru_circuit *c, double stray_f); /* > 0, finite */
+ru_status ru_circuit_set_stray_f(ru_circuit *c, double stray_f);
+double ru_circuit_node_stray_f(const ru_circuit *c, int node);
+ru_status ru_circuit_set_node_stray_f(ru_circuit *c, int node, double stray_f);
+/* 1 when the node has a stray value of its own. */
+int ru_circuit_node_stray_set(const ru_circuit *c, int node);
 
 /* 1 when the run starts from thermal noise: `kick: noise`, or power-on with noise on. */
 int ru_run_opts_noise(const ru_run_opts *ro);

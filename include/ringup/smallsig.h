@@ -4,7 +4,9 @@
  * Operating point: damped Newton on r(x) = 0 with every source at its final DC
  * value, junction-voltage limiting inside the laws, and source stepping (scale the
  * sources from 0 to 1) when plain Newton fails. Poles: eigenvalues of
- * J = M^{-1} dr/dx at the operating point (LAPACKE dgeev). Loop gain: the return
+ * J = M^{-1} dr/dx at the operating point (LAPACKE dgeev), with a DAE's algebraic
+ * states eliminated first. Loop gain and response solve (jwM - A) directly, which
+ * needs no inverse of M, so a singular M (nodes without capacitance) is fine. Loop gain: the return
  * ratio of one amplifier, L(jw) = g^T (jw M - A0)^{-1} b (ru_system_loop_split):
  * the amplifier's dependence on its control voltage is broken, every load kept;
  * L = 1 at 0 degrees is the Barkhausen condition. Network response: node `in`
@@ -38,8 +40,16 @@ typedef struct ru_pole {
     double im_rad_per_s;  /* imaginary part (rad/s) */
 } ru_pole;
 
-/* All n eigenvalues of the linearisation at x, sorted by real part, largest first
- * (ties: larger |im| first). poles must hold ru_system_size entries. */
+/* The number of poles: ru_system_size less the algebraic states (a DAE's
+ * algebraic states are eliminated, so only finite poles are counted). */
+size_t ru_poles_count(const ru_system *s);
+
+/* All ru_poles_count eigenvalues of the linearisation at x, sorted by real part,
+ * largest first (ties: larger |im| first). poles must hold ru_poles_count entries
+ * (ru_system_size is always enough). For a DAE the algebraic states are
+ * eliminated first: y_a = -G_aa^{-1} G_ad y_d from their KCL rows, then the
+ * eigenvalues of M_dd^{-1} (G_dd - G_da G_aa^{-1} G_ad) (src/engines/reduce.c),
+ * which are exactly the finite eigenvalues of the pencil (dr/dx, M). */
 ru_status ru_poles_compute(const ru_system *s, const double *x, ru_pole *poles,
                            ru_error *err);
 

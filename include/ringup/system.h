@@ -11,8 +11,24 @@
  * the other rows their time derivative directly (inductor: (v_a - v_b - R i)/L).
  * Then   M x' = r(t, x),   M = blockdiag(C, I),
  * where C is the constant capacitance matrix of the free nodes (capacitors plus the
- * stray capacitance from every free node to ground, so C is positive definite).
- * The system factors C once; f = M^{-1} r and J = M^{-1} dr/dx.
+ * stray capacitance from every free node to ground, 1 pF unless the file says
+ * otherwise). The system factors C once; f = M^{-1} r and J = M^{-1} dr/dx.
+ *
+ * Algebraic states. With `stray: 0` C may be singular, and the system is a DAE
+ * (differential-algebraic equations) of index 1:
+ * - a free node with no capacitance at all is algebraic: its row is KCL, 0 = r_k(x);
+ * - a group of free nodes joined by capacitors, with no capacitance to ground or to
+ *   a driven node, has one algebraic degree of freedom, its common level: the
+ *   group's lowest state is its reference (kind RU_STATE_COMMON) and the
+ *   differences of the others from it are differential; the sum of the group's
+ *   rows is KCL for the group, 0 = sum r_k(x).
+ * Every such degree of freedom must be fixed by KCL: ru_system_create refuses (naming
+ * the node) one that no resistive part, capacitor or supply joins to ground or to a
+ * node with capacitance to ground (only inductors, current sources or amplifier
+ * inputs reach it). A DAE has no f or J (ru_system_rhs and ru_system_jacobian
+ * return RU_EINPUT): the DAE engine (ringup/transient.h) uses M and dr/dx as they
+ * are, over the sparse pattern below, and the small-signal engines eliminate the
+ * algebraic states (ringup/smallsig.h).
  *
  * Discontinuities. Step and pulse edges of zero width and a supply with rise 0 are
  * jumps; ru_system_breakpoints lists their times, and ru_system_apply_jump moves
@@ -75,10 +91,36 @@ double ru_system_node_voltage_dc(const ru_system *s, int node, const double *x);
  * supplies that are at value at t = 0; preset: the preset voltages on top). */
 ru_status ru_system_initial_state(const ru_system *s, double *x0, ru_error *err);
 
-/* f(t, x) = M^{-1} r(t, x). */
+/* What kind of state i is (see the head comment). */
+typedef enum ru_state_kind {
+    RU_STATE_DIFFERENTIAL, /* has mass: a node with capacitance, a current, ... */
+    RU_STATE_ALGEBRAIC,    /* a free node with no capacitance */
+    RU_STATE_COMMON        /* the reference node of a capacitor group with none to
+                              ground: the group's common level is algebraic */
+} ru_state_kind;
+
+ru_state_kind ru_system_state_kind(const ru_system *s, size_t i);
+
+/* The reference state of the capacitor group that state i belongs to (i itself
+ * for the reference), or -1 when i is in no such group. */
+int ru_system_state_group(const ru_system *s, size_t i);
+
+/* Algebraic degrees of freedom (RU_STATE_ALGEBRAIC and RU_STATE_COMMON states);
+ * 0 for an ODE. */
+size_t ru_system_algebraic_count(const ru_system *s);
+
+/* The rates a state x implies for the stored energy: x' of every differential
+ * state from M x' = r(t, x), solved over the differential block, with the
+ * algebraic states' rates set to 0. For an ODE this is ru_system_rhs. For a DAE
+ * the rate of every capacitor voltage and inductor current is exact (a capacitor
+ * group's reference rate is 0, so the members' rates are relative to it). */
+ru_status ru_system_storage_rates(const ru_system *s, double t, const double *x,
+                                  double *xdot);
+
+/* f(t, x) = M^{-1} r(t, x) (RU_EINPUT for a DAE). */
 ru_status ru_system_rhs(const ru_system *s, double t, const double *x, double *f);
 
-/* J = df/dx (n*n, row-major: J[i*n + j] = df_i/dx_j). */
+/* J = df/dx (n*n, row-major: J[i*n + j] = df_i/dx_j; RU_EINPUT for a DAE). */
 ru_status ru_system_jacobian(const ru_system *s, double t, const double *x, double *J);
 
 /* How sources are evaluated for the DC and small-signal engines. */
@@ -104,6 +146,25 @@ ru_status ru_system_eval(const ru_system *s, const ru_eval_point *ep, const doub
 
 /* The mass matrix M = blockdiag(C, I), n*n row-major. */
 void ru_system_mass(const ru_system *s, double *M);
+
+/* The sparse pattern shared by dr/dx and M: compressed sparse columns, rows
+ * ascending within each column, every diagonal entry present, fixed at creation
+ * (every entry any stamp may touch, whatever its value at a given state). The
+ * arrays belong to the system. */
+typedef struct ru_sparsity {
+    size_t n;            /* order */
+    long nnz;            /* entries */
+    const long *colptr;  /* n + 1: column j holds entries colptr[j] .. colptr[j+1]-1 */
+    const long *rowind;  /* nnz: the row of each entry */
+    const double *mass;  /* nnz: M's value at each entry (0 where only dr/dx has one) */
+} ru_sparsity;
+
+void ru_system_sparsity(const ru_system *s, ru_sparsity *p);
+
+/* As ru_system_residual, with dr/dx as nnz values over ru_system_sparsity (r is
+ * required, drvals may be NULL). The cost is linear in the circuit's size. */
+ru_status ru_system_residual_sparse(const ru_system *s, const ru_eval_point *ep,
+                                    const double *x, double *r, double *drvals);
 
 /* Loop breaking for the return ratio of one amplifier part (index into the
  * circuit's parts). At state x (DC evaluation), splits dr/dx = A0 + b g^T where

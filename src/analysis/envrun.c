@@ -47,7 +47,7 @@ static int possible(const ru_circuit *c, const ru_system *s, const ru_run_report
     ru_pole *poles = malloc(n * sizeof *poles);
     int growing = 0;
     if (poles && ru_poles_compute(s, x_op, poles, NULL) == RU_OK)
-        for (size_t i = 0; i < n; i++)
+        for (size_t i = 0; i < ru_poles_count(s); i++)
             growing += poles[i].im_rad_per_s > 0 && poles[i].re_per_s > 0;
     free(poles);
     if (growing > 1) {

@@ -56,8 +56,12 @@ static double noise_amplitude(const ru_system *s, const double *x_op, ru_pole do
             e1 += p->value * (v[k] * v[k] + v[n + k] * v[n + k]) / 4;
         }
     }
-    for (size_t k = 0; k < ru_system_free_nodes(s); k++)
-        e1 += ru_circuit_stray_f(c) * (v[k] * v[k] + v[n + k] * v[n + k]) / 4;
+    for (size_t node = 1; node < ru_circuit_node_count(c); node++) {
+        int k = ru_system_node_state(s, (int)node);
+        if (k >= 0)
+            e1 += ru_circuit_node_stray_f(c, (int)node) *
+                  (v[k] * v[k] + v[n + k] * v[n + k]) / 4;
+    }
     if (p2 > 0 && e1 > 0)
         amp = sqrt(1.380649e-23 * (RU_NOISE_TEMP_C + 273.15) / (e1 / p2));
 done:
@@ -88,8 +92,8 @@ static void predict_poles(const ru_system *s, const double *x_op, int pos, int n
         ru_report_note(rep, "poles not computed: %s", e.msg);
         goto done;
     }
-    int d = ru_poles_dominant(poles, n);
-    keep_poles(keep, poles, n, d);
+    int d = ru_poles_dominant(poles, ru_poles_count(s));
+    keep_poles(keep, poles, ru_poles_count(s), d);
     if (d < 0) {
         ru_report_note(rep, "no complex pole pair at the operating point: the "
                             "small-signal model has no oscillation to predict");

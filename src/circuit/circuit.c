@@ -21,7 +21,8 @@
 
 typedef struct node_rec {
     char name[RU_NAME_MAX];
-    int line, col; /* first mention */
+    int line, col;  /* first mention */
+    double stray_f; /* this node's stray capacitance (F); < 0: the circuit's */
 } node_rec;
 
 struct ru_circuit {
@@ -158,6 +159,7 @@ int ru_circuit_node(ru_circuit *c, const char *name, int line, int col)
     snprintf(r->name, sizeof r->name, "%s", name);
     r->line = line;
     r->col = col;
+    r->stray_f = -1.0;
     if (ru_name_index_add(&c->node_ix, c->nodes, sizeof *c->nodes, c->nnodes) != RU_OK)
         return -1;
     return (int)c->nnodes++;
@@ -307,10 +309,30 @@ double ru_circuit_stray_f(const ru_circuit *c) { return c->stray_f; }
 
 ru_status ru_circuit_set_stray_f(ru_circuit *c, double stray_f)
 {
-    if (!isfinite(stray_f) || stray_f <= 0)
+    if (!isfinite(stray_f) || stray_f < 0)
         return RU_ERANGE;
     c->stray_f = stray_f;
     return RU_OK;
+}
+
+double ru_circuit_node_stray_f(const ru_circuit *c, int node)
+{
+    if (node <= 0 || (size_t)node >= c->nnodes)
+        return 0.0;
+    return c->nodes[node].stray_f >= 0 ? c->nodes[node].stray_f : c->stray_f;
+}
+
+ru_status ru_circuit_set_node_stray_f(ru_circuit *c, int node, double stray_f)
+{
+    if (node <= 0 || (size_t)node >= c->nnodes || !isfinite(stray_f) || stray_f < 0)
+        return RU_ERANGE;
+    c->nodes[node].stray_f = stray_f;
+    return RU_OK;
+}
+
+int ru_circuit_node_stray_set(const ru_circuit *c, int node)
+{
+    return node > 0 && (size_t)node < c->nnodes && c->nodes[node].stray_f >= 0;
 }
 
 ru_run_opts *ru_circuit_run_opts(ru_circuit *c) { return &c->run; }

@@ -85,6 +85,62 @@ static ru_status warn_single(ru_circuit *c, const char *file)
     return st;
 }
 
+/* One stray value (F, >= 0) of pair p into *f. */
+static ru_status stray_value(const ld_doc *d, const ru_ypair *p, const char *who,
+                             ru_error *err, double *f)
+{
+    ru_status s = ru_ld_value(d, p, who, "F", err, f);
+    if (s == RU_OK && !(*f >= 0))
+        s = ru_ld_fail(d, ru_ld_val(p), err, "%s%skey %s must be 0 or more (got %g)",
+                       who, ru_ld_sep(who), ru_ld_key(p), *f);
+    return s;
+}
+
+/* `stray: VALUE` or `stray: {default: VALUE, nodes: {NODE: VALUE, ...}}`: the
+ * default here (before the parts); the nodes' own values in read_stray_nodes. */
+static ru_status read_stray_default(const ld_doc *d, ru_circuit *c, const ru_ypair *sp,
+                                    ru_error *err)
+{
+    static const char *const keys[] = {"default", "nodes", NULL};
+    const ru_ynode *v = ru_ld_val(sp);
+    double f;
+    if (!v || v->type != RU_YAML_MAPPING) {
+        ru_status s = stray_value(d, sp, "", err, &f);
+        return s == RU_OK ? ru_circuit_set_stray_f(c, f) : s;
+    }
+    ru_status s = ru_ld_only_keys(d, v, "stray", keys, err);
+    const ru_ypair *p = ru_ld_find(v, "default");
+    if (s == RU_OK && p && (s = stray_value(d, p, "stray", err, &f)) == RU_OK)
+        s = ru_circuit_set_stray_f(c, f);
+    return s;
+}
+
+static ru_status read_stray_nodes(const ld_doc *d, ru_circuit *c, const ru_ypair *sp,
+                                  ru_error *err)
+{
+    const ru_ynode *v = ru_ld_val(sp), *nodes;
+    const ru_ypair *np = v && v->type == RU_YAML_MAPPING ? ru_ld_find(v, "nodes") : NULL;
+    if (!np)
+        return RU_OK;
+    ru_status s = ru_ld_need_mapping(d, np, "stray", err, &nodes);
+    for (size_t i = 0; s == RU_OK && i < nodes->n; i++) {
+        const ru_ypair *p = &nodes->pairs[i];
+        const char *name = ru_ld_key(p);
+        int k = ru_circuit_find_node(c, name);
+        double f;
+        char dym[RU_NAME_MAX + 24];
+        if (k < 0)
+            return ru_ld_fail(d, p->key, err, "stray: nodes: node %s does not exist%s", name,
+                              ru_circuit_suggest_node(c, name, dym, sizeof dym));
+        if (k == 0)
+            return ru_ld_fail(d, p->key, err,
+                              "stray: nodes: ground has no stray capacitance");
+        if ((s = stray_value(d, p, "stray: nodes", err, &f)) == RU_OK)
+            s = ru_circuit_set_node_stray_f(c, k, f);
+    }
+    return s;
+}
+
 static ru_status read_top(ld_doc *d, const char *models_dir, ru_circuit **out,
                           ru_error *err)
 {
@@ -102,16 +158,16 @@ static ru_status read_top(ld_doc *d, const char *models_dir, ru_circuit **out,
         ru_error_set(err, s, d->file, 0, 0, "out of memory creating the circuit");
     if (s == RU_OK)
         ru_circuit_set_file(c, d->file);
-    double stray;
-    if (s == RU_OK && (p = ru_ld_find(d->root, "stray")) != NULL &&
-        (s = ru_ld_value(d, p, "", "F", err, &stray)) == RU_OK &&
-        ru_circuit_set_stray_f(c, stray) != RU_OK)
-        s = ru_ld_fail(d, ru_ld_val(p), err, "key stray must be positive");
+    const ru_ypair *sp = ru_ld_find(d->root, "stray");
+    if (s == RU_OK && sp)
+        s = read_stray_default(d, c, sp, err);
     if (s == RU_OK && (p = ru_ld_find(d->root, "parts")) == NULL)
         s = ru_ld_fail(d, d->root, err, "missing required key parts");
     ld_ctx ctx = {d, c, models_dir, err};
     if (s == RU_OK)
         s = ru_ld_parts(&ctx, p);
+    if (s == RU_OK && sp)
+        s = read_stray_nodes(d, c, sp, err);
     if (s == RU_OK && ((s = warn_floating(c, d->file)) != RU_OK ||
                        (s = warn_single(c, d->file)) != RU_OK))
         ru_error_set(err, s, d->file, 0, 0, "out of memory adding a warning");

@@ -4,6 +4,7 @@
 #include "ringup/format.h"
 #include "ringup/json.h"
 #include "ringup/system.h"
+#include "ringup/transient.h"
 
 #include <stdio.h>
 #include <string.h>
@@ -44,6 +45,51 @@ static void print_settings(const ru_circuit *c)
            100 * mo->growth_hi);
 }
 
+/* The node names of capacitor group `ref` ("a, b"), or of node k alone. */
+static void group_text(const ru_circuit *c, const ru_system *s, int ref, char *buf,
+                       size_t size)
+{
+    size_t len = 0;
+    buf[0] = 0;
+    for (size_t i = 1; i < ru_circuit_node_count(c) && len + 1 < size; i++) {
+        int k = ru_system_node_state(s, (int)i);
+        if (k >= 0 && ru_system_state_group(s, (size_t)k) == ref)
+            len += (size_t)snprintf(buf + len, size - len, "%s%s", len ? ", " : "",
+                                    ru_circuit_node_name(c, (int)i));
+    }
+}
+
+/* Which nodes are algebraic, and which integrator a run takes. */
+static void print_algebraic(const ru_circuit *c, const ru_system *s)
+{
+    char buf[1024];
+    size_t na = 0;
+    for (size_t i = 1; i < ru_circuit_node_count(c); i++) {
+        int k = ru_system_node_state(s, (int)i);
+        if (k >= 0 && ru_system_state_kind(s, (size_t)k) == RU_STATE_ALGEBRAIC)
+            printf("%s%s", na++ ? ", " : "algebraic nodes (no capacitance: KCL fixes their "
+                                         "voltage at every instant): ",
+                   ru_circuit_node_name(c, (int)i));
+    }
+    if (na)
+        printf("\n");
+    for (size_t k = 0; k < ru_system_size(s); k++)
+        if (ru_system_state_kind(s, k) == RU_STATE_COMMON) {
+            group_text(c, s, (int)k, buf, sizeof buf);
+            printf("capacitor group with no capacitance to ground (its common level is "
+                   "algebraic): %s\n", buf);
+        }
+    ru_transient_opts o;
+    ru_transient_opts_for(ru_circuit_run_opts_const(c)->accuracy, &o);
+    ru_solver_stats st;
+    memset(&st, 0, sizeof st);
+    ru_transient_plan(s, &o, &st.integrator, &st.linsol);
+    printf("transient engine: %s (%s)\n", ru_transient_engine_name(&st),
+           ru_system_algebraic_count(s) ? "a DAE: the nodes without capacitance need IDA"
+           : st.integrator == RU_INTEGRATOR_IDA ? "large: sparse Newton matrix"
+                                                : "small ODE");
+}
+
 static void print_text(const ru_circuit *c, const ru_system *s)
 {
     size_t np = ru_circuit_part_count(c), nn = ru_circuit_node_count(c);
@@ -60,8 +106,15 @@ static void print_text(const ru_circuit *c, const ru_system *s)
     printf("states:");
     for (size_t i = 0; i < ru_system_size(s); i++)
         printf(" %s", ru_system_state_name(s, i));
-    printf("\nstray capacitance: %s from every free node to ground (set `stray:` to change)\n",
+    printf("\nstray capacitance: %s from every free node to ground",
            ru_format_si(ru_circuit_stray_f(c), "F", 3, sbuf, sizeof sbuf));
+    for (size_t i = 1; i < nn; i++)
+        if (ru_circuit_node_stray_set(c, (int)i))
+            printf(", %s at %s",
+                   ru_format_si(ru_circuit_node_stray_f(c, (int)i), "F", 3, sbuf, sizeof sbuf),
+                   ru_circuit_node_name(c, (int)i));
+    printf(" (set `stray:` to change)\n");
+    print_algebraic(c, s);
     print_settings(c);
     if (ru_circuit_warning_count(c) == 0)
         printf("no warnings\n");
@@ -75,6 +128,12 @@ static void print_json(const ru_circuit *c, const ru_system *s)
     ru_json_string(&j, "file", ru_circuit_file(c));
     ru_json_string(&j, "title", ru_circuit_title(c));
     ru_json_number(&j, "stray_f", ru_circuit_stray_f(c));
+    ru_json_begin_object(&j, "node_stray_f");
+    for (size_t i = 1; i < ru_circuit_node_count(c); i++)
+        if (ru_circuit_node_stray_set(c, (int)i))
+            ru_json_number(&j, ru_circuit_node_name(c, (int)i),
+                           ru_circuit_node_stray_f(c, (int)i));
+    ru_json_end_object(&j);
     ru_json_begin_array(&j, "parts");
     for (size_t i = 0; i < ru_circuit_part_count(c); i++) {
         const ru_part *p = ru_circuit_part(c, i);
@@ -98,6 +157,32 @@ static void print_json(const ru_circuit *c, const ru_system *s)
     for (size_t i = 0; i < ru_system_size(s); i++)
         ru_json_string(&j, NULL, ru_system_state_name(s, i));
     ru_json_end_array(&j);
+    ru_json_begin_array(&j, "algebraic_nodes");
+    for (size_t i = 1; i < ru_circuit_node_count(c); i++) {
+        int k = ru_system_node_state(s, (int)i);
+        if (k >= 0 && ru_system_state_kind(s, (size_t)k) == RU_STATE_ALGEBRAIC)
+            ru_json_string(&j, NULL, ru_circuit_node_name(c, (int)i));
+    }
+    ru_json_end_array(&j);
+    ru_json_begin_array(&j, "capacitor_groups");
+    for (size_t k = 0; k < ru_system_size(s); k++) {
+        if (ru_system_state_kind(s, k) != RU_STATE_COMMON)
+            continue;
+        ru_json_begin_array(&j, NULL);
+        for (size_t i = 1; i < ru_circuit_node_count(c); i++) {
+            int q = ru_system_node_state(s, (int)i);
+            if (q >= 0 && ru_system_state_group(s, (size_t)q) == (int)k)
+                ru_json_string(&j, NULL, ru_circuit_node_name(c, (int)i));
+        }
+        ru_json_end_array(&j);
+    }
+    ru_json_end_array(&j);
+    ru_transient_opts o;
+    ru_transient_opts_for(ru_circuit_run_opts_const(c)->accuracy, &o);
+    ru_solver_stats st;
+    memset(&st, 0, sizeof st);
+    ru_transient_plan(s, &o, &st.integrator, &st.linsol);
+    ru_json_string(&j, "engine", ru_transient_engine_name(&st));
     ru_json_begin_array(&j, "warnings");
     for (size_t i = 0; i < ru_circuit_warning_count(c); i++)
         ru_json_string(&j, NULL, ru_circuit_warning(c, i));

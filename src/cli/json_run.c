@@ -90,6 +90,7 @@ void cli_json_run_body(ru_json *j, const ru_run_report *r)
         ru_json_end_object(j);
     }
     ru_json_begin_object(j, "solver");
+    ru_json_string(j, "engine", ru_transient_engine_name(&r->solver));
     ru_json_int(j, "steps", r->solver.steps);
     ru_json_int(j, "rhs_evals", r->solver.rhs_evals);
     ru_json_number(j, "rtol", r->solver.rtol);

@@ -29,7 +29,7 @@ typedef struct poles_result {
 
 static void print_text(const ru_circuit *c, const poles_result *p)
 {
-    size_t n = ru_system_size(p->sys);
+    size_t n = ru_poles_count(p->sys);
     char a[40], b[40];
     printf("%s: %s\n\noperating point:\n", ru_circuit_file(c), ru_circuit_title(c));
     for (size_t i = 1; i < ru_circuit_node_count(c); i++)
@@ -71,7 +71,7 @@ static void print_text(const ru_circuit *c, const poles_result *p)
 
 static void print_json(const ru_circuit *c, const poles_result *p)
 {
-    size_t n = ru_system_size(p->sys);
+    size_t n = ru_poles_count(p->sys);
     ru_json j;
     ru_json_init(&j, stdout, 1);
     ru_json_begin_object(&j, NULL);
@@ -154,7 +154,7 @@ static ru_status compute(const ru_circuit *c, const char *loop, poles_result *p,
         return st;
     if ((st = ru_poles_compute(p->sys, p->x, p->poles, err)) != RU_OK)
         return st;
-    p->dom = ru_poles_dominant(p->poles, n);
+    p->dom = ru_poles_dominant(p->poles, ru_poles_count(p->sys));
     if (p->amp && (st = amplitude_curve(c, p, err)) != RU_OK)
         return st;
     if (!loop || !loop[0])
@@ -184,7 +184,7 @@ static int plot_poles(const cli_plot_req *pr, const ru_circuit *c, const poles_r
         drift[i].im_rad_per_s = 2 * M_PI * p->amp->curve[i].frequency_hz;
         amp[i] = p->amp->curve[i].amplitude_v;
     }
-    ru_plot_poles pp = {ru_system_size(p->sys), p->poles, p->dom, nd, amp, drift};
+    ru_plot_poles pp = {ru_poles_count(p->sys), p->poles, p->dom, nd, amp, drift};
     ru_plot_bode loop = {1, p->have_loop ? ru_circuit_part(c, (size_t)p->loop_part)->name : "",
                          RU_RUN_DATA_LOOP_POINTS, p->loop_f, p->loop_mag, p->loop_ph,
                          p->loop.found ? p->loop.crossover_hz : NAN,

@@ -34,6 +34,7 @@ static void range_from_poles(const ru_system *s, const double *x, double *fmin, 
     ru_pole *p = calloc(n ? n : 1, sizeof *p);
     double lo = INFINITY, hi = 0;
     if (p && ru_poles_compute(s, x, p, NULL) == RU_OK) {
+        n = ru_poles_count(s);
         for (size_t i = 0; i < n; i++) {
             double w = hypot(p[i].re_per_s, p[i].im_rad_per_s) / (2 * M_PI);
             if (w > 0 && w < lo)

@@ -173,10 +173,11 @@ static void print_text(const ru_circuit *c, const ru_run_report *r, int auto_sam
                r->engine.cycles_integrated, r->engine.cycles_spanned, r->engine.env_steps,
                r->engine.fell_back ? " (an envelope step failed: the rest went cycle by "
                                      "cycle)" : "");
-    printf("solver: %ld steps, %ld right-hand-side evaluations, %ld Jacobians, rtol %.0e, "
+    printf("solver: %s, %ld steps, %ld %s evaluations, %ld Jacobians, rtol %.0e, "
            "%.3f s\n",
-           r->solver.steps, r->solver.rhs_evals, r->solver.jac_evals, r->solver.rtol,
-           r->solver.wall_s);
+           ru_transient_engine_name(&r->solver), r->solver.steps, r->solver.rhs_evals,
+           r->solver.integrator == RU_INTEGRATOR_IDA ? "residual" : "right-hand-side",
+           r->solver.jac_evals, r->solver.rtol, r->solver.wall_s);
     if (isfinite(r->integrator_damping_per_s))
         printf("integrator damping (energy balance): %.3g /s\n", r->integrator_damping_per_s);
     for (int i = 0; i < r->nnotes; i++)

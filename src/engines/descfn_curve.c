@@ -104,7 +104,7 @@ ru_status ru_df_create(const ru_system *s, const double *x_op, int probe_pos,
     d->vscale = voltage_scale(s);
     if ((st = ru_poles_compute(s, x_op, poles, err)) != RU_OK)
         goto fail;
-    int k = ru_poles_dominant(poles, n);
+    int k = ru_poles_dominant(poles, ru_poles_count(s));
     if (k < 0) {
         st = ru_error_set(err, RU_ERANGE, NULL, 0, 0,
                           "no complex pole pair: nothing oscillates");

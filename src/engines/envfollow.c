@@ -84,6 +84,9 @@ int ru_envf_applicable(const ru_system *s, const ru_envf_opts *o, char *why, siz
     const char *r = NULL;
     if (ru_system_size(s) == 0)
         r = "the circuit has no states";
+    else if (ru_system_algebraic_count(s) > 0)
+        r = "it integrates the ODE form, and nodes without capacitance make the circuit "
+            "a DAE (give them a stray capacitance, or use --engine direct)";
     else if (!isfinite(ru_system_autonomous_from(s)))
         r = "a source keeps changing (a sine, a repeating pulse) or the noise kick is on: "
             "cycles are not alike, so they cannot be skipped";

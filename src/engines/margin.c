@@ -140,7 +140,7 @@ static ru_status whole_circuit(ru_margin *m, const ru_circuit *c, ru_error *err)
     }
     m->dom_re = m->dom_im = NAN;
     if (ru_poles_compute(m->full, m->xf, p, NULL) == RU_OK) {
-        int d = ru_poles_dominant(p, m->nf);
+        int d = ru_poles_dominant(p, ru_poles_count(m->full));
         if (d >= 0) {
             m->dom_re = p[d].re_per_s;
             m->dom_im = p[d].im_rad_per_s;

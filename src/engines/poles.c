@@ -1,7 +1,8 @@
-/* poles.c: poles of a system at its operating point, and the shared linearisation.
+/* poles.c: poles of a system at its operating point.
  *
  * J = M^{-1} dr/dx with dr/dx from the DC evaluation (ep.dc = 1, scale 1) and M the
- * mass matrix; M J = dr is solved by LU (LAPACKE_dgesv), the eigenvalues come from
+ * mass matrix; M J = dr is solved by LU (LAPACKE_dgesv); for a DAE J is the
+ * reduction to the differential variables (reduce.c); the eigenvalues come from
  * LAPACKE_dgeev (which overwrites its input and returns them unsorted). Output is
  * sorted by real part, largest first; ties (conjugate pairs) put the larger |im|
  * first, then the positive imaginary part first. */
@@ -11,30 +12,6 @@
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
-
-ru_status ru_ss_linearize(const ru_system *s, const double *x, double *dr, double *M,
-                          ru_error *err)
-{
-    ru_eval_point ep = {.t_s = 0.0, .dc = 1, .source_scale = 1.0};
-    if (dr) {
-        ru_status st = ru_system_residual(s, &ep, x, NULL, dr);
-        if (st != RU_OK)
-            return ru_error_set(err, st, "", 0, 0,
-                                "small-signal: the system could not be linearised at "
-                                "the operating point");
-    }
-    if (M)
-        ru_system_mass(s, M);
-    return RU_OK;
-}
-
-const char *ru_ss_state_label(const ru_system *s, int k)
-{
-    if (k < 0 || (size_t)k >= ru_system_size(s))
-        return "?";
-    const char *name = ru_system_state_name(s, (size_t)k);
-    return name ? name : "?";
-}
 
 static int pole_cmp(const void *pa, const void *pb)
 {
@@ -49,10 +26,23 @@ static int pole_cmp(const void *pa, const void *pb)
     return 0;
 }
 
-/* J = M^{-1} dr at x into J (n*n); M is destroyed. */
+size_t ru_poles_count(const ru_system *s)
+{
+    return ru_system_size(s) - ru_system_algebraic_count(s);
+}
+
+/* J = M^{-1} dr at x into J (n*n; for a DAE the reduced nd*nd); M is destroyed. */
 static ru_status state_matrix(const ru_system *s, const double *x, size_t n, double *J,
                               double *M, lapack_int *ipiv, ru_error *err)
 {
+    if (ru_system_algebraic_count(s) > 0) {
+        ru_reduced red;
+        ru_status st = ru_ss_reduce(s, x, &red, err);
+        if (st == RU_OK)
+            memcpy(J, red.J, red.nd * red.nd * sizeof *J);
+        ru_ss_reduced_free(&red);
+        return st;
+    }
     ru_status st = ru_ss_linearize(s, x, J, M, err);
     if (st != RU_OK)
         return st;
@@ -68,8 +58,8 @@ static ru_status state_matrix(const ru_system *s, const double *x, size_t n, dou
 ru_status ru_poles_compute(const ru_system *s, const double *x, ru_pole *poles,
                            ru_error *err)
 {
-    size_t n = ru_system_size(s);
-    if (n == 0)
+    size_t n = ru_system_size(s), np = ru_poles_count(s);
+    if (np == 0)
         return RU_OK;
     ru_status st = RU_OK;
     double *J = malloc(n * n * sizeof *J);
@@ -84,18 +74,18 @@ ru_status ru_poles_compute(const ru_system *s, const double *x, ru_pole *poles,
     st = state_matrix(s, x, n, J, M, ipiv, err);
     if (st != RU_OK)
         goto done;
-    lapack_int info = LAPACKE_dgeev(LAPACK_ROW_MAJOR, 'N', 'N', (lapack_int)n, J,
-                                    (lapack_int)n, wr, wi, NULL, 1, NULL, 1);
+    lapack_int info = LAPACKE_dgeev(LAPACK_ROW_MAJOR, 'N', 'N', (lapack_int)np, J,
+                                    (lapack_int)np, wr, wi, NULL, 1, NULL, 1);
     if (info != 0) {
         st = ru_error_set(err, RU_ENUMERIC, "", 0, 0,
                           "poles: the eigenvalue solver failed (code %d)", (int)info);
         goto done;
     }
-    for (size_t i = 0; i < n; i++) {
+    for (size_t i = 0; i < np; i++) {
         poles[i].re_per_s = wr[i];
         poles[i].im_rad_per_s = wi[i];
     }
-    qsort(poles, n, sizeof *poles, pole_cmp);
+    qsort(poles, np, sizeof *poles, pole_cmp);
 done:
     free(J);
     free(M);

@@ -100,6 +100,13 @@ static ru_steady *steady_alloc(size_t n, size_t ngrid)
 static ru_status check_autonomous(const ru_system *s, ru_error *err)
 {
     const ru_circuit *c = ru_system_circuit(s);
+    for (size_t i = 0; i < ru_system_size(s); i++) /* the shooting integrates the ODE */
+        if (ru_system_state_kind(s, i) != RU_STATE_DIFFERENTIAL)
+            return ru_error_set(err, RU_EINPUT, ru_circuit_file(c), 0, 0,
+                                "node %s has no capacitance to ground (stray 0): the periodic "
+                                "steady state is found for an ODE only; give the node a "
+                                "stray capacitance (`stray: {nodes: {%s: 1p}}`)",
+                                ru_system_state_name(s, i), ru_system_state_name(s, i));
     for (size_t i = 0; i < ru_circuit_part_count(c); i++) {
         const ru_part *p = ru_circuit_part(c, i);
         if (p->type != RU_PART_SUPPLY && p->type != RU_PART_CURRENT)

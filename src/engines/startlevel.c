@@ -84,17 +84,11 @@ static ru_status ctx_init(mode_ctx *c, const ru_system *s, const double *x_op, r
         c->u[i] = RU_CMPLX(w[2 * n + i], w[3 * n + i]);
         c->uhv += conj(c->u[i]) * c->v[i];
     }
-    /* M^T Y = [u_re u_im] (M is real): Y = M^{-T} u */
-    double *Mt = w + 4 * n, *rhs = Mt + n * n;
-    ru_system_mass(s, Mt);
-    for (size_t i = 0; i < n; i++) { /* column-major: column 0 u_re, column 1 u_im */
-        rhs[i] = w[2 * n + i];
-        rhs[n + i] = w[3 * n + i];
-    }
+    /* Y = M^{-T} u (M is real), or a DAE's input projector (engines/modes.h) */
+    double *rhs = w + 4 * n + n * n;
     st = RU_ENUMERIC;
     if (!(cabs(c->uhv) > 0) ||
-        LAPACKE_dgesv(LAPACK_COL_MAJOR, (lapack_int)n, 2, Mt, (lapack_int)n, piv, rhs,
-                      (lapack_int)n) != 0) /* row-major M read as column-major is M^T */
+        ru_mode_input(s, x_op, w + 2 * n, w + 3 * n, rhs, rhs + n) != RU_OK)
         goto done;
     for (size_t i = 0; i < n; i++)
         c->ut[i] = RU_CMPLX(rhs[i], rhs[n + i]);
@@ -176,6 +170,16 @@ static ru_status drive_at(mode_ctx *c, double t, double dt, const double *x,
         d[i] = -(d[i] - r2[i]) / (2 * dt);
     if (LAPACKE_dgesv(LAPACK_ROW_MAJOR, (lapack_int)n, 1, A, (lapack_int)n, c->piv, d, 1) != 0)
         return RU_ENUMERIC;
+    if (ru_system_algebraic_count(c->s) > 0) { /* no rhs: the residual through ut */
+        ru_eval_point at = {.t_s = t, .dc = 0, .source_scale = 1};
+        if ((st = ru_system_residual(c->s, &at, x, c->f, NULL)) != RU_OK)
+            return st;
+        double complex acc = 0;
+        for (size_t i = 0; i < n; i++)
+            acc += conj(c->ut[i]) * c->f[i];
+        *g = acc / c->uhv - project(c, d);
+        return RU_OK;
+    }
     if ((st = ru_system_rhs(c->s, t, x, c->f)) != RU_OK)
         return st;
     *g = project(c, c->f) - project(c, d);

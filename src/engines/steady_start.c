@@ -145,7 +145,7 @@ static int start_from_kick(const ru_system *s, const ru_steady *st, const double
     ru_error e;
     int ok = poles && ru_poles_compute(s, x_op, poles, &e) == RU_OK && poles[0].re_per_s > 0;
     if (ok) {
-        int d = ru_poles_dominant(poles, n);
+        int d = ru_poles_dominant(poles, ru_poles_count(s));
         *T = d >= 0 && poles[d].re_per_s > 0 ? 2.0 * M_PI / poles[d].im_rad_per_s
                                              : 2.0 * M_PI / poles[0].re_per_s;
         for (size_t i = 0; i < n; i++)

@@ -1,5 +1,7 @@
-/* transient.c: the time-domain engine (CVODE BDF, dense direct solver, analytic
- * Jacobian, stability-limit detection) with uniform-rate output by dense output.
+/* transient.c: the time-domain engine's calls (ringup/transient.h) and its CVODE
+ * integrator (BDF, dense direct solver, analytic Jacobian, stability-limit
+ * detection when asked) with uniform-rate output by dense output. When IDA runs
+ * (ru_transient_plan), the handle holds an IDA run (dae.c) and forwards every call.
  *
  * Invariants:
  * - One SUNContext and one CVODE object per run, owned by its ru_transient handle:
@@ -20,7 +22,7 @@
  *   library prints nothing. */
 #define _POSIX_C_SOURCE 200809L
 
-#include "ringup/transient.h"
+#include "engines/transient_impl.h"
 
 #include <cvodes/cvodes.h>
 #include <nvector/nvector_serial.h>
@@ -35,9 +37,6 @@
 #include <string.h>
 #include <time.h>
 
-#define RU_TR_BP_LOCAL 64      /* breakpoints held without a heap list */
-#define RU_TR_STALL_STEPS 1000 /* steps without progress in t before giving up */
-#define RU_TR_MAX_ERR_FAILS 20 /* error-test failures allowed in one step */
 
 struct ru_transient {
     const ru_system *sys;      /* the ODE */
@@ -76,22 +75,9 @@ struct ru_transient {
     long samples;              /* samples delivered */
     ru_status sys_status;      /* first failure reported by the system, RU_OK */
     char cvmsg[RU_ERROR_TEXT]; /* last CVODE error message, "" when none */
+    ru_dae *dae;               /* not NULL: IDA runs and every call goes to dae.c */
 };
 typedef struct ru_transient tr_run;
-
-/* Writes t with an SI prefix ("1.234 ms"). */
-static void fmt_time(double t, char *buf, size_t size)
-{
-    double a = fabs(t);
-    if (a >= 1.0 || a == 0.0 || !isfinite(a))
-        snprintf(buf, size, "%.6g s", t);
-    else if (a >= 1e-3)
-        snprintf(buf, size, "%.6g ms", t * 1e3);
-    else if (a >= 1e-6)
-        snprintf(buf, size, "%.6g us", t * 1e6);
-    else
-        snprintf(buf, size, "%.6g ns", t * 1e9);
-}
 
 static int tr_rhs(realtype t, N_Vector y, N_Vector ydot, void *user)
 {
@@ -160,36 +146,6 @@ static void tr_errh(int code, const char *module, const char *func, char *msg,
         snprintf(r->cvmsg, sizeof r->cvmsg, "%s", msg ? msg : "");
 }
 
-static ru_status check_opts(const ru_system *s, const ru_transient_opts *o,
-                            const double *x0, ru_sample_fn fn, ru_error *err)
-{
-    if (!s || !o || !fn || (!x0 && ru_system_size(s) > 0))
-        return ru_error_set(err, RU_ERANGE, NULL, 0, 0,
-                            "transient: missing system, options, state or sink");
-    if (!(isfinite(o->stop_s) && o->stop_s > 0))
-        return ru_error_set(err, RU_ERANGE, NULL, 0, 0,
-                            "transient: stop time must be finite and > 0 (got %g s)",
-                            o->stop_s);
-    if (!(isfinite(o->sample_s) && o->sample_s > 0 && o->stop_s / o->sample_s < 1e15))
-        return ru_error_set(err, RU_ERANGE, NULL, 0, 0,
-                            "transient: sample spacing must be > 0 and at most 1e15 "
-                            "samples per run (got %g s for stop %g s)",
-                            o->sample_s, o->stop_s);
-    if (!(isfinite(o->rtol) && o->rtol > 0 && o->rtol < 1) ||
-        !(isfinite(o->atol_rel) && o->atol_rel > 0) || o->max_steps < 0 ||
-        !(isfinite(o->max_step_s) && o->max_step_s >= 0))
-        return ru_error_set(err, RU_ERANGE, NULL, 0, 0,
-                            "transient: tolerances must be in (0, 1) and max_steps "
-                            ">= 0 (rtol %g, atol_rel %g, max_steps %ld)",
-                            o->rtol, o->atol_rel, o->max_steps);
-    for (size_t i = 0; i < ru_system_size(s); i++)
-        if (!isfinite(x0[i]))
-            return ru_error_set(err, RU_ERANGE, NULL, 0, 0,
-                                "transient: initial state %s is not finite",
-                                ru_system_state_name(s, i));
-    return RU_OK;
-}
-
 /* Sample grid and breakpoint list (sorted, merged within eps_t, in (eps_t, t_final]). */
 static ru_status setup_times(tr_run *r, ru_error *err)
 {
@@ -197,26 +153,9 @@ static ru_status setup_times(tr_run *r, ru_error *err)
     r->k_last = (long)floor(o->stop_s * (1.0 + 1e-12) / o->sample_s);
     r->t_final = fmax(o->stop_s, (double)r->k_last * o->sample_s);
     r->eps_t = 1e-9 * o->sample_s + 8.0 * DBL_EPSILON * r->t_final;
-    size_t cnt = ru_system_breakpoints(r->sys, r->t_final, r->bp_local, RU_TR_BP_LOCAL);
     r->bp = r->bp_local;
-    if (cnt > RU_TR_BP_LOCAL) {
-        r->bp = malloc(cnt * sizeof *r->bp);
-        if (!r->bp)
-            return ru_error_set(err, RU_ENOMEM, NULL, 0, 0,
-                                "transient: no memory for %zu breakpoints", cnt);
-        cnt = ru_system_breakpoints(r->sys, r->t_final, r->bp, cnt);
-    }
-    size_t m = 0;
-    for (size_t i = 0; i < cnt; i++) {
-        double b = r->bp[i];
-        if (!isfinite(b) || b <= r->eps_t || b > r->t_final + r->eps_t)
-            continue;
-        if (m > 0 && b <= r->bp[m - 1] + r->eps_t)
-            continue;
-        r->bp[m++] = b;
-    }
-    r->nbp = m;
-    return RU_OK;
+    return ru_tr_breakpoints(r->sys, r->t_final, r->eps_t, r->bp_local, RU_TR_BP_LOCAL,
+                             &r->bp, &r->nbp, err);
 }
 
 /* SUNDIALS objects, tolerances, callbacks. */
@@ -256,7 +195,7 @@ static ru_status setup_solver(tr_run *r, const double *x0, ru_error *err)
         f = CVodeSetMaxStep(r->cv, r->o->max_step_s);
     if (!f) f = CVodeSetLinearSolver(r->cv, r->LS, r->A);
     if (!f) f = CVodeSetJacFn(r->cv, tr_jac);
-    if (!f) f = CVodeSetStabLimDet(r->cv, SUNTRUE);
+    if (!f) f = CVodeSetStabLimDet(r->cv, r->o->stab_lim_det ? SUNTRUE : SUNFALSE);
     /* CVODE gives up after 7 error-test failures in one step by default; an op-amp
      * leaving its rail at draft tolerances needed up to ~20 (measured on a clipping
      * Wien bridge: 5 of 40 Monte Carlo units failed at h ~ 1e-10 s with 7, none
@@ -298,7 +237,7 @@ static ru_status emit(tr_run *r, ru_sample_fn fn, void *user, double t,
     ru_status st = fn(user, t, x, r->n);
     if (st != RU_OK) {
         char tb[48];
-        fmt_time(t, tb, sizeof tb);
+        ru_tr_fmt_time(t, tb, sizeof tb);
         return ru_error_set(err, st, NULL, 0, 0,
                             "output stopped the run at t = %s: %s", tb,
                             ru_status_str(st));
@@ -353,7 +292,7 @@ static ru_status fail_numeric(tr_run *r, int flag, const char *why, ru_error *er
     double t = 0;
     CVodeGetCurrentTime(r->cv, &t);
     char tb[48];
-    fmt_time(t, tb, sizeof tb);
+    ru_tr_fmt_time(t, tb, sizeof tb);
     if (why)
         return ru_error_set(err, RU_ENUMERIC, NULL, 0, 0, "solver failed at t = %s: %s",
                             tb, why);
@@ -509,6 +448,7 @@ void ru_transient_destroy(ru_transient *r)
 {
     if (!r)
         return;
+    ru_dae_destroy(r->dae);
     run_free(r);
     free(r);
 }
@@ -519,12 +459,29 @@ ru_status ru_transient_create(const ru_system *s, const ru_transient_opts *o,
 {
     double t0 = now_s();
     *out = NULL;
-    ru_status st = check_opts(s, o, x0, fn, err);
+    ru_status st = ru_tr_check_opts(s, o, x0, fn, err);
     if (st != RU_OK)
         return st;
+    ru_integrator integ;
+    ru_linsol ls;
+    ru_transient_plan(s, o, &integ, &ls);
+    if (integ == RU_INTEGRATOR_CVODE && ru_system_algebraic_count(s) > 0)
+        return ru_error_set(err, RU_EINPUT, NULL, 0, 0,
+                            "transient: CVODE needs capacitance at every node (%zu "
+                            "algebraic states here); use IDA",
+                            ru_system_algebraic_count(s));
     tr_run *r = calloc(1, sizeof *r);
     if (!r)
         return ru_error_set(err, RU_ENOMEM, NULL, 0, 0, "transient: out of memory");
+    if (integ == RU_INTEGRATOR_IDA) {
+        st = ru_dae_create(s, o, x0, fn, user, &r->dae, err);
+        if (st != RU_OK) {
+            free(r);
+            return st;
+        }
+        *out = r;
+        return RU_OK;
+    }
     r->sys = s;
     r->opts = *o;
     r->o = &r->opts;
@@ -557,6 +514,8 @@ ru_status ru_transient_advance(ru_transient *r, double t_until_s, ru_error *err)
 {
     if (!r)
         return ru_error_set(err, RU_ERANGE, NULL, 0, 0, "transient: no run");
+    if (r->dae)
+        return ru_dae_advance(r->dae, t_until_s, err);
     if (r->failed != RU_OK)
         return ru_error_set(err, r->failed, NULL, 0, 0,
                             "transient: the run already failed");
@@ -581,6 +540,8 @@ ru_status ru_transient_advance(ru_transient *r, double t_until_s, ru_error *err)
 
 double ru_transient_time(const ru_transient *r)
 {
+    if (r && r->dae)
+        return ru_dae_time(r->dae);
     if (!r || r->k == 0)
         return 0.0;
     return fmin(r->t_final, (double)(r->k - 1) * r->o->sample_s);
@@ -588,6 +549,8 @@ double ru_transient_time(const ru_transient *r)
 
 int ru_transient_done(const ru_transient *r)
 {
+    if (r && r->dae)
+        return ru_dae_done(r->dae);
     return r && r->done;
 }
 
@@ -595,9 +558,15 @@ void ru_transient_stats(const ru_transient *r, ru_solver_stats *stats)
 {
     if (!r || !stats)
         return;
+    if (r->dae) {
+        ru_dae_stats(r->dae, stats);
+        return;
+    }
     fill_stats((tr_run *)r, stats,
                r->failed != RU_OK ? 0.0 : r->done ? r->t_final : ru_transient_time(r));
     stats->wall_s = r->busy_s;
+    stats->integrator = RU_INTEGRATOR_CVODE;
+    stats->linsol = RU_LINSOL_DENSE;
 }
 
 ru_status ru_transient_run(const ru_system *s, const ru_transient_opts *o,

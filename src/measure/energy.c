@@ -1,7 +1,7 @@
 /* energy.c: the energy balance that estimates the integrator's numerical damping
  * from the output samples alone (see energy.h for the formula).
  *
- * Per sample: one rhs, every node voltage at t at once, and only when a capacitor
+ * Per sample: the storage rates (the rhs for an ODE), every node voltage at t at once, and only when a capacitor
  * touches a driven node, every node voltage at t + h for the forward difference
  * of the driven nodes' slopes. Scratch is allocated at create. */
 #include "measure/energy.h"
@@ -62,7 +62,7 @@ static void energy_and_rate(ru_energy_balance *e, double t, const double *x, dou
 {
     double E = 0, P = 0, h = slope_step(t);
     ru_src_eval se = {t, 0, 1.0};
-    ru_system_rhs(e->sys, t, x, e->f);
+    ru_system_storage_rates(e->sys, t, x, e->f);
     ru_sys_node_values(e->sys, &se, x, e->v, e->dvs);
     if (e->driven_caps) {
         se.t_s = t + h;
@@ -106,8 +106,9 @@ static ru_status collect_parts(ru_energy_balance *e, const ru_circuit *c)
                 (store_ind){ru_system_inductor_state(e->sys, (int)i), p->value};
     }
     for (size_t k = 1; k < nn; k++)
-        if (ru_system_node_state(e->sys, (int)k) >= 0)
-            e->caps[e->ncaps++] = (store_cap){(int)k, 0, ru_circuit_stray_f(c)};
+        if (ru_system_node_state(e->sys, (int)k) >= 0 &&
+            ru_circuit_node_stray_f(c, (int)k) > 0)
+            e->caps[e->ncaps++] = (store_cap){(int)k, 0, ru_circuit_node_stray_f(c, (int)k)};
     return RU_OK;
 }
 

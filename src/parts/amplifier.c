@@ -111,6 +111,35 @@ static int dc_links(const ru_part *p, int links[RU_PART_LINKS_MAX][2])
     return n;
 }
 
+/* At an instant: an output behind an output resistance (follower, opamp, table, a
+ * pair with rout, the inverter's channels) and a junction input tie their nodes; a
+ * collector (exp-stage), a drain (mos-ekv) or a pair's outputs without rout are
+ * current sources. */
+static int kcl_links(const ru_part *p, int links[RU_PART_LINKS_MAX][2])
+{
+    const ru_law_desc *d = ru_law_get(p->amp.law);
+    int n = 0;
+    int source = p->amp.law == RU_LAW_EXP_STAGE || p->amp.law == RU_LAW_MOS_EKV ||
+                 (p->amp.law == RU_LAW_DIFF_PAIR_TANH && !(p->amp.rout_ohm > 0));
+    if (!source) {
+        links[n][0] = p->node[RU_AMP_OUT];
+        links[n++][1] = p->node[RU_AMP_REF];
+    }
+    if (d && d->input_dc) {
+        links[n][0] = p->node[RU_AMP_IN];
+        links[n++][1] = ru_part_inv_node(p);
+    }
+    if (!source && p->node[RU_AMP_OUT2] >= 0) {
+        links[n][0] = p->node[RU_AMP_OUT2];
+        links[n++][1] = p->node[RU_AMP_REF];
+    }
+    if (p->node[RU_AMP_VDD] >= 0) { /* the inverter's upper channel */
+        links[n][0] = p->node[RU_AMP_VDD];
+        links[n++][1] = p->node[RU_AMP_OUT];
+    }
+    return n;
+}
+
 /* The amplifier's nodes by slot (RU_AMP_*), inv resolved; out2 and vdd -1 when
  * not connected. */
 static void nodes_of(const ru_part *p, int nd[RU_PART_NODES])
@@ -178,7 +207,7 @@ static void stamp_ports(ru_stamp *st, int row, const int *nd, const double d[4])
 {
     static const int plus[4] = {RU_AMP_IN, RU_AMP_OUT, RU_AMP_OUT2, RU_AMP_VDD};
     for (int k = 0; k < 4; k++) {
-        if (d[k] == 0.0 || nd[plus[k]] < 0)
+        if (nd[plus[k]] < 0) /* zeros too: the system records its pattern from one call */
             continue;
         ru_stamp_dn(st, row, nd[plus[k]], d[k]);
         ru_stamp_dn(st, row, k == 0 ? nd[RU_AMP_INV] : nd[RU_AMP_REF], -d[k]);
@@ -311,6 +340,7 @@ const ru_part_desc ru_part_amplifier = {
     .check = check,
     .dc_links = dc_links,
     .caps = caps,
+    .kcl_links = kcl_links,
     .state_group = RU_STATES_INTERNAL,
     .nstates = nstates,
     .state_name = state_name,

@@ -128,6 +128,10 @@ typedef struct ru_part_desc {
     ru_status (*check)(const ru_part *p, const ru_part_env *env, ru_error *err);
     /* topology: node pairs it joins at DC (the floating-node check) */
     int (*dc_links)(const ru_part *p, int links[RU_PART_LINKS_MAX][2]);
+    /* node pairs it ties with a conductance at every instant, which fixes the
+       voltage of a node without capacitance (the check of ideal nodes, system);
+       NULL: as dc_links (an inductor conducts only at DC and ties none) */
+    int (*kcl_links)(const ru_part *p, int links[RU_PART_LINKS_MAX][2]);
     int source;              /* RU_SOURCE_*: p->wave drives a voltage or a current */
     int (*caps)(const ru_part *p, ru_cap out[RU_PART_CAPS_MAX]); /* NULL: none */
     /* states */

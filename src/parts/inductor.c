@@ -58,6 +58,13 @@ static void stamp(const ru_part *p, ru_stamp *st, int index, int s)
                     ru_stamp_noise(st, (uint64_t)index) / p->value;
 }
 
+/* At an instant the inductor is a current (its state), not a conductance. */
+static int kcl_links(const ru_part *p, int links[RU_PART_LINKS_MAX][2])
+{
+    (void)p, (void)links;
+    return 0;
+}
+
 static void describe(const ru_part *p, char *buf, size_t size)
 {
     char v[32];
@@ -78,6 +85,7 @@ const ru_part_desc ru_part_inductor = {
     .set_variant = ru_part_set_variant_none,
     .check = ru_part_check_rlc,
     .dc_links = ru_part_links_two,
+    .kcl_links = kcl_links,
     .state_group = RU_STATES_BRANCH,
     .nstates = nstates,
     .state_name = state_name,

@@ -11,7 +11,9 @@
  * (their rows and columns do not exist and the helpers skip them). A part's own
  * states (an inductor's current, an opamp's integrator) are numbered from the
  * part's state0 on; their rows are their rates (unit mass) and their columns their
- * values. Sign convention: a current i flowing from node a through the part to
+ * values. Jacobian entries go only through ru_stamp_dn and ru_stamp_ds (the
+ * system may keep them sparse), every entry a part can touch on every call, whatever
+ * its value (the system records the sparse pattern from one call). Sign convention: a current i flowing from node a through the part to
  * node b is -i on a's row and +i on b's row.
  *
  * Thread safety: an ru_stamp lives on the evaluating thread's stack; parts keep
@@ -42,6 +44,10 @@ typedef struct ru_stamp {
     double noise_dt_s; /* band limit of the noise as a sample spacing (s) */
     double (*noise_unit)(const void *ctx, uint64_t stream, double t_s);
     const void *noise_ctx; /* for noise_unit: a unit normal per (stream, time) */
+    /* Jacobian entries kept elsewhere than a dense dr (the system's sparse pattern,
+       or recording the pattern itself): dr is then only a flag "Jacobian wanted" */
+    void (*jac_add)(void *ctx, int row, int col, double val); /* NULL: dense dr */
+    void *jac_ctx;
 } ru_stamp;
 
 /* r[row of node] += val: a current val INTO node. */
@@ -56,15 +62,23 @@ static inline void ru_stamp_add(ru_stamp *st, int node, double val)
 static inline void ru_stamp_dn(ru_stamp *st, int row, int node, double val)
 {
     int col = st->row[node];
-    if (row >= 0 && col >= 0 && st->dr)
-        st->dr[(size_t)row * st->n + (size_t)col] += val;
+    if (row >= 0 && col >= 0 && st->dr) {
+        if (st->jac_add)
+            st->jac_add(st->jac_ctx, row, col, val);
+        else
+            st->dr[(size_t)row * st->n + (size_t)col] += val;
+    }
 }
 
 /* dr[row][col] += val, both plain indices (states or node rows). */
 static inline void ru_stamp_ds(ru_stamp *st, int row, int col, double val)
 {
-    if (row >= 0 && col >= 0 && st->dr)
-        st->dr[(size_t)row * st->n + (size_t)col] += val;
+    if (row >= 0 && col >= 0 && st->dr) {
+        if (st->jac_add)
+            st->jac_add(st->jac_ctx, row, col, val);
+        else
+            st->dr[(size_t)row * st->n + (size_t)col] += val;
+    }
 }
 
 /* A current i(v) flowing a -> b through a part, v = v(a) - v(b), g = di/dv. */

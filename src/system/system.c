@@ -1,8 +1,9 @@
-/* system.c: compiling a circuit to the ODE M x' = r(t, x) (see ringup/system.h):
- * supply resolution (which nodes are driven), state numbering and names, the
- * capacitance matrix and its Cholesky factor, node voltages, the initial state,
- * breakpoints, charge-conserving jumps and tolerance scales. The residual and
- * Jacobian stamps live in system_stamp.c. */
+/* system.c: the bottom of the system layer (see ringup/system.h): source values,
+ * node voltages, solves with the capacitance factor, accessors, the initial
+ * state, breakpoints, charge-conserving jumps and tolerance scales. Building a
+ * system (supplies, numbering, C and its factor) is in system_create.c, the
+ * residual and Jacobian stamps in system_stamp.c, the differential-algebraic
+ * split and the sparse pattern in system_dae.c. */
 #include "system/system_impl.h"
 
 #include "parts/desc.h"
@@ -25,11 +26,6 @@ static const ru_part_desc *desc_of(const ru_system *s, size_t i)
     return ru_part_desc_get(ru_circuit_part(s->c, i)->type);
 }
 
-/* Whether part i is a supply (its wave drives a voltage). */
-static int is_supply(const ru_system *s, size_t i)
-{
-    return desc_of(s, i)->source == RU_SOURCE_VOLTAGE;
-}
 
 void ru_sys_node_values(const ru_system *s, const ru_src_eval *e, const double *x,
                         double *v, double *dv)
@@ -49,9 +45,10 @@ void ru_sys_node_values(const ru_system *s, const ru_src_eval *e, const double *
     }
 }
 
-void ru_sys_csolve(const ru_system *s, double *b)
+/* C_dd y = b over the differential free nodes, b of nfd entries. */
+static void csolve_factor(const ru_system *s, double *b)
 {
-    size_t n = s->nfree;
+    size_t n = s->nfd;
     const double *L = s->cfac;
     for (size_t i = 0; i < n; i++) { /* L y = b; L(i,j) = 0 for j < crow0[i] */
         double acc = b[i];
@@ -66,6 +63,28 @@ void ru_sys_csolve(const ru_system *s, double *b)
             acc -= col[j] * b[j];
         b[i] = acc / col[i];
     }
+}
+
+void ru_sys_csolve(const ru_system *s, double *b)
+{
+    if (s->nalg == 0) {
+        csolve_factor(s, b);
+        return;
+    }
+    double local[RU_SYS_STACK_DOUBLES];
+    double *q = s->nfd <= RU_SYS_STACK_DOUBLES ? local : malloc(s->nfd * sizeof *q);
+    if (!q) { /* no scratch: no rates (the caller's figures are estimates only) */
+        memset(b, 0, s->nfree * sizeof *b);
+        return;
+    }
+    for (size_t i = 0; i < s->nfd; i++)
+        q[i] = b[s->fd[i]];
+    csolve_factor(s, q);
+    memset(b, 0, s->nfree * sizeof *b);
+    for (size_t i = 0; i < s->nfd; i++)
+        b[s->fd[i]] = q[i];
+    if (q != local)
+        free(q);
 }
 
 /* row_i -= l * row_j over ncols entries. */
@@ -96,260 +115,51 @@ void ru_sys_csolve_rows(const ru_system *s, double *B, size_t ncols)
     }
 }
 
-/* ---- construction -------------------------------------------------------- */
-
-static int is_fixed(const ru_system *s, int node)
-{
-    return s->node_state[node] == RU_NS_GROUND || s->node_state[node] == RU_NS_DRIVEN;
-}
-
-static ru_status supply_error(const ru_system *s, const ru_part *p, ru_error *err,
-                              const char *what)
-{
-    return ru_error_set(err, RU_EINPUT, ru_circuit_file(s->c), p->line, p->col,
-                        "part %s: %s", p->name, what);
-}
-
-/* One pass over the unresolved supplies; *progress counts the ones resolved. */
-static ru_status resolve_pass(ru_system *s, char *done, int *progress, ru_error *err)
-{
-    for (size_t i = 0; i < s->nparts; i++) {
-        const ru_part *p = ru_circuit_part(s->c, i);
-        if (!is_supply(s, i) || done[i])
-            continue;
-        int a = p->node[0], b = p->node[1];
-        int fa = is_fixed(s, a), fb = is_fixed(s, b);
-        if (fa && fb)
-            return supply_error(s, p, err,
-                                "both terminals are already fixed by gnd or other "
-                                "supplies (a loop of supplies)");
-        if (!fa && !fb)
-            continue;
-        int node = fb ? a : b;
-        s->drive[node] = (ru_drive){(int)i, fb ? b : a, fb ? +1 : -1};
-        s->node_state[node] = RU_NS_DRIVEN;
-        s->drive_order[s->ndriven++] = node;
-        done[i] = 1;
-        (*progress)++;
-    }
-    return RU_OK;
-}
-
-static ru_status resolve_supplies(ru_system *s, ru_error *err)
-{
-    char *done = calloc(s->nparts ? s->nparts : 1, 1);
-    if (!done)
-        return ru_error_set(err, RU_ENOMEM, "", 0, 0, "out of memory");
-    ru_status st = RU_OK;
-    int progress = 1;
-    while (st == RU_OK && progress) {
-        progress = 0;
-        st = resolve_pass(s, done, &progress, err);
-    }
-    for (size_t i = 0; st == RU_OK && i < s->nparts; i++) {
-        const ru_part *p = ru_circuit_part(s->c, i);
-        if (is_supply(s, i) && !done[i])
-            st = supply_error(s, p, err,
-                              "a supply needs one terminal on gnd or on another "
-                              "supply's node");
-    }
-    free(done);
-    return st;
-}
-
 int ru_sys_part_nstates(const ru_part *p)
 {
     const ru_part_desc *d = ru_part_desc_get(p->type);
     return d && d->nstates ? d->nstates(p) : 0;
 }
 
-/* Numbers and names the states of the parts of one group (branch currents or
- * internal states) from state k on, in part order; returns the next free k. */
-static size_t number_group(ru_system *s, size_t k, int group)
-{
-    for (size_t i = 0; i < s->nparts; i++) {
-        const ru_part *p = ru_circuit_part(s->c, i);
-        const ru_part_desc *d = desc_of(s, i);
-        int ns = ru_sys_part_nstates(p);
-        if (!ns || d->state_group != group)
-            continue;
-        s->part_state[i] = (int)k;
-        for (int j = 0; j < ns; j++, k++)
-            d->state_name(p, j, s->names[k], RU_STATE_NAME_MAX);
-    }
-    return k;
-}
-
-static void number_states(ru_system *s)
-{
-    size_t k = 0;
-    for (size_t i = 1; i < s->nnodes; i++)
-        if (s->node_state[i] != RU_NS_DRIVEN) {
-            s->node_state[i] = (int)k;
-            snprintf(s->names[k], RU_STATE_NAME_MAX, "%s",
-                     ru_circuit_node_name(s->c, (int)i));
-            k++;
-        }
-    for (size_t i = 0; i < s->nparts; i++)
-        s->part_state[i] = -1;
-    k = number_group(s, k, RU_STATES_BRANCH);
-    number_group(s, k, RU_STATES_INTERNAL);
-}
-
-static void count_states(ru_system *s)
-{
-    s->nfree = 0;
-    for (size_t i = 1; i < s->nnodes; i++)
-        if (s->node_state[i] != RU_NS_DRIVEN)
-            s->nfree++;
-    s->nind = 0;
-    s->nint = 0;
-    for (size_t i = 0; i < s->nparts; i++) {
-        size_t ns = (size_t)ru_sys_part_nstates(ru_circuit_part(s->c, i));
-        if (desc_of(s, i)->state_group == RU_STATES_BRANCH)
-            s->nind += ns;
-        else
-            s->nint += ns;
-    }
-    s->n = s->nfree + s->nind + s->nint;
-}
-
 /* The capacitances of part i into cap; returns how many. */
-static int part_caps(const ru_system *s, size_t i, ru_cap cap[RU_PART_CAPS_MAX])
+int ru_sys_part_caps(const ru_system *s, size_t i, ru_cap cap[RU_PART_CAPS_MAX])
 {
     const ru_part_desc *d = desc_of(s, i);
     return d->caps ? d->caps(ru_circuit_part(s->c, i), cap) : 0;
 }
 
-/* crow0 and ccol1 of the factor's lower triangle (see system_impl.h); the upper
- * triangle of cfac is not part of L and is ignored. */
-static void factor_envelope(ru_system *s)
+void ru_sys_pairs_add(ru_sys_pairs *p, int row, int col)
 {
-    size_t nf = s->nfree;
-    const double *L = s->cfac;
-    for (size_t i = 0; i < nf; i++) {
-        size_t j = 0;
-        while (j < i && L[i + j * nf] == 0.0)
-            j++;
-        s->crow0[i] = j;
-        size_t k = nf - 1;
-        while (k > i && L[k + i * nf] == 0.0)
-            k--;
-        s->ccol1[i] = k;
-    }
-}
-
-static ru_status build_cmat(ru_system *s, ru_error *err)
-{
-    size_t nf = s->nfree;
-    double stray = ru_circuit_stray_f(s->c);
-    for (size_t i = 0; i < nf; i++)
-        s->cmat[i * nf + i] = stray;
-    for (size_t i = 0; i < s->nparts; i++) {
-        ru_cap cap[RU_PART_CAPS_MAX];
-        int nc = part_caps(s, i, cap);
-        for (int j = 0; j < nc; j++) {
-            int a = s->node_state[cap[j].a], b = s->node_state[cap[j].b];
-            double c = cap[j].c_f;
-            if (a >= 0)
-                s->cmat[a * nf + a] += c;
-            if (b >= 0)
-                s->cmat[b * nf + b] += c;
-            if (a >= 0 && b >= 0) {
-                s->cmat[a * nf + b] -= c;
-                s->cmat[b * nf + a] -= c;
-            }
-        }
-    }
-    memcpy(s->cfac, s->cmat, nf * nf * sizeof *s->cfac);
-    if (nf == 0)
-        return RU_OK;
-    lapack_int info = LAPACKE_dpotrf(LAPACK_COL_MAJOR, 'L', (lapack_int)nf, s->cfac,
-                                     (lapack_int)nf);
-    if (info != 0)
-        return ru_error_set(err, RU_ENUMERIC, ru_circuit_file(s->c), 0, 0,
-                            "the capacitance matrix is not positive definite "
-                            "(Cholesky failed at column %d)", (int)info);
-    factor_envelope(s);
-    return RU_OK;
-}
-
-static ru_status alloc_system(ru_system *s)
-{
-    size_t nn = s->nnodes ? s->nnodes : 1, np = s->nparts ? s->nparts : 1;
-    s->node_state = calloc(nn, sizeof *s->node_state);
-    s->drive = calloc(nn, sizeof *s->drive);
-    s->drive_order = calloc(nn, sizeof *s->drive_order);
-    s->part_state = calloc(np, sizeof *s->part_state);
-    return (s->node_state && s->drive && s->drive_order && s->part_state) ? RU_OK
-                                                                         : RU_ENOMEM;
-}
-
-static ru_status alloc_states(ru_system *s)
-{
-    size_t nf = s->nfree ? s->nfree : 1;
-    s->cmat = calloc(nf * nf, sizeof *s->cmat);
-    s->cfac = calloc(nf * nf, sizeof *s->cfac);
-    s->crow0 = calloc(nf, sizeof *s->crow0);
-    s->ccol1 = calloc(nf, sizeof *s->ccol1);
-    s->names = calloc(s->n ? s->n : 1, sizeof *s->names);
-    return (s->cmat && s->cfac && s->crow0 && s->ccol1 && s->names) ? RU_OK : RU_ENOMEM;
-}
-
-ru_status ru_system_create(const ru_circuit *c, ru_system **out, ru_error *err)
-{
-    *out = NULL;
-    ru_system *s = calloc(1, sizeof *s);
-    if (!s)
-        return ru_error_set(err, RU_ENOMEM, "", 0, 0, "out of memory");
-    s->c = c;
-    s->nnodes = ru_circuit_node_count(c);
-    s->nparts = ru_circuit_part_count(c);
-    ru_status st = alloc_system(s);
-    if (st == RU_OK) {
-        s->node_state[0] = RU_NS_GROUND;
-        st = resolve_supplies(s, err);
-    } else {
-        ru_error_set(err, st, "", 0, 0, "out of memory");
-    }
-    if (st == RU_OK) {
-        count_states(s);
-        st = s->n > RU_STATES_MAX
-                 ? ru_error_set(err, RU_EINPUT, ru_circuit_file(c), 0, 0,
-                                "the circuit has %zu states (%zu free nodes, %zu branch "
-                                "currents, %zu internal), more than the %d the dense solver "
-                                "takes (its time grows with the cube of the states)",
-                                s->n, s->nfree, s->nind, s->nint, RU_STATES_MAX)
-                 : alloc_states(s);
-        if (st == RU_ENOMEM)
-            ru_error_set(err, st, "", 0, 0, "out of memory");
-    }
-    if (st == RU_OK) {
-        number_states(s);
-        st = build_cmat(s, err);
-    }
-    if (st != RU_OK) {
-        ru_system_destroy(s);
-        return st;
-    }
-    *out = s;
-    return RU_OK;
-}
-
-void ru_system_destroy(ru_system *s)
-{
-    if (!s)
+    if (p->failed)
         return;
-    free(s->node_state);
-    free(s->drive);
-    free(s->drive_order);
-    free(s->part_state);
-    free(s->cmat);
-    free(s->cfac);
-    free(s->crow0);
-    free(s->ccol1);
-    free(s->names);
-    free(s);
+    if (p->n == p->cap) {
+        size_t cap = p->cap ? 2 * p->cap : 256;
+        long *rc = realloc(p->rc, 2 * cap * sizeof *rc);
+        if (!rc) {
+            p->failed = 1;
+            return;
+        }
+        p->rc = rc;
+        p->cap = cap;
+    }
+    p->rc[2 * p->n] = row;
+    p->rc[2 * p->n + 1] = col;
+    p->n++;
+}
+
+long ru_sys_pattern_find(const ru_system *s, int row, int col)
+{
+    long lo = s->pat_colptr[col], hi = s->pat_colptr[col + 1] - 1;
+    while (lo <= hi) {
+        long mid = lo + (hi - lo) / 2, r = s->pat_rowind[mid];
+        if (r == row)
+            return mid;
+        if (r < row)
+            lo = mid + 1;
+        else
+            hi = mid - 1;
+    }
+    return -1;
 }
 
 /* ---- accessors ------------------------------------------------------------- */
@@ -435,7 +245,7 @@ static int charge_share(const ru_system *s, double t, int kind, double *x)
     int any = 0;
     for (size_t i = 0; i < s->nparts; i++) {
         ru_cap cap[RU_PART_CAPS_MAX];
-        int nc = part_caps(s, i, cap);
+        int nc = ru_sys_part_caps(s, i, cap);
         for (int j = 0; j < nc; j++) {
             int a = cap[j].a, b = cap[j].b, sa = s->node_state[a], sb = s->node_state[b];
             double da = sa >= 0 ? 0.0 : driven_delta(s, a, t, kind);
@@ -494,6 +304,15 @@ ru_status ru_system_initial_state(const ru_system *s, double *x0, ru_error *err)
                                 st == RU_NS_GROUND ? "gnd"
                                 : st == RU_NS_DRIVEN ? "driven by a supply"
                                                      : "not a node");
+        }
+        if (s->kind[st] == RU_STATE_ALGEBRAIC) {
+            int line, col;
+            ru_circuit_node_place(s->c, node, &line, &col);
+            return ru_error_set(err, RU_EINPUT, ru_circuit_file(s->c), line, col,
+                                "preset node %s has no capacitance, so its voltage "
+                                "follows from the rest of the circuit at every "
+                                "instant; preset a node with capacitance",
+                                ru_circuit_node_name(s->c, node));
         }
         x0[st] = ro->preset_v[i];
     }
@@ -574,11 +393,22 @@ static double voltage_scale(const ru_system *s)
 
 void ru_system_state_scale(const ru_system *s, double *scale)
 {
-    ru_scale_env env = {voltage_scale(s), ru_circuit_stray_f(s->c) * (double)s->nfree, 0.0};
+    size_t ndefault = 0; /* free nodes at the circuit's default stray */
+    double strays = 0.0;
+    for (size_t k = 1; k < s->nnodes; k++) {
+        if (s->node_state[k] < 0)
+            continue;
+        if (ru_circuit_node_stray_set(s->c, (int)k))
+            strays += ru_circuit_node_stray_f(s->c, (int)k);
+        else
+            ndefault++;
+    }
+    ru_scale_env env = {voltage_scale(s), strays + ru_circuit_stray_f(s->c) * (double)ndefault,
+                        0.0};
     for (size_t i = 0; i < s->nparts; i++) {
         const ru_part *p = ru_circuit_part(s->c, i);
         ru_cap cap[RU_PART_CAPS_MAX];
-        int nc = part_caps(s, i, cap);
+        int nc = ru_sys_part_caps(s, i, cap);
         for (int j = 0; j < nc; j++)
             env.c_total_f += cap[j].c_f;
         if (desc_of(s, i)->source == RU_SOURCE_CURRENT)

@@ -1,12 +1,14 @@
-/* system_impl.h: the private layout of ru_system, shared by system.c (building,
- * topology, initial state, breakpoints, jumps, scales) and system_stamp.c (the
- * residual, its Jacobian, rhs, mass matrix and loop split).
+/* system_impl.h: the private layout of ru_system, shared by system_create.c
+ * (building), system.c (node values, solves, initial state, breakpoints, jumps,
+ * scales), system_stamp.c (the residual, its Jacobian, rhs, mass matrix and loop
+ * split) and system_dae.c (the differential-algebraic split, the sparse pattern).
  *
  * Invariants: node_state[0] == RU_NS_GROUND; every driven node k has a record
  * drive[k] whose `from` node is ground or a driven node listed earlier in
  * drive_order; free node states are 0..nfree-1 in node order; inductor states
- * follow in part order; cfac holds the Cholesky factor of the nfree x nfree
- * capacitance matrix (column-major lower, L(i,j) = cfac[i + j*nfree]) whose
+ * follow in part order; cfac holds the Cholesky factor of the nfd x nfd
+ * capacitance matrix of the differential free nodes fd (all of them unless some
+ * are algebraic; column-major lower, L(i,j) = cfac[i + j*nfd]) whose
  * entries outside its envelope are exact zeros: L(i,j) == 0 for j < crow0[i]
  * (row i) and for i > ccol1[j] (column j), so solves may skip them; internal
  * states (an opamp's vint, a thermal resistor's rise) follow the inductor
@@ -17,6 +19,7 @@
 #define RINGUP_SYSTEM_IMPL_H
 
 #include "ringup/system.h"
+#include "parts/desc.h"
 #include "system/noise.h"
 
 #define RU_NS_GROUND (-1)
@@ -51,7 +54,42 @@ struct ru_system {
     size_t *ccol1;         /* per column j of the factor: last row with L(i,j) != 0 */
     char (*names)[RU_STATE_NAME_MAX]; /* per state: its name */
     ru_noise noise;        /* thermal noise of the resistors (off unless set) */
+    /* differential-algebraic split (system_dae.c) */
+    int *kind;             /* per state: an ru_state_kind */
+    int *group;            /* per state: reference state of its capacitor group, -1 */
+    size_t nalg;           /* algebraic degrees of freedom (RU_STATE_ALGEBRAIC/COMMON) */
+    size_t nfd;            /* differential free nodes: the order of the factor cfac */
+    int *fd;               /* their states, ascending (the identity when nalg is 0) */
+    /* the sparse pattern of dr/dx and M together (compressed columns) */
+    long pat_nnz;          /* entries */
+    long *pat_colptr;      /* n + 1 column starts */
+    long *pat_rowind;      /* rows, ascending in each column */
+    double *pat_mass;      /* M over the pattern */
 };
+
+/* Growing list of (row, column) pairs seen while building the sparse pattern. */
+typedef struct ru_sys_pairs {
+    long *rc;              /* row, column, row, column, ... */
+    size_t n, cap;         /* pairs held, room */
+    int failed;            /* out of memory while growing */
+} ru_sys_pairs;
+
+void ru_sys_pairs_add(ru_sys_pairs *p, int row, int col);
+
+/* One residual evaluation at x (t = 0) that records every Jacobian entry a stamp
+ * touches, whatever its value (system_stamp.c); r is n scratch doubles. */
+ru_status ru_sys_record_pattern(const ru_system *s, const double *x, double *r,
+                                ru_sys_pairs *rec);
+
+/* Position of entry (row, col) in the pattern's values, or -1 when it is not in it. */
+long ru_sys_pattern_find(const ru_system *s, int row, int col);
+
+/* After the capacitance matrix is built: the split into differential and
+ * algebraic states, the check that every algebraic degree of freedom is fixed by
+ * KCL, the list fd, and the sparse pattern (system_dae.c). */
+ru_status ru_sys_split(ru_system *s, ru_error *err);
+ru_status ru_sys_build_pattern(ru_system *s, ru_error *err);
+void ru_sys_free_split(ru_system *s);
 
 /* Evaluated sources: t, DC flag and scale (from ru_eval_point). */
 typedef struct ru_src_eval {
@@ -68,10 +106,16 @@ void ru_sys_source(const ru_part *p, const ru_src_eval *e, double *v, double *dv
 void ru_sys_node_values(const ru_system *s, const ru_src_eval *e, const double *x,
                         double *v, double *dv);
 
-/* Internal states part p adds (0 or 1). */
+/* States part p adds (its descriptor's nstates). */
 int ru_sys_part_nstates(const ru_part *p);
 
-/* Solves C y = b in place (b has nfree entries). */
+/* The capacitances of part i (its descriptor's caps) into cap; returns how many. */
+int ru_sys_part_caps(const ru_system *s, size_t i, ru_cap cap[RU_PART_CAPS_MAX]);
+
+/* Solves C y = b in place (b has nfree entries). With algebraic states (nalg > 0)
+ * it solves the differential free nodes' block C_dd y_d = b_d and sets the other
+ * entries to 0: the rate of every capacitor voltage, up to a capacitor group's
+ * common level. */
 void ru_sys_csolve(const ru_system *s, double *b);
 
 /* Solves C Y = B in place for the first nfree rows of a row-major matrix B with

@@ -30,13 +30,42 @@ static ru_stamp stamp_init(const ru_system *s, const ru_src_eval *e, const doubl
                            double *v, double *dv, double *r, double *dr)
 {
     ru_stamp st = {s->node_state, v, dv, x, r, dr, s->n, e->t_s, e->dc, e->scale, 0,
-                   s->noise.on, s->noise.kt_j, s->noise.dt_s, noise_unit, &s->noise};
+                   s->noise.on, s->noise.kt_j, s->noise.dt_s, noise_unit, &s->noise,
+                   NULL, NULL};
     return st;
 }
 
-/* r (required) and dr (optional) at an evaluation point. */
-static ru_status residual_core(const ru_system *s, const ru_src_eval *e,
-                               const double *x, double *r, double *dr, int skip_part)
+/* How Jacobian entries are kept: dense row-major n*n, as values over the system's
+ * sparse pattern, or recorded as (row, column) pairs (building that pattern). */
+typedef enum { JAC_DENSE, JAC_SPARSE, JAC_RECORD } jac_mode;
+
+typedef struct jac_ctx {
+    const ru_system *s;
+    double *vals;      /* JAC_SPARSE: nnz values */
+    ru_sys_pairs *rec; /* JAC_RECORD: the pairs seen */
+    int outside;       /* JAC_SPARSE: an entry fell outside the pattern */
+} jac_ctx;
+
+static void jac_sparse(void *ctx, int row, int col, double val)
+{
+    jac_ctx *j = ctx;
+    long at = ru_sys_pattern_find(j->s, row, col);
+    if (at >= 0)
+        j->vals[at] += val;
+    else
+        j->outside = 1;
+}
+
+static void jac_record(void *ctx, int row, int col, double val)
+{
+    (void)val;
+    ru_sys_pairs_add(((jac_ctx *)ctx)->rec, row, col);
+}
+
+/* r (required) and dr (optional, kept as mode says) at an evaluation point. */
+static ru_status residual_mode(const ru_system *s, const ru_src_eval *e, const double *x,
+                               double *r, double *dr, int skip_part, jac_mode mode,
+                               ru_sys_pairs *rec)
 {
     size_t n = s->n;
     double local[RU_SYS_STACK_DOUBLES];
@@ -45,11 +74,18 @@ static ru_status residual_core(const ru_system *s, const ru_src_eval *e,
                     : malloc(2 * s->nnodes * sizeof *v);
     if (!v)
         return RU_ENOMEM;
+    jac_ctx jc = {s, dr, rec, 0};
     ru_stamp st = stamp_init(s, e, x, v, v + s->nnodes, r, dr);
+    if (dr && mode != JAC_DENSE) {
+        st.jac_add = mode == JAC_SPARSE ? jac_sparse : jac_record;
+        st.jac_ctx = &jc;
+    }
     ru_sys_node_values(s, e, x, v, v + s->nnodes);
     memset(r, 0, n * sizeof *r);
-    if (dr)
+    if (dr && mode == JAC_DENSE)
         memset(dr, 0, n * n * sizeof *dr);
+    else if (dr && mode == JAC_SPARSE)
+        memset(dr, 0, (size_t)s->pat_nnz * sizeof *dr);
     for (size_t i = 0; i < s->nparts; i++) {
         const ru_part *p = ru_circuit_part(s->c, i);
         const ru_part_desc *d = ru_part_desc_get(p->type);
@@ -59,10 +95,33 @@ static ru_status residual_core(const ru_system *s, const ru_src_eval *e,
     }
     if (v != local)
         free(v);
+    if (jc.outside)
+        return RU_ERANGE; /* a stamp outside the pattern: a defect, not bad input */
     for (size_t i = 0; i < n; i++)
         if (!isfinite(r[i]))
             return RU_ENUMERIC;
     return RU_OK;
+}
+
+static ru_status residual_core(const ru_system *s, const ru_src_eval *e,
+                               const double *x, double *r, double *dr, int skip_part)
+{
+    return residual_mode(s, e, x, r, dr, skip_part, JAC_DENSE, NULL);
+}
+
+ru_status ru_sys_record_pattern(const ru_system *s, const double *x, double *r,
+                                ru_sys_pairs *rec)
+{
+    ru_src_eval e = {0.0, 0, 1.0};
+    double flag = 0.0; /* dr non-NULL: "Jacobian wanted"; entries go to rec */
+    return residual_mode(s, &e, x, r, &flag, -1, JAC_RECORD, rec);
+}
+
+ru_status ru_system_residual_sparse(const ru_system *s, const ru_eval_point *ep,
+                                    const double *x, double *r, double *drvals)
+{
+    ru_src_eval e = {ep->t_s, ep->dc, ep->source_scale};
+    return residual_mode(s, &e, x, r, drvals, -1, JAC_SPARSE, NULL);
 }
 
 ru_status ru_system_residual(const ru_system *s, const ru_eval_point *ep,
@@ -81,6 +140,8 @@ ru_status ru_system_residual(const ru_system *s, const ru_eval_point *ep,
 
 ru_status ru_system_rhs(const ru_system *s, double t, const double *x, double *f)
 {
+    if (s->nalg > 0)
+        return RU_EINPUT; /* a DAE has no explicit form */
     ru_src_eval e = {t, 0, 1.0};
     ru_status st = residual_core(s, &e, x, f, NULL, -1);
     if (st == RU_OK)
@@ -88,8 +149,20 @@ ru_status ru_system_rhs(const ru_system *s, double t, const double *x, double *f
     return st;
 }
 
+ru_status ru_system_storage_rates(const ru_system *s, double t, const double *x,
+                                  double *xdot)
+{
+    ru_src_eval e = {t, 0, 1.0};
+    ru_status st = residual_core(s, &e, x, xdot, NULL, -1);
+    if (st == RU_OK)
+        ru_sys_csolve(s, xdot); /* algebraic rows (KCL residuals) become rates 0 */
+    return st;
+}
+
 ru_status ru_system_jacobian(const ru_system *s, double t, const double *x, double *J)
 {
+    if (s->nalg > 0)
+        return RU_EINPUT;
     size_t n = s->n;
     ru_src_eval e = {t, 0, 1.0};
     double local[RU_SYS_STACK_DOUBLES];
@@ -174,6 +247,8 @@ ru_status ru_system_set_noise(ru_system *s, unsigned long seed, double bandwidth
 ru_status ru_system_eval(const ru_system *s, const ru_eval_point *ep, const double *x,
                          double *f, double *J)
 {
+    if (s->nalg > 0)
+        return RU_EINPUT;
     size_t n = s->n;
     ru_src_eval e = {ep->t_s, ep->dc, ep->source_scale};
     double local[RU_SYS_STACK_DOUBLES];
