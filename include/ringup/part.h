@@ -33,6 +33,8 @@ typedef enum {
     RU_PART_THERMAL,   /* thermal resistor (lamp or NTC): nodes a,b (see ru_thermal) */
     RU_PART_TRANSCONDUCTOR, /* gm*(v(cp) - v(cn)) flows p -> n through it: nodes p, n,
                                cp, cn; value is gm (S) */
+    RU_PART_CRYSTAL,   /* quartz crystal: nodes a,b; value is the series-resonant
+                          frequency fs (Hz), tol its tolerance (see ru_crystal) */
     RU_PART_TYPE_COUNT
 } ru_part_type;
 
@@ -227,6 +229,39 @@ typedef struct ru_thermal {
 void ru_diode_defaults(ru_diode *d);
 void ru_thermal_defaults(ru_thermal *t, ru_thermal_kind kind);
 
+#define RU_CRYSTAL_ARMS 4 /* most extra motional arms (overtones, spurious modes) */
+
+/* Quartz crystal (two-terminal part), the Butterworth-Van Dyke equivalent circuit:
+ * the shunt capacitance c0 between a and b in parallel with motional arms, each a
+ * series R, L, C. The main arm resonates in series at fs (the part's value, Hz):
+ * L = 1 / ((2 pi fs)^2 cm), R = esr, or 2 pi fs L / q when q is given instead; the
+ * extra arms (overtones and spurious modes) carry their own freq, esr and cm. Each
+ * arm's current i (a -> b) and the voltage on its cm are internal states of the
+ * part ("i(X1)", "X1.vm"; arm k: "i(X1.k)", "X1.vmk"), with
+ *   L di/dt = v(a) - v(b) - R i - vm,   cm dvm/dt = i,
+ * so the arm has no node of its own (and no stray capacitance). esr's thermal
+ * noise is a series voltage of density 4kTR in each arm. load (the load
+ * capacitance the crystal is specified at) gives the load-resonance frequency
+ * fL = fs sqrt(1 + cm / (c0 + load)) the reports count ppm from; drive_limit the
+ * drive power (esr I_rms^2) above which a run warns. Monte Carlo draws fs with the
+ * part's tol (often given in ppm) and esr with esr_tol. */
+typedef struct ru_crystal {
+    double esr_ohm;        /* main arm's motional resistance (0: from q) */
+    double q;              /* main arm's quality factor, instead of esr (0: esr) */
+    double cm_f;           /* main arm's motional capacitance (F, > 0) */
+    double c0_f;           /* shunt capacitance (F, >= 0) */
+    double load_f;         /* specified load capacitance (F; 0: none) */
+    double drive_limit_w;  /* largest drive power (W; 0: none) */
+    double esr_tol;        /* relative tolerance of every arm's esr (Monte Carlo) */
+    int narms;             /* extra arms */
+    double arm_freq_hz[RU_CRYSTAL_ARMS]; /* their series-resonant frequencies (Hz) */
+    double arm_esr_ohm[RU_CRYSTAL_ARMS]; /* their resistances (ohm, > 0) */
+    double arm_cm_f[RU_CRYSTAL_ARMS];    /* their motional capacitances (F, > 0) */
+    int no_main;           /* 1: the main arm is left out (what the rest of a circuit
+                              keeps in a negative-resistance analysis) */
+} ru_crystal;
+
+
 /* Fills a with the law's defaults (documented in README). */
 void ru_amp_defaults(ru_amp *a, ru_law law);
 
@@ -246,8 +281,23 @@ typedef struct ru_part {
     ru_amp amp;              /* amplifier */
     ru_diode diode;          /* diode */
     ru_thermal thermal;      /* thermal resistor */
+    ru_crystal crystal;      /* crystal (fs in value, its tolerance in tol) */
     int line, col;           /* where the part is defined in its file (1-based; 0 none) */
 } ru_part;
+
+/* Arm k of crystal p (0 the main arm, 1..narms the extra ones): its R, L and C;
+ * returns 0 when p has no such arm (or p is not a crystal). */
+int ru_crystal_arm(const ru_part *p, int k, double *r_ohm, double *l_h,
+                   double *c_f);
+
+/* The load-resonance frequency fs sqrt(1 + cm / (c0 + load)) (Hz; NAN without a
+ * load capacitance). */
+double ru_crystal_load_freq_hz(const ru_part *p);
+
+/* The crystal's impedance between a and b at angular frequency w > 0 (every arm and
+ * c0, the Butterworth-Van Dyke network). */
+void ru_crystal_impedance(const ru_part *p, double w_rad_per_s, double *re_ohm,
+                          double *im_ohm);
 
 /* Fills p with zeros, the type's defaults and ground nodes (an amplifier's inv
  * is -1: the same as ref). */

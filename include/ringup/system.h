@@ -80,6 +80,10 @@ int ru_system_node_state(const ru_system *s, int node);
 /* State index of an inductor's current, or -1 when the part is not an inductor. */
 int ru_system_inductor_state(const ru_system *s, int part);
 
+/* State index of any part's first own state (an inductor's current, a crystal's
+ * main-arm current, an opamp's integrator), or -1 when the part has none. */
+int ru_system_part_state(const ru_system *s, int part);
+
 /* Voltage of any node (ground, driven or free) at time t for state x. */
 double ru_system_node_voltage(const ru_system *s, int node, double t, const double *x);
 

@@ -1,7 +1,8 @@
 /* ringup/wavefile.h: the CSV waveform writer, a sink for ru_transient_run.
  *
  * Writes DIR/wave.csv: a header `time_s` then one column per free or driven node
- * voltage (named by the node) and per inductor current (`i(L1)`), one row per
+ * voltage (named by the node), per inductor current (`i(L1)`) and per crystal's
+ * main motional-arm current (`i(X1)`), one row per
  * sample, streamed to disk. The file is written as a temporary name in the same
  * folder and renamed into place by ru_csv_close(..., keep = 1), so a failed run
  * never leaves a half file under the final name. */

@@ -363,7 +363,7 @@ static int has_noise_source(const ru_circuit *c)
 {
     for (size_t i = 0; i < ru_circuit_part_count(c); i++) {
         const ru_part *p = ru_circuit_part(c, i);
-        if (p->type == RU_PART_RESISTOR ||
+        if (p->type == RU_PART_RESISTOR || p->type == RU_PART_CRYSTAL ||
             (p->type == RU_PART_INDUCTOR && p->series_ohm > 0))
             return 1;
     }
@@ -419,7 +419,8 @@ static ru_status check_size(const ru_circuit *c, const ru_run_request *rq,
                             cycles, rep->pred.frequency_hz, RU_MAX_CYCLES);
     size_t cols = 1 + ru_circuit_node_count(c) - 1;
     for (size_t i = 0; i < ru_circuit_part_count(c); i++)
-        cols += ru_circuit_part(c, i)->type == RU_PART_INDUCTOR;
+        cols += ru_circuit_part(c, i)->type == RU_PART_INDUCTOR ||
+                ru_circuit_part(c, i)->type == RU_PART_CRYSTAL;
     double bytes = (samples + 1) * (double)cols * 16.0;
     if (rq->out_dir && bytes > RU_MAX_CSV_BYTES)
         return ru_error_set(err, RU_EINPUT, ru_circuit_file(c), 0, 0,

@@ -29,7 +29,8 @@ static void node_phasor(const ru_system *s, const double *vre, const double *vim
 /* The dominant mode's amplitude on the probe when it holds the thermal energy kT
  * (equipartition: kT/2 for each of its two quadratic degrees of freedom). The mode
  * scaled to a unit probe amplitude stores on average
- *   E1 = sum over capacitors C |dv|^2 / 4 + sum over inductors L |i|^2 / 4,
+ *   E1 = sum over capacitors C |dv|^2 / 4 + sum over inductors L |i|^2 / 4
+ *        (a crystal: its c0, and L |i|^2 / 4 + cm |vm|^2 / 4 per motional arm),
  * so A = sqrt(kT / E1): sqrt(2kT/C) for a plain LC tank. The noise keeps feeding
  * the mode while it grows, so this is the order of the start level, not its value. */
 static double noise_amplitude(const ru_system *s, const double *x_op, ru_pole dom,
@@ -54,6 +55,16 @@ static double noise_amplitude(const ru_system *s, const double *x_op, ru_pole do
         } else if (p->type == RU_PART_INDUCTOR) {
             int k = ru_system_inductor_state(s, (int)i);
             e1 += p->value * (v[k] * v[k] + v[n + k] * v[n + k]) / 4;
+        } else if (p->type == RU_PART_CRYSTAL) { /* c0, and L |i|^2 + cm |vm|^2 per arm */
+            node_phasor(s, v, v + n, p->node[0], &pr, &pi);
+            node_phasor(s, v, v + n, p->node[1], &qr, &qi);
+            e1 += p->crystal.c0_f * ((pr - qr) * (pr - qr) + (pi - qi) * (pi - qi)) / 4;
+            double r, l, cm;
+            int k = ru_system_part_state(s, (int)i);
+            for (int a = p->crystal.no_main ? 1 : 0; k >= 0 && ru_crystal_arm(p, a, &r, &l, &cm);
+                 a++, k += 2)
+                e1 += (l * (v[k] * v[k] + v[n + k] * v[n + k]) +
+                       cm * (v[k + 1] * v[k + 1] + v[n + k + 1] * v[n + k + 1])) / 4;
         }
     }
     for (size_t node = 1; node < ru_circuit_node_count(c); node++) {

@@ -51,6 +51,29 @@ double ru_mc_deviation(uint64_t seed, uint64_t sample, uint64_t part, ru_mc_dist
     return 0.0;
 }
 
+/* Whether Monte Carlo draws p's value with its tol: resistors, capacitors,
+ * inductors, and a crystal's series-resonant frequency. */
+static int value_drawn(const ru_part *p)
+{
+    return p->tol > 0 && (p->type <= RU_PART_INDUCTOR || p->type == RU_PART_CRYSTAL);
+}
+
+/* A crystal's motional resistances scaled by one draw of its esr-tol (stream
+ * offset 2^32 from the value's, so the two draws are independent). */
+static void draw_esr(ru_part *p, uint64_t seed, size_t sample, size_t i, ru_mc_dist dist)
+{
+    if (p->type != RU_PART_CRYSTAL || !(p->crystal.esr_tol > 0))
+        return;
+    double f = 1.0 + ru_mc_deviation(seed, sample, (uint64_t)i | (1ull << 32), dist,
+                                     p->crystal.esr_tol);
+    if (p->crystal.esr_ohm > 0)
+        p->crystal.esr_ohm *= f;
+    else
+        p->crystal.q /= f; /* esr = 2 pi fs L / q */
+    for (int k = 0; k < p->crystal.narms; k++)
+        p->crystal.arm_esr_ohm[k] *= f;
+}
+
 ru_status ru_mc_sample_circuit(const ru_circuit *c, uint64_t seed, size_t sample,
                                ru_mc_dist dist, ru_circuit **out, ru_error *err)
 {
@@ -61,9 +84,12 @@ ru_status ru_mc_sample_circuit(const ru_circuit *c, uint64_t seed, size_t sample
     ru_status s = RU_OK;
     for (size_t i = 0; sample > 0 && s == RU_OK && i < ru_circuit_part_count(v); i++) {
         ru_part p = *ru_circuit_part(v, i);
-        if (!(p.tol > 0) || p.type > RU_PART_INDUCTOR)
+        int esr = p.type == RU_PART_CRYSTAL && p.crystal.esr_tol > 0;
+        if (!value_drawn(&p) && !esr)
             continue;
-        p.value *= 1.0 + ru_mc_deviation(seed, sample, i, dist, p.tol);
+        if (value_drawn(&p))
+            p.value *= 1.0 + ru_mc_deviation(seed, sample, i, dist, p.tol);
+        draw_esr(&p, seed, sample, i, dist);
         s = ru_circuit_replace_part(v, i, &p, err);
     }
     if (s != RU_OK)
@@ -153,7 +179,7 @@ static ru_status result_new(const ru_circuit *c, size_t samples, ru_mc_result **
     }
     for (size_t i = 0; r && r->tol_name && r->tol_part && i < np; i++) {
         const ru_part *p = ru_circuit_part(c, i);
-        if (p->tol > 0 && p->type <= RU_PART_INDUCTOR) {
+        if (value_drawn(p)) {
             snprintf(r->tol_name[r->ntol], RU_NAME_MAX, "%s", p->name);
             r->tol_part[r->ntol++] = (int)i;
         }
@@ -247,12 +273,15 @@ static ru_status check_opts(const ru_circuit *c, const ru_mc_opts *o, ru_error *
     if (o->request.keep || o->request.out_dir || o->request.wav_path)
         return ru_error_set(err, RU_ERANGE, NULL, 0, 0,
                             "Monte Carlo: units write no files and keep no pictures");
-    for (size_t i = 0; i < ru_circuit_part_count(c); i++)
-        if (ru_circuit_part(c, i)->tol > 0)
+    for (size_t i = 0; i < ru_circuit_part_count(c); i++) {
+        const ru_part *p = ru_circuit_part(c, i);
+        if (p->tol > 0 || (p->type == RU_PART_CRYSTAL && p->crystal.esr_tol > 0))
             return RU_OK;
+    }
     return ru_error_set(err, RU_EINPUT, ru_circuit_file(c), 0, 0,
                         "Monte Carlo: no part has a tolerance (give resistors, capacitors "
-                        "or inductors a tol, e.g. tol: 1%%)");
+                        "or inductors a tol, e.g. tol: 1%%, a crystal tol: 20ppm or "
+                        "esr-tol: 20%%)");
 }
 
 ru_status ru_mc_run(const ru_circuit *c, const ru_mc_opts *o, ru_mc_result **out,

@@ -136,6 +136,32 @@ static ru_status list_number(const ld_doc *d, const ru_ynode *e, const char *who
     return RU_OK;
 }
 
+/* Entry i of a list of mappings l (l->fields) into part: the fields' keys only,
+ * each with its unit, a required one present, the others at their defaults. */
+static ru_status list_record(const ld_doc *d, const ru_ynode *item, const char *who,
+                             const ru_listrec *l, int i, ru_part *part, ru_error *err)
+{
+    char whoi[RU_NAME_MAX + 48];
+    snprintf(whoi, sizeof whoi, "%s: key %s, item %d", who, l->key, i + 1);
+    if (item->type != RU_YAML_MAPPING)
+        return ru_ld_fail(d, item, err, "%s: needs %s", whoi, l->entry);
+    const char *allowed[RU_LD_KEYS_MAX] = {NULL};
+    for (const ru_keyrec *f = l->fields; f->key; f++)
+        ru_ld_add_key(allowed, f->key);
+    ru_status s = ru_ld_only_keys(d, item, whoi, allowed, err);
+    for (const ru_keyrec *f = l->fields; s == RU_OK && f->key; f++) {
+        double *slot = (double *)((char *)part + f->offset) + i;
+        const ru_ypair *p = ru_ld_find(item, f->key);
+        if (!p && f->required)
+            return ru_ld_fail(d, item, err, "%s: missing required key %s", whoi, f->key);
+        if (!p)
+            *slot = f->dflt;
+        else
+            s = ru_ld_value(d, p, whoi, f->unit, err, slot);
+    }
+    return s;
+}
+
 /* Entry i of list l (a number, or a pair for width 2) into xy. */
 static ru_status list_entry(const ld_doc *d, const ru_ynode *item, const char *who,
                             const ru_listrec *l, int i, double *xy, ru_error *err)
@@ -172,7 +198,12 @@ static ru_status read_list(const ld_doc *d, const ru_ynode *map, const ru_ynode 
     if (n < l->min || n > l->max)
         return ru_ld_fail(d, v ? v : p->key, err, "%s: key %s needs a list of %d to %d %s",
                           who, l->key, l->min, l->max, l->what);
-    for (int i = 0; i < n; i++) {
+    for (int i = 0; i < n && l->fields; i++) {
+        ru_status s = list_record(d, v->items[i], who, l, i, part, err);
+        if (s != RU_OK)
+            return s;
+    }
+    for (int i = 0; i < n && !l->fields; i++) {
         double xy[2] = {0.0, 0.0};
         ru_status s = list_entry(d, v->items[i], who, l, i, xy, err);
         if (s != RU_OK)

@@ -6,7 +6,8 @@
  * voltage included); the rest is linearized there. The part's own impedance comes
  * from its formula (resistor, capacitor, inductor with its series resistance) or,
  * for other parts, from the whole circuit's driving-point admittance less the
- * rest's: Y_part = Y_whole - Y_rest, both linearized at the same point. */
+ * rest's: Y_part = Y_whole - Y_rest, both linearized at the same point. A crystal
+ * is its main motional arm (R, L_m, C_m); c0 and its other arms stay in the rest. */
 #include "base/cplx.h"
 #include "engines/margin_impl.h"
 
@@ -76,17 +77,24 @@ static ru_status linearize(const ru_system *s, const double *x, double **A, doub
     return RU_OK;
 }
 
-/* The rest: the part replaced by an open (a resistor far above any other). */
+/* The rest: the part replaced by an open (a resistor far above any other); a
+ * crystal by itself without its main arm (c0 and any other arm stay with the rest,
+ * as the figure held against the ESR counts them). */
 static ru_status make_rest(ru_margin *m, const ru_circuit *c, int part, ru_error *err)
 {
     ru_status st = ru_circuit_clone(c, &m->rest_c);
     if (st != RU_OK)
         return ru_error_set(err, st, NULL, 0, 0, "margin: out of memory");
     ru_part q;
-    ru_part_init(&q, RU_PART_RESISTOR, m->part.name);
+    if (m->part.type == RU_PART_CRYSTAL) {
+        q = m->part;
+        q.crystal.no_main = 1;
+    } else {
+        ru_part_init(&q, RU_PART_RESISTOR, m->part.name);
+        q.value = RU_MARGIN_OPEN_OHM;
+    }
     q.node[0] = m->part.node[0];
     q.node[1] = m->part.node[1];
-    q.value = RU_MARGIN_OPEN_OHM;
     q.line = m->part.line;
     q.col = m->part.col;
     if ((st = ru_circuit_replace_part(m->rest_c, (size_t)part, &q, err)) != RU_OK)
@@ -250,6 +258,13 @@ ru_status ru_margin_part_z(const ru_margin *m, double f_hz, double *re_ohm,
         *re_ohm = p->series_ohm;
         *im_ohm = w * p->value;
         return RU_OK;
+    case RU_PART_CRYSTAL: { /* its main arm: R + j (w L - 1 / (w C)) */
+        double r, l, cm;
+        ru_crystal_arm(p, 0, &r, &l, &cm);
+        *re_ohm = r;
+        *im_ohm = w * l - 1.0 / (w * cm);
+        return RU_OK;
+    }
     default:
         break;
     }
@@ -271,6 +286,9 @@ ru_status ru_margin_part_z(const ru_margin *m, double f_hz, double *re_ohm,
 
 double ru_margin_part_inductance(const ru_margin *m)
 {
+    double r, l = NAN, c;
+    if (m->part.type == RU_PART_CRYSTAL && ru_crystal_arm(&m->part, 0, &r, &l, &c))
+        return l;
     return m->part.type == RU_PART_INDUCTOR ? m->part.value : NAN;
 }
 

@@ -374,6 +374,14 @@ static double noise_drive(const mode_ctx *c, double temp_c)
             int k = ru_system_inductor_state(c->s, (int)i);
             g = conj(c->ut[k]) / p->value / c->uhv; /* di/dt += v_n / L */
             dens = 2 * kt * p->series_ohm;
+        } else if (p->type == RU_PART_CRYSTAL) { /* each arm's R: di/dt += v_n / L */
+            double r, l, cm;
+            int k = ru_system_part_state(c->s, (int)i);
+            for (int a = p->crystal.no_main ? 1 : 0; k >= 0 && ru_crystal_arm(p, a, &r, &l, &cm);
+                 a++, k += 2) {
+                double complex ga = conj(c->ut[k]) / l / c->uhv;
+                acc += creal(ga * conj(ga)) * 2 * kt * r;
+            }
         }
         acc += creal(g * conj(g)) * dens;
     }

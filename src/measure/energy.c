@@ -86,11 +86,29 @@ static void energy_and_rate(ru_energy_balance *e, double t, const double *x, dou
     *rate = P;
 }
 
+/* A crystal: c0 as a capacitor, and per motional arm L i^2 / 2 and cm vm^2 / 2 (the
+ * state pair i, vm from s0 on; the same form as an inductor's store). */
+static void add_crystal(ru_energy_balance *e, const ru_part *p, int s0)
+{
+    if (p->crystal.c0_f > 0) {
+        e->caps[e->ncaps++] = (store_cap){p->node[0], p->node[1], p->crystal.c0_f};
+        if (e->sys->node_state[p->node[0]] == RU_NS_DRIVEN ||
+            e->sys->node_state[p->node[1]] == RU_NS_DRIVEN)
+            e->driven_caps = 1;
+    }
+    double r, l, c;
+    for (int k = p->crystal.no_main ? 1 : 0, s = s0; s0 >= 0 && ru_crystal_arm(p, k, &r, &l, &c);
+         k++, s += 2) {
+        e->inds[e->ninds++] = (store_ind){s, l};
+        e->inds[e->ninds++] = (store_ind){s + 1, c};
+    }
+}
+
 static ru_status collect_parts(ru_energy_balance *e, const ru_circuit *c)
 {
     size_t np = ru_circuit_part_count(c), nn = ru_circuit_node_count(c);
     e->caps = calloc(np + nn, sizeof *e->caps);
-    e->inds = calloc(np ? np : 1, sizeof *e->inds);
+    e->inds = calloc(np ? 2 * (RU_CRYSTAL_ARMS + 1) * np : 1, sizeof *e->inds);
     if (!e->caps || !e->inds)
         return RU_ENOMEM;
     for (size_t i = 0; i < np; i++) {
@@ -104,6 +122,8 @@ static ru_status collect_parts(ru_energy_balance *e, const ru_circuit *c)
         else if (p->type == RU_PART_INDUCTOR)
             e->inds[e->ninds++] =
                 (store_ind){ru_system_inductor_state(e->sys, (int)i), p->value};
+        else if (p->type == RU_PART_CRYSTAL)
+            add_crystal(e, p, ru_system_part_state(e->sys, (int)i));
     }
     for (size_t k = 1; k < nn; k++)
         if (ru_system_node_state(e->sys, (int)k) >= 0 &&

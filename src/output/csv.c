@@ -90,9 +90,11 @@ static ru_status build_columns(ru_csv *w)
         return RU_ENOMEM;
     for (size_t i = 1; i < nn; i++)
         w->cols[w->ncols++] = (csv_col){(int)i, -1};
-    for (size_t p = 0; p < np; p++) {
-        int st = ru_system_inductor_state(w->sys, (int)p);
-        if (ru_circuit_part(c, p)->type == RU_PART_INDUCTOR && st >= 0)
+    for (size_t p = 0; p < np; p++) { /* inductor currents, crystals' main-arm ones */
+        const ru_part *q = ru_circuit_part(c, p);
+        int st = ru_system_part_state(w->sys, (int)p);
+        if (st >= 0 && (q->type == RU_PART_INDUCTOR ||
+                        (q->type == RU_PART_CRYSTAL && !q->crystal.no_main)))
             w->cols[w->ncols++] = (csv_col){-1, st};
     }
     return RU_OK;
@@ -107,9 +109,7 @@ static void write_header(ru_csv *w)
             put_name(w->fp, ru_circuit_node_name(c, w->cols[i].node), "", "");
             continue;
         }
-        for (size_t p = 0; p < ru_circuit_part_count(c); p++)
-            if (ru_system_inductor_state(w->sys, (int)p) == w->cols[i].state)
-                put_name(w->fp, ru_circuit_part(c, p)->name, "i(", ")");
+        put_name(w->fp, ru_system_state_name(w->sys, (size_t)w->cols[i].state), "", "");
     }
     fputc('\n', w->fp);
 }

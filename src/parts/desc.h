@@ -48,6 +48,10 @@ typedef struct ru_listrec {
     const char *item;    /* one number, for messages: "a number", "a voltage" */
     const char *entry;   /* one entry of width 2, for messages: "a pair [vin, vout]" */
     const char *col0;    /* column 0's name in messages ("vin") */
+    const ru_keyrec *fields; /* non-NULL: every entry is a mapping of these keys
+                                (width and offset unused); a field's offset is that
+                                of an array of max doubles in ru_part, entry i
+                                going to element i */
 } ru_listrec;
 
 /* One variant of a type (a wave kind, an amplifier law, a thermal kind), or the
@@ -91,7 +95,7 @@ typedef struct ru_cap {
 
 #define RU_PART_CAPS_MAX 4   /* most capacitances of one part */
 #define RU_PART_LINKS_MAX 4  /* most DC links of one part */
-#define RU_PART_STATES_MAX 4 /* most states of one part */
+#define RU_PART_STATES_MAX 10 /* most states of one part */
 
 /* What a state's tolerance scale may depend on (system.c). */
 typedef struct ru_scale_env {
@@ -210,6 +214,6 @@ void ru_part_set_variant_none(ru_part *p, int i);
 /* The descriptors, one per family file. */
 extern const ru_part_desc ru_part_resistor, ru_part_capacitor, ru_part_inductor,
     ru_part_supply, ru_part_current, ru_part_poly, ru_part_amplifier, ru_part_diode,
-    ru_part_thermal, ru_part_transconductor;
+    ru_part_thermal, ru_part_transconductor, ru_part_crystal;
 
 #endif

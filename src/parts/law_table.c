@@ -13,8 +13,8 @@ static const ru_keyrec keys[] = {{"rout", "ohm", A(rout_ohm), 0, 50.0},
 static const ru_listrec lists[] = {
     {"points", "V", 2, 2, RU_TABLE_MAX, {A(pt_vin), A(pt_vout)}, A(npoints), 1,
      "pairs [vin, vout]", "a voltage", "a pair [vin, vout]",
-     "vin"},
-    {NULL, NULL, 0, 0, 0, {0, 0}, 0, 0, NULL, NULL, NULL, NULL}};
+     "vin", NULL},
+    {NULL, NULL, 0, 0, 0, {0, 0}, 0, 0, NULL, NULL, NULL, NULL, NULL}};
 #undef A
 
 static ru_status check(const ru_part *p, const ru_part_env *env, ru_error *err)

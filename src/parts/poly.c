@@ -8,8 +8,8 @@
 static const ru_keyrec no_keys[] = {{NULL, NULL, 0, 0, 0.0}};
 static const ru_listrec lists[] = {
     {"coeffs", NULL, 1, 1, RU_POLY_MAX, {offsetof(ru_part, coeffs), 0},
-     offsetof(ru_part, ncoeffs), 0, "numbers (c0 first)", "a number", NULL, NULL},
-    {NULL, NULL, 0, 0, 0, {0, 0}, 0, 0, NULL, NULL, NULL, NULL}};
+     offsetof(ru_part, ncoeffs), 0, "numbers (c0 first)", "a number", NULL, NULL, NULL},
+    {NULL, NULL, 0, 0, 0, {0, 0}, 0, 0, NULL, NULL, NULL, NULL, NULL}};
 static const ru_variant only = {"poly-conductance", no_keys, lists};
 static const ru_variant *variant(int i) { return i == 0 ? &only : NULL; }
 

@@ -188,6 +188,13 @@ int ru_system_inductor_state(const ru_system *s, int part)
     return s->part_state[part];
 }
 
+int ru_system_part_state(const ru_system *s, int part)
+{
+    if (part < 0 || (size_t)part >= s->nparts)
+        return -1;
+    return s->part_state[part];
+}
+
 /* Voltage of a node with the sources evaluated as e says. */
 static double node_voltage_at(const ru_system *s, int node, ru_src_eval e, const double *x)
 {

@@ -25,6 +25,9 @@ static int part_noise(const ru_part *p, ru_noise_kind *kind)
     case RU_PART_INDUCTOR:
         *kind = RU_NOISE_THERMAL;
         return p->series_ohm > 0;
+    case RU_PART_CRYSTAL: /* its main arm's R (the extra arms sit off the tone) */
+        *kind = RU_NOISE_THERMAL;
+        return !p->crystal.no_main;
     case RU_PART_DIODE:
         *kind = RU_NOISE_SHOT;
         return 1;
@@ -92,6 +95,12 @@ static double source_at(const ru_system *s, size_t i, const double *v, const dou
     case RU_PART_INDUCTOR: /* a series voltage e adds e/L to di/dt */
         col[s->part_state[i]] += 1.0 / p->value;
         return 4.0 * kt_j * p->series_ohm;
+    case RU_PART_CRYSTAL: { /* the main arm's R, a series voltage: e/L on di/dt */
+        double r, l, cm;
+        ru_crystal_arm(p, 0, &r, &l, &cm);
+        col[s->part_state[i]] += 1.0 / l;
+        return 4.0 * kt_j * r;
+    }
     case RU_PART_THERMAL: {
         double rise = x[s->part_state[i]], drdx;
         double r = ru_thermal_resistance(&p->thermal, rise, &drdx);
