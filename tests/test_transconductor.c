@@ -138,7 +138,7 @@ static void test_load_errors(void **state)
     BAD("  G1: {type: transconductor, nodes: [o, gnd], control: [i, i], gm: 1m}\n", 2, "G1",
         "part G1: both control terminals are on node i");
     BAD("  G1: {type: transconductr, nodes: [o, gnd], control: [i, gnd], gm: 1m}\n", 2,
-        "transconductr", "or transconductor)");
+        "transconductr", "(did you mean transconductor? ");
     /* control keys belong to this type only */
     BAD("  R1: {type: resistor, nodes: [o, gnd], value: 1k, control: [i, gnd]}\n", 2,
         "control", "key control does not apply to type resistor");
