@@ -38,6 +38,24 @@ void ru_error_clear(ru_error *err)
     memset(err, 0, sizeof *err);
 }
 
+/* A message is one line: a control character that came in with the user's text
+ * (a line break inside a block scalar, a tab) is written as an escape. */
+static void one_line(const char *in, char *out, size_t size)
+{
+    size_t k = 0;
+    for (const unsigned char *q = (const unsigned char *)in; *q && k + 5 < size; q++) {
+        if (*q == '\n' || *q == '\t' || *q == '\r') {
+            out[k++] = '\\';
+            out[k++] = *q == '\n' ? 'n' : *q == '\t' ? 't' : 'r';
+        } else if (*q < 0x20 || *q == 0x7f) {
+            k += (size_t)snprintf(out + k, size - k, "\\x%02X", *q);
+        } else {
+            out[k++] = (char)*q;
+        }
+    }
+    out[k] = '\0';
+}
+
 ru_status ru_error_set(ru_error *err, ru_status code, const char *file, int line,
                        int col, const char *fmt, ...)
 {
@@ -47,10 +65,12 @@ ru_status ru_error_set(ru_error *err, ru_status code, const char *file, int line
     snprintf(err->file, sizeof err->file, "%s", file ? file : "");
     err->line = line;
     err->col = col;
+    char raw[RU_ERROR_TEXT];
     va_list ap;
     va_start(ap, fmt);
-    vsnprintf(err->msg, sizeof err->msg, fmt, ap);
+    vsnprintf(raw, sizeof raw, fmt, ap);
     va_end(ap);
+    one_line(raw, err->msg, sizeof err->msg);
     return code;
 }
 

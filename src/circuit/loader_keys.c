@@ -88,6 +88,8 @@ ru_status ru_ld_check_keys(const ld_doc *d, const ru_ynode *map, const char *who
             return ru_ld_fail(d, k, err, "%s: keys must be plain names", who);
         if (in_list(allowed, key))
             continue;
+        if (!key[0])
+            return ru_ld_fail(d, k, err, "%s: an empty key ('') names nothing", who);
         if (any_part_key(key) || strcmp(key, "description") == 0)
             return ru_ld_fail(d, k, err, "%s: key %s does not apply to %s", who, key,
                               what);

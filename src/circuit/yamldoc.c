@@ -215,6 +215,9 @@ ru_status ru_ld_only_keys(const ld_doc *d, const ru_ynode *map, const char *who,
         if (p->key->type != RU_YAML_SCALAR)
             return ru_ld_fail(d, p->key, err, "%s%skeys must be plain names", who,
                               ru_ld_sep(who));
+        if (!ru_ld_key(p)[0])
+            return ru_ld_fail(d, p->key, err, "%s%san empty key ('') names nothing", who,
+                              ru_ld_sep(who));
         int ok = 0;
         for (size_t k = 0; allowed[k] && !ok; k++)
             ok = strcmp(ru_ld_key(p), allowed[k]) == 0;

@@ -86,6 +86,8 @@ typedef struct builder {
     char anchor[80];       /* its name, cut to fit */
     uint32_t *slots;       /* duplicate-key table: index+1 into the mapping, 0 free */
     size_t nslots;
+    const char *text;      /* the input, for a look at the place of a syntax error */
+    size_t len;
 } builder;
 
 static int line_of(yaml_mark_t m) { return (int)m.line + 1; }
@@ -327,6 +329,22 @@ static ru_status second_document(builder *b, yaml_parser_t *p, const yaml_event_
  * unexpected end of the text is placed where the unfinished thing began, and a
  * colon inside a plain scalar ("{value:}", where YAML 1.1 wants "value: }") at
  * the start of that scalar, the key the user meant. */
+/* The character at a mark (line, and column in characters) is a tab. */
+static int tab_at(const builder *b, yaml_mark_t m)
+{
+    size_t i = 0, line = 0, col = 0;
+    while (i < b->len && line < m.line)
+        if (b->text[i++] == '\n')
+            line++;
+    for (; i < b->len && b->text[i] != '\n'; i++) {
+        if (((unsigned char)b->text[i] & 0xC0) == 0x80)
+            continue; /* a UTF-8 continuation byte: the same character */
+        if (col++ == m.column)
+            return b->text[i] == '\t';
+    }
+    return 0;
+}
+
 static ru_status syntax_error(builder *b, const yaml_parser_t *p)
 {
     const char *problem = p->problem ? p->problem : "the text could not be parsed";
@@ -342,6 +360,9 @@ static ru_status syntax_error(builder *b, const yaml_parser_t *p)
     } else if (p->context && strstr(problem, "end of stream")) {
         at = p->context_mark;
         snprintf(msg, sizeof msg, "YAML: %s %s", problem, p->context);
+    } else if (tab_at(b, at)) {
+        snprintf(msg, sizeof msg, "YAML: a tab here cannot start a token (YAML indents with "
+                                  "spaces, never tabs)");
     } else if (p->context) {
         snprintf(msg, sizeof msg, "YAML: %s (%s that starts at %d:%d)", problem, p->context,
                  line_of(p->context_mark), col_of(p->context_mark));
@@ -431,6 +452,8 @@ ru_status ru_yaml_parse(const char *text, size_t len, const char *file, ru_yaml 
     memset(&b, 0, sizeof b);
     b.file = file;
     b.err = err;
+    b.text = text;
+    b.len = len;
     b.y = calloc(1, sizeof *b.y);
     if (!b.y)
         return no_memory(&b);
