@@ -183,9 +183,9 @@ static void test_derivatives(void **state)
     const double vos[] = {-2.0, -0.05, -1e-3, 1e-3, 0.03, 0.5, 4.0};
     for (int i = 0; i < 7; i++)
         for (int j = 0; j < 7; j++) {
-            check_ports(&n, (ru_law_at){vcs[i], vos[j], 0, 0, 0});
-            check_ports(&p, (ru_law_at){-vcs[i], -vos[j], 0, 0, 0});
-            check_ports(&nv, (ru_law_at){vcs[i], vos[j], 0, 0, 0});
+            check_ports(&n, (ru_law_at){vcs[i], vos[j], 0, 0, 0, 0});
+            check_ports(&p, (ru_law_at){-vcs[i], -vos[j], 0, 0, 0, 0});
+            check_ports(&nv, (ru_law_at){vcs[i], vos[j], 0, 0, 0, 0});
         }
     ru_amp inv = inverter(), invv = inverter();
     invv.va_v = 8.0;
@@ -194,8 +194,8 @@ static void test_derivatives(void **state)
     for (int i = 0; i < 6; i++)
         for (int j = 0; j < 6; j++)
             for (int k = 0; k < 4; k++) {
-                check_ports(&inv, (ru_law_at){vi[i], vi[j] + 0.013, 0, vs[k], 0});
-                check_ports(&invv, (ru_law_at){vi[i], vi[j] - 0.017, 0, vs[k], 0});
+                check_ports(&inv, (ru_law_at){vi[i], vi[j] + 0.013, 0, vs[k], 0, 0});
+                check_ports(&invv, (ru_law_at){vi[i], vi[j] - 0.017, 0, vs[k], 0, 0});
             }
 }
 
@@ -233,7 +233,7 @@ static void test_describing_function(void **state)
      * a = 1 uV leaves 1e-10), with the rail at vdd. */
     ru_amp inv = inverter();
     ru_law_eval e;
-    ru_law_at at = {1.4, 1.6, 0.0, 3.3, 0.0};
+    ru_law_at at = {1.4, 1.6, 0.0, 3.3, 0.0, 0};
     ru_law_eval_at(&inv, &at, &e);
     RU_ASSERT_REL(ru_df_amp_gain_rail(&inv, 1.4, 1.6, 3.3, 1e-6), e.di_out_dvc, 1e-8);
     /* and without the rail the p device is off: only the n device's slope */
@@ -258,7 +258,7 @@ static double self_bias(const ru_amp *a, double vdd)
     for (int it = 0; it < 200; it++) {
         double mid = 0.5 * (lo + hi);
         ru_law_eval e;
-        ru_law_at at = {mid, mid, 0.0, vdd, 0.0};
+        ru_law_at at = {mid, mid, 0.0, vdd, 0.0, 0};
         ru_law_eval_at(a, &at, &e);
         if (e.i_out > 0) /* p stronger: the point lies higher */
             lo = mid;
@@ -294,7 +294,7 @@ static void test_inverter(void **state)
     double gdsn = b.kn_a_per_v2 / (2 * n) * ovn * ovn / b.va_v;
     double gdsp = b.kp_a_per_v2 / (2 * n) * ovp * ovp / b.va_v;
     ru_law_eval e;
-    ru_law_at at = {vm, vm, 0.0, vdd, 0.0};
+    ru_law_at at = {vm, vm, 0.0, vdd, 0.0, 0};
     ru_law_eval_at(&b, &at, &e);
     /* 1e-6: the EKV corrections at u >= 27 */
     RU_ASSERT_REL(e.di_out_dvc, -(gmn + gmp), 1e-6);
@@ -302,14 +302,14 @@ static void test_inverter(void **state)
     /* KCL over the part: the supply gives the p device's current, which is the n
      * device's at the self-biased point of the unmodulated inverter. */
     double v0 = self_bias(&a, vdd);
-    at = (ru_law_at){v0, v0, 0.0, vdd, 0.0};
+    at = (ru_law_at){v0, v0, 0.0, vdd, 0.0, 0};
     ru_law_eval_at(&a, &at, &e);
     double id_n = a.kn_a_per_v2 / (2 * n) * (v0 - a.vthn_v) * (v0 - a.vthn_v);
     RU_ASSERT_REL(-e.i_sup, id_n, 1e-6); /* same square law as above */
     /* Rails: input low, output at vdd: the p device carries nothing (vds = 0)
      * and the n device only its subthreshold leakage is e^(-vthn/(n ut)) (Source:
      * EKV 1995's weak-inversion limit; relative error e^(u/2) = 6e-4 at u = -14.9). */
-    at = (ru_law_at){0.0, vdd, 0.0, vdd, 0.0};
+    at = (ru_law_at){0.0, vdd, 0.0, vdd, 0.0, 0};
     ru_law_eval_at(&a, &at, &e);
     double ut = ru_law_thermal_voltage(a.temp_c);
     double leak = 2 * n * a.kn_a_per_v2 * ut * ut * exp(-a.vthn_v / (n * ut));

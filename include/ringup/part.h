@@ -95,15 +95,19 @@ const char *ru_law_name(ru_law law);
  *   smooth saturation of the output only: 1 when vo is well above vsat, 0 at vo = 0. The input is not
  *   reduced by it, so in saturation the junction still clamps the input as a real
  *   base-emitter junction does.
- * diff-pair-tanh: the long-tailed (emitter-coupled) pair. Its differential output
- *   current is itail*tanh(vc/(2 n vt)) (Source: the emitter-coupled pair's large-
- *   signal transfer, e.g. Gray, Hurst, Lewis & Meyer, "Analysis and Design of
- *   Analog Integrated Circuits", ch. 3; from memory). The current pushed INTO out
- *   is sign*itail*tanh(vc/(2 n vt)): with a load resistor R from out to ref, sign
- *   +1 gives a non-inverting stage of small-signal gain +itail*R/(2 n vt), sign -1
- *   an inverting one. rout (0: none) is an output resistance from out to ref in
- *   parallel. The inputs draw nothing. ref carries the output current back, so it
- *   should be gnd or a stiff node; the pair's second input is `inv`.
+ * diff-pair-tanh: the long-tailed (emitter-coupled) pair, the bases' difference vc,
+ *   the tail to ref. With out2 (both collectors): out, the in side's collector,
+ *   sinks itail/2 (1 + tanh(vc/(2 n vt))) and out2, the inv side's, itail/2 (1 -
+ *   tanh(vc/(2 n vt))) (two Shockley junctions sharing the tail; own derivation),
+ *   sign must be 1. Without out2 (the pair with an ideal current-mirror load): the
+ *   current pushed INTO out is the collectors' difference, sign*itail*tanh(vc/(2 n
+ *   vt)) (Source: the emitter-coupled pair's large-signal transfer, e.g. Gray,
+ *   Hurst, Lewis & Meyer, "Analysis and Design of Analog Integrated Circuits", ch.
+ *   3; from memory): with a load resistor R from out to ref, sign +1 gives a
+ *   non-inverting stage of small-signal gain +itail*R/(2 n vt), sign -1 an
+ *   inverting one. rout (0: none) is an output resistance from each output to ref.
+ *   The inputs draw nothing. ref carries the output currents back, so it should be
+ *   gnd or a stiff node; the pair's second input is `inv`.
  * opamp: a dominant-pole operational amplifier (two-stage macro model) with one
  *   internal state, the integrator voltage vint (state "PART.vint", volts
  *   relative to ref):

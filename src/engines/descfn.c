@@ -285,7 +285,7 @@ double ru_df_amp_gain_rail(const ru_amp *amp, double vc0_v, double vo0_v, double
     const ru_law_desc *law = ru_law_get(amp->law);
     if (!law || !law->df_out) /* no memoryless describing function (opamp) */
         return NAN;
-    amp_at p = {amp, law, {vc0_v, vo0_v, 0.0, vdd_v, 0.0}};
+    amp_at p = {amp, law, {vc0_v, vo0_v, 0.0, vdd_v, 0.0, 0}};
     return ru_df_gain(amp_out, &p, vc0_v, a_v, 4096);
 }
 

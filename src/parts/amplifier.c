@@ -37,16 +37,18 @@ static const ru_variant *variant(int i)
 static int variant_of(const ru_part *p) { return (int)p->amp.law; }
 static void set_variant(ru_part *p, int i) { p->amp.law = (ru_law)i; }
 
-/* The extra terminals: given exactly when the law uses them, on their own nodes. */
+/* The extra terminals: required or optional as the law says, refused on other
+ * laws, on their own nodes. */
 static ru_status check_extra(const ru_part *p, const ru_law_desc *d, const ru_part_env *env,
                              ru_error *err)
 {
     for (size_t k = 0; k < sizeof extra / sizeof extra[0]; k++) {
         int node = p->node[extra[k].slot], uses = (d->terms & extra[k].flag) != 0;
+        int takes = uses || (d->terms_optional & extra[k].flag) != 0;
         if (uses && node < 0)
             return ru_part_fail(env, p, err, "law %s needs %s: NODE (%s)", d->v.name,
                                 extra[k].key, extra[k].what);
-        if (!uses && node >= 0)
+        if (!takes && node >= 0)
             return ru_part_fail(env, p, err, "key %s does not apply to law %s",
                                 extra[k].key, d->v.name);
         if (node >= 0 && (node == p->node[RU_AMP_OUT] || node == p->node[RU_AMP_REF]))
@@ -193,9 +195,11 @@ static void eval_here(const ru_part *p, const ru_stamp *st, const int *nd, int s
 {
     const double *v = st->v;
     ru_law_at at = {v[nd[RU_AMP_IN]] - v[nd[RU_AMP_INV]], v[nd[RU_AMP_OUT]] - v[nd[RU_AMP_REF]],
-                    0.0, 0.0, s >= 0 ? st->x[s] : 0.0};
-    if (nd[RU_AMP_OUT2] >= 0)
+                    0.0, 0.0, s >= 0 ? st->x[s] : 0.0, 0};
+    if (nd[RU_AMP_OUT2] >= 0) {
         at.vo2 = v[nd[RU_AMP_OUT2]] - v[nd[RU_AMP_REF]];
+        at.out2 = 1;
+    }
     if (nd[RU_AMP_VDD] >= 0)
         at.vs = v[nd[RU_AMP_VDD]] - v[nd[RU_AMP_REF]];
     ru_law_eval_at(&p->amp, &at, e);

@@ -63,7 +63,7 @@ int ru_law_eval_at(const ru_amp *a, const ru_law_at *at, ru_law_eval *e)
 int ru_law_eval_state(const ru_amp *a, double vc_v, double vo_v, double xs,
                       ru_law_eval *e)
 {
-    const ru_law_at at = {vc_v, vo_v, 0.0, 0.0, xs};
+    const ru_law_at at = {vc_v, vo_v, 0.0, 0.0, xs, 0};
     return ru_law_eval_at(a, &at, e);
 }
 

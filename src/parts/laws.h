@@ -77,6 +77,7 @@ typedef struct ru_law_at {
     double vo2;    /* v(out2) - v(ref): 0 without out2 */
     double vs;     /* v(vdd) - v(ref): 0 without vdd */
     double xs;     /* the internal state (0 without one) */
+    int out2;      /* 1: out2 is connected (a law with an optional second output) */
 } ru_law_at;
 
 typedef void (*ru_law_at_fn)(const ru_amp *a, const ru_law_at *at, ru_law_eval *e);
@@ -118,6 +119,7 @@ typedef struct ru_law_desc {
     double (*df_out)(const ru_amp *a, const ru_law_at *at);
     /* Laws with more terminals or a state-borne control (NULL: none of these) */
     int terms;             /* RU_LAW_TERM_* it requires */
+    int terms_optional;    /* RU_LAW_TERM_* it takes when given (ru_law_at.out2) */
     ru_law_at_fn eval_at;  /* its evaluator seeing every port (then eval is NULL) */
     int (*nstates_of)(const ru_amp *a);  /* states when they depend on the values;
                                             NULL: nstates */
