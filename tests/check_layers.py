@@ -36,7 +36,7 @@ PUBLIC = {
     "wavefile.h": "output", "plot.h": "output", "wav.h": "output",
     "json.h": "output",
     "analysis.h": "analysis", "tone.h": "analysis",
-    "batch.h": "batch", "montecarlo.h": "batch",
+    "batch.h": "batch", "montecarlo.h": "batch", "units.h": "batch",
 }
 
 MAX_LINES = 650  # "about 600 lines" (issue 8), with a little room

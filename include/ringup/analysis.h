@@ -19,6 +19,8 @@
 #include "ringup/plot.h"
 #include "ringup/wav.h"
 
+#include <signal.h>
+
 #ifdef __cplusplus
 extern "C" {
 #endif
@@ -67,6 +69,9 @@ typedef struct ru_run_request {
     ru_wav_opts wav;       /* its rate, format, level, pitch, length; sample_s,
                               stop_s and tone_hint_hz are filled in by the run */
     int engine;            /* an ru_engine: auto (default), direct or envelope */
+    const volatile sig_atomic_t *stop; /* when not NULL and *stop turns non-zero (a
+                              signal handler's flag), the transient ends at its next
+                              sample with RU_ESTOPPED and the report is not valid */
 } ru_run_request;
 
 /* Which time-domain engine runs: the direct transient (every cycle integrated) or

@@ -15,8 +15,13 @@
  * number of threads or their scheduling and any unit can be rebuilt alone.
  *
  * Memory: only the figures of each unit and its drawn values are kept (a few
- * hundred bytes per unit); the runs go through ru_batch_run in chunks. At most
- * RU_MC_MAX_SAMPLES samples. Nothing here prints. */
+ * hundred bytes per unit). At most RU_MC_MAX_SAMPLES samples. Nothing here prints.
+ *
+ * Units and records (ringup/units.h): ru_mc_unit_record runs one unit and gives
+ * its record, one JSON line; a result is built from records alone
+ * (ru_mc_result_create, ru_mc_result_add for each, ru_mc_result_finish), so the
+ * units can run anywhere (threads, shards, MPI ranks, a run continued after a
+ * stop) and the result is the same bit for bit. ru_mc_run does all of it here. */
 #ifndef RINGUP_MONTECARLO_H
 #define RINGUP_MONTECARLO_H
 
@@ -67,8 +72,8 @@ typedef struct ru_mc_opts {
     uint64_t seed;           /* generator seed */
     ru_mc_dist dist;         /* how deviations are drawn */
     int threads;             /* parallel runs (<= 0: one per processor) */
-    ru_run_request request;  /* how each unit runs (stop, accuracy; keep, out_dir
-                                and wav_path must be NULL) */
+    ru_run_request request;  /* how each unit runs (stop, accuracy, the stop flag;
+                                keep, out_dir and wav_path must be NULL) */
 } ru_mc_opts;
 
 /* Fills o with: 100 samples, seed 1, uniform, one thread per processor, the
@@ -101,6 +106,30 @@ void ru_mc_stats_of(const double *x, size_t n, ru_mc_stats *s);
 
 typedef struct ru_mc_result ru_mc_result;
 
+/* Checks the options against the circuit (the errors of ru_mc_run below). */
+ru_status ru_mc_check(const ru_circuit *c, const ru_mc_opts *o, ru_error *err);
+
+/* Builds and runs unit i (0..samples-1) and returns its record in *line (malloc'd,
+ * one JSON line: "unit", "status", "error" for a failed run, "started", the five
+ * figures by their keys, "predicted_growth_rate_per_s", "values" {part: drawn
+ * value}; numbers with 17 digits). A unit whose run fails is still a record.
+ * RU_ESTOPPED when o->request.stop ended the run (no record); RU_ENOMEM. Safe to
+ * call from several threads at once. */
+ru_status ru_mc_unit_record(const ru_circuit *c, const ru_mc_opts *o, size_t i,
+                            char **line, ru_error *err);
+
+/* Constructor: a result with no unit in yet (same checks as ru_mc_run). */
+ru_status ru_mc_result_create(const ru_circuit *c, const ru_mc_opts *o,
+                              ru_mc_result **out, ru_error *err);
+
+/* Adds one record. RU_EINPUT (nothing added) for a line that is not a record of
+ * this study: bad JSON, an index beyond the samples, a unit already in, values
+ * of other parts. */
+ru_status ru_mc_result_add(ru_mc_result *r, const char *line, ru_error *err);
+
+/* Computes the statistics over the units in so far (call after the last add). */
+void ru_mc_result_finish(ru_mc_result *r);
+
 /* Runs the Monte Carlo. RU_ERANGE for a sample count out of range or a request
  * that would write files; RU_EINPUT when no part has a tolerance; RU_ENOMEM.
  * A unit whose run fails is recorded as not started with its message; it does
@@ -111,7 +140,9 @@ ru_status ru_mc_run(const ru_circuit *c, const ru_mc_opts *o, ru_mc_result **out
 /* Destructor; NULL is harmless. */
 void ru_mc_result_destroy(ru_mc_result *r);
 
-size_t ru_mc_sample_count(const ru_mc_result *r);
+size_t ru_mc_sample_count(const ru_mc_result *r); /* units of the study */
+size_t ru_mc_done_count(const ru_mc_result *r);   /* units whose record is in */
+int ru_mc_unit_done(const ru_mc_result *r, size_t i);
 size_t ru_mc_started_count(const ru_mc_result *r);
 size_t ru_mc_settled_count(const ru_mc_result *r); /* started units that settled */
 size_t ru_mc_failed_count(const ru_mc_result *r); /* runs that ended in an error */
@@ -124,7 +155,7 @@ size_t ru_mc_tol_count(const ru_mc_result *r);
 const char *ru_mc_tol_name(const ru_mc_result *r, size_t k);
 double ru_mc_value(const ru_mc_result *r, size_t i, size_t k);
 
-/* The indices of the started units, latest start-up first (NAN start-up times
+/* The indices of the started units (of those in), latest start-up first (NAN start-up times
  * last); at most max of them into idx; returns how many. */
 size_t ru_mc_latest(const ru_mc_result *r, size_t *idx, size_t max);
 

@@ -22,7 +22,8 @@ extern "C" {
     X(RU_ENOCONVERGE, "did not converge", 2)                               \
     X(RU_EIO, "file input/output failed", 3)                               \
     X(RU_ERANGE, "argument out of range", 1)                               \
-    X(RU_EEXPECT, "design expectation not met", 4)
+    X(RU_EEXPECT, "design expectation not met", 4)                         \
+    X(RU_ESTOPPED, "stopped on request", 130)
 
 typedef enum {
 #define RU_X_ENUM(code, text, exitc) code,
@@ -35,7 +36,7 @@ typedef enum {
 const char *ru_status_str(ru_status s);
 
 /* Process exit status the CLI uses for a code (0 done, 1 bad input, 2 numerical,
- * 3 file I/O, 4 expectation not met). */
+ * 3 file I/O, 4 expectation not met, 130 stopped by a signal: 128 + SIGINT). */
 int ru_status_exit_code(ru_status s);
 
 #define RU_ERROR_TEXT 512

@@ -28,6 +28,8 @@ ru_status ru_run_sink_sample(void *user, double t_s, const double *x, size_t n)
 {
     ru_run_sink *k = user;
     ru_status st = RU_OK;
+    if (k->stop && *k->stop)
+        return RU_ESTOPPED;
     if (k->csv && (st = ru_csv_sample(k->csv, t_s, x, n)) != RU_OK)
         return st;
     double v = ru_system_node_voltage(k->sys, k->probe_pos, t_s, x) -
@@ -240,7 +242,8 @@ static ru_status run_transient(const ru_circuit *c, const ru_system *sys,
     const ru_run_opts *ro = ru_circuit_run_opts_const(c);
     size_t n = ru_system_size(sys);
     ru_status st = RU_OK;
-    ru_run_sink k = {.sys = sys, .probe_pos = probe_pos, .probe_neg = probe_neg};
+    ru_run_sink k = {.sys = sys, .probe_pos = probe_pos, .probe_neg = probe_neg,
+                     .stop = rq->stop};
     double *x0 = calloc(n ? n : 1, sizeof *x0);
     k.x_last = calloc(n ? n : 1, sizeof *k.x_last);
     k.mark.x = calloc(n ? n : 1, sizeof *k.mark.x);

@@ -89,6 +89,7 @@ typedef struct ru_run_sink {
     double *x_last;         /* the state at the last sample (n entries) */
     int have_last;
     ru_state_mark mark;     /* the state at the settled window's start */
+    const volatile sig_atomic_t *stop; /* the request's stop flag, or NULL */
 } ru_run_sink;
 
 /* One sample to every sink of k (an ru_sample_fn). */

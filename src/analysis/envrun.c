@@ -148,6 +148,8 @@ static ru_status env_cycle(void *user, const ru_envf_cycle *cy)
 {
     env_sink *e = user;
     ru_status st = RU_OK;
+    if (e->k->stop && *e->k->stop)
+        return RU_ESTOPPED;
     if (e->rows) {
         double v[5] = {cy->t_s, cy->amplitude_v, 1.0 / cy->period_s, cy->dc_v,
                        cy->kind == RU_ENVF_POINT ? 1.0 : 0.0};
@@ -170,6 +172,8 @@ static ru_status env_sample(void *user, double t, const double *x, size_t n, int
     env_sink *e = user;
     ru_run_sink *k = e->k;
     ru_status st = RU_OK;
+    if (k->stop && *k->stop)
+        return RU_ESTOPPED;
     if (k->csv && (st = ru_csv_sample(k->csv, t, x, n)) != RU_OK)
         return st;
     double v = ru_system_node_voltage(k->sys, k->probe_pos, t, x) -

@@ -1,21 +1,24 @@
 /* montecarlo.c: Monte Carlo over part tolerances (see ringup/montecarlo.h).
  *
  * Invariants: a deviation is a pure function of (seed, sample, part index), so the
- * draws never depend on threads or chunking; units are run by ru_batch_run in
- * chunks, each chunk's circuits and reports freed before the next, so memory grows
- * only with the compact per-unit records; the result owns everything it returns. */
+ * draws never depend on threads or scheduling; each unit is built, run and
+ * freed inside ru_mc_unit_record, which returns only its record (one JSON line,
+ * ringup/units.h), and a result is made of records alone (ru_mc_result_add), so
+ * memory grows only with the compact per-unit figures, and a study run here, in
+ * shards or on MPI ranks gives the same result; the result owns what it returns. */
 #include "ringup/montecarlo.h"
 
 #include "base/hash.h"
 
+#include "batch/jsonl.h"
 #include "ringup/batch.h"
+#include "ringup/units.h"
 
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 
-#define CHUNK_PER_THREAD 8 /* units per thread in one ru_batch_run call */
 #define NORMAL_TRIES 64    /* rejection tries (one fails with p 0.0027) */
 
 struct ru_mc_result {
@@ -28,6 +31,8 @@ struct ru_mc_result {
     int *tol_part;           /* their part indices */
     double *values;          /* samples x ntol drawn values (part's unit) */
     ru_mc_unit *units;       /* samples records */
+    unsigned char *have;     /* samples flags: 1 when the unit's record is in */
+    size_t done;             /* records in */
     ru_mc_stats stats[RU_MC_NFIG]; /* over started units */
 };
 
@@ -163,6 +168,7 @@ void ru_mc_result_destroy(ru_mc_result *r)
     free(r->tol_part);
     free(r->values);
     free(r->units);
+    free(r->have);
     free(r);
 }
 
@@ -176,6 +182,7 @@ static ru_status result_new(const ru_circuit *c, size_t samples, ru_mc_result **
         r->tol_name = calloc(np ? np : 1, sizeof *r->tol_name);
         r->tol_part = calloc(np ? np : 1, sizeof *r->tol_part);
         r->units = calloc(samples, sizeof *r->units);
+        r->have = calloc(samples, 1);
     }
     for (size_t i = 0; r && r->tol_name && r->tol_part && i < np; i++) {
         const ru_part *p = ru_circuit_part(c, i);
@@ -186,84 +193,152 @@ static ru_status result_new(const ru_circuit *c, size_t samples, ru_mc_result **
     }
     if (r && r->ntol)
         r->values = calloc(samples * r->ntol, sizeof *r->values);
-    if (!r || !r->tol_name || !r->tol_part || !r->units || (r->ntol && !r->values)) {
+    if (!r || !r->tol_name || !r->tol_part || !r->units || !r->have ||
+        (r->ntol && !r->values)) {
         ru_mc_result_destroy(r);
         return RU_ENOMEM;
     }
+    for (size_t i = 0; i < samples; i++)
+        r->units[i].index = i;
     *out = r;
     return RU_OK;
 }
 
-/* The compact record of a finished batch item. */
-static void keep_unit(ru_mc_result *r, size_t index, const ru_batch_item *it)
+/* The record of a finished unit: its figures (or error) and drawn values. */
+static ru_status unit_record(size_t index, const ru_batch_item *it, const ru_circuit *cv,
+                             const ru_circuit *c, char **line)
 {
-    ru_mc_unit *u = &r->units[index];
-    u->index = index;
-    u->status = it->status;
-    for (int f = 0; f < RU_MC_NFIG; f++)
-        u->fig[f] = NAN;
-    u->predicted_growth_per_s = it->report.pred.have_poles
-                                    ? it->report.pred.growth_rate_per_s : NAN;
-    u->verdict = it->status == RU_OK ? it->report.verdict : RU_VERDICT_UNDECIDED;
+    jl_buf b;
+    jl_init(&b);
+    jl_int(&b, "unit", (long long)index);
+    jl_str(&b, "status", ru_status_str(it->status));
     if (it->status != RU_OK) {
-        ru_error_format(&it->error, u->error, sizeof u->error);
-        r->failed++;
-        return;
+        char msg[256];
+        ru_error_format(&it->error, msg, sizeof msg);
+        jl_str(&b, "error", msg);
     }
     const ru_measure_result *m = &it->report.meas;
-    u->started = m->started != 0;
-    u->settled = m->settled != 0;
-    r->started += (size_t)u->started;
-    r->settled += (size_t)(u->started && u->settled);
+    int ok = it->status == RU_OK;
+    jl_str(&b, "verdict", ru_verdict_name(ok ? it->report.verdict : RU_VERDICT_UNDECIDED));
+    jl_bool(&b, "started", ok && m->started);
+    jl_bool(&b, "settled", ok && m->settled);
     double fig[RU_MC_NFIG] = {m->startup_time_s, m->growth_rate_per_s, m->frequency_hz,
                               m->settled_amplitude_v, m->thd_percent};
-    memcpy(u->fig, fig, sizeof fig);
-}
-
-/* Prepares units [first, first + n) into items (a unit that cannot be built
- * keeps its error in its item). */
-static void prepare_chunk(const ru_circuit *c, const ru_mc_opts *o, ru_mc_result *r,
-                          size_t first, size_t n, ru_batch_item *items, ru_circuit **cv)
-{
-    for (size_t j = 0; j < n; j++) {
-        size_t idx = first + j;
-        memset(&items[j], 0, sizeof items[j]);
-        items[j].request = o->request;
-        items[j].status = ru_mc_sample_circuit(c, o->seed, idx, o->dist, &cv[j],
-                                               &items[j].error);
-        items[j].circuit = cv[j];
-        for (size_t k = 0; k < r->ntol; k++)
-            r->values[idx * r->ntol + k] =
-                cv[j] ? ru_circuit_part(cv[j], (size_t)r->tol_part[k])->value : NAN;
+    for (int f = 0; f < RU_MC_NFIG; f++)
+        jl_num(&b, ru_mc_figure_key((ru_mc_figure)f), ok ? fig[f] : NAN);
+    jl_num(&b, "predicted_growth_rate_per_s",
+           it->report.pred.have_poles ? it->report.pred.growth_rate_per_s : NAN);
+    jl_open(&b, "values", '{');
+    for (size_t i = 0; i < ru_circuit_part_count(c); i++) {
+        const ru_part *p = ru_circuit_part(c, i);
+        if (value_drawn(p))
+            jl_num(&b, p->name, cv ? ru_circuit_part(cv, i)->value : NAN);
     }
+    jl_close(&b, '}');
+    return jl_finish(&b, line);
 }
 
-/* Runs the built items of a chunk (compacted so failed builds are skipped). */
-static void run_chunk(ru_batch_item *items, size_t n, ru_batch_item *tmp, int threads)
+ru_status ru_mc_unit_record(const ru_circuit *c, const ru_mc_opts *o, size_t i,
+                            char **line, ru_error *err)
 {
-    size_t m = 0;
-    for (size_t j = 0; j < n; j++)
-        if (items[j].circuit)
-            tmp[m++] = items[j];
-    ru_batch_run(tmp, m, threads);
-    m = 0;
-    for (size_t j = 0; j < n; j++)
-        if (items[j].circuit)
-            items[j] = tmp[m++];
+    *line = NULL;
+    ru_batch_item it;
+    memset(&it, 0, sizeof it);
+    it.request = o->request;
+    ru_circuit *cv = NULL;
+    it.status = ru_mc_sample_circuit(c, o->seed, i, o->dist, &cv, &it.error);
+    if (cv) {
+        it.circuit = cv;
+        ru_batch_run(&it, 1, 1);
+    }
+    ru_status s = RU_OK;
+    if (it.status == RU_ESTOPPED)
+        s = RU_ESTOPPED;
+    else if (unit_record(i, &it, cv, c, line) != RU_OK)
+        s = ru_error_set(err, RU_ENOMEM, NULL, 0, 0, "Monte Carlo: out of memory");
+    ru_circuit_destroy(cv);
+    return s;
 }
 
-static void finish_stats(ru_mc_result *r)
+static ru_status bad_record(ru_error *err, const char *what)
 {
-    double *x = malloc(r->samples * sizeof *x);
+    return ru_error_set(err, RU_EINPUT, NULL, 0, 0, "not a Monte Carlo record of this "
+                        "study: %s", what);
+}
+
+static ru_status read_unit(ru_mc_result *r, const jv *v, ru_error *err)
+{
+    double idx = jv_num(jv_get(v, "unit"), NAN);
+    const char *st = jv_str(jv_get(v, "status")), *e = jv_str(jv_get(v, "error"));
+    const jv *values = jv_get(v, "values"), *started = jv_get(v, "started");
+    const jv *settled = jv_get(v, "settled");
+    const char *vd = jv_str(jv_get(v, "verdict"));
+    if (!(idx >= 0 && idx == floor(idx)) || !st || !started || started->type != JV_BOOL ||
+        !settled || settled->type != JV_BOOL || !vd || !values || values->type != JV_OBJ)
+        return bad_record(err, "unit, status, verdict, started, settled or values missing");
+    if (idx >= (double)r->samples)
+        return ru_error_set(err, RU_EINPUT, NULL, 0, 0, "unit %.0f is beyond the %zu units "
+                            "of this study", idx, r->samples);
+    size_t i = (size_t)idx;
+    if (r->have[i])
+        return ru_error_set(err, RU_EINPUT, NULL, 0, 0, "unit %zu is there twice", i);
+    ru_mc_unit *u = &r->units[i];
+    u->status = RU_STATUS_COUNT;
+    for (int s = 0; s < RU_STATUS_COUNT; s++)
+        if (!strcmp(st, ru_status_str((ru_status)s)))
+            u->status = (ru_status)s;
+    if (u->status == RU_STATUS_COUNT || (u->status != RU_OK && !e) || values->n != r->ntol)
+        return bad_record(err, "bad status, error or values");
+    snprintf(u->error, sizeof u->error, "%s", u->status != RU_OK ? e : "");
+    int known = 0;
+    for (int k = RU_VERDICT_STARTED; k <= RU_VERDICT_DRIVEN && !known; k++)
+        if (!strcmp(vd, ru_verdict_name((ru_verdict)k))) {
+            u->verdict = (ru_verdict)k;
+            known = 1;
+        }
+    if (!known)
+        return bad_record(err, "unknown verdict");
+    u->started = started->num != 0;
+    u->settled = settled->num != 0;
+    for (int f = 0; f < RU_MC_NFIG; f++)
+        u->fig[f] = jv_num(jv_get(v, ru_mc_figure_key((ru_mc_figure)f)), NAN);
+    u->predicted_growth_per_s = jv_num(jv_get(v, "predicted_growth_rate_per_s"), NAN);
+    for (size_t k = 0; k < r->ntol; k++) {
+        if (strcmp(values->key[k], r->tol_name[k]) != 0)
+            return bad_record(err, "its drawn values name other parts");
+        r->values[i * r->ntol + k] = jv_num(&values->item[k], NAN);
+    }
+    r->have[i] = 1;
+    r->done++;
+    r->started += (size_t)u->started;
+    r->settled += (size_t)(u->started && u->settled);
+    r->failed += u->status != RU_OK;
+    return RU_OK;
+}
+
+ru_status ru_mc_result_add(ru_mc_result *r, const char *line, ru_error *err)
+{
+    jv *v = NULL;
+    char why[128];
+    if (jv_parse(line, strlen(line), &v, why, sizeof why) != RU_OK)
+        return ru_error_set(err, RU_EINPUT, NULL, 0, 0, "not a JSON line: %s", why);
+    ru_status s = read_unit(r, v, err);
+    jv_free(v);
+    return s;
+}
+
+void ru_mc_result_finish(ru_mc_result *r)
+{
+    double *x = malloc((r->samples ? r->samples : 1) * sizeof *x);
     for (int f = 0; f < RU_MC_NFIG; f++) {
         for (size_t i = 0; x && i < r->samples; i++)
-            x[i] = r->units[i].started ? r->units[i].fig[f] : NAN;
+            x[i] = r->have[i] && r->units[i].started ? r->units[i].fig[f] : NAN;
         ru_mc_stats_of(x, x ? r->samples : 0, &r->stats[f]);
     }
     free(x);
 }
 
-static ru_status check_opts(const ru_circuit *c, const ru_mc_opts *o, ru_error *err)
+ru_status ru_mc_check(const ru_circuit *c, const ru_mc_opts *o, ru_error *err)
 {
     if (o->samples < 1 || o->samples > RU_MC_MAX_SAMPLES)
         return ru_error_set(err, RU_ERANGE, NULL, 0, 0,
@@ -284,43 +359,57 @@ static ru_status check_opts(const ru_circuit *c, const ru_mc_opts *o, ru_error *
                         "esr-tol: 20%%)");
 }
 
-ru_status ru_mc_run(const ru_circuit *c, const ru_mc_opts *o, ru_mc_result **out,
-                    ru_error *err)
+ru_status ru_mc_result_create(const ru_circuit *c, const ru_mc_opts *o, ru_mc_result **out,
+                              ru_error *err)
 {
     *out = NULL;
-    ru_status s = check_opts(c, o, err);
-    if (s != RU_OK)
-        return s;
-    ru_mc_result *r = NULL;
-    int threads = o->threads > 0 ? o->threads : ru_batch_cpu_count();
-    size_t chunk = (size_t)threads * CHUNK_PER_THREAD;
-    ru_batch_item *items = calloc(chunk, sizeof *items), *tmp = calloc(chunk, sizeof *tmp);
-    ru_circuit **cv = calloc(chunk, sizeof *cv);
-    if (!items || !tmp || !cv || result_new(c, o->samples, &r) != RU_OK)
+    ru_status s = ru_mc_check(c, o, err);
+    if (s == RU_OK && result_new(c, o->samples, out) != RU_OK)
         s = ru_error_set(err, RU_ENOMEM, NULL, 0, 0, "Monte Carlo: out of memory");
-    for (size_t first = 0; s == RU_OK && first < o->samples; first += chunk) {
-        size_t n = o->samples - first < chunk ? o->samples - first : chunk;
-        prepare_chunk(c, o, r, first, n, items, cv);
-        run_chunk(items, n, tmp, threads);
-        for (size_t j = 0; j < n; j++) {
-            keep_unit(r, first + j, &items[j]);
-            ru_circuit_destroy(cv[j]);
-            cv[j] = NULL;
-        }
-    }
-    if (s == RU_OK) {
-        finish_stats(r);
-        *out = r;
-    } else {
-        ru_mc_result_destroy(r);
-    }
-    free(items);
-    free(tmp);
-    free(cv);
     return s;
 }
 
+typedef struct mc_job {
+    const ru_circuit *c;
+    const ru_mc_opts *o;
+    ru_mc_result *r;
+} mc_job;
+
+static ru_status job_run(void *ctx, size_t i, char **line, ru_error *err)
+{
+    mc_job *j = ctx;
+    return ru_mc_unit_record(j->c, j->o, i, line, err);
+}
+
+static ru_status job_accept(void *ctx, size_t i, const char *line, ru_error *err)
+{
+    (void)i;
+    mc_job *j = ctx;
+    return ru_mc_result_add(j->r, line, err);
+}
+
+ru_status ru_mc_run(const ru_circuit *c, const ru_mc_opts *o, ru_mc_result **out,
+                    ru_error *err)
+{
+    mc_job j = {.c = c, .o = o};
+    ru_status s = ru_mc_result_create(c, o, &j.r, err);
+    if (s != RU_OK)
+        return s;
+    ru_units_job job = {.count = o->samples, .threads = o->threads, .stop = o->request.stop,
+                        .run = job_run, .accept = job_accept, .ctx = &j};
+    s = ru_units_run(&job, NULL, err);
+    if (s != RU_OK) {
+        ru_mc_result_destroy(j.r);
+        return s;
+    }
+    ru_mc_result_finish(j.r);
+    *out = j.r;
+    return RU_OK;
+}
+
 size_t ru_mc_sample_count(const ru_mc_result *r) { return r->samples; }
+size_t ru_mc_done_count(const ru_mc_result *r) { return r->done; }
+int ru_mc_unit_done(const ru_mc_result *r, size_t i) { return i < r->samples && r->have[i]; }
 size_t ru_mc_started_count(const ru_mc_result *r) { return r->started; }
 size_t ru_mc_settled_count(const ru_mc_result *r) { return r->settled; }
 size_t ru_mc_failed_count(const ru_mc_result *r) { return r->failed; }

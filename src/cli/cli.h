@@ -7,7 +7,9 @@
 #include "ringup/circuit.h"
 #include "ringup/json.h"
 #include "ringup/status.h"
+#include "ringup/units.h"
 
+#include <signal.h>
 #include <stdio.h>
 
 typedef struct cli_command {
@@ -27,6 +29,7 @@ int cmd_montecarlo(int argc, char **argv);
 int cmd_steady(int argc, char **argv);
 int cmd_margin(int argc, char **argv);
 int cmd_jitter(int argc, char **argv);
+int cmd_merge(int argc, char **argv);
 
 /* One option of a command: "--name VALUE" (or --name=VALUE) or a flag. */
 typedef struct cli_opt {
@@ -193,5 +196,119 @@ void cli_json_item(ru_json *j, const struct ru_batch_item *it);
 
 /* Creates folder dir (and parents) if missing; returns 0 or exit status 3. */
 int cli_make_dir(const char *dir);
+
+/* ---- batch studies (study.c, progress.c, mpi.c): montecarlo, sweep, corners ----
+ * A study is numbered units whose records are JSON lines (ringup/units.h). These
+ * pieces give every study command the same --out DIR (records streamed to
+ * DIR/units.jsonl), --resume DIR, --shard K/N, --threads, a clean stop on SIGINT
+ * or SIGTERM, the progress bar, `ringup merge` and MPI ranks. */
+
+#define CLI_STUDY_OPTS                                                                  \
+    {"out", "DIR", "stream every finished unit to DIR/units.jsonl", NULL},              \
+        {"resume", "DIR", "continue the study stopped in DIR (file and options from "    \
+                          "DIR/units.jsonl)", NULL},                                      \
+        {"shard", "K/N", "run only shard K of N (units i with i mod N = K-1) into "      \
+                         "--out DIR; combine shards with ringup merge", NULL},           \
+        {"threads", "N", "parallel runs (default: one per processor; 1 per MPI rank)",   \
+         NULL}
+
+/* What `--resume DIR` or `ringup merge` hands a study command: the command line
+ * rebuilt from the log header, the records already there, the open log. */
+typedef struct cli_pre {
+    int mode;               /* CLI_FRESH, CLI_RESUME or CLI_MERGE */
+    int argc;               /* the rebuilt command line (owned) */
+    char **argv;
+    ru_unitlog_header header; /* resume and merge: the study's header */
+    ru_unitlog *log;        /* resume: the log, open and locked */
+    char dir[4096];         /* resume: DIR */
+    size_t nlines;          /* records read (owned) */
+    char **lines;
+    int mpi_rank, mpi_size; /* MPI: this rank and the ranks (1: no MPI) */
+} cli_pre;
+
+enum { CLI_FRESH, CLI_RESUME, CLI_MERGE };
+
+/* A study command's own part, called by cli_study_main and by merge. */
+typedef int (*cli_study_fn)(int argc, char **argv, cli_pre *pre);
+
+/* The front of a study command: under mpirun, starts MPI; with --resume DIR, opens
+ * the log (rank 0) and rebuilds the command line from its header (only --threads,
+ * --json, --plots, --plot-format and --report may be given beside it); then calls
+ * fn and closes MPI. Returns fn's exit status. */
+int cli_study_main(int argc, char **argv, cli_study_fn fn);
+
+void cli_pre_free(cli_pre *pre);
+
+/* One study run, set up by the command. */
+typedef struct cli_study {
+    /* in: the study */
+    const char *command;     /* "montecarlo" */
+    const char *file;        /* the circuit file (its bytes are hashed) */
+    size_t count;            /* units */
+    int nargs;               /* the arguments that define it (FILE first; owned) */
+    char *args[RU_UNITLOG_ARGS];
+    int json;                /* --json: no progress bar */
+    /* in: the command's callbacks (run: thread-safe; add: one at a time) */
+    ru_status (*run)(void *ctx, size_t i, char **line, ru_error *err);
+    ru_status (*add)(void *ctx, const char *line, int *failed, ru_error *err);
+    void *ctx;
+    /* in: the study options (cli_study_options fills them) */
+    const char *out_dir;     /* --out DIR, or NULL */
+    unsigned shard_k, shard_n; /* --shard K/N (1/1: all) */
+    int threads;             /* --threads (0: default) */
+    cli_pre *pre;
+    /* out */
+    int worker;              /* 1: an MPI rank other than 0 (prints nothing) */
+    size_t done;             /* records in, before and now */
+    size_t failed;           /* of them, failed runs */
+    size_t todo;             /* units of this run's shard */
+    int stop_signal;         /* the signal that stopped it, or 0 */
+    const volatile sig_atomic_t *stop; /* the stop flag for run requests */
+} cli_study;
+
+/* Reads --out, --shard, --threads into s (and checks --resume against them);
+ * returns 0 or 1 after a message. */
+int cli_study_options(const cli_opt *opts, cli_study *s);
+
+/* Adds one argument (a copy) to s->args; 0 when there is no room or memory. */
+int cli_study_add_arg(cli_study *s, const char *arg);
+
+/* Adds "--name=value" (or "--name") of every named option that was given. */
+int cli_study_add_args(cli_study *s, const cli_opt *opts, const char *const *names);
+
+/* Frees s->args. */
+void cli_study_free(cli_study *s);
+
+/* The stop flag a command puts into its run requests before cli_study_run. */
+const volatile sig_atomic_t *cli_study_stop_flag(void);
+
+/* Runs what is left of the study (records from pre first): the log, signals,
+ * progress bar, MPI. Returns 0 or an exit status after a message. */
+int cli_study_run(cli_study *s);
+
+/* After the report: prints how a stopped run can go on, and gives the exit
+ * status (128 + signal when stopped, 2 when every unit in failed, else 0). */
+int cli_study_finish(const cli_study *s);
+
+/* A shard's short summary instead of a report (text or JSON). */
+void cli_study_shard_summary(const cli_study *s);
+
+/* The progress bar on the terminal (progress.c). */
+typedef struct cli_progress cli_progress;
+cli_progress *cli_progress_start(size_t total, size_t already);
+void cli_progress_update(cli_progress *p, size_t done, size_t failed);
+void cli_progress_end(cli_progress *p);
+
+/* MPI (mpi.c; without MPI in the build, size 1 and nothing to do). */
+int cli_mpi_start(int *rank, int *size);        /* 0, or an exit status */
+void cli_mpi_end(void);
+int cli_mpi_all_ok(int ok);                     /* 1 when every rank says ok */
+int cli_mpi_bcast_argv(int *argc, char ***argv, int *rc); /* rank 0's to all */
+void cli_mpi_serve(void *unused, ru_units *u);  /* rank 0: hands units to ranks */
+int cli_mpi_work(cli_study *s);                 /* other ranks: run handed units */
+
+/* Study commands' own parts, for merge. */
+int cli_montecarlo_study(int argc, char **argv, cli_pre *pre);
+int cli_sweep_study(int argc, char **argv, cli_pre *pre);
 
 #endif

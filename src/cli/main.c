@@ -17,6 +17,8 @@ static const cli_command commands[] = {
     {"sweep", "one part value over a range, in parallel: one row per value", cmd_sweep},
     {"montecarlo", "part values drawn within their tolerances: does every unit start?",
      cmd_montecarlo},
+    {"merge", "the report of a study run in shards (--shard K/N): exactly one run's",
+     cmd_merge},
     {"models", "list the amplifier and part presets", cmd_models},
     {"steady", "the periodic steady state: exact settled tone, Floquet multipliers",
      cmd_steady},

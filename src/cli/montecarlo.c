@@ -79,7 +79,8 @@ static void print_not_started(const ru_mc_result *r, const ru_circuit *c, int fa
     size_t shown = 0;
     for (size_t i = 0; i < ru_mc_sample_count(r); i++) {
         const ru_mc_unit *u = ru_mc_get_unit(r, i);
-        if (u->started || (u->status != RU_OK) != failed || shown++ >= NOSTART_SHOWN)
+        if (!ru_mc_unit_done(r, i) || u->started || (u->status != RU_OK) != failed ||
+            shown++ >= NOSTART_SHOWN)
             continue;
         if (shown == 1)
             printf(failed ? "\nruns that failed (not counted as started):\n"
@@ -92,13 +93,19 @@ static void print_not_started(const ru_mc_result *r, const ru_circuit *c, int fa
 
 static void print_table(const ru_circuit *c, const ru_mc_opts *o, const ru_mc_result *r)
 {
-    size_t n = ru_mc_sample_count(r), k = ru_mc_started_count(r);
-    printf("%s: %s\nMonte Carlo: %zu units (unit 0 nominal), seed %llu, %s\n",
-           ru_circuit_file(c), ru_circuit_title(c), n, (unsigned long long)o->seed,
+    size_t n = ru_mc_done_count(r), k = ru_mc_started_count(r);
+    char units[64];
+    if (n == ru_mc_sample_count(r))
+        snprintf(units, sizeof units, "%zu units", n);
+    else
+        snprintf(units, sizeof units, "%zu of %zu units done", n, ru_mc_sample_count(r));
+    printf("%s: %s\nMonte Carlo: %s (unit 0 nominal), seed %llu, %s\n",
+           ru_circuit_file(c), ru_circuit_title(c), units, (unsigned long long)o->seed,
            o->dist == RU_MC_NORMAL ? "normal deviations, sigma = tol/3, truncated at +-tol"
                                    : "uniform deviations within +-tol");
-    printf("\nstarts on every unit: %s (%zu of %zu started, %zu of them settled", k == n ? "yes" : "no",
-           k, n, ru_mc_settled_count(r));
+    printf("\nstarts on every unit%s: %s (%zu of %zu started, %zu of them settled",
+           n == ru_mc_sample_count(r) ? "" : " done", k == n ? "yes" : "no", k, n,
+           ru_mc_settled_count(r));
     if (ru_mc_failed_count(r))
         printf(", %zu runs failed", ru_mc_failed_count(r));
     printf(")\n");
@@ -156,16 +163,18 @@ static void print_json(const ru_mc_opts *o, const ru_mc_result *r)
     ru_json_init(&j, stdout, 1);
     ru_json_begin_object(&j, NULL);
     ru_json_int(&j, "samples", (long)ru_mc_sample_count(r));
+    ru_json_int(&j, "units_done", (long)ru_mc_done_count(r));
     ru_json_number(&j, "seed", (double)o->seed);
     ru_json_string(&j, "distribution", o->dist == RU_MC_NORMAL ? "normal" : "uniform");
     ru_json_int(&j, "started_count", (long)ru_mc_started_count(r));
     ru_json_int(&j, "settled_count", (long)ru_mc_settled_count(r));
     ru_json_int(&j, "failed_count", (long)ru_mc_failed_count(r));
-    ru_json_bool(&j, "all_started", ru_mc_started_count(r) == ru_mc_sample_count(r));
+    ru_json_bool(&j, "all_started", ru_mc_started_count(r) == ru_mc_done_count(r));
     json_stats(&j, r);
     ru_json_begin_array(&j, "units");
     for (size_t i = 0; i < ru_mc_sample_count(r); i++)
-        json_unit(&j, r, i);
+        if (ru_mc_unit_done(r, i))
+            json_unit(&j, r, i);
     ru_json_end_array(&j);
     ru_json_end_object(&j);
     ru_json_finish(&j);
@@ -181,14 +190,15 @@ static int plot_units(const cli_plot_req *pr, const ru_circuit *c, const ru_mc_o
 {
     if (!pr->dir && !pr->report)
         return 0;
-    size_t pick[PLOT_UNITS], n = 1;
-    pick[0] = 0;
+    size_t pick[PLOT_UNITS], n = 0;
+    if (ru_mc_unit_done(r, 0))
+        pick[n++] = 0;
     size_t late[PLOT_UNITS / 2], nl = ru_mc_latest(r, late, PLOT_UNITS / 2);
     for (size_t i = 0; i < nl; i++)
         if (late[i] != 0)
             pick[n++] = late[i];
     for (size_t i = 1; i < ru_mc_sample_count(r) && n < PLOT_UNITS; i++)
-        if (!ru_mc_get_unit(r, i)->started)
+        if (ru_mc_unit_done(r, i) && !ru_mc_get_unit(r, i)->started)
             pick[n++] = i;
     ru_batch_item items[PLOT_UNITS];
     ru_circuit *cv[PLOT_UNITS] = {0};
@@ -235,7 +245,7 @@ static int plot_units(const cli_plot_req *pr, const ru_circuit *c, const ru_mc_o
     return rc;
 }
 
-/* --samples, --seed, --distribution, --stop, --accuracy, --threads into o. */
+/* --samples, --seed, --distribution, --stop, --accuracy into o. */
 static int read_opts(const cli_opt *opts, ru_mc_opts *o)
 {
     ru_mc_opts_default(o);
@@ -243,7 +253,7 @@ static int read_opts(const cli_opt *opts, ru_mc_opts *o)
     if (!cli_int(opts, "samples", 1, RU_MC_MAX_SAMPLES, &samples) ||
         !cli_int(opts, "seed", 0, 9007199254740992ULL, &seed) ||
         !cli_int(opts, "threads", 1, RU_CLI_THREADS_MAX, &threads) ||
-        !cli_positive(opts, "stop", "s", &o->request.stop_s))
+        !cli_stop(opts, &o->request))
         return 1;
     const char *dist = cli_get(opts, "distribution");
     if (dist && strcmp(dist, "uniform") && strcmp(dist, "normal")) {
@@ -253,11 +263,51 @@ static int read_opts(const cli_opt *opts, ru_mc_opts *o)
     o->dist = dist && !strcmp(dist, "normal") ? RU_MC_NORMAL : RU_MC_UNIFORM;
     o->samples = (size_t)samples;
     o->seed = (uint64_t)seed;
-    o->threads = (int)threads;
     return cli_accuracy(opts, &o->request.accuracy);
 }
 
-int cmd_montecarlo(int argc, char **argv)
+/* The options that define a study (kept in the log's header for --resume). */
+static const char *const study_names[] = {"samples", "seed", "distribution", "stop",
+                                          "accuracy", "shard", NULL};
+
+typedef struct mc_ctx {
+    const ru_circuit *c;
+    ru_mc_opts o;
+    ru_mc_result *r;
+} mc_ctx;
+
+static ru_status mc_run(void *ctx, size_t i, char **line, ru_error *err)
+{
+    mc_ctx *m = ctx;
+    return ru_mc_unit_record(m->c, &m->o, i, line, err);
+}
+
+static ru_status mc_add(void *ctx, const char *line, int *failed, ru_error *err)
+{
+    mc_ctx *m = ctx;
+    size_t before = ru_mc_failed_count(m->r);
+    ru_status st = ru_mc_result_add(m->r, line, err);
+    *failed = ru_mc_failed_count(m->r) > before;
+    return st;
+}
+
+/* The report of the units in: table or JSON, then the pictures. */
+static int report(const cli_plot_req *plots, mc_ctx *m, int json)
+{
+    ru_mc_result_finish(m->r);
+    if (json)
+        print_json(&m->o, m->r);
+    cli_capture cap; /* the text for the report, on the terminal unless --json */
+    cli_capture_begin(&cap, plots->report != NULL, !json);
+    if (cli_capture_printing(&cap))
+        print_table(m->c, &m->o, m->r);
+    char *text = cli_capture_end(&cap);
+    int rc = plot_units(plots, m->c, &m->o, m->r, text);
+    free(text);
+    return rc;
+}
+
+int cli_montecarlo_study(int argc, char **argv, cli_pre *pre)
 {
     cli_opt opts[] = {{"samples", "N", "units to simulate (unit 0 is nominal; default 100)", NULL},
                       {"seed", "S", "seed of the draws (default 1)", NULL},
@@ -265,7 +315,7 @@ int cmd_montecarlo(int argc, char **argv)
                                             "truncated at tol)", NULL},
                       {"stop", "T", "run length, or auto (default: the file's)", NULL},
                       {"accuracy", "LEVEL", "draft, normal or precise", NULL},
-                      {"threads", "N", "parallel runs (default: one per processor)", NULL},
+                      CLI_STUDY_OPTS,
                       {"json", NULL, "print JSON on stdout (keys in README)", NULL},
                       CLI_PLOT_OPTS,
                       {NULL, NULL, NULL, NULL}};
@@ -275,35 +325,48 @@ int cmd_montecarlo(int argc, char **argv)
                        "in parallel,\nand says whether the oscillator starts on every unit, "
                        "how start-up time,\ngrowth rate, frequency, settled amplitude and "
                        "THD spread, and which units\nstart last or not at all, with the "
-                       "values drawn for them.",
+                       "values drawn for them. Ctrl-C stops it\nand prints the report of the "
+                       "units done; with --out DIR, --resume DIR goes on.",
                        opts, &file);
     if (rc >= 0)
         return rc;
-    ru_mc_opts o;
+    mc_ctx m = {0};
     cli_plot_req plots;
-    if ((rc = read_opts(opts, &o)) != 0 || (rc = cli_plot_check(opts, &plots)) != 0)
+    int json = cli_get(opts, "json") != NULL;
+    if ((rc = read_opts(opts, &m.o)) != 0 || (rc = cli_plot_check(opts, &plots)) != 0)
         return rc;
     ru_circuit *c = NULL;
-    if ((rc = cli_load(file, cli_get(opts, "json") != NULL, &c)) != 0)
+    if ((rc = cli_load(file, json || pre->mpi_rank > 0, &c)) != 0)
         return rc;
-    ru_mc_result *r = NULL;
+    m.c = c;
+    m.o.request.stop = cli_study_stop_flag();
+    cli_study s = {.command = "montecarlo", .file = file, .count = m.o.samples, .json = json,
+                   .run = mc_run, .add = mc_add, .ctx = &m, .pre = pre};
     ru_error err;
     ru_error_clear(&err);
-    if (ru_mc_run(c, &o, &r, &err) != RU_OK) {
+    if (ru_mc_result_create(c, &m.o, &m.r, &err) != RU_OK)
         rc = cli_fail(&err);
-    } else {
-        int json = cli_get(opts, "json") != NULL;
-        if (json)
-            print_json(&o, r);
-        cli_capture cap; /* the text for the report, on the terminal unless --json */
-        cli_capture_begin(&cap, plots.report != NULL, !json);
-        if (cli_capture_printing(&cap))
-            print_table(c, &o, r);
-        char *text = cli_capture_end(&cap);
-        rc = plot_units(&plots, c, &o, r, text);
-        free(text);
+    else if (!cli_study_add_arg(&s, file) || !cli_study_add_args(&s, opts, study_names))
+        rc = 2;
+    else
+        rc = cli_study_options(opts, &s);
+    if (rc == 0)
+        rc = cli_study_run(&s);
+    if (rc == 0 && !s.worker) {
+        if (s.shard_n > 1)
+            cli_study_shard_summary(&s);
+        else
+            rc = report(&plots, &m, json);
+        int fin = cli_study_finish(&s);
+        rc = fin ? fin : rc;
     }
-    ru_mc_result_destroy(r);
+    cli_study_free(&s);
+    ru_mc_result_destroy(m.r);
     ru_circuit_destroy(c);
     return rc;
+}
+
+int cmd_montecarlo(int argc, char **argv)
+{
+    return cli_study_main(argc, argv, cli_montecarlo_study);
 }
