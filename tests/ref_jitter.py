@@ -59,27 +59,65 @@ KB = 1.380649e-23  # Boltzmann's constant, exact in the 2019 SI
 STRAY_F = 1e-12
 TEMP_C = 27.0
 NGRID = 2048
-CASES = ((1.0, 1e-3, 1.0, 1.0, 0.02), (3.0, 1e-3, 10e-6, 1.0, 0.5))  # eps, L, C, R, rs
+# Our own values. "poly": van der Pol of parameter eps by a cubic conductance;
+# "amp": a follower-tanh amplifier feeding its own input node (in = out), whose
+# small-signal conductance (gain - 1)/rout is negative, offset by center so the
+# orbit is not odd-symmetric (the flicker upconversion of an odd-symmetric orbit
+# vanishes), with input noise en, inoise and a flicker corner fc.
+CASES = (
+    {"name": "eps 1", "L": 1e-3, "C": 1.0, "R": 1.0, "rs": 0.02, "eps": 1.0},
+    {"name": "eps 3", "L": 1e-3, "C": 10e-6, "R": 1.0, "rs": 0.5, "eps": 3.0},
+    {"name": "amplifier", "L": 10e-3, "C": 100e-9, "R": 1e3, "rs": 2.0,
+     "amp": {"gain": 1.3, "swing": 0.5, "center": 0.1, "rout": 100.0,
+             "en": 20e-9, "inoise": 2e-12, "fc": 1e3}},
+)
 
 
-def reference(eps, L, C0, R, rs):
-    """Period, total c and the per-source shares [R, L] of the tank (numpy/scipy)."""
+def model(case):
+    """f, its Jacobian and the noise sources [(part, kind, b(y), fc)] of a case."""
+    L, C0, R, rs = case["L"], case["C"], case["R"], case["rs"]
     C = C0 + STRAY_F
-    g1 = 1.0 / R + eps * math.sqrt(C0 / L)
-    g3 = g1 / 3.0
     kt = KB * (TEMP_C + 273.15)
+    if "eps" in case:
+        g1 = 1.0 / R + case["eps"] * math.sqrt(C0 / L)
+        g3 = g1 / 3.0
+
+        def i_act(v):  # current the active part pushes into v, and its d/dv
+            return g1 * v - g3 * v ** 3, g1 - 3.0 * g3 * v * v
+    else:
+        a = case["amp"]
+        gn, sw, cen, ro = a["gain"], a["swing"], a["center"], a["rout"]
+
+        def i_act(v):  # follower-tanh: i_out = (center + g sw tanh((vc-center)/sw) - vo)/rout
+            th = math.tanh((v - cen) / sw)
+            return ((cen + gn * sw * th - v) / ro, (gn * (1.0 - th * th) - 1.0) / ro)
 
     def f(y):
         v, il = y[0], y[1]
-        return np.array([(-il - v / R + g1 * v - g3 * v ** 3) / C, (v - rs * il) / L])
+        return np.array([(-il - v / R + i_act(v)[0]) / C, (v - rs * il) / L])
 
     def jac(y):
-        v = y[0]
-        return np.array([[(-1.0 / R + g1 - 3.0 * g3 * v * v) / C, -1.0 / C],
+        return np.array([[(-1.0 / R + i_act(y[0])[1]) / C, -1.0 / C],
                          [1.0 / L, -rs / L]])
 
-    w0 = 1.0 / math.sqrt(L * C)
-    t_guess = 2.0 * math.pi / w0 * (1.0 + 0.5 * eps * eps)
+    src = [("R1", "thermal", lambda y: np.array([math.sqrt(4 * kt / R) / C, 0.0]), 0.0),
+           ("L1", "thermal", lambda y: np.array([0.0, math.sqrt(4 * kt * rs) / L]), 0.0)]
+    if "amp" in case:
+        a = case["amp"]
+
+        def b_en(y):  # vc moves by en: i_out by its d/d vc = g (1 - th^2)/rout
+            th = math.tanh((y[0] - a["center"]) / a["swing"])
+            return np.array([a["en"] * a["gain"] * (1.0 - th * th) / a["rout"] / C, 0.0])
+        src.append(("A1", "input voltage", b_en, a["fc"]))
+        src.append(("A1", "input current",
+                    lambda y: np.array([a["inoise"] / C, 0.0]), a["fc"]))
+    return f, jac, src, 1.0 / math.sqrt(L * C)
+
+
+def reference(case):
+    """Period, c, c1, {(part, kind): c share} and the PPV's own check (numpy/scipy)."""
+    f, jac, sources, w0 = model(case)
+    t_guess = 2.0 * math.pi / w0 * (1.0 + 0.5 * case.get("eps", 1.0) ** 2)
     warm = solve_ivp(lambda t, y: f(y), (0.0, 60 * t_guess), [0.1, 0.0], method="DOP853",
                      rtol=1e-12, atol=1e-15)
 
@@ -109,63 +147,92 @@ def reference(eps, L, C0, R, rs):
     ts = np.linspace(period, 0.0, NGRID + 1)
     back = solve_ivp(adjoint, (period, 0.0), v, method="DOP853", rtol=1e-13, atol=1e-30,
                      t_eval=ts)
-    b_r = math.sqrt(4 * kt / R) / C
-    b_l = math.sqrt(4 * kt * rs) / L
     v1 = back.y[:, :-1]  # t = T down to T/NGRID: one full period
     xs = orbit.sol(ts[:-1])
     fx = np.array([f(xs[:, i]) for i in range(NGRID)]).T
     norm_err = float(np.max(abs(np.sum(v1 * fx, axis=0) - 1.0)))
-    proj_r, proj_l = v1[0] * b_r, v1[1] * b_l
-    c_r = 0.5 * np.mean(proj_r ** 2)  # trapezoid on a periodic grid = the mean
-    c_l = 0.5 * np.mean(proj_l ** 2)
-    return period, c_r + c_l, (c_r, c_l), norm_err
+    shares, c, c1 = {}, 0.0, 0.0
+    for part, kind, b, fc in sources:
+        proj = np.array([v1[:, i] @ b(xs[:, i]) for i in range(NGRID)])
+        ck = 0.5 * np.mean(proj ** 2)  # trapezoid on a periodic grid = the mean
+        shares[(part, kind)] = ck
+        c += ck
+        c1 += 0.5 * fc * np.mean(proj) ** 2
+    return period, c, c1, shares, norm_err
 
 
-def circuit(eps, L, C, R, rs, path):
-    g1 = 1.0 / R + eps * math.sqrt(C / L)
+def circuit(case, path):
+    L, C, R, rs = case["L"], case["C"], case["R"], case["rs"]
     with open(path, "w", encoding="utf-8") as fh:
-        fh.write("title: van der Pol tank, eps = %g\n" % eps)
+        fh.write("title: tank, %s\n" % case["name"])
         fh.write("parts:\n")
         fh.write("  L1: {type: inductor, nodes: [v, gnd], value: %r, series: %r}\n" % (L, rs))
         fh.write("  C1: {type: capacitor, nodes: [v, gnd], value: %r}\n" % C)
         fh.write("  R1: {type: resistor, nodes: [v, gnd], value: %r}\n" % R)
-        fh.write("  G1: {type: poly-conductance, nodes: [v, gnd], coeffs: [0, %r, 0, %r]}\n"
-                 % (-g1, g1 / 3.0))
+        if "eps" in case:
+            g1 = 1.0 / R + case["eps"] * math.sqrt(C / L)
+            fh.write("  G1: {type: poly-conductance, nodes: [v, gnd], coeffs: [0, %r, 0, %r]}\n"
+                     % (-g1, g1 / 3.0))
+        else:
+            a = case["amp"]
+            fh.write("  A1: {type: amplifier, in: v, out: v, law: follower-tanh, gain: %r, "
+                     "swing: %r, center: %r, rout: %r, en: %r, inoise: %r, fc: %r}\n"
+                     % (a["gain"], a["swing"], a["center"], a["rout"], a["en"],
+                        a["inoise"], a["fc"]))
         fh.write("measure: {probe: v}\n")
+
+
+def check(exe, tmp, case, bad):
+    name = case["name"]
+    path = os.path.join(tmp, "tank-%d.yaml" % len(bad))
+    circuit(case, path)
+    out = subprocess.run([exe, "jitter", path, "--json", "--temp", "%g" % TEMP_C],
+                         capture_output=True, text=True, check=False)
+    if out.returncode != 0:
+        bad.append("%s: exit %d: %s" % (name, out.returncode, out.stderr))
+        return
+    got = json.loads(out.stdout)
+    per, c_ref, c1_ref, shares, norm_err = reference(case)
+    gc, gp, gc1 = got["phase_diffusion_s"], got["period_s"], got["flicker_coefficient_s_hz"]
+    src = {(s["part"], s["kind"]): s["phase_diffusion_s"] for s in got["sources"]}
+    dc, dp = abs(gc - c_ref) / c_ref, abs(gp - per) / per
+    print("%s: c %.10g s (scipy %.10g, %.2g rel), period %.13g (scipy %.13g, %.2g rel), "
+          "reference's |v1.f - 1| %.2g" % (name, gc, c_ref, dc, gp, per, dp, norm_err))
+    if not dc <= 1e-6:
+        bad.append("%s: c off by %.3g relative" % (name, dc))
+    if set(src) != set(shares):
+        bad.append("%s: sources %s, expected %s" % (name, sorted(src), sorted(shares)))
+    for key, ck in shares.items():
+        d = abs(src.get(key, math.nan) - ck) / c_ref
+        print("  %s %s: %.10g (scipy %.10g)" % (key[0], key[1], src.get(key, math.nan), ck))
+        if not d <= 1e-6:
+            bad.append("%s: share of %s %s off by %.3g of c" % (name, key[0], key[1], d))
+    fcs = [s[3] for s in model(case)[2]]
+    if max(fcs) > 0:
+        # c1 is a squared mean, a difference of large parts: held to 1e-6 of fc c,
+        # the scale it would have if the projection had no alternating part
+        d1 = abs(gc1 - c1_ref) / (max(fcs) * c_ref)
+        print("  c1 %.10g s Hz (scipy %.10g), 1/f^3 corner %.6g Hz (scipy %.6g Hz)"
+              % (gc1, c1_ref, got["flicker_corner_hz"], c1_ref / c_ref))
+        if not (d1 <= 1e-6 and c1_ref > 1e-3 * max(fcs) * c_ref):
+            bad.append("%s: c1 %.10g, scipy %.10g" % (name, gc1, c1_ref))
+        if not abs(got["flicker_corner_hz"] - c1_ref / c_ref) <= 1e-6 * max(fcs):
+            bad.append("%s: flicker corner %r, scipy %r" % (name, got["flicker_corner_hz"],
+                                                           c1_ref / c_ref))
+    elif gc1 != 0:
+        bad.append("%s: c1 %r without a flicker source" % (name, gc1))
+    if not dp <= 1e-9:
+        bad.append("%s: period off by %.3g relative" % (name, dp))
+    if not norm_err <= 1e-8:
+        bad.append("%s: the reference's own PPV is off by %.3g" % (name, norm_err))
 
 
 def main():
     exe = sys.argv[1]
     bad = []
     with tempfile.TemporaryDirectory() as tmp:
-        for eps, L, C, R, rs in CASES:
-            path = os.path.join(tmp, "vdp-%g.yaml" % eps)
-            circuit(eps, L, C, R, rs, path)
-            out = subprocess.run([exe, "jitter", path, "--json", "--temp", "%g" % TEMP_C],
-                                 capture_output=True, text=True, check=False)
-            if out.returncode != 0:
-                bad.append("eps %g: exit %d: %s" % (eps, out.returncode, out.stderr))
-                continue
-            got = json.loads(out.stdout)
-            per, c_ref, shares, norm_err = reference(eps, L, C, R, rs)
-            gc, gp = got["phase_diffusion_s"], got["period_s"]
-            src = {s["part"]: s["phase_diffusion_s"] for s in got["sources"]}
-            dc, dp = abs(gc - c_ref) / c_ref, abs(gp - per) / per
-            dr = abs(src.get("R1", math.nan) - shares[0]) / c_ref
-            dl = abs(src.get("L1", math.nan) - shares[1]) / c_ref
-            print("eps %g: c %.10g s (scipy %.10g, %.2g rel), R1 %.10g (scipy %.10g), "
-                  "L1 %.10g (scipy %.10g), period %.13g (scipy %.13g, %.2g rel), "
-                  "reference's |v1.f - 1| %.2g"
-                  % (eps, gc, c_ref, dc, src.get("R1", math.nan), shares[0],
-                     src.get("L1", math.nan), shares[1], gp, per, dp, norm_err))
-            if not dc <= 1e-6:
-                bad.append("eps %g: c off by %.3g relative" % (eps, dc))
-            if not (dr <= 1e-6 and dl <= 1e-6):
-                bad.append("eps %g: shares off by %.3g, %.3g of c" % (eps, dr, dl))
-            if not dp <= 1e-9:
-                bad.append("eps %g: period off by %.3g relative" % (eps, dp))
-            if not norm_err <= 1e-8:
-                bad.append("eps %g: the reference's own PPV is off by %.3g" % (eps, norm_err))
+        for case in CASES:
+            check(exe, tmp, case, bad)
     for b in bad:
         print("FAIL:", b)
     return 1 if bad else 0

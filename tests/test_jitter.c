@@ -198,6 +198,121 @@ static void test_noise_densities(void **state)
     ru_circuit_destroy(c);
 }
 
+/* The amplifier's input noise keys: en, inoise and fc on every law (the descriptor's
+ * key table), 0 by default so a file without them has the noise it had; their
+ * sources and flicker corner; bad values at FILE:LINE:COL. */
+static void test_amp_noise_keys(void **state)
+{
+    (void)state;
+    const char *base = "parts:\n"
+                       "  L1: {type: inductor, nodes: [v, gnd], value: 10m}\n"
+                       "  C1: {type: capacitor, nodes: [v, gnd], value: 100n}\n"
+                       "  R1: {type: resistor, nodes: [v, gnd], value: 1k}\n"
+                       "  A1: {type: amplifier, in: v, out: v, law: %s, %s}\n";
+    const char *laws[] = {"follower-tanh", "opamp", "exp-stage", "diff-pair-tanh"};
+    char text[512];
+    for (size_t i = 0; i < sizeof laws / sizeof laws[0]; i++) {
+        for (int with = 0; with < 2; with++) {
+            snprintf(text, sizeof text, base, laws[i],
+                     with ? "en: 4nV/rtHz, inoise: 1pA/rtHz, fc: 2k" : "rout: 100");
+            ru_circuit *c = NULL;
+            ru_error err;
+            if (ru_circuit_load_string(text, "t.yaml", RU_MODELS_DIR, &c, &err) != RU_OK) {
+                /* a law may refuse in == out; the keys must not be the reason */
+                assert_null(strstr(err.msg, "en"));
+                continue;
+            }
+            ru_system *s = NULL;
+            assert_int_equal(ru_system_create(c, &s, &err), RU_OK);
+            size_t shot = strcmp(laws[i], "exp-stage") == 0; /* its own shot noise */
+            assert_int_equal(ru_system_noise_count(s), 1 + shot + (with ? 2 : 0));
+            if (with) {
+                ru_noise_info a, b;
+                assert_int_equal(ru_system_noise_info(s, 1 + shot, &a), RU_OK);
+                assert_int_equal(ru_system_noise_info(s, 2 + shot, &b), RU_OK);
+                assert_int_equal(a.kind, RU_NOISE_INPUT_V);
+                assert_int_equal(b.kind, RU_NOISE_INPUT_I);
+                RU_ASSERT_REL(a.flicker_corner_hz, 2e3, 1e-15);
+                RU_ASSERT_REL(b.flicker_corner_hz, 2e3, 1e-15);
+                /* inoise flows from inv (gnd) into in (v): its column is the
+                 * density over the node's capacitance (KCL), C1 plus the stray */
+                double x[4] = {0.1, 0.0, 0.0, 0.0}, B[32];
+                size_t m = ru_system_noise_count(s), n = ru_system_size(s);
+                assert_true(n <= 4 && n * m <= 32);
+                assert_int_equal(ru_system_noise_columns(s, x, 27.0, B), RU_OK);
+                int r = ru_system_node_state(s, ru_circuit_find_node(c, "v"));
+                assert_true(r >= 0);
+                RU_ASSERT_REL(fabs(B[(size_t)r * m + 2 + shot]), 1e-12 / (100e-9 + 1e-12),
+                              1e-12);
+            }
+            ru_system_destroy(s);
+            ru_circuit_destroy(c);
+        }
+    }
+    const struct {
+        const char *keys, *msg;
+        int col;
+    } bad[] = {{"en: -4n", "en must not be negative", 3},
+               {"inoise: -1p", "inoise must not be negative", 3},
+               {"fc: -1", "fc must not be negative", 3},
+               {"en: 4nV", "unit V does not fit, expected V/rtHz", 0}};
+    for (size_t i = 0; i < sizeof bad / sizeof bad[0]; i++) {
+        snprintf(text, sizeof text, base, "follower-tanh", bad[i].keys);
+        ru_circuit *c = NULL;
+        ru_error err;
+        assert_int_equal(ru_circuit_load_string(text, "t.yaml", RU_MODELS_DIR, &c, &err),
+                         RU_EINPUT);
+        assert_non_null(strstr(err.msg, bad[i].msg));
+        assert_int_equal(err.line, 5);
+        if (bad[i].col)
+            assert_int_equal(err.col, bad[i].col);
+        else
+            assert_true(err.col > 40); /* at the value */
+    }
+}
+
+/* Thevenin's equivalent as the outside reference: a resistor Rx in series with an
+ * amplifier's input adds the voltage noise 4kT Rx there (Nyquist), so an input
+ * noise en = sqrt(4kT Rx) must give the same share of c as Rx itself (the input
+ * draws nothing; the node between has only its 1 pF stray, a 1 ps time constant
+ * against a 206 us period; that stray also loads the tank through Rx, so the
+ * circuit with en gets the same 1 pF across its tank). */
+static void test_en_thevenin(void **state)
+{
+    (void)state;
+    double rx = 1.0, en = sqrt(4 * KB * 300.15 * rx);
+    char a[512], b[512];
+    const char *fmt = "parts:\n"
+                      "  L1: {type: inductor, nodes: [v, gnd], value: 10m}\n"
+                      "  C1: {type: capacitor, nodes: [v, gnd], value: 100n}\n"
+                      "  R1: {type: resistor, nodes: [v, gnd], value: 1k}\n"
+                      "  A1: {type: amplifier, in: %s, out: v, law: follower-tanh, gain: 1.3,"
+                      " swing: 0.5, center: 0.1, rout: 100%s}\n"
+                      "%s"
+                      "measure: {probe: v}\n";
+    char enkey[64];
+    snprintf(enkey, sizeof enkey, ", en: %.17g", en);
+    snprintf(a, sizeof a, fmt, "v", enkey,
+             "  CX: {type: capacitor, nodes: [v, gnd], value: 1p}\n");
+    snprintf(b, sizeof b, fmt, "w", "", "  RX: {type: resistor, nodes: [v, w], value: 1}\n");
+    ru_circuit *ca = load(a), *cb = load(b);
+    ru_tone_noise na, nb;
+    ru_steady_view va, vb;
+    ru_tone *ta = jitter(ca, 27.0, &na, &va), *tb = jitter(cb, 27.0, &nb, &vb);
+    assert_int_equal(na.ppv.nsrc, 2); /* R1, A1 en (the noise sources in part order) */
+    assert_int_equal(nb.ppv.nsrc, 2); /* R1, RX */
+    assert_int_equal(na.ppv.src[1].info.kind, RU_NOISE_INPUT_V);
+    /* the circuits differ by the input's lag Rx Cs: O(w0 Rx Cs) = 3e-8 relative
+     * (measured 5e-8 on the period); both integrate at rtol 1e-10; 1e-6 holds both */
+    RU_ASSERT_REL(na.ppv.src[1].c_s, nb.ppv.src[1].c_s, 1e-6);
+    RU_ASSERT_REL(na.ppv.src[0].c_s, nb.ppv.src[0].c_s, 1e-6);
+    RU_ASSERT_REL(va.period_s, vb.period_s, 1e-6);
+    ru_tone_destroy(ta);
+    ru_tone_destroy(tb);
+    ru_circuit_destroy(ca);
+    ru_circuit_destroy(cb);
+}
+
 /* ---- the noise transient: timing variance of seeded noise runs ---- */
 
 typedef struct zc_sink {
@@ -284,6 +399,8 @@ int main(void)
         cmocka_unit_test(test_lc_tank_closed_form),
         cmocka_unit_test(test_jitter_integral),
         cmocka_unit_test(test_noise_densities),
+        cmocka_unit_test(test_amp_noise_keys),
+        cmocka_unit_test(test_en_thevenin),
         cmocka_unit_test(test_noise_runs_diffuse),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);

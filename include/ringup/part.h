@@ -192,6 +192,10 @@ typedef struct ru_amp {
     double kn_a_per_v2;      /* cmos-inverter: n device's beta (A/V^2) */
     double kp_a_per_v2;      /* cmos-inverter: p device's beta (A/V^2) */
     double cin_f, cout_f;    /* cmos-inverter: in-ref and out-ref capacitances (F) */
+    /* every law: input-referred noise for phase-noise analysis (0: none) */
+    double en_v_per_rthz;    /* voltage noise density in series with in (V/sqrt(Hz)) */
+    double in_a_per_rthz;    /* current noise density from inv into in (A/sqrt(Hz)) */
+    double fc_hz;            /* their flicker corner: density^2 (1 + fc/f) (Hz) */
 } ru_amp;
 
 /* Junction diode (two-terminal part): i(anode -> cathode) = is*(exp(vj/(n vt)) - 1)

@@ -210,10 +210,18 @@ ru_status ru_system_set_noise(ru_system *s, unsigned long seed, double bandwidth
  *               (4kT/R(T) at its own temperature T = tamb + rise)
  *   shot        every diode (2q|i|) and every exp-stage output (2q|i_out|, the
  *               junction's collector current)
- * Resistors and inductors have no temperature of their own: they are at temp_c. */
+ *   input       an amplifier's `en` (en^2, a voltage in series with its input: the
+ *               law's every d/d vc along it) and `inoise` (inoise^2, a current from
+ *               inv into in), both with the amplifier's flicker corner `fc`
+ * Resistors and inductors have no temperature of their own: they are at temp_c.
+ * A part has at most RU_NOISE_PART_MAX sources, in the order above. */
+#define RU_NOISE_PART_MAX 3
+
 typedef enum ru_noise_kind {
     RU_NOISE_THERMAL, /* Johnson-Nyquist */
     RU_NOISE_SHOT,    /* Schottky's shot noise */
+    RU_NOISE_INPUT_V, /* an amplifier's input voltage noise (en) */
+    RU_NOISE_INPUT_I, /* an amplifier's input current noise (inoise) */
     RU_NOISE_KIND_COUNT
 } ru_noise_kind;
 

@@ -158,8 +158,8 @@ ru_status ru_tone_noise_run(const ru_circuit *c, ru_tone *t, const ru_tone_reque
     ru_ppv_get(t->ppv, &nv->ppv);
     if (nv->ppv.nsrc == 0) {
         snprintf(t->note, sizeof t->note, "the circuit has no noise source (no resistor, "
-                 "inductor series resistance, diode or junction stage): c = 0, no phase "
-                 "noise");
+                 "inductor series resistance, diode, junction stage or amplifier en or "
+                 "inoise): c = 0, no phase noise");
         nv->have = 1;
         nv->f0_hz = v.frequency_hz;
         nv->temp_c = o.temp_c;

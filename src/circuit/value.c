@@ -32,7 +32,8 @@ static const prefix_rec prefixes[] = {
 /* Units the parser knows by name, to tell a wrong unit from stray text. */
 static const char *const known_units[] = {"ohm", "\xce\xa9", "\xe2\x84\xa6", "F", "H",
                                           "V",   "A",        "s",            "Hz",
-                                          "%",   "C",        "S",            "ppm", "W"};
+                                          "%",   "C",        "S",            "ppm", "W",
+                                          "V/rtHz", "A/rtHz"};
 
 static ru_status fail(char *why, size_t whylen, const char *fmt, ...)
 #if defined(__GNUC__)

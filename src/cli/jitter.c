@@ -76,9 +76,16 @@ static void print_text(const ru_circuit *c, const ru_tone *t)
            ru_format_si(v.amplitude_v, "V", 5, b, sizeof b));
     printf("  phase diffusion c  %.4g s   (Lorentzian half width pi f0^2 c = %s)\n",
            nv.ppv.c_s, ru_format_si(nv.lorentz_hz, "Hz", 3, a, sizeof a));
-    if (nv.ppv.c1_s_hz > 0)
+    double fc_max = 0.0;
+    for (size_t k = 0; k < nv.ppv.nsrc; k++)
+        fc_max = fmax(fc_max, nv.ppv.src[k].info.flicker_corner_hz);
+    if (nv.ppv.c1_s_hz > 1e-9 * fc_max * nv.ppv.c_s)
         printf("  flicker            c1 = %.4g s Hz: 1/f^3 below %s\n", nv.ppv.c1_s_hz,
                ru_format_si(nv.flicker_hz, "Hz", 3, a, sizeof a));
+    else if (fc_max > 0) /* within round-off of zero */
+        printf("  flicker            no 1/f^3 region: the 1/f noise (corner %s) reaches the "
+               "phase only\n                     through the PPV's mean, which vanishes "
+               "on this odd-symmetric orbit\n", ru_format_si(fc_max, "Hz", 3, a, sizeof a));
     printf("  period jitter      %s   (sqrt(c T))\n",
            ru_format_si(nv.period_jitter_s, "s", 4, a, sizeof a));
     printf("  RMS jitter         %s over %s .. %s\n",

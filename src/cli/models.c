@@ -20,6 +20,10 @@ static void print_text(const ru_model_info *m, size_t n, const char *dir)
         for (size_t k = 0; k < m[i].nparams; k++) {
             const ru_model_param *q = &m[i].params[k];
             char v[40];
+            /* the input noise keys at 0 (none, every law has them) are left out of
+               the text; the JSON lists them */
+            if (q->value == 0.0 && (strstr(q->unit, "/rtHz") || !strcmp(q->name, "fc")))
+                continue;
             if (q->unit[0] && strcmp(q->unit, "points") != 0 && strcmp(q->unit, "C") != 0)
                 ru_format_si(q->value, q->unit, 4, v, sizeof v);
             else

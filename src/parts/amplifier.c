@@ -5,7 +5,8 @@
  * constant capacitances and, for a law with one, its internal state's rate. The
  * variants of this type are the laws, chosen by `law` or by a preset (`model`).
  * Its loop (the return ratio of ringup/system.h) breaks the law's controlled
- * terms. */
+ * terms. Every law also takes the input-referred noise keys en, inoise and fc
+ * (RU_LAW_NOISE_KEYS), which only phase-noise analysis reads. */
 #include "parts/laws.h"
 
 #include <stdio.h>
@@ -78,9 +79,16 @@ static ru_status check(const ru_part *p, const ru_part_env *env, ru_error *err)
                     a->sign,     a->gbw_hz,      a->vmax_v,      a->vmin_v,   a->knee_v,
                     a->slew_v_per_s, a->polarity, a->vth_v,      a->kmos_a_per_v2,
                     a->va_v,     a->cgs_f,       a->cgd_f,       a->vthn_v,
-                    a->vthp_v,   a->kn_a_per_v2, a->kp_a_per_v2, a->cin_f,    a->cout_f};
+                    a->vthp_v,   a->kn_a_per_v2, a->kp_a_per_v2, a->cin_f,    a->cout_f,
+                    a->en_v_per_rthz, a->in_a_per_rthz, a->fc_hz};
     if (!ru_part_finite(all, (int)(sizeof all / sizeof all[0])))
         return ru_part_fail(env, p, err, "amplifier values must be finite");
+    if (a->en_v_per_rthz < 0)
+        return ru_part_bad(env, p, err, "en must not be negative", a->en_v_per_rthz);
+    if (a->in_a_per_rthz < 0)
+        return ru_part_bad(env, p, err, "inoise must not be negative", a->in_a_per_rthz);
+    if (a->fc_hz < 0)
+        return ru_part_bad(env, p, err, "fc must not be negative", a->fc_hz);
     const ru_law_desc *d = ru_law_get(a->law);
     if (!d)
         return ru_part_fail(env, p, err, "unknown amplifier law");

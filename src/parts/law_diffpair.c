@@ -14,6 +14,7 @@ static const ru_keyrec keys[] = {{"itail", "A", A(itail_a), 0, 1e-3},
                                  {"temp", "C", A(temp_c), 0, 27.0},
                                  {"rout", "ohm", A(rout_ohm), 0, 0.0},
                                  {"sign", NULL, A(sign), 0, 1.0},
+                                 RU_LAW_NOISE_KEYS,
                                  {NULL, NULL, 0, 0, 0.0}};
 #undef A
 

@@ -13,6 +13,7 @@ static const ru_keyrec keys[] = {{"is", "A", A(is_a), 0, 1e-14},
                                  {"beta", NULL, A(beta), 0, 100.0},
                                  {"vsat", "V", A(vsat_v), 0, 0.2},
                                  {"temp", "C", A(temp_c), 0, 27.0},
+                                 RU_LAW_NOISE_KEYS,
                                  {NULL, NULL, 0, 0, 0.0}};
 #undef A
 

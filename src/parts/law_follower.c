@@ -11,6 +11,7 @@ static const ru_keyrec keys[] = {{"gain", NULL, A(gain), 0, 0.98},
                                  {"swing", "V", A(swing_v), 0, 1.0},
                                  {"center", "V", A(center_v), 0, 0.0},
                                  {"rout", "ohm", A(rout_ohm), 0, 50.0},
+                                 RU_LAW_NOISE_KEYS,
                                  {NULL, NULL, 0, 0, 0.0}};
 #undef A
 

@@ -21,6 +21,7 @@ static const ru_keyrec keys[] = {{"vthn", "V", A(vthn_v), 0, 0.5},
                                  {"cin", "F", A(cin_f), 0, 0.0},
                                  {"cgd", "F", A(cgd_f), 0, 0.0},
                                  {"cout", "F", A(cout_f), 0, 0.0},
+                                 RU_LAW_NOISE_KEYS,
                                  {NULL, NULL, 0, 0, 0.0}};
 #undef A
 

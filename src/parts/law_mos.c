@@ -19,6 +19,7 @@ static const ru_keyrec keys[] = {{"polarity", NULL, A(polarity), 0, 1.0},
                                  {"va", "V", A(va_v), 0, 0.0},
                                  {"cgs", "F", A(cgs_f), 0, 0.0},
                                  {"cgd", "F", A(cgd_f), 0, 0.0},
+                                 RU_LAW_NOISE_KEYS,
                                  {NULL, NULL, 0, 0, 0.0}};
 #undef A
 

@@ -17,6 +17,7 @@ static const ru_keyrec keys[] = {{"gain", NULL, A(gain), 0, 1e5},
                                  {"knee", "V", A(knee_v), 0, 0.1},
                                  {"slew", "V/s", A(slew_v_per_s), 0, 1e6},
                                  {"rout", "ohm", A(rout_ohm), 0, 50.0},
+                                 RU_LAW_NOISE_KEYS,
                                  {NULL, NULL, 0, 0, 0.0}};
 #undef A
 

@@ -9,6 +9,7 @@
 
 #define A(f) offsetof(ru_part, amp.f)
 static const ru_keyrec keys[] = {{"rout", "ohm", A(rout_ohm), 0, 50.0},
+                                 RU_LAW_NOISE_KEYS,
                                  {NULL, NULL, 0, 0, 0.0}};
 static const ru_listrec lists[] = {
     {"points", "V", 2, 2, RU_TABLE_MAX, {A(pt_vin), A(pt_vout)}, A(npoints), 1,

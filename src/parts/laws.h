@@ -99,6 +99,15 @@ typedef struct ru_law_cap {
     double c_f;
 } ru_law_cap;
 
+/* The keys every law has, last in its key table: the input-referred noise densities
+ * and their flicker corner (ru_amp.en_v_per_rthz, in_a_per_rthz, fc_hz; defaults 0,
+ * so a file without them is noiseless there). The current noise is `inoise`, since
+ * `in` is the input terminal. */
+#define RU_LAW_NOISE_KEYS                                                         \
+    {"en", "V/rtHz", offsetof(ru_part, amp.en_v_per_rthz), 0, 0.0},                \
+    {"inoise", "A/rtHz", offsetof(ru_part, amp.in_a_per_rthz), 0, 0.0},            \
+    {"fc", "Hz", offsetof(ru_part, amp.fc_hz), 0, 0.0}
+
 typedef struct ru_law_desc {
     ru_law law;        /* which law this entry describes */
     ru_variant v;      /* its spelling, keys (offsets in ru_part: amp.*) and lists */
