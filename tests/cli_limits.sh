@@ -38,6 +38,43 @@ check "no wav after refusal" no "$([ -e "$tmp/x.wav" ] && echo yes || echo no)"
 refused "sample 1 ps over 1 ks" "the run would make 1e\+15 output samples \(stop 1000 s at a spacing of 1e-12 s\)" \
     "$ru" run "$vdp" --stop 1k --sample 1p
 
+# Every number an option takes has a range, and a value outside it is bad input
+# with the range in the message (README "Limits").
+colp=$src/examples/follower-colpitts.yaml
+refused "response --fmin 1e30" "option --fmin: '1e30' is outside 1 mHz to 1 THz" \
+    "$ru" response "$colp" --from drv --to top --fmin 1e30
+refused "response --fmax 1e300" "option --fmax: '1e300' is outside 1 mHz to 1 THz" \
+    "$ru" response "$colp" --from drv --to top --fmax 1e300
+refused "margin --fmin 1e-300" "option --fmin: '1e-300' is outside 1 mHz to 1 THz" \
+    "$ru" margin "$vdp" --part L1 --fmin 1e-300
+refused "jitter --band 1:1e300" "--band must be LO:HI in Hz with 1 mHz <= LO < HI <= 1 THz" \
+    "$ru" jitter "$vdp" --band 1:1e300
+refused "jitter --temp 1e9" "--temp must be above -273.15 C and at most 1000 C \(got '1e9'\)" \
+    "$ru" jitter "$vdp" --temp 1e9
+refused "jitter --noise-factor 0.5" "option --noise-factor: '0.5' is outside 1 to 1e\+06" \
+    "$ru" jitter "$vdp" --noise-factor 0.5
+refused "wav-seconds 1e9" "WAV length 1e\+09 s is outside 0.1 s to 699 s \(the longest file at 48000 Hz\)" \
+    "$ru" run "$vdp" --wav "$tmp/x.wav" --wav-seconds 1e9
+refused "wav-seconds 1p" "WAV length 1e-12 s is outside 0.1 s" \
+    "$ru" run "$vdp" --wav "$tmp/x.wav" --wav-seconds 1p
+refused "expect-start-within -1" "option --expect-start-within must be positive" \
+    "$ru" run "$vdp" --expect-start-within -1
+refused "expect-thd-below 200%" "option --expect-thd-below: '200%' is not above 0 and at most 100%" \
+    "$ru" run "$vdp" --expect-thd-below 200%
+refused "expect-amplitude -1:2" "'-1:2' is not LO:HI volts with 0 <= LO <= HI" \
+    "$ru" run "$vdp" --expect-amplitude -1:2
+refused "compare a model twice" "--models names soft-follower twice" \
+    "$ru" compare "$colp" --part A1 --models soft-follower,nope,soft-follower
+check "no wav after the refusals" no "$([ -e "$tmp/x.wav" ] && echo yes || echo no)"
+
+# A comparison in which no model gives a run is a failure (exit 2), its rows
+# still printed; one good model is a result (exit 0).
+"$ru" compare "$colp" --part A1 --models nope,../x --stop 1m >"$tmp/out" 2>"$tmp/err"
+check "compare, every model failed: status" 2 $?
+grepcheck "compare, every model failed: rows" "'../x' is not a preset name" "$tmp/out"
+"$ru" compare "$colp" --part A1 --models soft-follower,nope --stop 1m >"$tmp/out" 2>"$tmp/err"
+check "compare, one model ran: status" 0 $?
+
 # The output budget: 200 nodes at 1 us for 49 s is 4.9e7 samples (under the
 # sample limit) of 202 columns (time and 201 nodes), 16 bytes a value: about
 # 4.9e7 * 202 * 16 = 158 GB of CSV.

@@ -70,6 +70,7 @@ extern "C" {
 #define RU_WAV_CEILING_DBFS (-1.0)          /* highest peak level accepted */
 #define RU_WAV_MAX_BUFFER ((size_t)1 << 25) /* buffered probe samples (256 MiB) */
 #define RU_WAV_MAX_FRAMES ((size_t)1 << 25) /* audio frames (11.6 min at 48 kHz) */
+#define RU_WAV_MIN_SECONDS 0.1           /* shortest --wav-seconds: longer than the 20 ms fade */
 #define RU_WAV_PITCH_MIN_HZ 20.0            /* lowest --wav-pitch: the audible band */
 #define RU_WAV_PITCH_MAX_HZ 20000.0         /* highest --wav-pitch */
 
@@ -85,7 +86,8 @@ typedef struct ru_wav_opts {
     double pitch_hz;     /* > 0: the tone plays at this pitch (k = tone_hz/pitch_hz);
                             0: use time_scale */
     double time_scale;   /* audio seconds per simulated second without a pitch; 1 */
-    double max_seconds;  /* audio length cap (s); 0 = the whole run, stretched */
+    double max_seconds;  /* audio length cap (s), RU_WAV_MIN_SECONDS up to RU_WAV_MAX_FRAMES
+                            at rate_hz; 0 = the whole run, stretched */
     double fade_s;       /* raised-cosine fade-out at the end (s); 0.02 */
     double sample_s;     /* spacing of the pushed samples (s, > 0), required */
     double stop_s;       /* run length (s, > 0), required: bounds the buffer */

@@ -64,6 +64,16 @@ int cli_value(const cli_opt *opts, const char *name, const char *unit, double *o
 int cli_int(const cli_opt *opts, const char *name, unsigned long long lo,
             unsigned long long hi, unsigned long long *out);
 
+/* As cli_value, and the value (when given) must lie from lo to hi (inclusive);
+ * otherwise prints "option --NAME: 'TEXT' is outside LO to HI" and returns 0. */
+int cli_range(const cli_opt *opts, const char *name, const char *unit, double lo,
+              double hi, double *out);
+
+/* Frequencies an option may name (--fmin, --fmax, --band): 1 mHz to 1 THz, far
+ * outside any oscillator ringup models and far inside a double's range. */
+#define RU_CLI_FREQ_MIN_HZ 1e-3
+#define RU_CLI_FREQ_MAX_HZ 1e12
+
 /* As cli_value, and the value (when given) must be positive. */
 int cli_positive(const cli_opt *opts, const char *name, const char *unit, double *out);
 

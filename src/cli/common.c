@@ -2,6 +2,7 @@
 #include "cli/cli.h"
 
 #include "ringup/batch.h"
+#include "ringup/format.h"
 #include "ringup/loader.h"
 
 #include <errno.h>
@@ -118,6 +119,46 @@ int cli_value(const cli_opt *opts, const char *name, const char *unit, double *o
                 why);
         return 0;
     }
+    return 1;
+}
+
+/* A range's end as "1 mHz" (SI prefix, no trailing zeros) or "1e+06" without a unit. */
+static const char *bound_text(double v, const char *unit, char *buf, size_t size)
+{
+    if (!unit || !unit[0]) {
+        snprintf(buf, size, "%g", v);
+        return buf;
+    }
+    ru_format_si(v, unit, 4, buf, size);
+    char *dot = strchr(buf, '.');
+    if (dot) {
+        char *end = dot + strspn(dot + 1, "0123456789") + 1; /* after the digits */
+        char *z = end;
+        while (z > dot + 1 && z[-1] == '0')
+            z--;
+        if (z == dot + 1)
+            z = dot;
+        memmove(z, end, strlen(end) + 1);
+    }
+    return buf;
+}
+
+int cli_range(const cli_opt *opts, const char *name, const char *unit, double lo,
+              double hi, double *out)
+{
+    double v;
+    if (!cli_value(opts, name, unit, &v))
+        return 0;
+    const char *text = cli_get(opts, name);
+    if (!text)
+        return 1;
+    if (!(v >= lo && v <= hi)) {
+        char a[32], b[32];
+        fprintf(stderr, "ringup: option --%s: '%s' is outside %s to %s\n", name, text,
+                bound_text(lo, unit, a, sizeof a), bound_text(hi, unit, b, sizeof b));
+        return 0;
+    }
+    *out = v;
     return 1;
 }
 

@@ -38,6 +38,11 @@ static int split_models(const char *list, variant *v, size_t *n)
         }
         memcpy(v[*n].model, p, len);
         v[*n].model[len] = '\0';
+        for (size_t k = 0; k < *n; k++)
+            if (!strcmp(v[k].model, v[*n].model)) {
+                fprintf(stderr, "ringup compare: --models names %s twice\n", v[k].model);
+                return 0;
+            }
         (*n)++;
         p += len + (q ? 1 : 0);
     }
@@ -215,6 +220,11 @@ int cmd_compare(int argc, char **argv)
         labels[i] = v[i].model;
     rc = cli_plot_items(&plots, c, items, n, labels, text);
     free(text);
+    size_t failed = 0;
+    for (size_t i = 0; i < n; i++)
+        failed += items[i].status != RU_OK;
+    if (rc == 0 && failed == n)
+        rc = 2; /* no model gave a run: a failure, never a result */
     for (size_t i = 0; i < n; i++) {
         ru_circuit_destroy(v[i].circuit);
         ru_run_data_destroy(v[i].data);

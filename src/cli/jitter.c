@@ -261,8 +261,10 @@ static int parse_band(const char *spec, ru_tone_request *rq)
     char why[128];
     if (ru_value_parse(lo, "Hz", &rq->band_lo_hz, why, sizeof why) != RU_OK ||
         ru_value_parse(hi, "Hz", &rq->band_hi_hz, why, sizeof why) != RU_OK ||
-        !(rq->band_lo_hz > 0) || !(rq->band_hi_hz > rq->band_lo_hz)) {
-        fprintf(stderr, "ringup: --band must be LO:HI with 0 < LO < HI in Hz (got '%s')\n",
+        !(rq->band_lo_hz >= RU_CLI_FREQ_MIN_HZ) || !(rq->band_hi_hz > rq->band_lo_hz) ||
+        !(rq->band_hi_hz <= RU_CLI_FREQ_MAX_HZ)) {
+        fprintf(stderr, "ringup: --band must be LO:HI in Hz with 1 mHz <= LO < HI <= 1 THz "
+                        "(got '%s')\n",
                 spec);
         return 1;
     }
@@ -277,13 +279,15 @@ static int jitter_request(const cli_opt *opts, ru_tone_request *rq)
     if (!cli_value(opts, "temp", "C", &v))
         return 1;
     if (cli_get(opts, "temp")) {
-        if (!(v > -273.15)) {
-            fprintf(stderr, "ringup: --temp must be above -273.15 C\n");
+        if (!(v > -273.15 && v <= 1000)) {
+            fprintf(stderr, "ringup: --temp must be above -273.15 C and at most 1000 C "
+                            "(got '%s')\n",
+                    cli_get(opts, "temp"));
             return 1;
         }
         rq->temp_c = v;
     }
-    if (!cli_positive(opts, "noise-factor", "", &v))
+    if (!cli_range(opts, "noise-factor", "", 1, 1e6, &v)) /* F >= 1: Friis */
         return 1;
     if (cli_get(opts, "noise-factor"))
         rq->noise_factor = v;

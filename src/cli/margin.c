@@ -187,7 +187,8 @@ static void print_json(const mg_data *d, int show_curve)
 static int freq_range(const cli_opt *opts, const mg_data *d, double *fmin, double *fmax)
 {
     *fmin = *fmax = NAN;
-    if (!cli_positive(opts, "fmin", "Hz", fmin) || !cli_positive(opts, "fmax", "Hz", fmax))
+    if (!cli_range(opts, "fmin", "Hz", RU_CLI_FREQ_MIN_HZ, RU_CLI_FREQ_MAX_HZ, fmin) ||
+        !cli_range(opts, "fmax", "Hz", RU_CLI_FREQ_MIN_HZ, RU_CLI_FREQ_MAX_HZ, fmax))
         return 1;
     double f0 = d->dom_im > 0 ? d->dom_im / (2 * PI) : NAN;
     if (!isfinite(*fmin) && !isfinite(*fmax) && !isfinite(f0)) {

@@ -280,7 +280,8 @@ int cmd_response(int argc, char **argv)
         return rc;
     double fmin = NAN, fmax = NAN;
     unsigned long long npts = 201;
-    if (!cli_value(opts, "fmin", "Hz", &fmin) || !cli_value(opts, "fmax", "Hz", &fmax) ||
+    if (!cli_range(opts, "fmin", "Hz", RU_CLI_FREQ_MIN_HZ, RU_CLI_FREQ_MAX_HZ, &fmin) ||
+        !cli_range(opts, "fmax", "Hz", RU_CLI_FREQ_MIN_HZ, RU_CLI_FREQ_MAX_HZ, &fmax) ||
         !cli_int(opts, "points", 2, 100000, &npts))
         return 1;
     cli_plot_req plots;

@@ -242,10 +242,17 @@ static void print_json(const ru_run_report *r, int partial, const char *wav_path
 static int parse_expectations(const cli_opt *opts, expectations *e)
 {
     e->start_within_s = e->amp_lo_v = e->amp_hi_v = e->thd_below_percent = NAN;
-    if (!cli_value(opts, "expect-start-within", "s", &e->start_within_s))
+    if (!cli_positive(opts, "expect-start-within", "s", &e->start_within_s))
         return 0;
     if (!cli_value(opts, "expect-thd-below", "%", &e->thd_below_percent))
         return 0;
+    if (cli_get(opts, "expect-thd-below") &&
+        !(e->thd_below_percent > 0 && e->thd_below_percent <= 1)) {
+        fprintf(stderr, "ringup: option --expect-thd-below: '%s' is not above 0 and at most "
+                        "100%%\n",
+                cli_get(opts, "expect-thd-below"));
+        return 0;
+    }
     if (isfinite(e->thd_below_percent))
         e->thd_below_percent *= 100.0; /* the parser returns a fraction for % */
     const char *amp = cli_get(opts, "expect-amplitude");
@@ -261,8 +268,9 @@ static int parse_expectations(const cli_opt *opts, expectations *e)
         lo[n] = '\0';
         if (ru_value_parse(lo, "V", &e->amp_lo_v, why, sizeof why) != RU_OK ||
             ru_value_parse(colon + 1, "V", &e->amp_hi_v, why, sizeof why) != RU_OK ||
-            !(e->amp_lo_v <= e->amp_hi_v)) {
-            fprintf(stderr, "ringup: option --expect-amplitude: '%s' is not LO:HI volts\n", amp);
+            !(e->amp_lo_v >= 0 && e->amp_lo_v <= e->amp_hi_v && e->amp_hi_v > 0)) {
+            fprintf(stderr, "ringup: option --expect-amplitude: '%s' is not LO:HI volts with 0 <= LO <= HI\n",
+                    amp);
             return 0;
         }
     }

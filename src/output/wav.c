@@ -64,9 +64,13 @@ static ru_status check_time(const ru_wav_opts *o, ru_error *err)
     if (o->pitch_hz == 0 && !(o->time_scale > 0 && o->time_scale < 1e15))
         return ru_error_set(err, RU_ERANGE, NULL, 0, 0,
                             "WAV time scale must be > 0 (got %g)", o->time_scale);
-    if (!(o->max_seconds >= 0 && o->max_seconds <= 1e6))
+    double longest_s = (double)RU_WAV_MAX_FRAMES / o->rate_hz;
+    if (!(o->max_seconds == 0 ||
+          (o->max_seconds >= RU_WAV_MIN_SECONDS && o->max_seconds <= longest_s)))
         return ru_error_set(err, RU_ERANGE, NULL, 0, 0,
-                            "WAV length must be > 0 s (got %g s)", o->max_seconds);
+                            "WAV length %g s is outside %g s to %.0f s (the longest file at "
+                            "%g Hz)",
+                            o->max_seconds, RU_WAV_MIN_SECONDS, longest_s, o->rate_hz);
     if (!(o->sample_s > 0 && isfinite(o->sample_s) && o->stop_s > 0 &&
           isfinite(o->stop_s) && o->tone_hint_hz >= 0 && isfinite(o->tone_hint_hz)))
         return ru_error_set(err, RU_ERANGE, NULL, 0, 0,
