@@ -63,7 +63,9 @@ typedef struct ru_run_request {
     double sample_s;       /* > 0 overrides the file's sample spacing */
     int accuracy;          /* -1: the file's; else an ru_accuracy */
     double tol_scale;      /* multiplies rtol and atol (1 normally; 0.1 for --verify) */
-    const char *loop_part; /* overrides measure.loop when not NULL */
+    const char *loop_part; /* overrides measure.loop/loop-node when not NULL */
+    const char *loop_node; /* a node to break instead (double injection), or NULL */
+    const char *loop_load; /* its load side's parts, comma-separated, or NULL */
     ru_run_data *keep;     /* filled for pictures when not NULL */
     const char *wav_path;  /* probe audio file (ringup/wav.h); NULL writes none */
     ru_wav_opts wav;       /* its rate, format, level, pitch, length; sample_s,
@@ -125,7 +127,9 @@ typedef struct ru_prediction {
     int have_hb;                  /* the harmonic balance found a tone */
     ru_hb_tone hb;                /* its settled tone (ringup/hb.h) */
     int have_loop;                /* loop gain evaluated */
-    char loop_part[RU_NAME_MAX];
+    char loop_part[RU_NAME_MAX];  /* the amplifier, or "node NAME" for a node break */
+    char loop_node[RU_NAME_MAX];  /* the node broken ("" for an amplifier's loop) */
+    char loop_load[RU_LOOP_LOAD_TEXT]; /* its load side's terminals ("A1 in") */
     ru_loop_summary loop;
 } ru_prediction;
 

@@ -57,11 +57,17 @@ typedef struct ru_run_opts {
                                      noise (`kick: {power-on: {noise: off}}` for 0) */
 } ru_run_opts;
 
+#define RU_LOOP_LOAD_MAX 8 /* parts named on the load side of a node break */
+
 /* What to measure (the file's `measure:` section). */
 typedef struct ru_measure_opts {
     int probe_pos;                /* probe node index; the probe is v(pos) - v(neg) */
     int probe_neg;                /* 0 (ground) for a single-node probe */
     char loop[RU_NAME_MAX];       /* amplifier whose loop gain is reported, "" none */
+    char loop_node[RU_NAME_MAX];  /* node broken for the loop gain instead, "" none */
+    char loop_load[RU_LOOP_LOAD_MAX][RU_NAME_MAX]; /* parts on the load side of the
+                                     break ("" the control inputs at loop_node) */
+    int nloop_load;               /* entries of loop_load */
     double startup_level;         /* start-up threshold, fraction of settled (0.9) */
     double growth_lo;             /* growth-fit window, fraction of settled (0.01) */
     double growth_hi;             /* (0.10) */

@@ -318,6 +318,7 @@ int ru_part_inv_node(const ru_part *p);
 typedef struct ru_terminal {
     const char *key; /* "nodes", "in", "out", "ref", "inv", "control" (static text) */
     int node;        /* node index (0: ground) */
+    int slot;        /* its place in ru_part.node[] */
 } ru_terminal;
 
 /* The terminals of p in order (a terminal left at its default "same as another"

@@ -76,6 +76,65 @@ ru_status ru_loopgain_sweep(const ru_system *s, int part, const double *x,
                             double *mag, double *phase_deg, ru_loop_summary *sum,
                             ru_error *err);
 
+/* ---- a loop-gain handle: one amplifier's return ratio or a node broken ---------
+ *
+ * Part: the amplifier's return ratio as above (ru_loopgain_at).
+ * Node: Middlebrook's double injection (R. D. Middlebrook, "Measurement of loop gain
+ * in feedback systems", Int. J. Electronics 38 (1975) 485-512) at a free node N with
+ * every loading kept. N is split into a driver side and a load side: the load side
+ * holds the terminals at N of the parts named in load_part, or, when none is named,
+ * the control inputs at N (an amplifier's in and inv, a transconductor's control).
+ * A probe joins the two sides: a series voltage injection (T_v = -v_driver/v_load)
+ * and a shunt current injection (T_i = -i_driver/i_load) on the linearized circuit,
+ * T = (T_v T_i - 1)/(T_v + T_i + 2) and L = -T, so that L = 1 at 0 degrees exactly
+ * when the closed circuit has a pole on the jw axis there; a network of passive
+ * parts alone has L = 0. */
+typedef struct ru_loop ru_loop;
+
+#define RU_LOOP_LABEL_MAX 256 /* ru_loop_label's text, with the NUL */
+#define RU_LOOP_LOAD_TEXT 160 /* ru_loop_load's text, with the NUL */
+
+typedef struct ru_loop_node_spec {
+    int node;                           /* the node to break (circuit node index) */
+    int nload;                          /* parts in load_part; 0: the control inputs */
+    int load_part[RU_LOOP_LOAD_MAX];    /* part indices whose terminals at node form
+                                           the load side */
+} ru_loop_node_spec;
+
+/* Constructors at operating point x (copied: x need not outlive the handle; the
+ * system must). Part: RU_EINPUT when the part is not an amplifier. Node: RU_EINPUT
+ * when the node is ground or held by a supply, a named part has no terminal on it,
+ * or one side of the break would be empty (the message lists the parts at the
+ * node). The destructor takes NULL. */
+ru_status ru_loop_create_part(const ru_system *s, int part, const double *x,
+                              ru_loop **out, ru_error *err);
+ru_status ru_loop_create_node(const ru_system *s, const ru_loop_node_spec *spec,
+                              const double *x, ru_loop **out, ru_error *err);
+void ru_loop_destroy(ru_loop *l);
+
+/* The loop a user names: amplifier `part`, or node `node` with the load side's
+ * parts as a comma-separated list `load` (NULL: the control inputs); with part and
+ * node both NULL, the circuit's measure section (loop, loop-node, loop-load). *out
+ * stays NULL (RU_OK) when nothing names a loop. RU_EINPUT names an unknown part or
+ * node (with the closest name). */
+ru_status ru_loop_create_named(const ru_system *s, const double *x, const char *part,
+                               const char *node, const char *load, ru_loop **out,
+                               ru_error *err);
+
+/* What was broken: "A1", or "node b (load side: A1 in)"; the node alone ("" for an
+ * amplifier's loop) and its load side's terminals ("A1 in"). Owned by the handle. */
+const char *ru_loop_label(const ru_loop *l);
+const char *ru_loop_node(const ru_loop *l);
+const char *ru_loop_load(const ru_loop *l);
+
+/* L = re + j im at f_hz >= 0. */
+ru_status ru_loop_eval(ru_loop *l, double f_hz, double *re, double *im, ru_error *err);
+
+/* As ru_loopgain_sweep, on a handle. */
+ru_status ru_loop_sweep(ru_loop *l, double fmin_hz, double fmax_hz, size_t npts,
+                        double *f_hz, double *mag, double *phase_deg,
+                        ru_loop_summary *sum, ru_error *err);
+
 /* Transfer v(out)/v(in) with node `in` driven by an ideal source, at f_hz. */
 ru_status ru_response_at(const ru_system *s, const double *x, int node_in,
                          int node_out, double f_hz, double *mag, double *phase_deg,

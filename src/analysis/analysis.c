@@ -450,7 +450,6 @@ ru_status ru_analysis_run(const ru_circuit *c, const ru_run_request *rq,
         goto done;
     const ru_run_opts *ro = ru_circuit_run_opts_const(c);
     rep->startup_level = ru_circuit_measure_opts_const(c)->startup_level;
-    const char *loop = rq->loop_part ? rq->loop_part : ru_circuit_measure_opts_const(c)->loop;
     if (rq->keep)
         ru_run_data_reset(rq->keep);
     x_op = calloc(ru_system_size(sys) ? ru_system_size(sys) : 1, sizeof *x_op);
@@ -458,7 +457,7 @@ ru_status ru_analysis_run(const ru_circuit *c, const ru_run_request *rq,
         st = ru_error_set(err, RU_ENOMEM, NULL, 0, 0, "out of memory");
         goto done;
     }
-    if ((st = ru_predict(c, sys, loop, pos, neg, rep, rq->keep, x_op, err)) != RU_OK)
+    if ((st = ru_predict(c, sys, rq, pos, neg, rep, rq->keep, x_op, err)) != RU_OK)
         goto done;
     if ((st = ru_engine_choose(c, sys, rq, rep, x_op, err)) != RU_OK)
         goto done;

@@ -39,10 +39,12 @@ void ru_report_note(ru_run_report *rep, const char *fmt, ...)
     ;
 
 /* Operating point, poles, kick size on the probe and loop gain into rep->pred;
- * the operating point into x_op (n states) when not NULL and it was found.
- * Failures of the small-signal engine become notes; RU_EINPUT only for a loop
- * part that is not an amplifier. */
-ru_status ru_predict(const ru_circuit *c, const ru_system *s, const char *loop_part,
+ * the operating point into x_op (n states) when not NULL and it was found. The
+ * loop: rq's loop_part or loop_node (with loop_load), else the file's measure
+ * section. Failures of the small-signal engine become notes; RU_EINPUT only for a
+ * loop that cannot be named (not an amplifier, no such node, a break with an
+ * empty side). */
+ru_status ru_predict(const ru_circuit *c, const ru_system *s, const ru_run_request *rq,
                      int probe_pos, int probe_neg, ru_run_report *rep, ru_run_data *keep,
                      double *x_op, ru_error *err);
 

@@ -136,33 +136,44 @@ done:
     free(poles);
 }
 
-static ru_status predict_loop(const ru_circuit *c, const ru_system *s, const char *loop,
-                              const double *x_op, ru_run_report *rep, ru_run_data *keep,
-                              ru_error *err)
+static ru_status predict_loop(const ru_circuit *c, const ru_system *s,
+                              const ru_run_request *rq, const double *x_op,
+                              ru_run_report *rep, ru_run_data *keep, ru_error *err)
 {
-    int part = ru_circuit_find_part(c, loop);
-    if (part < 0 || ru_circuit_part(c, (size_t)part)->type != RU_PART_AMPLIFIER)
-        return ru_error_set(err, RU_EINPUT, ru_circuit_file(c), 0, 0,
-                            "loop part %s is not an amplifier of this circuit", loop);
+    ru_loop *l = NULL;
+    ru_status st = ru_loop_create_named(s, x_op, rq ? rq->loop_part : NULL,
+                                        rq ? rq->loop_node : NULL,
+                                        rq ? rq->loop_load : NULL, &l, err);
+    if (st != RU_OK && err && !err->file[0]) /* name the file the names came from */
+        snprintf(err->file, sizeof err->file, "%s", ru_circuit_file(c));
+    if (st != RU_OK || !l)
+        return st;
     ru_prediction *pr = &rep->pred;
     double f0 = pr->have_poles ? pr->frequency_hz : 0;
     double fmin = f0 > 0 ? f0 / 30 : 1.0, fmax = f0 > 0 ? f0 * 30 : 1e9;
     ru_error e;
     ru_error_clear(&e);
-    snprintf(pr->loop_part, sizeof pr->loop_part, "%s", loop);
-    if (ru_loopgain_sweep(s, part, x_op, fmin, fmax, RU_RUN_DATA_LOOP_POINTS,
-                          keep ? keep->loop_f_hz : NULL, keep ? keep->loop_mag : NULL,
-                          keep ? keep->loop_phase_deg : NULL, &pr->loop, &e) != RU_OK) {
-        ru_report_note(rep, "loop gain of %s not evaluated: %s", loop, e.msg);
-        return RU_OK;
+    snprintf(pr->loop_node, sizeof pr->loop_node, "%s", ru_loop_node(l));
+    snprintf(pr->loop_load, sizeof pr->loop_load, "%s", ru_loop_load(l));
+    if (pr->loop_node[0])
+        snprintf(pr->loop_part, sizeof pr->loop_part, "node %.*s", RU_NAME_MAX - 6,
+                 pr->loop_node);
+    else
+        snprintf(pr->loop_part, sizeof pr->loop_part, "%s", ru_loop_label(l));
+    if (ru_loop_sweep(l, fmin, fmax, RU_RUN_DATA_LOOP_POINTS,
+                      keep ? keep->loop_f_hz : NULL, keep ? keep->loop_mag : NULL,
+                      keep ? keep->loop_phase_deg : NULL, &pr->loop, &e) != RU_OK) {
+        ru_report_note(rep, "loop gain of %s not evaluated: %s", pr->loop_part, e.msg);
+    } else {
+        pr->have_loop = 1;
+        if (keep)
+            keep->nloop = RU_RUN_DATA_LOOP_POINTS;
     }
-    pr->have_loop = 1;
-    if (keep)
-        keep->nloop = RU_RUN_DATA_LOOP_POINTS;
+    ru_loop_destroy(l);
     return RU_OK;
 }
 
-ru_status ru_predict(const ru_circuit *c, const ru_system *s, const char *loop_part,
+ru_status ru_predict(const ru_circuit *c, const ru_system *s, const ru_run_request *rq,
                      int probe_pos, int probe_neg, ru_run_report *rep, ru_run_data *keep,
                      double *x_op_out, ru_error *err)
 {
@@ -197,8 +208,7 @@ ru_status ru_predict(const ru_circuit *c, const ru_system *s, const char *loop_p
     predict_poles(s, x_op, probe_pos, probe_neg, rep, keep);
     if (pr->have_poles && pr->growth_rate_per_s > 0)
         ru_predict_tone(s, x_op, probe_pos, probe_neg, rep, keep);
-    if (loop_part && loop_part[0])
-        st = predict_loop(c, s, loop_part, x_op, rep, keep, err);
+    st = predict_loop(c, s, rq, x_op, rep, keep, err);
 done:
     free(x_op);
     return st;

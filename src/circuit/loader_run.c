@@ -269,6 +269,59 @@ static ru_status read_loop(ld_doc *d, ru_circuit *c, const ru_ypair *p,
     return RU_OK;
 }
 
+static ru_status read_loop_node(ld_doc *d, ru_circuit *c, const ru_ypair *p,
+                                ru_error *err)
+{
+    const char *text;
+    ru_status s = ru_ld_scalar(d, p, "measure", err, &text);
+    if (s != RU_OK)
+        return s;
+    int k = ru_circuit_find_node(c, text);
+    char dym[RU_NAME_MAX + 24];
+    if (k < 0)
+        return ru_ld_fail(d, ru_ld_val(p), err,
+                          "measure: key loop-node: node %s does not exist%s", text,
+                          ru_circuit_suggest_node(c, text, dym, sizeof dym));
+    if (k == 0)
+        return ru_ld_fail(d, ru_ld_val(p), err,
+                          "measure: key loop-node: ground cannot be broken");
+    snprintf(ru_circuit_measure_opts(c)->loop_node, RU_NAME_MAX, "%s", text);
+    return RU_OK;
+}
+
+/* loop-load: one part name or a list of them. */
+static ru_status read_loop_load(ld_doc *d, ru_circuit *c, const ru_ypair *p,
+                                ru_error *err)
+{
+    const ru_ynode *v = ru_ld_val(p);
+    const ru_ynode *one[1] = {v};
+    const ru_ynode *const *items = one;
+    size_t n = 1;
+    if (v && v->type == RU_YAML_SEQUENCE) {
+        items = (const ru_ynode *const *)v->items;
+        n = v->n;
+    }
+    if (!v || n == 0 || n > RU_LOOP_LOAD_MAX)
+        return ru_ld_fail(d, v ? v : p->key, err,
+                          "measure: key loop-load needs 1 to %d part names",
+                          RU_LOOP_LOAD_MAX);
+    ru_measure_opts *m = ru_circuit_measure_opts(c);
+    for (size_t i = 0; i < n; i++) {
+        const ru_ynode *it = items[i];
+        char dym[RU_NAME_MAX + 24];
+        if (!it || it->type != RU_YAML_SCALAR)
+            return ru_ld_fail(d, it ? it : v, err,
+                              "measure: key loop-load: each entry is one part name");
+        if (ru_circuit_find_part(c, it->text) < 0)
+            return ru_ld_fail(d, it, err, "measure: key loop-load: there is no part %s%s",
+                              it->text,
+                              ru_circuit_suggest_part(c, it->text, dym, sizeof dym));
+        snprintf(m->loop_load[i], RU_NAME_MAX, "%s", it->text);
+    }
+    m->nloop_load = (int)n;
+    return RU_OK;
+}
+
 /* A fraction in (0, 1) written as a percentage or a plain number. */
 static ru_status fraction(ld_doc *d, const ru_ynode *v, const ru_ynode *place,
                           const char *what, ru_error *err, double *out)
@@ -312,7 +365,8 @@ static ru_status read_window(ld_doc *d, ru_circuit *c, const ru_ypair *p,
 ru_status ru_ld_measure(ld_doc *d, ru_circuit *c, const ru_ypair *mp,
                               ru_error *err)
 {
-    static const char *const keys[] = {"probe", "loop", "startup-level", "growth-window",
+    static const char *const keys[] = {"probe",         "loop",          "loop-node",
+                                       "loop-load",     "startup-level", "growth-window",
                                        NULL};
     const ru_ynode *map;
     ru_status s = ru_ld_need_mapping(d, mp, "", err, &map);
@@ -323,6 +377,16 @@ ru_status ru_ld_measure(ld_doc *d, ru_circuit *c, const ru_ypair *mp,
         s = read_probe(d, c, p, err);
     if (s == RU_OK && (p = ru_ld_find(map, "loop")) != NULL)
         s = read_loop(d, c, p, err);
+    if (s == RU_OK && (p = ru_ld_find(map, "loop-node")) != NULL)
+        s = read_loop_node(d, c, p, err);
+    if (s == RU_OK && (p = ru_ld_find(map, "loop-load")) != NULL)
+        s = read_loop_load(d, c, p, err);
+    if (s == RU_OK && p && !ru_circuit_measure_opts(c)->loop_node[0])
+        s = ru_ld_fail(d, p->key, err, "measure: key loop-load needs loop-node");
+    if (s == RU_OK && (p = ru_ld_find(map, "loop-node")) != NULL &&
+        ru_circuit_measure_opts(c)->loop[0])
+        s = ru_ld_fail(d, p->key, err,
+                       "measure: give loop (an amplifier) or loop-node (a node), not both");
     if (s == RU_OK && (p = ru_ld_find(map, "startup-level")) != NULL)
         s = fraction(d, ru_ld_val(p), p->key, "key startup-level", err,
                      &ru_circuit_measure_opts(c)->startup_level);

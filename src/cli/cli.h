@@ -169,6 +169,32 @@ typedef struct cli_plot_req {
         {"plot-format", "FMT", "png (default), svg or pdf", NULL},                \
         {"report", "FILE", "one-file report: FILE.pdf (pages) or FILE.html", NULL}
 
+/* The loop a command reports (loopopt.c): --loop PART, or --loop-node NODE with
+ * --loop-load PARTS (comma-separated); all NULL: the file's measure section. */
+#define CLI_LOOP_NODE_OPTS                                                          \
+    {"loop-node", "NODE",                                                         \
+     "break the loop at NODE instead (Middlebrook's double injection, loads kept)", \
+     NULL},                                                                        \
+        {"loop-load", "PARTS",                                                    \
+         "parts on the far side of the --loop-node break (default: the inputs "   \
+         "at NODE)",                                                              \
+         NULL}
+
+typedef struct cli_loop_opts {
+    const char *part, *node, *load;
+} cli_loop_opts;
+
+/* Reads the loop options (--loop, --loop-node, --loop-load where the command has
+ * them); returns 0, or 1 after a message when they contradict each other. */
+int cli_loop_get(const cli_opt *opts, cli_loop_opts *lo);
+
+struct ru_loop;
+/* "loop gain of A1" or "loop gain at node p (load side: A1 in), double injection". */
+void cli_loop_title(const struct ru_loop *l, char *buf, size_t size);
+
+/* The loop's identity in JSON: "part": NAME, or "node", "load" and "method". */
+void cli_loop_json_id(ru_json *j, const struct ru_loop *l);
+
 /* Reads and checks the plot options before any simulation work (an unknown
  * format or an unwritable folder is refused at once); returns 0 or an exit status. */
 int cli_plot_check(const cli_opt *opts, cli_plot_req *pr);

@@ -18,7 +18,7 @@ typedef struct poles_result {
     double *x;          /* operating point */
     ru_pole *poles;
     int dom;            /* index of the dominant pair or -1 */
-    int loop_part;      /* -1: none */
+    ru_loop *lh;        /* the loop named (--loop, --loop-node or the file), or NULL */
     ru_loop_summary loop;
     int have_loop;
     int probe_pos, probe_neg; /* probe for the amplitude curve */
@@ -58,14 +58,15 @@ static void print_text(const ru_circuit *c, const poles_result *p)
     if (p->amp)
         cli_amp_print(p->amp, ru_circuit_node_name(c, p->probe_pos));
     if (p->have_loop) {
-        const ru_part *pt = ru_circuit_part(c, (size_t)p->loop_part);
+        char what[RU_LOOP_LABEL_MAX + 16];
+        cli_loop_title(p->lh, what, sizeof what);
         if (p->loop.found)
-            printf("loop gain of %s: phase 0 at %s, |L| = %.5g (%+.2f dB)\n", pt->name,
+            printf("%s: phase 0 at %s, |L| = %.5g (%+.2f dB)\n", what,
                    ru_format_si(p->loop.crossover_hz, "Hz", 5, a, sizeof a), p->loop.gain,
                    p->loop.margin_db);
         else
-            printf("loop gain of %s: the phase does not pass 0 degrees in the range "
-                   "searched\n", pt->name);
+            printf("%s: the phase does not pass 0 degrees in the range searched\n",
+                   what);
     }
 }
 
@@ -100,7 +101,7 @@ static void print_json(const ru_circuit *c, const poles_result *p)
         cli_amp_json(&j, p->amp);
     if (p->have_loop) {
         ru_json_begin_object(&j, "loop");
-        ru_json_string(&j, "part", ru_circuit_part(c, (size_t)p->loop_part)->name);
+        cli_loop_json_id(&j, p->lh);
         ru_json_number(&j, "crossover_hz", p->loop.found ? p->loop.crossover_hz : NAN);
         ru_json_number(&j, "gain_at_crossover", p->loop.found ? p->loop.gain : NAN);
         ru_json_number(&j, "margin_db", p->loop.found ? p->loop.margin_db : NAN);
@@ -130,7 +131,7 @@ static ru_status amplitude_curve(const ru_circuit *c, poles_result *p, ru_error 
     return cli_amp_compute(p->sys, p->x, p->probe_pos, p->probe_neg, p->amp, err);
 }
 
-static ru_status compute(const ru_circuit *c, const char *loop, poles_result *p,
+static ru_status compute(const ru_circuit *c, const cli_loop_opts *lo, poles_result *p,
                          ru_error *err)
 {
     ru_status st = ru_system_create(c, &p->sys, err);
@@ -157,16 +158,13 @@ static ru_status compute(const ru_circuit *c, const char *loop, poles_result *p,
     p->dom = ru_poles_dominant(p->poles, ru_poles_count(p->sys));
     if (p->amp && (st = amplitude_curve(c, p, err)) != RU_OK)
         return st;
-    if (!loop || !loop[0])
-        return RU_OK;
-    p->loop_part = ru_circuit_find_part(c, loop);
-    if (p->loop_part < 0 || ru_circuit_part(c, (size_t)p->loop_part)->type != RU_PART_AMPLIFIER)
-        return ru_error_set(err, RU_EINPUT, ru_circuit_file(c), 0, 0,
-                            "loop part %s is not an amplifier of this circuit", loop);
+    st = ru_loop_create_named(p->sys, p->x, lo->part, lo->node, lo->load, &p->lh, err);
+    if (st != RU_OK || !p->lh)
+        return st;
     double f0 = p->dom >= 0 ? p->poles[p->dom].im_rad_per_s / (2 * M_PI) : 0;
-    st = ru_loopgain_sweep(p->sys, p->loop_part, p->x, f0 > 0 ? f0 / 30 : 1,
-                           f0 > 0 ? f0 * 30 : 1e9, RU_RUN_DATA_LOOP_POINTS, p->loop_f,
-                           p->loop_mag, p->loop_ph, &p->loop, err);
+    st = ru_loop_sweep(p->lh, f0 > 0 ? f0 / 30 : 1, f0 > 0 ? f0 * 30 : 1e9,
+                       RU_RUN_DATA_LOOP_POINTS, p->loop_f, p->loop_mag, p->loop_ph,
+                       &p->loop, err);
     p->have_loop = st == RU_OK;
     return st;
 }
@@ -185,7 +183,7 @@ static int plot_poles(const cli_plot_req *pr, const ru_circuit *c, const poles_r
         amp[i] = p->amp->curve[i].amplitude_v;
     }
     ru_plot_poles pp = {ru_poles_count(p->sys), p->poles, p->dom, nd, amp, drift};
-    ru_plot_bode loop = {1, p->have_loop ? ru_circuit_part(c, (size_t)p->loop_part)->name : "",
+    ru_plot_bode loop = {1, p->have_loop ? ru_loop_label(p->lh) : "",
                          RU_RUN_DATA_LOOP_POINTS, p->loop_f, p->loop_mag, p->loop_ph,
                          p->loop.found ? p->loop.crossover_hz : NAN,
                          p->loop.found ? p->loop.gain : NAN};
@@ -198,6 +196,7 @@ static int plot_poles(const cli_plot_req *pr, const ru_circuit *c, const poles_r
 int cmd_poles(int argc, char **argv)
 {
     cli_opt opts[] = {{"loop", "PART", "amplifier whose loop gain is reported", NULL},
+                      CLI_LOOP_NODE_OPTS,
                       {"amplitude", NULL,
                        "how the dominant pair drifts as the amplitude grows (describing "
                        "function) and the predicted settled amplitude", NULL},
@@ -205,11 +204,12 @@ int cmd_poles(int argc, char **argv)
                       CLI_PLOT_OPTS,
                       {NULL, NULL, NULL, NULL}};
     const char *file;
-    int rc = cli_parse(argc, argv, "ringup poles FILE [--loop PART] [--amplitude] [--json]",
+    int rc = cli_parse(argc, argv, "ringup poles FILE [--loop PART | --loop-node NODE [--loop-load PARTS]] "
+                       "[--amplitude] [--json]",
                        "Finds the DC operating point (supplies at their final values), the "
                        "poles of the\nlinearized circuit there, the dominant pair and, for "
-                       "a named amplifier, the loop gain\nwith its zero-phase crossover "
-                       "(Barkhausen criterion).",
+                       "a named amplifier or node, the loop\ngain with its zero-phase "
+                       "crossover (Barkhausen criterion).",
                        opts, &file);
     if (rc >= 0)
         return rc;
@@ -219,17 +219,19 @@ int cmd_poles(int argc, char **argv)
     ru_circuit *c = NULL;
     if ((rc = cli_load(file, cli_get(opts, "json") != NULL, &c)) != 0)
         return rc;
-    poles_result p = {.dom = -1, .loop_part = -1};
+    poles_result p = {.dom = -1};
     ru_error err;
     ru_error_clear(&err);
-    const char *loop = cli_get(opts, "loop");
-    if (!loop)
-        loop = ru_circuit_measure_opts_const(c)->loop;
+    cli_loop_opts lo;
+    if ((rc = cli_loop_get(opts, &lo)) != 0) {
+        ru_circuit_destroy(c);
+        return rc;
+    }
     if (cli_get(opts, "amplitude") && !(p.amp = calloc(1, sizeof *p.amp))) {
         ru_circuit_destroy(c);
         return 2;
     }
-    ru_status st = compute(c, loop, &p, &err);
+    ru_status st = compute(c, &lo, &p, &err);
     if (st != RU_OK)
         rc = cli_fail(&err);
     else if (cli_get(opts, "json"))
@@ -247,6 +249,7 @@ int cmd_poles(int argc, char **argv)
     free(p.x);
     free(p.poles);
     free(p.amp);
+    ru_loop_destroy(p.lh);
     ru_system_destroy(p.sys);
     ru_circuit_destroy(c);
     return rc;

@@ -157,15 +157,21 @@ static void print_text(const ru_circuit *c, const ru_run_report *r, int auto_sam
         printf("\n"); /* why the growth rate is missing is among the notes */
     print_start_level(p);
     if (p->have_loop) {
+        char what[RU_NAME_MAX + RU_LOOP_LOAD_TEXT + 64];
+        if (p->loop_node[0])
+            snprintf(what, sizeof what, "loop gain at node %s (load side: %s; double "
+                     "injection)", p->loop_node, p->loop_load);
+        else
+            snprintf(what, sizeof what, "loop gain of %s", p->loop_part);
         if (p->loop.found)
-            printf("loop gain of %s: phase 0 at %s, |L| = %.4g (%+.2f dB): %s\n",
-                   p->loop_part, ru_format_si(p->loop.crossover_hz, "Hz", 4, a, sizeof a),
+            printf("%s: phase 0 at %s, |L| = %.4g (%+.2f dB): %s\n", what,
+                   ru_format_si(p->loop.crossover_hz, "Hz", 4, a, sizeof a),
                    p->loop.gain, p->loop.margin_db,
                    p->loop.margin_db > 0 ? "above 1, the loop starts (Barkhausen)"
                                          : "below 1, the loop does not start");
         else
-            printf("loop gain of %s: the phase never passes 0 degrees in the range "
-                   "searched: no oscillation through this loop\n", p->loop_part);
+            printf("%s: the phase never passes 0 degrees in the range searched: no "
+                   "oscillation through this loop\n", what);
     }
     if (r->engine.envelope)
         printf("engine: envelope: %ld cycles integrated, %.4g spanned by %ld envelope "
@@ -223,7 +229,13 @@ static void print_json(const ru_run_report *r, int partial, const char *wav_path
     ru_json_end_object(&j);
     if (r->pred.have_loop) {
         ru_json_begin_object(&j, "loop");
-        ru_json_string(&j, "part", r->pred.loop_part);
+        if (r->pred.loop_node[0]) {
+            ru_json_string(&j, "node", r->pred.loop_node);
+            ru_json_string(&j, "load_side", r->pred.loop_load);
+            ru_json_string(&j, "method", "Middlebrook double injection");
+        } else {
+            ru_json_string(&j, "part", r->pred.loop_part);
+        }
         ru_json_number(&j, "crossover_hz", r->pred.loop.found ? r->pred.loop.crossover_hz : NAN);
         ru_json_number(&j, "gain_at_crossover", r->pred.loop.found ? r->pred.loop.gain : NAN);
         ru_json_number(&j, "margin_db", r->pred.loop.found ? r->pred.loop.margin_db : NAN);
@@ -480,7 +492,12 @@ static int set_request(const cli_opt *opts, ru_run_request *rq)
 {
     ru_run_request_default(rq);
     rq->out_dir = cli_get(opts, "out");
-    rq->loop_part = cli_get(opts, "loop");
+    cli_loop_opts lo;
+    if (cli_loop_get(opts, &lo) != 0)
+        return 0;
+    rq->loop_part = lo.part;
+    rq->loop_node = lo.node;
+    rq->loop_load = lo.load;
     if (!cli_stop(opts, rq) || !cli_positive(opts, "sample", "s", &rq->sample_s))
         return 0;
     if (!set_wav(opts, rq))
@@ -509,6 +526,7 @@ int cmd_run(int argc, char **argv)
         {"engine", "E", "auto (default), direct (every cycle) or envelope (cycles "
                         "skipped, for slow starters)", NULL},
         {"loop", "PART", "amplifier whose loop gain is reported", NULL},
+        CLI_LOOP_NODE_OPTS,
         {"verify", NULL, "rerun at 10x tighter tolerances and show what moved", NULL},
         {"wav", "FILE", "write the probe as mono audio (WAV); lower the volume before playing", NULL},
         {"wav-rate", "HZ", "audio sample rate (default 48000)", NULL},

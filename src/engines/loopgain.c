@@ -1,14 +1,14 @@
 /* loopgain.c: loop gain (return ratio of one amplifier) and network response.
  *
  * Loop gain: dr/dx = A0 + b g^T (ru_system_loop_split), L(jw) = g^T (jwM - A0)^{-1} b
- * by one complex LU solve (LAPACKE_zgesv) per frequency. The sweep unwraps the
- * phase along log-spaced frequencies, brackets every crossing of a multiple of
- * 360 degrees and refines it by bisection in log f; the summary reports the
- * crossing with the largest |L|.
+ * by one complex LU solve (LAPACKE_zgesv) per frequency, as a loop handle
+ * (loop_impl.h; the sweep is in loopsweep.c); ru_loopgain_at and ru_loopgain_sweep
+ * are one-call forms over a temporary handle.
  * Response: (jwM - dr/dx) v = 0 for every row but the driven input node's, which
  * becomes v_in = 1; the answer is v_out. Ground and supply-driven output nodes
  * carry no signal (0). Invariants: all work arrays belong to one call. */
 #include "base/cplx.h"
+#include "engines/loop_impl.h"
 #include "engines/smallsig_impl.h"
 
 #include <complex.h>
@@ -18,8 +18,6 @@
 #include <string.h>
 
 #define RU_PI 3.14159265358979323846
-#define BISECT_MAX 80        /* bisection steps on a phase crossing */
-#define BISECT_REL 1e-13     /* stop when the bracket is this narrow (relative) */
 #define GOLDEN_MAX 100       /* golden-section steps of the peak search */
 
 /* Linear pieces shared by the loop-gain and response solves. */
@@ -79,7 +77,7 @@ static ru_status solve_k(lin_ctx *c, double f_hz, ru_error *err)
     return RU_OK;
 }
 
-/* ---- loop gain ---- */
+/* ---- loop gain of one amplifier ---- */
 
 static ru_status loop_setup(const ru_system *s, int part, const double *x, lin_ctx *c,
                             ru_error *err)
@@ -105,8 +103,9 @@ static ru_status loop_setup(const ru_system *s, int part, const double *x, lin_c
     return RU_OK;
 }
 
-static ru_status loop_eval(lin_ctx *c, double f_hz, double complex *L, ru_error *err)
+static ru_status loop_eval(ru_loop *l, double f_hz, double complex *L, ru_error *err)
 {
+    lin_ctx *c = l->ctx;
     fill_k(c, 2.0 * RU_PI * f_hz);
     for (size_t i = 0; i < c->n; i++)
         c->v[i] = c->b[i];
@@ -120,111 +119,27 @@ static ru_status loop_eval(lin_ctx *c, double f_hz, double complex *L, ru_error 
     return RU_OK;
 }
 
-ru_status ru_loopgain_at(const ru_system *s, int part, const double *x, double f_hz,
-                         double *re, double *im, ru_error *err)
+static void loop_free(void *ctx)
 {
-    lin_ctx c;
-    double complex L = 0;
-    ru_status st = RU_OK;
-    memset(&c, 0, sizeof c);
-    if (!(isfinite(f_hz) && f_hz >= 0)) {
-        st = ru_error_set(err, RU_ERANGE, "", 0, 0,
-                          "loop gain: frequency must be finite and >= 0 (got %g)", f_hz);
-        goto done;
+    if (ctx)
+        ctx_free(ctx);
+    free(ctx);
+}
+
+ru_status ru_loop_create_part(const ru_system *s, int part, const double *x,
+                              ru_loop **out, ru_error *err)
+{
+    *out = NULL;
+    lin_ctx *c = calloc(1, sizeof *c);
+    if (!c)
+        return ru_error_set(err, RU_ENOMEM, "", 0, 0, "loop gain: out of memory");
+    ru_status st = loop_setup(s, part, x, c, err);
+    if (st != RU_OK) {
+        loop_free(c);
+        return st;
     }
-    st = loop_setup(s, part, x, &c, err);
-    if (st == RU_OK)
-        st = loop_eval(&c, f_hz, &L, err);
-done:
-    if (re)
-        *re = st == RU_OK ? creal(L) : NAN;
-    if (im)
-        *im = st == RU_OK ? cimag(L) : NAN;
-    ctx_free(&c);
-    return st;
-}
-
-static double deg_of(double complex z) { return atan2(cimag(z), creal(z)) * 180.0 / RU_PI; }
-
-/* d wrapped into (-180, 180]. */
-static double wrap180(double d)
-{
-    d = fmod(d, 360.0);
-    if (d > 180.0)
-        d -= 360.0;
-    else if (d <= -180.0)
-        d += 360.0;
-    return d;
-}
-
-/* Bisection in log f for the crossing of `target` degrees between f_lo (unwrapped
- * phase p_lo) and f_hi; returns the frequency and |L| there. */
-static ru_status refine_crossing(lin_ctx *c, double f_lo, double p_lo, double f_hi,
-                                 double target, double *f_x, double *gain,
-                                 ru_error *err)
-{
-    double side_lo = p_lo - target;
-    double complex L = 0;
-    for (int k = 0; k < BISECT_MAX && f_hi - f_lo > BISECT_REL * f_hi; k++) {
-        double fm = sqrt(f_lo * f_hi);
-        ru_status st = loop_eval(c, fm, &L, err);
-        if (st != RU_OK)
-            return st;
-        double pm = p_lo + wrap180(deg_of(L) - p_lo);
-        if ((pm - target) * side_lo > 0) {
-            f_lo = fm;
-            p_lo = pm;
-        } else {
-            f_hi = fm;
-        }
-    }
-    *f_x = sqrt(f_lo * f_hi);
-    ru_status st = loop_eval(c, *f_x, &L, err);
-    *gain = cabs(L);
-    return st;
-}
-
-static void record_crossing(ru_loop_summary *sum, double f_hz, double gain)
-{
-    if (!sum->found || gain > sum->gain) {
-        sum->found = 1;
-        sum->crossover_hz = f_hz;
-        sum->gain = gain;
-        sum->margin_db = 20.0 * log10(gain);
-    }
-}
-
-/* A sweep point whose phase is exactly a multiple of 360 is a crossing itself. */
-static ru_status exact_crossing(lin_ctx *c, double f_hz, ru_loop_summary *sum,
-                                ru_error *err)
-{
-    double complex L;
-    ru_status st = loop_eval(c, f_hz, &L, err);
-    if (st == RU_OK)
-        record_crossing(sum, f_hz, cabs(L));
-    return st;
-}
-
-/* Every multiple of 360 crossed between unwrapped phases p0 (at f0) and p1 (at
- * f1); one that p0 sits on was counted with the previous interval. */
-static ru_status crossings_in(lin_ctx *c, double f0, double p0, double f1, double p1,
-                              ru_loop_summary *sum, ru_error *err)
-{
-    double lo = p0 < p1 ? p0 : p1, hi = p0 < p1 ? p1 : p0;
-    ru_status st = RU_OK;
-    for (double k = ceil(lo / 360.0); st == RU_OK && k * 360.0 <= hi; k += 1.0) {
-        double target = k * 360.0, fx, gx;
-        if (target == p0)
-            continue;
-        if (target == p1) {
-            st = exact_crossing(c, f1, sum, err);
-            continue;
-        }
-        st = refine_crossing(c, f0, p0, f1, target, &fx, &gx, err);
-        if (st == RU_OK)
-            record_crossing(sum, fx, gx);
-    }
-    return st;
+    const ru_part *p = ru_circuit_part(ru_system_circuit(s), (size_t)part);
+    return ru_loop_wrap(loop_eval, loop_free, c, p->name, out, err);
 }
 
 static ru_status sweep_args(double fmin_hz, double fmax_hz, size_t npts,
@@ -246,41 +161,45 @@ static double log_point(double fmin, double fmax, size_t k, size_t npts)
     return fmin * pow(fmax / fmin, (double)k / (double)(npts - 1));
 }
 
+static double deg_of(double complex z) { return atan2(cimag(z), creal(z)) * 180.0 / RU_PI; }
+
+/* One-call forms over a temporary handle. */
+ru_status ru_loopgain_at(const ru_system *s, int part, const double *x, double f_hz,
+                         double *re, double *im, ru_error *err)
+{
+    ru_loop *l = NULL;
+    ru_status st = RU_OK;
+    if (!(isfinite(f_hz) && f_hz >= 0))
+        st = ru_error_set(err, RU_ERANGE, "", 0, 0,
+                          "loop gain: frequency must be finite and >= 0 (got %g)", f_hz);
+    if (st == RU_OK)
+        st = ru_loop_create_part(s, part, x, &l, err);
+    if (st == RU_OK)
+        st = ru_loop_eval(l, f_hz, re, im, err);
+    else {
+        if (re)
+            *re = NAN;
+        if (im)
+            *im = NAN;
+    }
+    ru_loop_destroy(l);
+    return st;
+}
+
 ru_status ru_loopgain_sweep(const ru_system *s, int part, const double *x,
                             double fmin_hz, double fmax_hz, size_t npts, double *f_hz,
                             double *mag, double *phase_deg, ru_loop_summary *sum,
                             ru_error *err)
 {
-    lin_ctx c;
-    ru_loop_summary res = {0, NAN, NAN, NAN};
-    double f_prev = 0.0, p_prev = 0.0;
-    memset(&c, 0, sizeof c);
+    ru_loop *l = NULL;
     ru_status st = sweep_args(fmin_hz, fmax_hz, npts, 2, err);
     if (st == RU_OK)
-        st = loop_setup(s, part, x, &c, err);
-    for (size_t k = 0; st == RU_OK && k < npts; k++) {
-        double f = log_point(fmin_hz, fmax_hz, k, npts);
-        double complex L;
-        st = loop_eval(&c, f, &L, err);
-        if (st != RU_OK)
-            break;
-        double p = k == 0 ? deg_of(L) : p_prev + wrap180(deg_of(L) - p_prev);
-        if (f_hz)
-            f_hz[k] = f;
-        if (mag)
-            mag[k] = cabs(L);
-        if (phase_deg)
-            phase_deg[k] = p;
-        if (k == 0 && fmod(p, 360.0) == 0.0)
-            st = exact_crossing(&c, f, &res, err);
-        else if (k > 0)
-            st = crossings_in(&c, f_prev, p_prev, f, p, &res, err);
-        f_prev = f;
-        p_prev = p;
-    }
-    if (sum)
-        *sum = res;
-    ctx_free(&c);
+        st = ru_loop_create_part(s, part, x, &l, err);
+    if (st == RU_OK)
+        st = ru_loop_sweep(l, fmin_hz, fmax_hz, npts, f_hz, mag, phase_deg, sum, err);
+    else if (sum)
+        *sum = (ru_loop_summary){0, NAN, NAN, NAN};
+    ru_loop_destroy(l);
     return st;
 }
 

@@ -132,7 +132,7 @@ int ru_part_terminals(const ru_part *p, ru_terminal *out, int max)
             if (t->absent == RU_TERM_NONE && node < 0) /* listed only when given */
                 continue;
             if (n < max)
-                out[n] = (ru_terminal){t->key, node};
+                out[n] = (ru_terminal){t->key, node, t->first + k};
             n++;
         }
     return n;
