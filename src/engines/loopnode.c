@@ -6,7 +6,8 @@
  * control inputs at N) move to a new node N', the others stay on N (the driver
  * side). The split circuit is compiled to a system of its own and linearized at
  * the operating point (N' at N's voltage); the stray capacitance the compiler gives
- * N' is taken out again, so that with N' tied to N the network is the original.
+ * N' is taken out again (and, for a circuit without strays, the stray lent to every
+ * node), so that with N' tied to N the network is the original.
  * A probe ties them: a branch current i_p from N into N' and a voltage
  * v(N') - v(N) = v_z. One LU factorization of the tied network at s = jw serves
  * both injections:
@@ -206,6 +207,12 @@ static ru_status setup(const ru_system *s, const ru_loop_node_spec *sp, const do
                           k == -1 ? "ground cannot be broken"
                                   : "it is held by a supply: no signal to inject into");
     ru_status st = split_node(orig, sp, c, label, size, err);
+    /* Without strays (stray: 0) the load side's node could hold no capacitance and
+     * nothing resistive (an amplifier input alone), which the compiler refuses: the
+     * split circuit gets 1 pF everywhere, taken out of M again below. */
+    double stray0 = ru_circuit_stray_f(orig);
+    if (st == RU_OK && !(stray0 > 0) && ru_circuit_set_stray_f(c->split, 1e-12) != RU_OK)
+        st = ru_error_set(err, RU_ENUMERIC, "", 0, 0, "loop gain: cannot set the stray");
     if (st == RU_OK)
         st = ru_system_create(c->split, &c->sys, err);
     if (st != RU_OK)
@@ -234,7 +241,13 @@ static ru_status setup(const ru_system *s, const ru_loop_node_spec *sp, const do
     xs[nf] = x[k];
     st = ru_ss_linearize(c->sys, xs, c->A, c->M, err);
     free(xs);
-    c->M[(size_t)c->kl * n + (size_t)c->kl] -= ru_circuit_stray_f(c->split);
+    for (int j = 1; j < nn; j++) { /* the stray lent where the file has none */
+        int i = ru_system_node_state(s, j);
+        if (i >= 0)
+            c->M[(size_t)i * n + (size_t)i] -=
+                ru_circuit_node_stray_f(c->split, j) - ru_circuit_node_stray_f(orig, j);
+    }
+    c->M[nf * n + nf] -= ru_circuit_node_stray_f(c->split, np);
     return st;
 }
 
