@@ -35,6 +35,7 @@ typedef enum {
                                cp, cn; value is gm (S) */
     RU_PART_CRYSTAL,   /* quartz crystal: nodes a,b; value is the series-resonant
                           frequency fs (Hz), tol its tolerance (see ru_crystal) */
+    RU_PART_COUPLING,  /* magnetic coupling of two inductors: no nodes (see ru_coupling) */
     RU_PART_TYPE_COUNT
 } ru_part_type;
 
@@ -233,6 +234,17 @@ typedef struct ru_thermal {
     double cth_j_per_k;      /* heat capacity (J/K, > 0) */
 } ru_thermal;
 
+/* Magnetic coupling of two inductors (parts of type inductor, by name): mutual
+ * inductance M = k sqrt(L1 L2), |k| < 1, so that
+ *   v1 = L1 di1/dt + M di2/dt + R1 i1,   v2 = M di1/dt + L2 di2/dt + R2 i2,
+ * with v and i of each inductor taken from its first node to its second (the
+ * first node is the dotted end: currents entering both first nodes add their
+ * fluxes when k > 0). */
+typedef struct ru_coupling {
+    char inductor[2][RU_NAME_MAX]; /* the two inductors' part names */
+    double k;                      /* coupling coefficient, -1 < k < 1 */
+} ru_coupling;
+
 /* Fills d and t with their defaults (documented in README). */
 void ru_diode_defaults(ru_diode *d);
 void ru_thermal_defaults(ru_thermal *t, ru_thermal_kind kind);
@@ -290,6 +302,7 @@ typedef struct ru_part {
     ru_diode diode;          /* diode */
     ru_thermal thermal;      /* thermal resistor */
     ru_crystal crystal;      /* crystal (fs in value, its tolerance in tol) */
+    ru_coupling coupling;    /* coupling of two inductors */
     int line, col;           /* where the part is defined in its file (1-based; 0 none) */
 } ru_part;
 

@@ -128,6 +128,61 @@ static ru_status read_terms(ld_ctx *x, const ru_part_desc *d, const ru_ynode *ma
     return RU_OK;
 }
 
+/* A key naming count parts (the descriptor's refs), e.g. inductors: [L1, L2]: the
+ * names are kept; ru_ld_parts checks them once every part is read. */
+static ru_status read_refs(ld_ctx *x, const ru_refterm *r, const ru_ynode *map,
+                           const ru_ynode *place, const char *who, ru_part *part)
+{
+    const ru_ypair *p = ru_ld_find(map, r->key);
+    if (!p)
+        return ru_ld_fail(x->d, place, x->err, "%s: missing required key %s", who, r->key);
+    const ru_ynode *v = ru_ld_val(p);
+    if (!v || v->type != RU_YAML_SEQUENCE || (int)v->n != r->count)
+        return ru_ld_fail(x->d, v ? v : p->key, x->err,
+                          "%s: key %s needs a list of %d part names, e.g. [L1, L2]", who,
+                          r->key, r->count);
+    char(*names)[RU_NAME_MAX] = (char(*)[RU_NAME_MAX])((char *)part + r->offset);
+    for (int i = 0; i < r->count; i++) {
+        const ru_ynode *it = v->items[i];
+        if (!it || it->type != RU_YAML_SCALAR || !it->text || !ru_ld_valid_name(it->text))
+            return ru_ld_fail(x->d, it ? it : v, x->err,
+                              "%s: key %s: each entry must be a part name", who, r->key);
+        snprintf(names[i], RU_NAME_MAX, "%s", it->text);
+    }
+    return RU_OK;
+}
+
+/* Every name of a refs key (read_refs) names a part of the right type. */
+static ru_status check_refs(ld_ctx *x, const ru_ypair *pair)
+{
+    const ru_ynode *map = ru_ld_val(pair);
+    int k = ru_circuit_find_part(x->c, ru_ld_key(pair));
+    if (k < 0)
+        return RU_OK;
+    const ru_part *part = ru_circuit_part(x->c, (size_t)k);
+    const ru_refterm *r = ru_part_desc_get(part->type)->refs;
+    if (!r)
+        return RU_OK;
+    const ru_ynode *v = ru_ld_val(ru_ld_find(map, r->key));
+    for (int i = 0; i < r->count; i++) {
+        const char *name = v->items[i]->text;
+        int q = ru_circuit_find_part(x->c, name);
+        char dym[RU_NAME_MAX + 24];
+        if (q < 0)
+            return ru_ld_fail(x->d, v->items[i], x->err, "part %s: key %s: no part %s%s",
+                              part->name, r->key, name,
+                              ru_circuit_suggest_part(x->c, name, dym, sizeof dym));
+        const ru_part *o = ru_circuit_part(x->c, (size_t)q);
+        if (o->type != r->type)
+            return ru_ld_fail(x->d, v->items[i], x->err,
+                              "part %s: key %s: %s is a %s, not a%s %s", part->name, r->key,
+                              name, ru_part_type_name(o->type),
+                              strchr("aeiou", ru_part_type_name(r->type)[0]) ? "n" : "",
+                              ru_part_type_name(r->type));
+    }
+    return RU_OK;
+}
+
 /* The variant part is of: a preset (`model`) and/or the selector key, then the
  * variant's defaults unless a preset gave the values. */
 static ru_status read_variant(ld_ctx *x, const ru_ynode *map, const ru_ynode *place,
@@ -169,6 +224,8 @@ static ru_status read_body(ld_ctx *x, const ru_ynode *map, const ru_ynode *place
     if (d->presets)
         ru_ld_add_key(allowed, "model");
     ru_ld_add_key(allowed, d->selector);
+    if (d->refs)
+        ru_ld_add_key(allowed, d->refs->key);
     ru_ld_add_keys(allowed, v);
     char what[64];
     if (d->selector)
@@ -178,6 +235,8 @@ static ru_status read_body(ld_ctx *x, const ru_ynode *map, const ru_ynode *place
     ru_status s = ru_ld_check_keys(x->d, map, who, allowed, what, x->err);
     if (s == RU_OK)
         s = read_terms(x, d, map, place, who, part);
+    if (s == RU_OK && d->refs)
+        s = read_refs(x, d->refs, map, place, who, part);
     if (s == RU_OK)
         s = ru_ld_read_keys(x->d, map, place, who, v->keys, d->sig_unit, part, x->err);
     if (s == RU_OK)
@@ -266,5 +325,7 @@ ru_status ru_ld_parts(ld_ctx *x, const ru_ypair *parts)
         else
             s = read_part(x, p);
     }
+    for (size_t i = 0; s == RU_OK && i < map->n; i++) /* names of other parts */
+        s = check_refs(x, &map->pairs[i]);
     return s;
 }

@@ -82,6 +82,13 @@ static void energy_and_rate(ru_energy_balance *e, double t, const double *x, dou
         E += 0.5 * e->inds[i].l_h * cur * cur;
         P += e->inds[i].l_h * cur * e->f[e->inds[i].state];
     }
+    for (size_t q = 0; q < e->sys->ncpl; q++) { /* mutual inductance: M ia ib */
+        const ru_sys_coupling *k = &e->sys->cpl[q];
+        double ia = x[k->a] - (e->x_ref ? e->x_ref[k->a] : 0.0);
+        double ib = x[k->b] - (e->x_ref ? e->x_ref[k->b] : 0.0);
+        E += k->m_h * ia * ib;
+        P += k->m_h * (ia * e->f[k->b] + ib * e->f[k->a]);
+    }
     *en = E;
     *rate = P;
 }

@@ -79,6 +79,27 @@ typedef struct ru_term {
     int same_as;     /* for RU_TERM_SAME: the node[] index it stands for */
 } ru_term;
 
+/* A key that names other parts, e.g. inductors: [L1, L2]: count part names of one
+ * type, kept as text in ru_part (char [count][RU_NAME_MAX] at offset) and found
+ * by name when the circuit is compiled (the loader checks them once every part is
+ * read: ru_ld_part_refs). */
+typedef struct ru_refterm {
+    const char *key;   /* "inductors" */
+    int count;         /* names in the list */
+    ru_part_type type; /* the type each named part must have */
+    size_t offset;     /* byte offset of the names in ru_part */
+} ru_refterm;
+
+/* A mutual inductance between two inductors' branch states (their rows are rates,
+ * di/dt = (v - R i)/L, unit mass): the mass entries that make those rows
+ * L^-1 (L_a di_a/dt + M di_b/dt) = (v_a - R_a i_a)/L_a, i.e. M/L_a on a's row in
+ * b's column and M/L_b on b's row in a's column, and k = M/sqrt(L_a L_b). */
+typedef struct ru_mutual {
+    double k;      /* coupling coefficient */
+    double m_h;    /* mutual inductance M (H) */
+    double ab, ba; /* M/L_a, M/L_b */
+} ru_mutual;
+
 /* The circuit as a check sees it (the parts layer does not know ru_circuit). */
 typedef struct ru_part_env {
     const char *file;      /* for messages */
@@ -147,6 +168,10 @@ typedef struct ru_part_desc {
     /* residual and Jacobian; index is the part's index (its noise stream), state0
        its first state (-1 without) */
     void (*stamp)(const ru_part *p, ru_stamp *st, int index, int state0);
+    /* parts it names (NULL: none) and, for a coupling of two of them, its mutual
+       inductance given the two named parts (NULL: not a coupling) */
+    const ru_refterm *refs;
+    void (*mutual)(const ru_part *p, const ru_part *a, const ru_part *b, ru_mutual *out);
     /* the loop it can break (NULL: none): b gets d(controlled)/d(control) on the
        rows it controls, g the control voltage's weights (see ringup/system.h) */
     void (*loop)(const ru_part *p, const ru_stamp *st, int state0, double *b, double *g);
@@ -214,6 +239,6 @@ void ru_part_set_variant_none(ru_part *p, int i);
 /* The descriptors, one per family file. */
 extern const ru_part_desc ru_part_resistor, ru_part_capacitor, ru_part_inductor,
     ru_part_supply, ru_part_current, ru_part_poly, ru_part_amplifier, ru_part_diode,
-    ru_part_thermal, ru_part_transconductor, ru_part_crystal;
+    ru_part_thermal, ru_part_transconductor, ru_part_crystal, ru_part_coupling;
 
 #endif

@@ -21,6 +21,7 @@ static const ru_part_desc *const part_table[RU_PART_TYPE_COUNT] = {
     [RU_PART_THERMAL] = &ru_part_thermal,
     [RU_PART_TRANSCONDUCTOR] = &ru_part_transconductor,
     [RU_PART_CRYSTAL] = &ru_part_crystal,
+    [RU_PART_COUPLING] = &ru_part_coupling,
 };
 
 const ru_part_desc *ru_part_desc_get(ru_part_type type)

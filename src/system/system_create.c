@@ -253,6 +253,9 @@ ru_status ru_system_create(const ru_circuit *c, ru_system **out, ru_error *err)
     if (st == RU_OK) {
         number_states(s);
         build_cmat(s);
+        st = ru_sys_couplings(s, err);
+    }
+    if (st == RU_OK) {
         st = ru_sys_split(s, err);
     }
     if (st == RU_OK)
@@ -281,5 +284,6 @@ void ru_system_destroy(ru_system *s)
     free(s->ccol1);
     free(s->names);
     ru_sys_free_split(s);
+    ru_sys_free_couplings(s);
     free(s);
 }

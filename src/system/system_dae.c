@@ -280,6 +280,11 @@ static void fill_mass(ru_system *s)
             else if (i == j)
                 s->pat_mass[q] = 1.0;
         }
+    for (size_t q = 0; q < s->ncpl; q++) { /* mutual inductances (system_couple.c) */
+        const ru_sys_coupling *k = &s->cpl[q];
+        s->pat_mass[ru_sys_pattern_find(s, k->a, k->b)] = k->ab;
+        s->pat_mass[ru_sys_pattern_find(s, k->b, k->a)] = k->ba;
+    }
 }
 
 ru_status ru_sys_build_pattern(ru_system *s, ru_error *err)
@@ -294,6 +299,10 @@ ru_status ru_sys_build_pattern(ru_system *s, ru_error *err)
         for (size_t j = 0; j < nf; j++)
             if (i != j && s->cmat[i * nf + j] != 0)
                 ru_sys_pairs_add(&pr, (int)i, (int)j);
+    for (size_t q = 0; q < s->ncpl; q++) {
+        ru_sys_pairs_add(&pr, s->cpl[q].a, s->cpl[q].b);
+        ru_sys_pairs_add(&pr, s->cpl[q].b, s->cpl[q].a);
+    }
     if (st == RU_OK && n > 0) {
         st = ru_sys_record_pattern(s, x, x + n, &pr);
         if (st == RU_ENUMERIC) /* a non-finite residual at 0 still lists the entries */

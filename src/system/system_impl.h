@@ -65,7 +65,37 @@ struct ru_system {
     long *pat_colptr;      /* n + 1 column starts */
     long *pat_rowind;      /* rows, ascending in each column */
     double *pat_mass;      /* M over the pattern */
+    /* magnetic couplings (system_couple.c) */
+    struct ru_sys_coupling *cpl; /* one per coupling part */
+    size_t ncpl;
+    int *lg;               /* the coupled inductors' states, ascending (nlg) */
+    size_t nlg;
+    double *lg_lu;         /* nlg*nlg row-major: L U of their mass block B */
 };
+
+/* One coupling: the branch states a, b, its k, M (H) and the mass entries M/La
+ * (row a, column b) and M/Lb (row b, column a). */
+typedef struct ru_sys_coupling {
+    int a, b;
+    double k, m_h, ab, ba;
+} ru_sys_coupling;
+
+#define RU_COUPLED_MAX 64 /* most inductors in couplings (README "Limits") */
+
+/* Reads the coupling parts (their descriptors' mutual), checks them (named
+ * inductors, each pair once, a positive definite inductance matrix) and factors
+ * the coupled block of M; nothing when there is none. After number_states. */
+ru_status ru_sys_couplings(ru_system *s, ru_error *err);
+void ru_sys_free_couplings(ru_system *s);
+
+/* Applies the coupled block's inverse to the inductor rows of a full state vector
+ * b (after ru_sys_csolve: M^-1 = blockdiag(C^-1, B^-1, I)), or of every column of
+ * a row-major n x ncols matrix; nothing without couplings. */
+void ru_sys_lsolve(const ru_system *s, double *b);
+void ru_sys_lsolve_rows(const ru_system *s, double *B, size_t ncols);
+
+/* Writes the coupling entries into a dense row-major n x n mass matrix. */
+void ru_sys_couplings_mass(const ru_system *s, double *M, size_t n);
 
 /* Growing list of (row, column) pairs seen while building the sparse pattern. */
 typedef struct ru_sys_pairs {

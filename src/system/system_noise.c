@@ -216,6 +216,7 @@ ru_status ru_system_noise_columns(const ru_system *s, const double *x, double te
             memset(col, 0, n * sizeof *col);
             double dens = source_at(s, i, kind[j], v, x, kt, col);
             ru_sys_csolve(s, col);
+            ru_sys_lsolve(s, col);
             double g = sqrt(fmax(dens, 0.0));
             for (size_t r = 0; r < n; r++)
                 B[r * m + k] = g * col[r];

@@ -144,8 +144,10 @@ ru_status ru_system_rhs(const ru_system *s, double t, const double *x, double *f
         return RU_EINPUT; /* a DAE has no explicit form */
     ru_src_eval e = {t, 0, 1.0};
     ru_status st = residual_core(s, &e, x, f, NULL, -1);
-    if (st == RU_OK)
+    if (st == RU_OK) {
         ru_sys_csolve(s, f);
+        ru_sys_lsolve(s, f);
+    }
     return st;
 }
 
@@ -154,8 +156,10 @@ ru_status ru_system_storage_rates(const ru_system *s, double t, const double *x,
 {
     ru_src_eval e = {t, 0, 1.0};
     ru_status st = residual_core(s, &e, x, xdot, NULL, -1);
-    if (st == RU_OK)
+    if (st == RU_OK) {
         ru_sys_csolve(s, xdot); /* algebraic rows (KCL residuals) become rates 0 */
+        ru_sys_lsolve(s, xdot);
+    }
     return st;
 }
 
@@ -170,8 +174,10 @@ ru_status ru_system_jacobian(const ru_system *s, double t, const double *x, doub
     if (!r)
         return RU_ENOMEM;
     ru_status st = residual_core(s, &e, x, r, J, -1);
-    if (st == RU_OK) /* J[:nf, :] = C^{-1} dr[:nf, :], all columns at once */
+    if (st == RU_OK) { /* J = M^{-1} dr: C^{-1} on the node rows, all columns at once */
         ru_sys_csolve_rows(s, J, n);
+        ru_sys_lsolve_rows(s, J, n);
+    }
     if (r != local)
         free(r);
     return st;
@@ -186,6 +192,7 @@ void ru_system_mass(const ru_system *s, double *M)
             M[i * n + j] = s->cmat[i * nf + j];
     for (size_t i = nf; i < n; i++)
         M[i * n + i] = 1.0;
+    ru_sys_couplings_mass(s, M, n);
 }
 
 /* b and g of the part's loop (its descriptor's loop), with v the node voltages
@@ -256,10 +263,14 @@ ru_status ru_system_eval(const ru_system *s, const ru_eval_point *ep, const doub
     if (!r)
         return RU_ENOMEM;
     ru_status st = residual_core(s, &e, x, r, J, -1);
-    if (st == RU_OK && f)
+    if (st == RU_OK && f) {
         ru_sys_csolve(s, f);
-    if (st == RU_OK && J)
+        ru_sys_lsolve(s, f);
+    }
+    if (st == RU_OK && J) {
         ru_sys_csolve_rows(s, J, n);
+        ru_sys_lsolve_rows(s, J, n);
+    }
     if (r != f && r != local)
         free(r);
     return st;
