@@ -33,7 +33,7 @@ PUBLIC = {
     "steady.h": "engines", "ppv.h": "engines", "hb.h": "engines",
     "envfollow.h": "engines", "margin.h": "engines",
     "measure.h": "measure", "verdict.h": "measure",
-    "wavefile.h": "output", "plot.h": "output", "wav.h": "output",
+    "wavefile.h": "output", "plot.h": "output", "wav.h": "output", "outfile.h": "output",
     "json.h": "output",
     "analysis.h": "analysis", "tone.h": "analysis",
     "batch.h": "batch", "montecarlo.h": "batch", "units.h": "batch",

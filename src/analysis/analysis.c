@@ -333,8 +333,8 @@ closing:
         ru_status cs = ru_csv_close(k.csv, st == RU_OK ? 1 : (st == RU_ENUMERIC ? 2 : 0),
                                     &cerr);
         k.csv = NULL;
-        if (st == RU_OK && cs != RU_OK) {
-            if (err)
+        if ((st == RU_OK || st == RU_EIO) && cs != RU_OK) {
+            if (err) /* the file's own reason (a full disk) over "output stopped" */
                 *err = cerr;
             st = cs;
         }

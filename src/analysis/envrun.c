@@ -364,8 +364,8 @@ ru_status ru_envrun(const ru_system *s, const ru_run_request *rq, ru_run_report 
         ru_error cerr;
         ru_status cs = ru_csv_close(e.rows, st == RU_OK ? 1 : (st == RU_ENUMERIC ? 2 : 0),
                                     &cerr);
-        if (st == RU_OK && cs != RU_OK) {
-            if (err)
+        if ((st == RU_OK || st == RU_EIO) && cs != RU_OK) {
+            if (err) /* the file's own reason (a full disk) over "output stopped" */
                 *err = cerr;
             st = cs;
         }

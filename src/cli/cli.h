@@ -85,6 +85,19 @@ int cli_stop(const cli_opt *opts, ru_run_request *rq);
  * the option is absent); returns 0, or 1 after a message. */
 int cli_accuracy(const cli_opt *opts, int *accuracy);
 
+/* run's design expectations (expect.c); NAN where not given. */
+typedef struct cli_expect {
+    double start_within_s;
+    double amp_lo_v, amp_hi_v;
+    double thd_below_percent;
+} cli_expect;
+
+/* Reads --expect-*; returns 0 after a message when one is malformed or out of range. */
+int cli_expect_parse(const cli_opt *opts, cli_expect *e);
+
+/* Prints each missed expectation to stderr; returns 1 when all are met. */
+int cli_expect_check(const cli_expect *e, const ru_run_report *r);
+
 /* Prints the error as FILE:LINE:COL: message and returns its exit status. */
 int cli_fail(const ru_error *err);
 
@@ -317,6 +330,14 @@ void cli_study_free(cli_study *s);
 
 /* The stop flag a command puts into its run requests before cli_study_run. */
 const volatile sig_atomic_t *cli_study_stop_flag(void);
+
+/* SIGINT and SIGTERM as a clean stop (signals.c): cli_catch_signals(1, old)
+ * clears the flag and installs the handler (old keeps the previous actions),
+ * cli_catch_signals(0, old) puts them back; the flag for the library; the
+ * signal that set it, or 0. */
+void cli_catch_signals(int on, struct sigaction old[2]);
+const volatile sig_atomic_t *cli_stop_flag(void);
+int cli_stop_signal(void);
 
 /* Runs what is left of the study (records from pre first): the log, signals,
  * progress bar, MPI. Returns 0 or an exit status after a message. */

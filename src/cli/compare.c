@@ -202,11 +202,27 @@ int cmd_compare(int argc, char **argv)
         ru_circuit_destroy(c);
         return 2;
     }
+    rq.stop = cli_stop_flag(); /* Ctrl-C: every run stops, temporary files go */
     for (size_t i = 0; i < n; i++)
         prepare(c, part, &v[i], &items[i], &rq, plots.dir || plots.report,
                 cli_get(opts, "out"));
     /* items whose preparation failed keep their status; ru_batch_run skips them */
+    struct sigaction old_sig[2];
+    cli_catch_signals(1, old_sig);
     ru_batch_run(items, n, (int)threads);
+    cli_catch_signals(0, old_sig);
+    int sig = cli_stop_signal();
+    if (sig) {
+        fprintf(stderr, "ringup compare: stopped by %s; no unfinished file was kept\n",
+                sig == SIGINT ? "SIGINT (Ctrl-C)" : "SIGTERM");
+        for (size_t i = 0; i < n; i++) {
+            ru_circuit_destroy(v[i].circuit);
+            ru_run_data_destroy(v[i].data);
+        }
+        free(items);
+        ru_circuit_destroy(c);
+        return 128 + sig;
+    }
     int json = cli_get(opts, "json") != NULL;
     if (json)
         print_json(part, v, items, n);

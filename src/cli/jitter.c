@@ -5,6 +5,7 @@
 
 #include "ringup/circuit.h"
 #include "ringup/loader.h"
+#include "ringup/outfile.h"
 #include "ringup/format.h"
 #include "ringup/json.h"
 #include "ringup/plot.h"
@@ -214,33 +215,32 @@ static int plot_jitter(const cli_plot_req *pr, const ru_circuit *c, const ru_ton
     return cli_plot_set(pr, ru_circuit_title(c), &set, text);
 }
 
-/* phase-noise.csv: offset_hz, ppv_dbc_per_hz, leeson_dbc_per_hz (temporary + rename). */
+/* phase-noise.csv: offset_hz, ppv_dbc_per_hz, leeson_dbc_per_hz (ringup/outfile.h:
+ * temporary + rename). */
 static int write_csv(const char *dir, const ru_tone *t)
 {
     ru_tone_noise nv;
     ru_tone_noise_get(t, &nv);
     if (!nv.have)
         return 0;
-    char path[4096], tmp[4200];
+    char path[4096];
     snprintf(path, sizeof path, "%s/phase-noise.csv", dir);
-    snprintf(tmp, sizeof tmp, "%s.tmp", path);
-    FILE *fp = fopen(tmp, "w");
-    if (!fp) {
-        fprintf(stderr, "%s: cannot write: %s\n", tmp, strerror(errno));
-        return 3;
+    ru_outfile *f = NULL;
+    ru_error err;
+    ru_error_clear(&err);
+    if (ru_outfile_open(path, &f, &err) != RU_OK)
+        return cli_fail(&err);
+    FILE *fp = ru_outfile_stream(f);
+    fprintf(fp, "offset_hz,ppv_dbc_per_hz,leeson_dbc_per_hz\n");
+    for (size_t i = 0; i < nv.npts; i++) {
+        fprintf(fp, "%.8g,%.6g", nv.offset_hz[i], nv.ppv_dbc[i]);
+        if (nv.leeson_dbc)
+            fprintf(fp, ",%.6g\n", nv.leeson_dbc[i]);
+        else
+            fprintf(fp, ",\n");
     }
-    int bad = fprintf(fp, "offset_hz,ppv_dbc_per_hz,leeson_dbc_per_hz\n") < 0;
-    for (size_t i = 0; i < nv.npts && !bad; i++) {
-        bad = fprintf(fp, "%.8g,%.6g", nv.offset_hz[i], nv.ppv_dbc[i]) < 0;
-        bad = bad || (nv.leeson_dbc ? fprintf(fp, ",%.6g\n", nv.leeson_dbc[i])
-                                    : fprintf(fp, ",\n")) < 0;
-    }
-    bad = (fclose(fp) != 0) || bad;
-    if (bad || rename(tmp, path) != 0) {
-        fprintf(stderr, "%s: cannot write: %s\n", path, strerror(errno));
-        remove(tmp);
-        return 3;
-    }
+    if (ru_outfile_commit(f, &err) != RU_OK) /* any failed write shows here */
+        return cli_fail(&err);
     return 0;
 }
 

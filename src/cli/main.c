@@ -5,6 +5,7 @@
  * 2 numerical failure, 3 file I/O, 4 a design expectation was not met. */
 #include "cli/cli.h"
 
+#include <errno.h>
 #include <stdio.h>
 #include <string.h>
 
@@ -40,7 +41,25 @@ static void usage(FILE *fp)
                 "4 a design expectation (--expect-...) was not met.\n");
 }
 
-int main(int argc, char **argv)
+/* What went to stdout must have arrived: a full disk or /dev/full behind stdout is
+ * a file I/O failure (3), never a silent 0. */
+static int finish(int rc)
+{
+    int bad = fflush(stdout) != 0 || ferror(stdout);
+    int e = errno;
+    bad = fclose(stdout) != 0 || bad;
+    if (bad) {
+        fprintf(stderr, "ringup: cannot write the output: %s\n", strerror(e ? e : errno));
+        return rc ? rc : 3;
+    }
+    return rc;
+}
+
+static int dispatch(int argc, char **argv);
+
+int main(int argc, char **argv) { return finish(dispatch(argc, argv)); }
+
+static int dispatch(int argc, char **argv)
 {
     if (argc < 2) {
         usage(stderr);

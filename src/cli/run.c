@@ -6,17 +6,12 @@
 #include "ringup/format.h"
 #include "ringup/json.h"
 #include "ringup/loader.h"
+#include "ringup/outfile.h"
 
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
-
-typedef struct expectations {
-    double start_within_s;    /* NAN: not given */
-    double amp_lo_v, amp_hi_v;
-    double thd_below_percent;
-} expectations;
 
 static const char *yes_no(int v) { return v ? "yes" : "no"; }
 
@@ -251,97 +246,6 @@ static void print_json(const ru_run_report *r, int partial, const char *wav_path
     ru_json_finish(&j);
 }
 
-static int parse_expectations(const cli_opt *opts, expectations *e)
-{
-    e->start_within_s = e->amp_lo_v = e->amp_hi_v = e->thd_below_percent = NAN;
-    if (!cli_positive(opts, "expect-start-within", "s", &e->start_within_s))
-        return 0;
-    if (!cli_value(opts, "expect-thd-below", "%", &e->thd_below_percent))
-        return 0;
-    if (cli_get(opts, "expect-thd-below") &&
-        !(e->thd_below_percent > 0 && e->thd_below_percent <= 1)) {
-        fprintf(stderr, "ringup: option --expect-thd-below: '%s' is not above 0 and at most "
-                        "100%%\n",
-                cli_get(opts, "expect-thd-below"));
-        return 0;
-    }
-    if (isfinite(e->thd_below_percent))
-        e->thd_below_percent *= 100.0; /* the parser returns a fraction for % */
-    const char *amp = cli_get(opts, "expect-amplitude");
-    if (amp) {
-        char lo[64], why[128];
-        const char *colon = strchr(amp, ':');
-        size_t n = colon ? (size_t)(colon - amp) : 0;
-        if (!colon || n >= sizeof lo) {
-            fprintf(stderr, "ringup: option --expect-amplitude wants LO:HI, e.g. 1.8V:2.2V\n");
-            return 0;
-        }
-        memcpy(lo, amp, n);
-        lo[n] = '\0';
-        if (ru_value_parse(lo, "V", &e->amp_lo_v, why, sizeof why) != RU_OK ||
-            ru_value_parse(colon + 1, "V", &e->amp_hi_v, why, sizeof why) != RU_OK ||
-            !(e->amp_lo_v >= 0 && e->amp_lo_v <= e->amp_hi_v && e->amp_hi_v > 0)) {
-            fprintf(stderr, "ringup: option --expect-amplitude: '%s' is not LO:HI volts with 0 <= LO <= HI\n",
-                    amp);
-            return 0;
-        }
-    }
-    return 1;
-}
-
-/* What an expectation got when the run gives no final figure: "not settled by T"
- * for a tone whose envelope still moves at the end, else the verdict. NULL: final.
- * A start-up time needs a settled start; an amplitude or THD a settled tone (a
- * settled driven tone has them too). */
-static const char *not_final(const ru_run_report *r, int need_start, char *buf,
-                             size_t size)
-{
-    const ru_measure_result *m = &r->meas;
-    char t[40];
-    if (m->settled && (m->started || !need_start))
-        return NULL;
-    if (m->started || (!need_start && isfinite(m->settled_amplitude_v))) {
-        snprintf(buf, size, "not settled by %s", ru_format_si(m->t_last_s, "s", 4, t, sizeof t));
-        return buf;
-    }
-    snprintf(buf, size, "no start (%s)", ru_verdict_name(r->verdict));
-    return buf;
-}
-
-/* Prints each missed expectation to stderr; returns 1 when all are met. An
- * expectation on a run that did not start, or that has not settled by its end, is
- * not met: an unsettled figure is not final. */
-static int check_expectations(const expectations *e, const ru_run_report *r)
-{
-    const ru_measure_result *m = &r->meas;
-    int ok = 1;
-    char a[40], b[64], c[64];
-    const char *nf = not_final(r, 1, b, sizeof b);
-    if (isfinite(e->start_within_s) && (nf || !(m->startup_time_s <= e->start_within_s))) {
-        fprintf(stderr, "expectation not met: start-up within %s (got %s)\n",
-                ru_format_si(e->start_within_s, "s", 4, a, sizeof a),
-                nf ? nf : ru_format_si(m->startup_time_s, "s", 4, b, sizeof b));
-        ok = 0;
-    }
-    nf = not_final(r, 0, c, sizeof c);
-    if (isfinite(e->amp_lo_v) && (nf || !(m->settled_amplitude_v >= e->amp_lo_v &&
-                                          m->settled_amplitude_v <= e->amp_hi_v))) {
-        fprintf(stderr, "expectation not met: settled amplitude in %g V .. %g V (got %s)\n",
-                e->amp_lo_v, e->amp_hi_v,
-                nf ? nf : ru_format_si(m->settled_amplitude_v, "V", 4, a, sizeof a));
-        ok = 0;
-    }
-    if (isfinite(e->thd_below_percent) && (nf || !(m->thd_percent < e->thd_below_percent))) {
-        fprintf(stderr, "expectation not met: THD below %g %% (got %s)\n",
-                e->thd_below_percent,
-                nf                       ? nf
-                : isfinite(m->thd_percent) ? (snprintf(a, sizeof a, "%.4g %%", m->thd_percent), a)
-                                         : "no THD: no settled tone");
-        ok = 0;
-    }
-    return ok;
-}
-
 /* The figures --verify compares, with their JSON keys. */
 #define NVERIFY 5
 static void verify_figures(const ru_run_report *r, double *v)
@@ -515,6 +419,16 @@ static int set_request(const cli_opt *opts, ru_run_request *rq)
     return cli_accuracy(opts, &rq->accuracy) == 0;
 }
 
+/* After SIGINT or SIGTERM: what was kept, and the exit status 128 + the signal. */
+static int stopped(const ru_run_request *rq)
+{
+    int sig = cli_stop_signal();
+    fprintf(stderr, "ringup run: stopped by %s; %s\n",
+            sig == SIGINT ? "SIGINT (Ctrl-C)" : "SIGTERM",
+            rq->out_dir || rq->wav_path ? "no unfinished file was kept" : "nothing was written");
+    return 128 + sig;
+}
+
 int cmd_run(int argc, char **argv)
 {
     cli_opt opts[] = {
@@ -552,9 +466,15 @@ int cmd_run(int argc, char **argv)
     if (rc >= 0)
         return rc;
     ru_run_request rq;
-    expectations ex;
-    if (!set_request(opts, &rq) || !parse_expectations(opts, &ex))
+    cli_expect ex;
+    struct sigaction old_sig[2];
+    int catching = 0;
+    if (!set_request(opts, &rq) || !cli_expect_parse(opts, &ex))
         return 1;
+    ru_error werr;
+    ru_error_clear(&werr);
+    if (rq.wav_path && ru_outfile_probe(rq.wav_path, &werr) != RU_OK)
+        return cli_fail(&werr); /* a link, a device, a read-only folder: before the run */
     int json = cli_get(opts, "json") != NULL;
     ru_circuit *c = NULL;
     if ((rc = cli_load(file, 0, &c)) != 0)
@@ -573,7 +493,16 @@ int cmd_run(int argc, char **argv)
     ru_run_report *r = calloc(1, sizeof *r);
     ru_error err;
     ru_error_clear(&err);
+    cli_catch_signals(1, old_sig); /* Ctrl-C: the run stops, its temporary files go */
+    catching = 1;
+    rq.stop = cli_stop_flag();
     ru_status st = r ? ru_analysis_run(c, &rq, r, &err) : RU_ENOMEM;
+    if (st == RU_ESTOPPED || cli_stop_signal()) {
+        rc = stopped(&rq);
+        free(r);
+        ru_run_data_destroy(data);
+        goto done;
+    }
     if (st != RU_OK && st != RU_ENUMERIC) {
         rc = cli_fail(&err);
         free(r);
@@ -591,6 +520,8 @@ int cmd_run(int argc, char **argv)
     }
     ru_run_report *r2 = NULL;
     if (st == RU_OK && cli_get(opts, "verify") && !(r2 = verify_run(c, &rq, r, &rc))) {
+        if (cli_stop_signal())
+            rc = stopped(&rq);
         free(r);
         ru_run_data_destroy(data);
         goto done;
@@ -613,7 +544,10 @@ int cmd_run(int argc, char **argv)
     }
     if (st == RU_OK && !json && r->have_wav)
         print_wav(&rq, r);
-    if (data) {
+    if (data && cli_stop_signal()) {
+        rc = stopped(&rq); /* no figures after a stop */
+        ru_run_data_destroy(data);
+    } else if (data) {
         int prc = cli_plot_run(&plots, c, r, data, text);
         if (prc && !rc)
             rc = prc;
@@ -624,11 +558,13 @@ int cmd_run(int argc, char **argv)
         ru_run_data_destroy(data);
     }
     free(text);
-    if (rc == 0 && !check_expectations(&ex, r))
+    if (rc == 0 && !cli_expect_check(&ex, r))
         rc = 4;
     free(r);
     free(r2);
 done:
+    if (catching)
+        cli_catch_signals(0, old_sig);
     ru_circuit_destroy(c);
     return rc;
 }

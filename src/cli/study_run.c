@@ -4,9 +4,7 @@
  * stop the study cleanly (running units end at their next sample and are not
  * counted; a second signal ends the process at once); the progress bar; MPI rank 0
  * serves the other ranks while its own threads run units.
- *
- * The only process-wide state is the stop flag and the signal that set it, as a
- * signal handler needs (the library takes the flag as a pointer). */
+ * The stop flag is signals.c's. */
 #include "cli/cli.h"
 
 #include "ringup/units.h"
@@ -16,16 +14,7 @@
 #include <string.h>
 #include <unistd.h>
 
-static volatile sig_atomic_t stop_flag;   /* set by the handler: stop handing out */
-static volatile sig_atomic_t stop_signal; /* which signal set it */
-
-static void on_signal(int sig)
-{
-    stop_signal = sig;
-    stop_flag = 1;
-}
-
-const volatile sig_atomic_t *cli_study_stop_flag(void) { return &stop_flag; }
+const volatile sig_atomic_t *cli_study_stop_flag(void) { return cli_stop_flag(); }
 
 typedef struct run_ctx {
     cli_study *s;
@@ -175,29 +164,13 @@ static int check_complete(const cli_study *s, const unsigned char *skip)
     return 1;
 }
 
-static void signals(int on, struct sigaction *old)
-{
-    if (on) {
-        struct sigaction sa;
-        memset(&sa, 0, sizeof sa);
-        sa.sa_handler = on_signal;
-        sa.sa_flags = SA_RESETHAND; /* a second signal ends the process at once */
-        sigemptyset(&sa.sa_mask);
-        sigaction(SIGINT, &sa, &old[0]);
-        sigaction(SIGTERM, &sa, &old[1]);
-    } else {
-        sigaction(SIGINT, &old[0], NULL);
-        sigaction(SIGTERM, &old[1], NULL);
-    }
-}
-
 static int run_units(cli_study *s, const unsigned char *skip, ru_unitlog *log)
 {
     run_ctx r = {.s = s, .log = log};
     int mpi = s->pre && s->pre->mpi_size > 1;
     ru_units_job job = {.count = s->count, .shard_k = s->shard_k, .shard_n = s->shard_n,
                         .skip = skip, .threads = s->threads ? s->threads : mpi ? 1 : 0,
-                        .stop = &stop_flag, .run = run_one, .accept = accept, .ctx = &r,
+                        .stop = cli_stop_flag(), .run = run_one, .accept = accept, .ctx = &r,
                         .serve = mpi ? cli_mpi_serve : NULL};
     ru_units_summary sum;
     ru_error err;
@@ -213,7 +186,7 @@ static int run_units(cli_study *s, const unsigned char *skip, ru_unitlog *log)
     if (st != RU_OK)
         return cli_fail(&err);
     if (sum.stopped) {
-        s->stop_signal = stop_signal ? stop_signal : SIGTERM;
+        s->stop_signal = cli_stop_signal();
     } else if (sum.done < sum.todo) {
         fprintf(stderr, "ringup %s: %zu units were not done (see the messages above)\n",
                 s->command, sum.todo - sum.done);
@@ -240,16 +213,14 @@ int cli_study_run(cli_study *s)
         rc = check_complete(s, skip);
     else if (rc == 0) {
         struct sigaction old[2];
-        stop_flag = 0;
-        stop_signal = 0;
-        signals(1, old);
+        cli_catch_signals(1, old);
         if (rank0) {
             rc = run_units(s, skip, log);
         } else {
             s->worker = 1;
             rc = cli_mpi_work(s);
         }
-        signals(0, old);
+        cli_catch_signals(0, old);
     }
     if (log) {
         ru_error err;

@@ -6,7 +6,8 @@
  *   inductor in part order.
  * - Rows go through a stdio stream with one fixed buffer allocated at open, so a
  *   run of any length writes in constant memory (no per-row allocation).
- * - Data goes to "<path>.tmp.<pid>-<i>" in the same folder (created with O_EXCL) and
+ * - Data goes to "<path>.tmp.<pid>-<i>" in the same folder (ringup/outfile.h: a
+ *   final path that is a link, a device or a FIFO is refused) and
  *   is renamed onto path only by ru_csv_close(keep = 1 or 2); every other end
  *   removes it. The first write error is kept and returned by ru_csv_close.
  *
@@ -20,6 +21,8 @@
 
 #include "ringup/wavefile.h"
 
+#include "ringup/outfile.h"
+
 #include <errno.h>
 #include <fcntl.h>
 #include <math.h>
@@ -29,7 +32,6 @@
 #include <unistd.h>
 
 #define RU_CSV_BUF 65536   /* stdio buffer (bytes) */
-#define RU_CSV_TRIES 100   /* temporary names tried before giving up */
 
 typedef struct csv_col {
     int node;  /* node index, or -1 for an inductor current */
@@ -114,29 +116,20 @@ static void write_header(ru_csv *w)
     fputc('\n', w->fp);
 }
 
-/* Creates the temporary file next to the final one; umask applies (mode 0666). */
+/* Creates the temporary file next to the final one (ringup/outfile.h). */
 static ru_status open_tmp(ru_csv *w)
 {
-    size_t len = strlen(w->path) + 64;
-    w->tmp = malloc(len);
-    if (!w->tmp)
-        return RU_ENOMEM;
-    int fd = -1, e = 0;
-    for (int i = 0; i < RU_CSV_TRIES && fd < 0; i++) {
-        snprintf(w->tmp, len, "%s.tmp.%ld-%d", w->path, (long)getpid(), i);
-        fd = open(w->tmp, O_WRONLY | O_CREAT | O_EXCL | O_CLOEXEC, 0666);
-        e = errno;
-        if (fd < 0 && e != EEXIST)
-            break;
-    }
-    if (fd < 0) {
-        free(w->tmp);
-        w->tmp = NULL;
-        return csv_fail(w, e, "create a file for");
+    int fd = -1;
+    ru_error e2;
+    ru_error_clear(&e2);
+    if (ru_outfile_tmp(w->path, &fd, &w->tmp, &e2) != RU_OK) {
+        w->st = e2.code ? e2.code : RU_EIO;
+        snprintf(w->msg, sizeof w->msg, "%s", e2.msg);
+        return w->st;
     }
     w->fp = fdopen(fd, "w");
     if (!w->fp) {
-        e = errno;
+        int e = errno;
         close(fd);
         unlink(w->tmp);
         return csv_fail(w, e, "open a stream for");

@@ -14,6 +14,8 @@
 
 #include "output/plot_impl.h"
 
+#include "ringup/outfile.h"
+
 #include <errno.h>
 #include <fcntl.h>
 #include <math.h>
@@ -23,7 +25,6 @@
 #include <sys/stat.h>
 #include <unistd.h>
 
-#define PLOT_TMP_TRIES 100 /* temporary names tried before giving up */
 
 static ru_status plot_errno(ru_error *err, int e, const char *what, const char *path)
 {
@@ -35,25 +36,44 @@ static ru_status plot_errno(ru_error *err, int e, const char *what, const char *
 
 ru_status plot_tmp_create(const char *path, char **tmp, ru_error *err)
 {
-    size_t len = strlen(path) + 48;
-    char *name = malloc(len);
-    if (!name)
-        return ru_error_set(err, RU_ENOMEM, "", 0, 0, "out of memory");
-    int fd = -1, e = 0;
-    for (int i = 0; i < PLOT_TMP_TRIES && fd < 0; i++) {
-        snprintf(name, len, "%s.tmp.%ld-%d", path, (long)getpid(), i);
-        fd = open(name, O_WRONLY | O_CREAT | O_EXCL, 0666);
-        e = errno;
-        if (fd < 0 && e != EEXIST)
-            break;
-    }
-    if (fd < 0) {
-        free(name);
-        return plot_errno(err, e, "create a file next to", path);
-    }
-    close(fd);
-    *tmp = name;
-    return RU_OK;
+    int fd = -1;
+    ru_status st = ru_outfile_tmp(path, &fd, tmp, err);
+    if (st == RU_OK)
+        close(fd);
+    return st;
+}
+
+/* A picture is complete when it ends as its format ends (a PNG with its IEND
+ * chunk, a PDF with %%EOF, an SVG with </svg>): cairo and PLplot do not report a
+ * write that failed on a full disk, so the file itself is read back. */
+static int picture_complete(const char *tmp, const char *path)
+{
+    static const unsigned char iend[12] = {0, 0, 0, 0, 'I', 'E', 'N', 'D',
+                                           0xAE, 0x42, 0x60, 0x82};
+    const char *ext = strrchr(path, '.');
+    FILE *fp = fopen(tmp, "rb");
+    if (!fp)
+        return 0;
+    unsigned char tail[64];
+    size_t n = 0;
+    if (fseek(fp, -(long)sizeof tail, SEEK_END) != 0)
+        rewind(fp); /* a file shorter than the tail */
+    n = fread(tail, 1, sizeof tail, fp);
+    fclose(fp);
+    if (n == 0)
+        return 0;
+    if (ext && !strcmp(ext, ".png"))
+        return n >= sizeof iend && !memcmp(tail + n - sizeof iend, iend, sizeof iend);
+    const char *mark = ext && !strcmp(ext, ".pdf") ? "%%EOF"
+                       : ext && !strcmp(ext, ".svg") ? "</svg>"
+                                                     : NULL;
+    if (!mark)
+        return 1;
+    size_t m = strlen(mark);
+    for (size_t i = 0; i + m <= n; i++)
+        if (!memcmp(tail + i, mark, m))
+            return 1;
+    return 0;
 }
 
 ru_status plot_tmp_commit(const char *tmp, const char *path, ru_error *err)
@@ -62,7 +82,14 @@ ru_status plot_tmp_commit(const char *tmp, const char *path, ru_error *err)
     if (stat(tmp, &sb) != 0 || sb.st_size == 0) {
         remove(tmp);
         return ru_error_set(err, RU_EIO, "", 0, 0,
-                            "cannot write '%s': the picture came out empty", path);
+                            "cannot write '%s': the file came out empty", path);
+    }
+    if (!picture_complete(tmp, path)) {
+        remove(tmp);
+        return ru_error_set(err, RU_EIO, "", 0, 0,
+                            "cannot write '%s': the file came out incomplete (%lld "
+                            "bytes; is the disk full?)",
+                            path, (long long)sb.st_size);
     }
     if (rename(tmp, path) != 0) {
         int e = errno;

@@ -1,13 +1,15 @@
 /* wav_write.c: writes the audio of the WAV export with libsndfile.
  *
- * Invariants: data goes to "<path>.tmp.<pid>-<i>" (created with O_EXCL, mode 0666
- * under the umask) in the target folder and is renamed onto path only after
+ * Invariants: data goes to "<path>.tmp.<pid>-<i>" (ringup/outfile.h: created with
+ * O_EXCL; a final path that is a link, a device or a FIFO is refused) in the target folder and is renamed onto path only after
  * sf_close and close succeeded; every failure removes the temporary file. Clipping
  * is switched on, so a value past full scale saturates instead of wrapping around
  * (libsndfile's default for integer PCM wraps). */
 #define _POSIX_C_SOURCE 200809L
 
 #include "output/wav_impl.h"
+
+#include "ringup/outfile.h"
 
 #include <errno.h>
 #include <fcntl.h>
@@ -17,25 +19,7 @@
 #include <string.h>
 #include <unistd.h>
 
-#define RU_WAV_TRIES 100     /* temporary names tried */
 #define RU_WAV_CHUNK 65536   /* frames per sf_write_double call */
-
-static ru_status open_tmp(const char *path, char *tmp, size_t size, int *fd,
-                          ru_error *err)
-{
-    for (int i = 0; i < RU_WAV_TRIES; i++) {
-        if ((size_t)snprintf(tmp, size, "%s.tmp.%ld-%d", path, (long)getpid(), i) >= size)
-            return ru_error_set(err, RU_EIO, NULL, 0, 0,
-                                "cannot write WAV file %s: path too long", path);
-        *fd = open(tmp, O_WRONLY | O_CREAT | O_EXCL | O_CLOEXEC, 0666);
-        if (*fd >= 0)
-            return RU_OK;
-        if (errno != EEXIST)
-            break;
-    }
-    return ru_error_set(err, RU_EIO, NULL, 0, 0, "cannot write WAV file %s: %s", path,
-                        strerror(errno));
-}
 
 /* sf_open_fd with close_desc false: the descriptor stays ours to close. */
 static ru_status write_frames(int fd, const char *path, double rate_hz,
@@ -73,12 +57,9 @@ static ru_status write_frames(int fd, const char *path, double rate_hz,
 ru_status ru_wav_write_file(const char *path, double rate_hz, ru_wav_format format,
                             const double *y, size_t n, ru_error *err)
 {
-    size_t size = strlen(path) + 40;
-    char *tmp = malloc(size);
+    char *tmp = NULL;
     int fd = -1;
-    if (!tmp)
-        return ru_error_set(err, RU_ENOMEM, NULL, 0, 0, "WAV: out of memory");
-    ru_status st = open_tmp(path, tmp, size, &fd, err);
+    ru_status st = ru_outfile_tmp(path, &fd, &tmp, err);
     if (st == RU_OK) {
         st = write_frames(fd, path, rate_hz, format, y, n, err);
         if (close(fd) != 0 && st == RU_OK)
