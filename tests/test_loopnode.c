@@ -383,6 +383,88 @@ static void test_crossing_at_the_poles(void **state)
     ru_circuit_destroy(c);
 }
 
+/* ---- the adaptive grid ---- */
+
+/* The Colpitts loop of test_node_at_input_is_return_ratio with a follower of low
+ * output resistance: the loop's phase turns by nearly 180 degrees within a small
+ * fraction of a 201-point log grid step around the tank's resonance. Reference for
+ * the crossing: the closed form of test_smallsig.c's Colpitts (strays included),
+ * w^2 = (C1 + C2')/(L (C1' C2' + C1 Cs)), C' = C + Cs, independent of the follower's
+ * gain and output resistance; bisection to 1e-13, so 1e-9. The grid's rules are the
+ * response command's (common practice for a smooth Bode plot: no step above 1 dB
+ * or 10 degrees), and 0.1 dB / 1 degree within 5 % of the crossing. */
+static void test_adaptive_grid(void **state)
+{
+    (void)state;
+    const double l_h = 100e-6, c1 = 10e-9, c2 = 22e-9, cs = 1e-12;
+    ru_circuit *c = new_circuit(cs);
+    add_inductor(c, "L1", "a", l_h);
+    add2(c, RU_PART_CAPACITOR, "C1", "a", "t", c1);
+    add2(c, RU_PART_CAPACITOR, "C2", "t", "gnd", c2);
+    add_follower(c, "A1", "a", "t", 0.95, 0.5);
+    ru_system *s = compile(c);
+    double *x = oppoint(s);
+    ru_loop *l = at_node(s, x, "a", NULL);
+    double c1p = c1 + cs, c2p = c2 + cs;
+    double f_book = sqrt((c1 + c2p) / (l_h * (c1p * c2p + c1 * cs))) / (2.0 * PI);
+    enum { NB = 201, MAXP = 1201 };
+    static double f[MAXP], mag[MAXP], ph[MAXP];
+    ru_loop_summary sum;
+    ru_error err;
+    /* The plain grid misses the turn: some step is far above 10 degrees. */
+    assert_int_equal(ru_loop_sweep(l, f_book / 30, f_book * 30, NB, f, mag, ph, &sum, &err),
+                     RU_OK);
+    double worst = 0;
+    for (int k = 1; k < NB; k++)
+        worst = fmax(worst, fabs(ph[k] - ph[k - 1]));
+    assert_true(worst > 30.0);
+    size_t n = 0;
+    assert_int_equal(ru_loop_sweep_adaptive(l, f_book / 30, f_book * 30, NB, MAXP, f, mag,
+                                            ph, &n, &sum, &err),
+                     RU_OK);
+    assert_true(n > NB && n <= MAXP);
+    assert_int_equal(sum.found, 1);
+    RU_ASSERT_REL(sum.crossover_hz, f_book, 1e-9);
+    int at_x = 0;
+    for (size_t k = 0; k < n; k++) {
+        if (k > 0) {
+            assert_true(f[k] > f[k - 1]);
+            double ddb = fabs(20.0 * log10(mag[k] / mag[k - 1])), dp = fabs(ph[k] - ph[k - 1]);
+            int near = f[k] > sum.crossover_hz / 1.05 && f[k - 1] < sum.crossover_hz * 1.05;
+            if (ddb > (near ? 0.1 : 1.0) || dp > (near ? 1.0 : 10.0))
+                fail_msg("step %zu (%g -> %g Hz): %.3g dB, %.3g deg", k, f[k - 1], f[k],
+                         ddb, dp);
+        }
+        if (f[k] == sum.crossover_hz) {
+            at_x = 1;
+            RU_ASSERT_NEAR(remainder(ph[k], 360.0), 0.0, 1e-6);
+            RU_ASSERT_REL(mag[k], sum.gain, 1e-12);
+        }
+    }
+    assert_true(at_x);
+    for (size_t k = 0; k < n; k += 97) { /* every point is L there */
+        double complex lk = eval(l, f[k]);
+        RU_ASSERT_REL(mag[k], cabs(lk), 1e-12);
+    }
+    /* Little room: the roughest steps first, the crossing still among the points. */
+    assert_int_equal(ru_loop_sweep_adaptive(l, f_book / 30, f_book * 30, 21, 40, f, mag, ph,
+                                            &n, &sum, &err),
+                     RU_OK);
+    assert_true(n <= 40);
+    RU_ASSERT_REL(sum.crossover_hz, f_book, 1e-9);
+    at_x = 0;
+    for (size_t k = 0; k < n; k++)
+        at_x |= f[k] == sum.crossover_hz;
+    assert_true(at_x);
+    assert_int_equal(ru_loop_sweep_adaptive(l, f_book / 30, f_book * 30, 21, 21, f, mag, ph,
+                                            &n, &sum, &err),
+                     RU_ERANGE);
+    ru_loop_destroy(l);
+    free(x);
+    ru_system_destroy(s);
+    ru_circuit_destroy(c);
+}
+
 /* ---- refusals ---- */
 
 static void test_bad_breaks(void **state)
@@ -434,6 +516,7 @@ int main(void)
         cmocka_unit_test(test_passive_network_no_loop),
         cmocka_unit_test(test_node_at_input_is_return_ratio),
         cmocka_unit_test(test_crossing_at_the_poles),
+        cmocka_unit_test(test_adaptive_grid),
         cmocka_unit_test(test_bad_breaks),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);

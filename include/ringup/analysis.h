@@ -31,7 +31,8 @@ extern "C" {
  * one envelope point per cycle, 601 loop points, 200 curve points). */
 typedef struct ru_run_data ru_run_data;
 
-#define RU_RUN_DATA_LOOP_POINTS 601 /* loop-gain sweep points kept */
+#define RU_RUN_DATA_LOOP_POINTS 1201 /* loop-gain sweep points kept, at most */
+#define RU_LOOP_GRID_POINTS 201      /* its log-spaced grid before refinement */
 #define RU_RUN_DATA_DF_MAX 200      /* describing-function curve points kept, at most */
 
 /* Constructor / destructor (NULL is harmless). */

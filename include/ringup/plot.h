@@ -111,7 +111,8 @@ typedef struct ru_plot_poles {
 
 /* Bode plot: loop gain (is_loop = 1) or network response (is_loop = 0). */
 typedef struct ru_plot_bode {
-    int is_loop;               /* 1: return ratio; 0: v(out)/v(in) */
+    int is_loop;               /* 1: return ratio; 2: loop gain at a node (double
+                                  injection); 0: v(out)/v(in) */
     const char *what;          /* "A1" (loop part) or "v(tank)/v(out)" */
     size_t n;                  /* points (required, >= 2), f ascending, > 0 */
     const double *f_hz;

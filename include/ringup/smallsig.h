@@ -135,6 +135,18 @@ ru_status ru_loop_sweep(ru_loop *l, double fmin_hz, double fmax_hz, size_t npts,
                         double *f_hz, double *mag, double *phase_deg,
                         ru_loop_summary *sum, ru_error *err);
 
+/* An adaptive sweep: nbase (>= 2) log-spaced points from fmin to fmax, then the
+ * geometric midpoint of every step between neighbours above 1 dB or 10 degrees,
+ * pass after pass (the response command's rule), until every step is smooth or
+ * max_pts points are held (then the roughest steps first); the zero-phase crossing
+ * with the largest |L| is put among the points and refined around (within 5 % of
+ * it: steps of at most 0.1 dB and 1 degree). f_hz, mag and phase_deg (unwrapped;
+ * any may be NULL) hold max_pts (> nbase) entries; *npts gets how many are used. */
+ru_status ru_loop_sweep_adaptive(ru_loop *l, double fmin_hz, double fmax_hz,
+                                 size_t nbase, size_t max_pts, double *f_hz, double *mag,
+                                 double *phase_deg, size_t *npts, ru_loop_summary *sum,
+                                 ru_error *err);
+
 /* Transfer v(out)/v(in) with node `in` driven by an ideal source, at f_hz. */
 ru_status ru_response_at(const ru_system *s, const double *x, int node_in,
                          int node_out, double f_hz, double *mag, double *phase_deg,

@@ -160,14 +160,16 @@ static ru_status predict_loop(const ru_circuit *c, const ru_system *s,
                  pr->loop_node);
     else
         snprintf(pr->loop_part, sizeof pr->loop_part, "%s", ru_loop_label(l));
-    if (ru_loop_sweep(l, fmin, fmax, RU_RUN_DATA_LOOP_POINTS,
-                      keep ? keep->loop_f_hz : NULL, keep ? keep->loop_mag : NULL,
-                      keep ? keep->loop_phase_deg : NULL, &pr->loop, &e) != RU_OK) {
+    size_t npts = 0;
+    if (ru_loop_sweep_adaptive(l, fmin, fmax, RU_LOOP_GRID_POINTS, RU_RUN_DATA_LOOP_POINTS,
+                               keep ? keep->loop_f_hz : NULL, keep ? keep->loop_mag : NULL,
+                               keep ? keep->loop_phase_deg : NULL, &npts, &pr->loop,
+                               &e) != RU_OK) {
         ru_report_note(rep, "loop gain of %s not evaluated: %s", pr->loop_part, e.msg);
     } else {
         pr->have_loop = 1;
         if (keep)
-            keep->nloop = RU_RUN_DATA_LOOP_POINTS;
+            keep->nloop = npts;
     }
     ru_loop_destroy(l);
     return RU_OK;

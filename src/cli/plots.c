@@ -98,7 +98,7 @@ int cli_plot_run(const cli_plot_req *pr, const ru_circuit *c, const ru_run_repor
     double amp[RU_RUN_DATA_DF_MAX];
     ru_plot_poles poles;
     fill_poles(&v, drift, amp, &poles);
-    ru_plot_bode loop = {1, r->pred.loop_part, v.nloop, v.loop_f_hz, v.loop_mag,
+    ru_plot_bode loop = {r->pred.loop_node[0] ? 2 : 1, r->pred.loop_part, v.nloop, v.loop_f_hz, v.loop_mag,
                          v.loop_phase_deg,
                          r->pred.loop.found ? r->pred.loop.crossover_hz : NAN,
                          r->pred.loop.found ? r->pred.loop.gain : NAN};

@@ -25,6 +25,7 @@ typedef struct poles_result {
     cli_amp *amp;             /* --amplitude: curve, table and balance, or NULL */
     double loop_f[RU_RUN_DATA_LOOP_POINTS], loop_mag[RU_RUN_DATA_LOOP_POINTS],
         loop_ph[RU_RUN_DATA_LOOP_POINTS];
+    size_t nloop;       /* points of the loop-gain sweep held */
 } poles_result;
 
 static void print_text(const ru_circuit *c, const poles_result *p)
@@ -162,9 +163,9 @@ static ru_status compute(const ru_circuit *c, const cli_loop_opts *lo, poles_res
     if (st != RU_OK || !p->lh)
         return st;
     double f0 = p->dom >= 0 ? p->poles[p->dom].im_rad_per_s / (2 * M_PI) : 0;
-    st = ru_loop_sweep(p->lh, f0 > 0 ? f0 / 30 : 1, f0 > 0 ? f0 * 30 : 1e9,
-                       RU_RUN_DATA_LOOP_POINTS, p->loop_f, p->loop_mag, p->loop_ph,
-                       &p->loop, err);
+    st = ru_loop_sweep_adaptive(p->lh, f0 > 0 ? f0 / 30 : 1, f0 > 0 ? f0 * 30 : 1e9,
+                                RU_LOOP_GRID_POINTS, RU_RUN_DATA_LOOP_POINTS, p->loop_f,
+                                p->loop_mag, p->loop_ph, &p->nloop, &p->loop, err);
     p->have_loop = st == RU_OK;
     return st;
 }
@@ -183,8 +184,9 @@ static int plot_poles(const cli_plot_req *pr, const ru_circuit *c, const poles_r
         amp[i] = p->amp->curve[i].amplitude_v;
     }
     ru_plot_poles pp = {ru_poles_count(p->sys), p->poles, p->dom, nd, amp, drift};
-    ru_plot_bode loop = {1, p->have_loop ? ru_loop_label(p->lh) : "",
-                         RU_RUN_DATA_LOOP_POINTS, p->loop_f, p->loop_mag, p->loop_ph,
+    ru_plot_bode loop = {p->have_loop && ru_loop_node(p->lh)[0] ? 2 : 1,
+                         p->have_loop ? ru_loop_label(p->lh) : "",
+                         p->nloop, p->loop_f, p->loop_mag, p->loop_ph,
                          p->loop.found ? p->loop.crossover_hz : NAN,
                          p->loop.found ? p->loop.gain : NAN};
     ru_plot_set set = {0};

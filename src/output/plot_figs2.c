@@ -395,7 +395,10 @@ static void draw_bode(const void *data)
     bode_phase_range(b, &shift, &plo, &phi);
     plot_escape(what, sizeof what, b->what ? b->what : "");
     pladv(0);
-    if (b->is_loop)
+    if (b->is_loop == 2)
+        snprintf(title, sizeof title, "Loop gain L at %s (double injection): magnitude and "
+                 "phase", what);
+    else if (b->is_loop)
         snprintf(title, sizeof title, "Loop gain L of %s (return ratio): magnitude and phase",
                  what);
     else
