@@ -119,6 +119,11 @@ const ru_part *ru_circuit_part(const ru_circuit *c, size_t i);
 ru_part *ru_circuit_part_mut(ru_circuit *c, size_t i);
 /* Index of the part with this name, or -1. */
 int ru_circuit_find_part(const ru_circuit *c, const char *name);
+/* Index of the part named name whose loop the system can break for the return
+ * ratio (an amplifier), or RU_EINPUT with "loop part NAME is not an amplifier of
+ * this circuit" in err. */
+ru_status ru_circuit_loop_part(const ru_circuit *c, const char *name, int *part,
+                               ru_error *err);
 
 const char *ru_circuit_title(const ru_circuit *c);
 const char *ru_circuit_file(const ru_circuit *c);   /* "" when built in code */

@@ -343,6 +343,23 @@ int ru_part_terminals(const ru_part *p, ru_terminal *out, int max);
  * "follower-tanh / soft-follower" (SI prefixes; "" for an unknown type). */
 void ru_part_describe(const ru_part *p, char *buf, size_t size);
 
+/* What the engines ask of a part, answered by its type's descriptor (so that no
+ * engine names part types):
+ *   ru_part_is_source    1 for an independent source (a supply, a current): it
+ *                        ramps at power-on and may drive the circuit
+ *   ru_part_breaks_loop  1 when the system can break its loop for the return
+ *                        ratio (an amplifier)
+ *   ru_part_output_node  the node of its output a probe defaults to, -1: none
+ *   ru_part_currents     how many of its first states are branch currents a wave
+ *                        file lists (an inductor's, a crystal's main arm)
+ *   ru_part_impedance    its small-signal impedance at w (rad/s) in closed form
+ *                        into re/im; 1 when it has one (R, C, L, a crystal's arm) */
+int ru_part_is_source(const ru_part *p);
+int ru_part_breaks_loop(const ru_part *p);
+int ru_part_output_node(const ru_part *p);
+int ru_part_currents(const ru_part *p);
+int ru_part_impedance(const ru_part *p, double w, double *re_ohm, double *im_ohm);
+
 #ifdef __cplusplus
 }
 #endif

@@ -63,9 +63,10 @@ static ru_status resolve_probe(const ru_circuit *c, const ru_system *sys,
         char amp[RU_NAME_MAX + 32] = "";
         for (size_t i = 0; i < ru_circuit_part_count(c) && *pos < 0; i++) {
             const ru_part *p = ru_circuit_part(c, i);
-            if (p->type == RU_PART_AMPLIFIER && ru_system_node_state(sys, p->node[1]) >= 0) {
-                *pos = p->node[1];
-                snprintf(amp, sizeof amp, "the output of amplifier %s", p->name);
+            int out = ru_part_output_node(p);
+            if (out > 0 && ru_system_node_state(sys, out) >= 0) {
+                *pos = out;
+                snprintf(amp, sizeof amp, "the output of %s %s", ru_part_type_name(p->type), p->name);
                 why = amp;
             }
         }
@@ -422,8 +423,7 @@ static ru_status check_size(const ru_circuit *c, const ru_run_request *rq,
                             cycles, rep->pred.frequency_hz, RU_MAX_CYCLES);
     size_t cols = 1 + ru_circuit_node_count(c) - 1;
     for (size_t i = 0; i < ru_circuit_part_count(c); i++)
-        cols += ru_circuit_part(c, i)->type == RU_PART_INDUCTOR ||
-                ru_circuit_part(c, i)->type == RU_PART_CRYSTAL;
+        cols += (size_t)ru_part_currents(ru_circuit_part(c, i));
     double bytes = (samples + 1) * (double)cols * 16.0;
     if (rq->out_dir && bytes > RU_MAX_CSV_BYTES)
         return ru_error_set(err, RU_EINPUT, ru_circuit_file(c), 0, 0,

@@ -17,7 +17,7 @@ static size_t drives(const ru_circuit *c, double *hz, size_t max)
     size_t n = 0;
     for (size_t i = 0; i < ru_circuit_part_count(c) && n < max; i++) {
         const ru_part *p = ru_circuit_part(c, i);
-        if (p->type != RU_PART_SUPPLY && p->type != RU_PART_CURRENT)
+        if (!ru_part_is_source(p))
             continue;
         if (p->wave.kind == RU_WAVE_SINE && p->wave.freq_hz > 0)
             hz[n++] = p->wave.freq_hz;

@@ -11,6 +11,7 @@
 #include "ringup/smallsig.h"
 #include "engines/modes.h"
 #include "engines/startlevel.h"
+#include "parts/desc.h"
 
 #include <math.h>
 #include <stdio.h>
@@ -29,8 +30,9 @@ static void node_phasor(const ru_system *s, const double *vre, const double *vim
 /* The dominant mode's amplitude on the probe when it holds the thermal energy kT
  * (equipartition: kT/2 for each of its two quadratic degrees of freedom). The mode
  * scaled to a unit probe amplitude stores on average
- *   E1 = sum over capacitors C |dv|^2 / 4 + sum over inductors L |i|^2 / 4
- *        (a crystal: its c0, and L |i|^2 / 4 + cm |vm|^2 / 4 per motional arm),
+ *   E1 = sum over the parts' capacitances C |dv|^2 / 4 + the stores of their own
+ *        states coef |x|^2 / 4 (an inductor's L |i|^2 / 4; a crystal's c0, and
+ *        L |i|^2 / 4 + cm |vm|^2 / 4 per motional arm; an amplifier's capacitances),
  * so A = sqrt(kT / E1): sqrt(2kT/C) for a plain LC tank. The noise keeps feeding
  * the mode while it grows, so this is the order of the start level, not its value. */
 static double noise_amplitude(const ru_system *s, const double *x_op, ru_pole dom,
@@ -48,23 +50,17 @@ static double noise_amplitude(const ru_system *s, const double *x_op, ru_pole do
     double p2 = (pr - qr) * (pr - qr) + (pi - qi) * (pi - qi);
     for (size_t i = 0; i < ru_circuit_part_count(c); i++) {
         const ru_part *p = ru_circuit_part(c, i);
-        if (p->type == RU_PART_CAPACITOR) {
-            node_phasor(s, v, v + n, p->node[0], &pr, &pi);
-            node_phasor(s, v, v + n, p->node[1], &qr, &qi);
-            e1 += p->value * ((pr - qr) * (pr - qr) + (pi - qi) * (pi - qi)) / 4;
-        } else if (p->type == RU_PART_INDUCTOR) {
-            int k = ru_system_inductor_state(s, (int)i);
-            e1 += p->value * (v[k] * v[k] + v[n + k] * v[n + k]) / 4;
-        } else if (p->type == RU_PART_CRYSTAL) { /* c0, and L |i|^2 + cm |vm|^2 per arm */
-            node_phasor(s, v, v + n, p->node[0], &pr, &pi);
-            node_phasor(s, v, v + n, p->node[1], &qr, &qi);
-            e1 += p->crystal.c0_f * ((pr - qr) * (pr - qr) + (pi - qi) * (pi - qi)) / 4;
-            double r, l, cm;
-            int k = ru_system_part_state(s, (int)i);
-            for (int a = p->crystal.no_main ? 1 : 0; k >= 0 && ru_crystal_arm(p, a, &r, &l, &cm);
-                 a++, k += 2)
-                e1 += (l * (v[k] * v[k] + v[n + k] * v[n + k]) +
-                       cm * (v[k + 1] * v[k + 1] + v[n + k + 1] * v[n + k + 1])) / 4;
+        ru_cap cap[RU_PART_CAPS_MAX]; /* C |dv|^2 / 4 over its capacitances */
+        for (int j = 0, nc = ru_part_caps(p, cap); j < nc; j++) {
+            node_phasor(s, v, v + n, cap[j].a, &pr, &pi);
+            node_phasor(s, v, v + n, cap[j].b, &qr, &qi);
+            e1 += cap[j].c_f * ((pr - qr) * (pr - qr) + (pi - qi) * (pi - qi)) / 4;
+        }
+        ru_store st[RU_PART_STORES_MAX]; /* coef |x|^2 / 4 over its own states */
+        int k0 = ru_system_part_state(s, (int)i);
+        for (int j = 0, ns = k0 >= 0 ? ru_part_stores(p, st) : 0; j < ns; j++) {
+            size_t k = (size_t)(k0 + st[j].state);
+            e1 += st[j].coef * (v[k] * v[k] + v[n + k] * v[n + k]) / 4;
         }
     }
     for (size_t node = 1; node < ru_circuit_node_count(c); node++) {

@@ -94,10 +94,9 @@ static ru_status leeson(const ru_circuit *c, ru_tone *t, const ru_tone_request *
     const char *loop = rq->loop_part ? rq->loop_part : ru_circuit_measure_opts_const(c)->loop;
     int lp = -1;
     if (loop && loop[0]) {
-        lp = ru_circuit_find_part(c, loop);
-        if (lp < 0 || ru_circuit_part(c, (size_t)lp)->type != RU_PART_AMPLIFIER)
-            return ru_error_set(err, RU_EINPUT, ru_circuit_file(c), 0, 0,
-                                "loop part %s is not an amplifier of this circuit", loop);
+        ru_status lst = ru_circuit_loop_part(c, loop, &lp, err);
+        if (lst != RU_OK)
+            return lst;
     }
     if (!t->x_op) {
         snprintf(t->note, sizeof t->note, "Leeson's formula is not given: no operating "

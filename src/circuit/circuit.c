@@ -297,6 +297,16 @@ int ru_circuit_find_part(const ru_circuit *c, const char *name)
     return (int)ru_name_index_find(&c->part_ix, PART_NAMES(c), name);
 }
 
+ru_status ru_circuit_loop_part(const ru_circuit *c, const char *name, int *part,
+                               ru_error *err)
+{
+    *part = ru_circuit_find_part(c, name);
+    if (*part < 0 || !ru_part_breaks_loop(ru_circuit_part(c, (size_t)*part)))
+        return ru_error_set(err, RU_EINPUT, ru_circuit_file(c), 0, 0,
+                            "loop part %s is not an amplifier of this circuit", name);
+    return RU_OK;
+}
+
 const char *ru_circuit_title(const ru_circuit *c) { return c->title; }
 const char *ru_circuit_file(const ru_circuit *c) { return c->file; }
 

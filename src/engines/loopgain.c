@@ -87,7 +87,7 @@ static ru_status loop_setup(const ru_system *s, int part, const double *x, lin_c
         return ru_error_set(err, RU_EINPUT, "", 0, 0, "loop gain: no part number %d",
                             part);
     const ru_part *p = ru_circuit_part(ci, (size_t)part);
-    if (p->type != RU_PART_AMPLIFIER)
+    if (!ru_part_breaks_loop(p))
         return ru_error_set(err, RU_EINPUT, ru_circuit_file(ci), p->line, p->col,
                             "loop gain: part %s is a %s, not an amplifier", p->name,
                             ru_part_type_name(p->type));

@@ -10,6 +10,7 @@
  * is its main motional arm (R, L_m, C_m); c0 and its other arms stay in the rest. */
 #include "base/cplx.h"
 #include "engines/margin_impl.h"
+#include "parts/desc.h"
 
 #include "ringup/smallsig.h"
 
@@ -77,19 +78,16 @@ static ru_status linearize(const ru_system *s, const double *x, double **A, doub
     return RU_OK;
 }
 
-/* The rest: the part replaced by an open (a resistor far above any other); a
- * crystal by itself without its main arm (c0 and any other arm stay with the rest,
- * as the figure held against the ESR counts them). */
+/* The rest: the part replaced by what its descriptor leaves (a crystal without its
+ * main arm: c0 and any other arm stay with the rest, as the figure held against the
+ * ESR counts them), else by an open (a resistor far above any other). */
 static ru_status make_rest(ru_margin *m, const ru_circuit *c, int part, ru_error *err)
 {
     ru_status st = ru_circuit_clone(c, &m->rest_c);
     if (st != RU_OK)
         return ru_error_set(err, st, NULL, 0, 0, "margin: out of memory");
     ru_part q;
-    if (m->part.type == RU_PART_CRYSTAL) {
-        q = m->part;
-        q.crystal.no_main = 1;
-    } else {
+    if (!ru_part_margin_rest(&m->part, &q)) {
         ru_part_init(&q, RU_PART_RESISTOR, m->part.name);
         q.value = RU_MARGIN_OPEN_OHM;
     }
@@ -182,8 +180,8 @@ ru_status ru_margin_create(const ru_circuit *c, int part, ru_margin **out, ru_er
     if (!c || part < 0 || (size_t)part >= ru_circuit_part_count(c))
         return ru_error_set(err, RU_EINPUT, NULL, 0, 0, "margin: no such part");
     const ru_part *p = ru_circuit_part(c, (size_t)part);
-    if (p->type == RU_PART_AMPLIFIER || p->type == RU_PART_SUPPLY ||
-        p->type == RU_PART_CURRENT)
+    ru_terminal term[RU_PART_NODES];
+    if (ru_part_is_source(p) || ru_part_terminals(p, term, RU_PART_NODES) != 2)
         return ru_error_set(err, RU_EINPUT, ru_circuit_file(c), p->line, p->col,
                             "part %s: margin works on a two-terminal passive part "
                             "(resistor, capacitor, inductor, crystal, diode, ...), not a "
@@ -245,29 +243,8 @@ ru_status ru_margin_part_z(const ru_margin *m, double f_hz, double *re_ohm,
 {
     double w = 2 * PI * f_hz;
     const ru_part *p = &m->part;
-    switch (p->type) {
-    case RU_PART_RESISTOR:
-        *re_ohm = p->value;
-        *im_ohm = 0;
+    if (ru_part_impedance(p, w, re_ohm, im_ohm)) /* closed form */
         return RU_OK;
-    case RU_PART_CAPACITOR:
-        *re_ohm = 0;
-        *im_ohm = -1.0 / (w * p->value);
-        return RU_OK;
-    case RU_PART_INDUCTOR:
-        *re_ohm = p->series_ohm;
-        *im_ohm = w * p->value;
-        return RU_OK;
-    case RU_PART_CRYSTAL: { /* its main arm: R + j (w L - 1 / (w C)) */
-        double r, l, cm;
-        ru_crystal_arm(p, 0, &r, &l, &cm);
-        *re_ohm = r;
-        *im_ohm = w * l - 1.0 / (w * cm);
-        return RU_OK;
-    }
-    default:
-        break;
-    }
     double wr, wi, rr, ri; /* whole and rest impedances */
     ru_status st = ru_margin_port_z(m->nf, m->Af, m->Mf, m->fa, m->fb, w, &wr, &wi, err);
     if (st == RU_OK)
@@ -286,10 +263,10 @@ ru_status ru_margin_part_z(const ru_margin *m, double f_hz, double *re_ohm,
 
 double ru_margin_part_inductance(const ru_margin *m)
 {
-    double r, l = NAN, c;
-    if (m->part.type == RU_PART_CRYSTAL && ru_crystal_arm(&m->part, 0, &r, &l, &c))
-        return l;
-    return m->part.type == RU_PART_INDUCTOR ? m->part.value : NAN;
+    ru_store st[RU_PART_STORES_MAX]; /* the store of its first branch current */
+    if (ru_part_currents(&m->part) > 0 && ru_part_stores(&m->part, st) > 0 && st[0].state == 0)
+        return st[0].coef;
+    return NAN;
 }
 
 void ru_margin_dominant(const ru_margin *m, double *re_per_s, double *im_rad_per_s)

@@ -109,7 +109,7 @@ static ru_status check_autonomous(const ru_system *s, ru_error *err)
                                 ru_system_state_name(s, i), ru_system_state_name(s, i));
     for (size_t i = 0; i < ru_circuit_part_count(c); i++) {
         const ru_part *p = ru_circuit_part(c, i);
-        if (p->type != RU_PART_SUPPLY && p->type != RU_PART_CURRENT)
+        if (!ru_part_is_source(p))
             continue;
         if (p->wave.kind == RU_WAVE_SINE ||
             (p->wave.kind == RU_WAVE_PULSE && p->wave.period_s > 0))

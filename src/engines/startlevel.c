@@ -286,7 +286,7 @@ static int periodic_source(const ru_circuit *ci)
 {
     for (size_t i = 0; i < ru_circuit_part_count(ci); i++) {
         const ru_part *p = ru_circuit_part(ci, i);
-        if (p->type != RU_PART_SUPPLY && p->type != RU_PART_CURRENT)
+        if (!ru_part_is_source(p))
             continue;
         if ((p->wave.kind == RU_WAVE_SINE && p->wave.amplitude != 0) ||
             (p->wave.kind == RU_WAVE_PULSE && p->wave.period_s > 0 && p->wave.v1 != p->wave.v0))

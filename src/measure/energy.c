@@ -16,14 +16,14 @@ typedef struct store_cap {
     double c_f; /* capacitance (F) */
 } store_cap;
 
-typedef struct store_ind {
-    int state;  /* state index of its current */
-    double l_h; /* inductance (H) */
+typedef struct store_ind { /* a part's own state: l_h x^2 / 2 */
+    int state;  /* state index (an inductor's current, a motional arm's i or vm) */
+    double l_h; /* inductance (H), or capacitance (F) of a voltage state */
 } store_ind;
 
 struct ru_energy_balance {
     const ru_system *sys;
-    store_cap *caps;   /* capacitors and the stray of each free node */
+    store_cap *caps;   /* the parts' capacitances and the stray of each free node */
     size_t ncaps;
     store_ind *inds;
     size_t ninds;
@@ -93,45 +93,33 @@ static void energy_and_rate(ru_energy_balance *e, double t, const double *x, dou
     *rate = P;
 }
 
-/* A crystal: c0 as a capacitor, and per motional arm L i^2 / 2 and cm vm^2 / 2 (the
- * state pair i, vm from s0 on; the same form as an inductor's store). */
-static void add_crystal(ru_energy_balance *e, const ru_part *p, int s0)
+/* Every capacitance of a part (the mass matrix's) and the stores of its own
+ * states, as its descriptor gives them. */
+static void add_part(ru_energy_balance *e, const ru_part *p, int s0)
 {
-    if (p->crystal.c0_f > 0) {
-        e->caps[e->ncaps++] = (store_cap){p->node[0], p->node[1], p->crystal.c0_f};
-        if (e->sys->node_state[p->node[0]] == RU_NS_DRIVEN ||
-            e->sys->node_state[p->node[1]] == RU_NS_DRIVEN)
+    ru_cap cap[RU_PART_CAPS_MAX];
+    int nc = ru_part_caps(p, cap);
+    for (int k = 0; k < nc; k++) {
+        e->caps[e->ncaps++] = (store_cap){cap[k].a, cap[k].b, cap[k].c_f};
+        if (e->sys->node_state[cap[k].a] == RU_NS_DRIVEN ||
+            e->sys->node_state[cap[k].b] == RU_NS_DRIVEN)
             e->driven_caps = 1;
     }
-    double r, l, c;
-    for (int k = p->crystal.no_main ? 1 : 0, s = s0; s0 >= 0 && ru_crystal_arm(p, k, &r, &l, &c);
-         k++, s += 2) {
-        e->inds[e->ninds++] = (store_ind){s, l};
-        e->inds[e->ninds++] = (store_ind){s + 1, c};
-    }
+    ru_store st[RU_PART_STORES_MAX];
+    int ns = s0 >= 0 ? ru_part_stores(p, st) : 0;
+    for (int k = 0; k < ns; k++)
+        e->inds[e->ninds++] = (store_ind){s0 + st[k].state, st[k].coef};
 }
 
 static ru_status collect_parts(ru_energy_balance *e, const ru_circuit *c)
 {
     size_t np = ru_circuit_part_count(c), nn = ru_circuit_node_count(c);
-    e->caps = calloc(np + nn, sizeof *e->caps);
-    e->inds = calloc(np ? 2 * (RU_CRYSTAL_ARMS + 1) * np : 1, sizeof *e->inds);
+    e->caps = calloc(RU_PART_CAPS_MAX * np + nn, sizeof *e->caps);
+    e->inds = calloc(np ? RU_PART_STORES_MAX * np : 1, sizeof *e->inds);
     if (!e->caps || !e->inds)
         return RU_ENOMEM;
-    for (size_t i = 0; i < np; i++) {
-        const ru_part *p = ru_circuit_part(c, i);
-        if (p->type == RU_PART_CAPACITOR) {
-            e->caps[e->ncaps++] = (store_cap){p->node[0], p->node[1], p->value};
-            if (e->sys->node_state[p->node[0]] == RU_NS_DRIVEN ||
-                e->sys->node_state[p->node[1]] == RU_NS_DRIVEN)
-                e->driven_caps = 1;
-        }
-        else if (p->type == RU_PART_INDUCTOR)
-            e->inds[e->ninds++] =
-                (store_ind){ru_system_inductor_state(e->sys, (int)i), p->value};
-        else if (p->type == RU_PART_CRYSTAL)
-            add_crystal(e, p, ru_system_part_state(e->sys, (int)i));
-    }
+    for (size_t i = 0; i < np; i++)
+        add_part(e, ru_circuit_part(c, i), ru_system_part_state(e->sys, (int)i));
     for (size_t k = 1; k < nn; k++)
         if (ru_system_node_state(e->sys, (int)k) >= 0 &&
             ru_circuit_node_stray_f(c, (int)k) > 0)

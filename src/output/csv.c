@@ -87,17 +87,19 @@ static ru_status build_columns(ru_csv *w)
 {
     const ru_circuit *c = ru_system_circuit(w->sys);
     size_t nn = ru_circuit_node_count(c), np = ru_circuit_part_count(c);
-    w->cols = malloc((nn + np + 1) * sizeof *w->cols);
+    size_t ncur = 0;
+    for (size_t p = 0; p < np; p++)
+        ncur += (size_t)ru_part_currents(ru_circuit_part(c, p));
+    w->cols = malloc((nn + ncur + 1) * sizeof *w->cols);
     if (!w->cols)
         return RU_ENOMEM;
     for (size_t i = 1; i < nn; i++)
         w->cols[w->ncols++] = (csv_col){(int)i, -1};
-    for (size_t p = 0; p < np; p++) { /* inductor currents, crystals' main-arm ones */
+    for (size_t p = 0; p < np; p++) { /* branch currents: inductors', crystals' main arm */
         const ru_part *q = ru_circuit_part(c, p);
         int st = ru_system_part_state(w->sys, (int)p);
-        if (st >= 0 && (q->type == RU_PART_INDUCTOR ||
-                        (q->type == RU_PART_CRYSTAL && !q->crystal.no_main)))
-            w->cols[w->ncols++] = (csv_col){-1, st};
+        for (int k = 0, nk = st >= 0 ? ru_part_currents(q) : 0; k < nk; k++)
+            w->cols[w->ncols++] = (csv_col){-1, st + k};
     }
     return RU_OK;
 }

@@ -197,19 +197,25 @@ static double state_scale(const ru_part *p, int k, const ru_scale_env *e)
     return d && d->state_scale ? d->state_scale(&p->amp, e->v_scale) : e->v_scale;
 }
 
-/* The port voltages of the part and its law's evaluation there. */
-static void eval_here(const ru_part *p, const ru_stamp *st, const int *nd, int s,
-                      ru_law_eval *e)
+void ru_amp_ports(const ru_part *p, const double *v, double xs, ru_law_at *at)
 {
-    const double *v = st->v;
-    ru_law_at at = {v[nd[RU_AMP_IN]] - v[nd[RU_AMP_INV]], v[nd[RU_AMP_OUT]] - v[nd[RU_AMP_REF]],
-                    0.0, 0.0, s >= 0 ? st->x[s] : 0.0, 0};
+    int nd[RU_PART_NODES];
+    nodes_of(p, nd);
+    *at = (ru_law_at){v[nd[RU_AMP_IN]] - v[nd[RU_AMP_INV]],
+                      v[nd[RU_AMP_OUT]] - v[nd[RU_AMP_REF]], 0.0, 0.0, xs, 0};
     if (nd[RU_AMP_OUT2] >= 0) {
-        at.vo2 = v[nd[RU_AMP_OUT2]] - v[nd[RU_AMP_REF]];
-        at.out2 = 1;
+        at->vo2 = v[nd[RU_AMP_OUT2]] - v[nd[RU_AMP_REF]];
+        at->out2 = 1;
     }
     if (nd[RU_AMP_VDD] >= 0)
-        at.vs = v[nd[RU_AMP_VDD]] - v[nd[RU_AMP_REF]];
+        at->vs = v[nd[RU_AMP_VDD]] - v[nd[RU_AMP_REF]];
+}
+
+/* The port voltages of the part and its law's evaluation there. */
+static void eval_here(const ru_part *p, const ru_stamp *st, int s, ru_law_eval *e)
+{
+    ru_law_at at;
+    ru_amp_ports(p, st->v, s >= 0 ? st->x[s] : 0.0, &at);
     ru_law_eval_at(&p->amp, &at, e);
 }
 
@@ -244,7 +250,7 @@ static void stamp(const ru_part *p, ru_stamp *st, int index, int s)
     nodes_of(p, nd);
     const ru_law_desc *d = ru_law_get(p->amp.law);
     ru_law_eval e;
-    eval_here(p, st, nd, s, &e);
+    eval_here(p, st, s, &e);
     ru_stamp_add(st, nd[RU_AMP_OUT], e.i_out);
     if (nd[RU_AMP_OUT2] >= 0)
         ru_stamp_add(st, nd[RU_AMP_OUT2], e.i_out2);
@@ -300,7 +306,7 @@ static void loop(const ru_part *p, const ru_stamp *st, int s, double *b, double 
     nodes_of(p, nd);
     const ru_law_desc *d = ru_law_get(p->amp.law);
     ru_law_eval le;
-    eval_here(p, st, nd, s, &le);
+    eval_here(p, st, s, &le);
     int so = row_of(st, nd, RU_AMP_OUT), sr = row_of(st, nd, RU_AMP_REF);
     if (d && d->control_state && s >= 0) {
         if (so >= 0)
@@ -360,5 +366,6 @@ const ru_part_desc ru_part_amplifier = {
     .state_scale = state_scale,
     .stamp = stamp,
     .loop = loop,
+    .output_term = 2, /* node[1]: out */
     .describe = describe,
 };

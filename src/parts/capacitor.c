@@ -33,6 +33,14 @@ static void describe(const ru_part *p, char *buf, size_t size)
     ru_format_si(p->value, "F", 4, buf, size);
 }
 
+/* Its impedance at w: 1 / (j w C). */
+static int impedance(const ru_part *p, double w, double *re_ohm, double *im_ohm)
+{
+    *re_ohm = 0.0;
+    *im_ohm = -1.0 / (w * p->value);
+    return 1;
+}
+
 const ru_part_desc ru_part_capacitor = {
     .type = RU_PART_CAPACITOR,
     .name = "capacitor",
@@ -44,5 +52,6 @@ const ru_part_desc ru_part_capacitor = {
     .check = ru_part_check_rlc,
     .caps = caps,
     .stamp = stamp,
+    .impedance = impedance,
     .describe = describe,
 };

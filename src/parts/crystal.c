@@ -135,6 +135,23 @@ static int caps(const ru_part *p, ru_cap out[RU_PART_CAPS_MAX])
 
 static int nstates(const ru_part *p) { return 2 * arm_count(p); }
 
+/* Per motional arm L i^2 / 2 and cm vm^2 / 2 (states i, vm in pairs). */
+static int stores(const ru_part *p, ru_store out[RU_PART_STORES_MAX])
+{
+    double r, l, c;
+    int n = 0;
+    for (int a = first_arm(p); n + 2 <= RU_PART_STORES_MAX && ru_crystal_arm(p, a, &r, &l, &c);
+         a++) {
+        out[n] = (ru_store){n, l};
+        out[n + 1] = (ru_store){n + 1, c};
+        n += 2;
+    }
+    return n;
+}
+
+/* The main arm's current is a wave-file column (the first state), when it has one. */
+static int currents(const ru_part *p) { return first_arm(p) == 0; }
+
 static void state_name(const ru_part *p, int k, char *buf, size_t size)
 {
     int arm = first_arm(p) + k / 2;
@@ -205,6 +222,26 @@ static void describe(const ru_part *p, char *buf, size_t size)
                  p->crystal.narms > 1 ? "s" : "");
 }
 
+/* margin's rest: the crystal without its main arm (c0 and the other arms stay). */
+static int margin_rest(const ru_part *p, ru_part *out)
+{
+    *out = *p;
+    out->crystal.no_main = 1;
+    return 1;
+}
+
+/* Its main arm's impedance at w, R + j (w L - 1 / (w cm)) (margin holds the rest,
+ * c0 and the other arms, against it); none without a main arm. */
+static int impedance(const ru_part *p, double w, double *re_ohm, double *im_ohm)
+{
+    double r, l, cm;
+    if (p->crystal.no_main || !ru_crystal_arm(p, 0, &r, &l, &cm))
+        return 0;
+    *re_ohm = r;
+    *im_ohm = w * l - 1.0 / (w * cm);
+    return 1;
+}
+
 const ru_part_desc ru_part_crystal = {
     .type = RU_PART_CRYSTAL,
     .name = "crystal",
@@ -218,9 +255,13 @@ const ru_part_desc ru_part_crystal = {
     .check = check,
     .caps = caps,
     .state_group = RU_STATES_INTERNAL,
+    .stores = stores,
+    .currents = currents,
     .nstates = nstates,
     .state_name = state_name,
     .state_scale = state_scale,
     .stamp = stamp,
+    .impedance = impedance,
+    .margin_rest = margin_rest,
     .describe = describe,
 };

@@ -117,6 +117,14 @@ typedef struct ru_cap {
 #define RU_PART_CAPS_MAX 4   /* most capacitances of one part */
 #define RU_PART_LINKS_MAX 4  /* most DC links of one part */
 #define RU_PART_STATES_MAX 10 /* most states of one part */
+#define RU_PART_STORES_MAX 10 /* most quadratic stores of one part's own states */
+
+/* A store of one of the part's own states: energy coef * x^2 / 2 (an inductance's
+ * L i^2 / 2, a motional capacitance's cm vm^2 / 2). */
+typedef struct ru_store {
+    int state;   /* offset from the part's first state */
+    double coef; /* H for a current, F for a voltage */
+} ru_store;
 
 /* What a state's tolerance scale may depend on (system.c). */
 typedef struct ru_scale_env {
@@ -159,6 +167,20 @@ typedef struct ru_part_desc {
     int (*kcl_links)(const ru_part *p, int links[RU_PART_LINKS_MAX][2]);
     int source;              /* RU_SOURCE_*: p->wave drives a voltage or a current */
     int (*caps)(const ru_part *p, ru_cap out[RU_PART_CAPS_MAX]); /* NULL: none */
+    /* the energy its own states store (NULL: none), beside its capacitances */
+    int (*stores)(const ru_part *p, ru_store out[RU_PART_STORES_MAX]);
+    /* how many of its first states are branch currents through it (a, b) that a
+       wave file lists as columns (NULL: none) */
+    int (*currents)(const ru_part *p);
+    /* its small-signal impedance at w (rad/s) in closed form, 1 when it has one
+       (NULL: none; margin then measures it from the circuit) */
+    int (*impedance)(const ru_part *p, double w, double *re_ohm, double *im_ohm);
+    /* margin: the part left in the circuit when the branch whose impedance
+       margin gives is taken out (a crystal keeps c0 and its other arms; NULL: an
+       open, nothing is left) into out; 1 when something is left */
+    int (*margin_rest)(const ru_part *p, ru_part *out);
+    int output_term;         /* 1 + the node[] index of the output a probe defaults
+                                to (an amplifier's out); 0: none */
     /* states */
     int state_group;         /* RU_STATES_* */
     int (*nstates)(const ru_part *p); /* NULL: none */
@@ -181,6 +203,14 @@ typedef struct ru_part_desc {
 
 /* The descriptor of a type, NULL for an unknown one. */
 const ru_part_desc *ru_part_desc_get(ru_part_type type);
+
+/* A part's capacitances (mass-matrix entries) and the stores of its own states
+ * (energy), from its descriptor (the rest of what the engines ask of a part is in
+ * ringup/part.h). */
+int ru_part_caps(const ru_part *p, ru_cap out[RU_PART_CAPS_MAX]);
+int ru_part_stores(const ru_part *p, ru_store out[RU_PART_STORES_MAX]);
+/* Its descriptor's margin_rest (0 without one: the part taken out leaves an open). */
+int ru_part_margin_rest(const ru_part *p, ru_part *out);
 
 /* The descriptor spelled name, NULL when none is. */
 const ru_part_desc *ru_part_desc_find(const char *name);

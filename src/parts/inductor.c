@@ -30,6 +30,15 @@ static void state_name(const ru_part *p, int k, char *buf, size_t size)
     snprintf(buf, size, "i(%s)", p->name);
 }
 
+/* L i^2 / 2 in its current; the current is a wave-file column. */
+static int stores(const ru_part *p, ru_store out[RU_PART_STORES_MAX])
+{
+    out[0] = (ru_store){0, p->value};
+    return 1;
+}
+
+static int currents(const ru_part *p) { return nstates(p); }
+
 /* The amplitude a tank of this inductor and the circuit's whole capacitance
  * would carry at the voltage scale, or the largest source current if larger. */
 static double state_scale(const ru_part *p, int k, const ru_scale_env *e)
@@ -75,6 +84,14 @@ static void describe(const ru_part *p, char *buf, size_t size)
     }
 }
 
+/* Its impedance at w: series + j w L. */
+static int impedance(const ru_part *p, double w, double *re_ohm, double *im_ohm)
+{
+    *re_ohm = p->series_ohm;
+    *im_ohm = w * p->value;
+    return 1;
+}
+
 const ru_part_desc ru_part_inductor = {
     .type = RU_PART_INDUCTOR,
     .name = "inductor",
@@ -87,9 +104,12 @@ const ru_part_desc ru_part_inductor = {
     .dc_links = ru_part_links_two,
     .kcl_links = kcl_links,
     .state_group = RU_STATES_BRANCH,
+    .stores = stores,
+    .currents = currents,
     .nstates = nstates,
     .state_name = state_name,
     .state_scale = state_scale,
     .stamp = stamp,
+    .impedance = impedance,
     .describe = describe,
 };

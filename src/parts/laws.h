@@ -176,6 +176,10 @@ int ru_law_eval_state(const ru_amp *a, double vc_v, double vo_v, double xs,
  * vc, vo and xs only); returns 0 for an unknown law (e zeroed). */
 int ru_law_eval_at(const ru_amp *a, const ru_law_at *at, ru_law_eval *e);
 
+/* The port voltages of amplifier part p at node voltages v (out2 and vdd when
+ * connected) with its internal state xs (amplifier.c). */
+void ru_amp_ports(const ru_part *p, const double *v, double xs, ru_law_at *at);
+
 /* The number of internal states of the amplifier's law (0 for an unknown law). */
 int ru_law_nstates(const ru_amp *a);
 

@@ -162,3 +162,53 @@ void ru_thermal_defaults(ru_thermal *t, ru_thermal_kind kind)
     ru_part_reset(&p, (int)kind);
     *t = p.thermal;
 }
+
+/* ---- what the engines ask of a part ---- */
+
+int ru_part_is_source(const ru_part *p)
+{
+    const ru_part_desc *d = ru_part_desc_get(p->type);
+    return d && d->source != RU_SOURCE_NONE;
+}
+
+int ru_part_breaks_loop(const ru_part *p)
+{
+    const ru_part_desc *d = ru_part_desc_get(p->type);
+    return d && d->loop;
+}
+
+int ru_part_caps(const ru_part *p, ru_cap out[RU_PART_CAPS_MAX])
+{
+    const ru_part_desc *d = ru_part_desc_get(p->type);
+    return d && d->caps ? d->caps(p, out) : 0;
+}
+
+int ru_part_stores(const ru_part *p, ru_store out[RU_PART_STORES_MAX])
+{
+    const ru_part_desc *d = ru_part_desc_get(p->type);
+    return d && d->stores ? d->stores(p, out) : 0;
+}
+
+int ru_part_currents(const ru_part *p)
+{
+    const ru_part_desc *d = ru_part_desc_get(p->type);
+    return d && d->currents ? d->currents(p) : 0;
+}
+
+int ru_part_impedance(const ru_part *p, double w, double *re_ohm, double *im_ohm)
+{
+    const ru_part_desc *d = ru_part_desc_get(p->type);
+    return d && d->impedance ? d->impedance(p, w, re_ohm, im_ohm) : 0;
+}
+
+int ru_part_output_node(const ru_part *p)
+{
+    const ru_part_desc *d = ru_part_desc_get(p->type);
+    return d && d->output_term > 0 ? p->node[d->output_term - 1] : -1;
+}
+
+int ru_part_margin_rest(const ru_part *p, ru_part *out)
+{
+    const ru_part_desc *d = ru_part_desc_get(p->type);
+    return d && d->margin_rest ? d->margin_rest(p, out) : 0;
+}

@@ -31,6 +31,15 @@ static void describe(const ru_part *p, char *buf, size_t size)
     ru_format_si(p->value, "ohm", 4, buf, size);
 }
 
+/* Its impedance at any frequency: R. */
+static int impedance(const ru_part *p, double w, double *re_ohm, double *im_ohm)
+{
+    (void)w;
+    *re_ohm = p->value;
+    *im_ohm = 0.0;
+    return 1;
+}
+
 const ru_part_desc ru_part_resistor = {
     .type = RU_PART_RESISTOR,
     .name = "resistor",
@@ -42,5 +51,6 @@ const ru_part_desc ru_part_resistor = {
     .check = ru_part_check_rlc,
     .dc_links = ru_part_links_two,
     .stamp = stamp,
+    .impedance = impedance,
     .describe = describe,
 };

@@ -113,14 +113,8 @@ static void input_voltage_vec(const ru_system *s, size_t i, const double *v, con
         nd[k] = p->node[k];
     nd[RU_AMP_INV] = ru_part_inv_node(p);
     int st = ru_sys_part_nstates(p) ? s->part_state[i] : -1;
-    ru_law_at at = {v[nd[RU_AMP_IN]] - v[nd[RU_AMP_INV]], v[nd[RU_AMP_OUT]] - v[nd[RU_AMP_REF]],
-                    0.0, 0.0, st >= 0 ? x[st] : 0.0, 0};
-    if (nd[RU_AMP_OUT2] >= 0) { /* as the stamp sees it (amplifier.c) */
-        at.vo2 = v[nd[RU_AMP_OUT2]] - v[nd[RU_AMP_REF]];
-        at.out2 = 1;
-    }
-    if (nd[RU_AMP_VDD] >= 0)
-        at.vs = v[nd[RU_AMP_VDD]] - v[nd[RU_AMP_REF]];
+    ru_law_at at;
+    ru_amp_ports(p, v, st >= 0 ? x[st] : 0.0, &at);
     ru_law_eval e;
     ru_law_eval_at(&p->amp, &at, &e);
     const struct {
