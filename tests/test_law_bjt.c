@@ -3,15 +3,22 @@
  * against two Shockley junctions sharing a tail current, solved here by
  * bisection; its derivatives against central differences; a cross-coupled pair
  * of LC tanks: the system Jacobian and loop split, and the loop gain at the
- * tanks' resonance against the hand analysis (KCL at the two collectors); the
- * loader's messages with FILE:LINE:COL. */
+ * tanks' resonance against the hand analysis (KCL at the two collectors). The
+ * exp-stage's Early voltage against the output resistance (va + vce)/ic; with
+ * rb, cje, cjc and tf its derivatives (the internal junction state included),
+ * the describing function's small-signal limit against the rb-r_pi divider, a
+ * common-emitter stage's response against the hybrid-pi model solved here by
+ * nodal analysis, and the system Jacobian and loop split with the junction state
+ * as the control. The loader's messages with FILE:LINE:COL. */
 #include "ru_test.h"
 
 #include "parts/laws.h"
+#include "ringup/descfn.h"
 #include "ringup/loader.h"
 #include "ringup/smallsig.h"
 #include "ringup/system.h"
 
+#include <complex.h>
 #include <stdio.h>
 #include <string.h>
 
@@ -206,6 +213,231 @@ static void test_cross_coupled(void **state)
     RU_ASSERT_NEAR(im, 0.0, 1e-9 * re);
     ru_system_destroy(s);
     ru_circuit_destroy(c);
+    /* An input voltage noise en enters along the law's every d/d vc: both
+     * collectors, -+ itail/(4 vt) at balance, over each node's capacitance C +
+     * stray (ringup/system.h's noise columns: sqrt(S) M^-1 b) */
+    char text[1024];
+    snprintf(text, sizeof text, "%.*s, en: 2n}\n", (int)(strlen(cross_pair) - 2), cross_pair);
+    c = load_ok(text);
+    s = compile(c);
+    size_t m = ru_system_noise_count(s), kq = m;
+    for (size_t k = 0; k < m; k++) {
+        ru_noise_info info;
+        assert_int_equal(ru_system_noise_info(s, k, &info), RU_OK);
+        if (info.kind == RU_NOISE_INPUT_V)
+            kq = k;
+    }
+    assert_true(kq < m);
+    double B[4 * 16];
+    assert_true(m <= 16);
+    assert_int_equal(ru_system_noise_columns(s, x, 27.0, B), RU_OK);
+    double gm1 = 1e-3 / (4 * vt);
+    RU_ASSERT_REL(B[k1 * m + kq], -2e-9 * gm1 / 251e-12, 1e-9);
+    RU_ASSERT_REL(B[k2 * m + kq], 2e-9 * gm1 / 251e-12, 1e-9);
+    ru_system_destroy(s);
+    ru_circuit_destroy(c);
+}
+
+static ru_amp npn(void)
+{
+    ru_amp a;
+    ru_amp_defaults(&a, RU_LAW_EXP_STAGE);
+    a.is_a = 1e-15;
+    a.beta = 120.0;
+    a.n = 1.02;
+    a.va_v = 40.0;
+    a.cje_f = 2e-12;
+    a.cjc_f = 0.8e-12;
+    a.tf_s = 300e-12;
+    a.rb_ohm = 60.0;
+    return a;
+}
+
+static void test_early(void **state)
+{
+    (void)state;
+    ru_amp a = npn(), b = npn();
+    a.rb_ohm = a.tf_s = 0.0; /* no state: vc is the junction voltage */
+    b.rb_ohm = b.tf_s = b.va_v = 0.0;
+    const double vces[] = {3.0, 5.0, 8.0};
+    for (int k = 0; k < 3; k++) {
+        ru_law_eval e, f;
+        ru_law_eval_amp(&a, 0.7, vces[k], &e);
+        ru_law_eval_amp(&b, 0.7, vces[k], &f);
+        /* Reference: the Early effect, ic = ic0 (1 + vce/va), and its output
+         * resistance ro = (va + vce)/ic (Early 1952; Gray, Hurst, Lewis & Meyer
+         * ch. 1, from memory). Far above vsat: the saturation factor's slope
+         * at 3 V, 4 e^(-30)/vsat = 2e-12 /V against 1/va, leaves 1e-10: 1e-8. */
+        RU_ASSERT_REL(e.i_out, f.i_out * (1.0 + vces[k] / a.va_v), 1e-12);
+        RU_ASSERT_REL(-1.0 / e.di_out_dvo, (a.va_v + vces[k]) / -e.i_out, 1e-8);
+        /* the base current is not modulated: ib = ie/beta as before */
+        RU_ASSERT_REL(e.i_in, f.i_in, 1e-15);
+    }
+    /* below vce = 0 the factor stays 1: the reverse region as without va */
+    ru_law_eval e, f;
+    ru_law_eval_amp(&a, 0.7, -0.05, &e);
+    ru_law_eval_amp(&b, 0.7, -0.05, &f);
+    RU_ASSERT_REL(e.i_out, f.i_out, 1e-15);
+    /* the constant capacitances: cjc in-out, cje in-inv without rb */
+    ru_law_cap c[RU_PART_CAPS_MAX];
+    const ru_law_desc *d = ru_law_get(RU_LAW_EXP_STAGE);
+    assert_int_equal(d->caps(&a, c), 2);
+    assert_true(c[0].a == RU_AMP_IN && c[0].b == RU_AMP_OUT && c[0].c_f == a.cjc_f);
+    assert_true(c[1].a == RU_AMP_IN && c[1].b == RU_AMP_INV && c[1].c_f == a.cje_f);
+    ru_amp r = npn(); /* with rb, cje is the junction's, behind rb */
+    d->caps(&r, c);
+    RU_ASSERT_NEAR(c[1].c_f, 0.0, 0.0);
+    assert_int_equal(ru_law_nstates(&a), 0);
+    assert_int_equal(ru_law_nstates(&r), 1);
+}
+
+/* Central differences of i_out, i_in and the junction rate in vc, vo and vj. */
+static void test_exp_derivatives(void **state)
+{
+    (void)state;
+    ru_amp a = npn();
+    double nvt = a.n * ru_law_thermal_voltage(a.temp_c);
+    const double vcs[] = {-0.5, 0.3, 0.72, 0.9};
+    const double vos[] = {-0.1, 0.05, 0.3, 4.0};
+    const double vjs[] = {-0.2, 0.5, 0.7, 0.78, 1.2 /* limiting, u > 40 */};
+    for (int i = 0; i < 4; i++)
+        for (int j = 0; j < 4; j++)
+            for (int k = 0; k < 5; k++) {
+                double x[3] = {vcs[i], vos[j], vjs[k]}, h = 1e-7;
+                ru_law_eval c, p, m;
+                ru_law_eval_state(&a, x[0], x[1], x[2], &c);
+                const double an[3][3] = {{c.di_out_dvc, c.di_out_dvo, c.di_out_dxs},
+                                         {c.di_in_dvc, c.di_in_dvo, c.di_in_dxs},
+                                         {c.ddxs_dvc, c.ddxs_dvo, c.ddxs_dxs}};
+                for (int w = 0; w < 3; w++) {
+                    double keep = x[w];
+                    x[w] = keep + h;
+                    ru_law_eval_state(&a, x[0], x[1], x[2], &p);
+                    x[w] = keep - h;
+                    ru_law_eval_state(&a, x[0], x[1], x[2], &m);
+                    x[w] = keep;
+                    const double fd[3] = {(p.i_out - m.i_out) / (2 * h),
+                                          (p.i_in - m.i_in) / (2 * h),
+                                          (p.dxs - m.dxs) / (2 * h)};
+                    const double val[3] = {fabs(c.i_out), fabs(c.i_in), fabs(c.dxs)};
+                    for (int q = 0; q < 3; q++) {
+                        /* Reference: central differences, h = 0.1 uV: truncation
+                         * (h/nvt)^2 ~ 1e-11 relative, rounding 4 eps of the value
+                         * (and of the rate's two terms) over h; 1e-7 of the entry */
+                        double tol = 1e-7 * fabs(fd[q]) + 8.9e-16 * (val[q] + 1e-2) / h *
+                                                              (q == 2 ? 1.0 / a.cje_f : 1.0);
+                        if (!(fabs(an[q][w] - fd[q]) <= tol))
+                            fail_msg("vc %g vo %g vj %g: d%d/d%d analytic %.10g fd %.10g", x[0],
+                                     x[1], x[2], q, w, an[q][w], fd[q]);
+                    }
+                }
+            }
+    /* The describing function at a small amplitude is the stage's static
+     * transconductance with the junction behind rb: the rb - r_pi divider,
+     * -gm r_pi/(r_pi + rb), r_pi = beta/gm (the hybrid-pi model at DC, from
+     * memory; Taylor: a = 10 uV leaves (a/nvt)^2/8 ~ 2e-8), at vo = 5 V where
+     * the output factor is 1 + 5/va. */
+    double vc0 = 0.75, xs = 0.0;
+    {
+        double lo = 0.0, hi = vc0; /* the static junction voltage, by bisection */
+        for (int it = 0; it < 100; it++) {
+            double mid = 0.5 * (lo + hi);
+            double ib = a.is_a * (exp(mid / nvt) - 1.0) / a.beta;
+            if ((vc0 - mid) / a.rb_ohm > ib)
+                lo = mid;
+            else
+                hi = mid;
+        }
+        xs = 0.5 * (lo + hi);
+    }
+    double gm = a.is_a * exp(xs / nvt) / nvt * (1.0 + 5.0 / a.va_v);
+    double rpi = a.beta / (a.is_a * exp(xs / nvt) / nvt);
+    RU_ASSERT_REL(ru_df_amp_gain(&a, vc0, 5.0, 1e-5), -gm * rpi / (rpi + a.rb_ohm), 1e-6);
+}
+
+/* A common-emitter stage (our own values): base b biased from VBB through RB,
+ * collector c through RC from VCC, emitter on ground. */
+static const char *ce_stage = "stray: 1p\nparts:\n"
+                              "  VCC: {type: supply, nodes: [vcc, gnd], value: 5V}\n"
+                              "  VBB: {type: supply, nodes: [vbb, gnd], value: 5V}\n"
+                              "  RB: {type: resistor, nodes: [vbb, b], value: 430k}\n"
+                              "  RC: {type: resistor, nodes: [vcc, c], value: 2k}\n"
+                              "  Q: {type: amplifier, law: exp-stage, in: b, out: c, is: 1f,"
+                              " beta: 120, n: 1.02, va: 40, cje: 2p, cjc: 0.8p, tf: 300p,"
+                              " rb: 60}\n";
+
+static void test_hybrid_pi(void **state)
+{
+    (void)state;
+    ru_circuit *c = load_ok(ce_stage);
+    ru_system *s = compile(c);
+    assert_int_equal(ru_system_size(s), 3); /* b, c, Q.vbe */
+    assert_string_equal(ru_system_state_name(s, 2), "Q.vbe");
+    double x[3] = {0};
+    ru_error err;
+    assert_int_equal(ru_oppoint_solve(s, x, 0, NULL, &err), RU_OK);
+    int nb = ru_circuit_find_node(c, "b"), nc = ru_circuit_find_node(c, "c");
+    double vb = x[ru_system_node_state(s, nb)], vc = x[ru_system_node_state(s, nc)];
+    double ib = (5.0 - vb) / 430e3, ic = (5.0 - vc) / 2e3;
+    double nvt = 1.02 * ru_law_thermal_voltage(27.0);
+    assert_true(ic > 1e-3 && ic < 1.5e-3 && vc > 2.0); /* forward active */
+    /* KVL through rb: the junction state is vb - ib rb (Ohm's law) */
+    RU_ASSERT_NEAR(x[2], vb - ib * 60.0, 1e-9);
+    /* Reference: the hybrid-pi model (Giacoletto 1969; Gray, Hurst, Lewis & Meyer
+     * ch. 1, from memory) with hand values from the operating point: gm = ic/(n
+     * vt), g_pi = ib/(n vt), c_pi = cje + tf beta ib/(n vt) (the diffusion charge
+     * tf times the forward current beta ib, charge control), c_mu = cjc, g_o =
+     * ic/(va + vce), rbb' = rb; b driven by 1 V: KCL at b' and at c gives
+     *   v(b') = g_b/(g_b + g_pi + jw c_pi),
+     *   v(c) = (jw c_mu - gm v(b'))/(g_o + 1/RC + jw (c_mu + stray)).
+     * 1e-6: the is terms dropped from gm and g_pi (1e-12) and Newton's tolerance
+     * on the operating point. */
+    double gm = ic / nvt, gpi = ib / nvt, cpi = 2e-12 + 300e-12 * 120.0 * ib / nvt;
+    double go = ic / (40.0 + vc), gb = 1.0 / 60.0, cmu = 0.8e-12;
+    const double fs[] = {1e5, 1e7, 1e8, 5e8, 2e9};
+    for (int k = 0; k < 5; k++) {
+        double w = 2 * RU_PI_LAW * fs[k];
+        double complex vbi = gb / (gb + gpi + I * w * cpi);
+        double complex want = (I * w * cmu - gm * vbi) / (go + 1.0 / 2e3 + I * w * (cmu + 1e-12));
+        double mag, ph;
+        assert_int_equal(ru_response_at(s, x, nb, nc, fs[k], &mag, &ph, &err), RU_OK);
+        RU_ASSERT_REL(mag, cabs(want), 1e-6);
+        RU_ASSERT_NEAR(ph, carg(want) * 180.0 / RU_PI_LAW, 1e-4);
+    }
+    /* The system Jacobian against central differences at off-bias points, and
+     * the loop split with the junction state as the control: dr/dx = A0 + b g^T
+     * (its definition, ringup/system.h), b on the collector's row, g = e_vbe. */
+    const double xs[2][3] = {{0.78, 2.0, 0.74}, {0.5, 4.5, 0.7}};
+    for (int t = 0; t < 2; t++) {
+        double y[3], r[3], rp[3], rm[3], J[9], A0[9], b[3], g[3];
+        memcpy(y, xs[t], sizeof y);
+        ru_eval_point ep = {0.0, 1, 1.0};
+        assert_int_equal(ru_system_residual(s, &ep, y, r, J), RU_OK);
+        for (size_t j = 0; j < 3; j++) {
+            double h = 1e-6, keep = y[j];
+            y[j] = keep + h;
+            assert_int_equal(ru_system_residual(s, &ep, y, rp, NULL), RU_OK);
+            y[j] = keep - h;
+            assert_int_equal(ru_system_residual(s, &ep, y, rm, NULL), RU_OK);
+            y[j] = keep;
+            for (size_t i = 0; i < 3; i++) {
+                double fd = (rp[i] - rm[i]) / (2 * h);
+                /* truncation (h/nvt)^2 ~ 1e-9, rounding 4 eps |r|/h */
+                RU_ASSERT_NEAR(J[i * 3 + j], fd,
+                               1e-6 * fabs(fd) + 8.9e-16 * (fabs(r[i]) + 1e-2) / h);
+            }
+        }
+        assert_int_equal(ru_system_loop_split(s, ru_circuit_find_part(c, "Q"), y, A0, b, g,
+                                              &err),
+                         RU_OK);
+        RU_ASSERT_NEAR(g[2], 1.0, 0.0);
+        RU_ASSERT_NEAR(g[0] + g[1], 0.0, 0.0);
+        assert_true(b[ru_system_node_state(s, nc)] < 0); /* the collector sinks */
+        for (size_t i = 0; i < 9; i++)
+            RU_ASSERT_NEAR(A0[i] + b[i / 3] * g[i % 3], J[i], 1e-12 * (fabs(J[i]) + 1.0));
+    }
+    ru_system_destroy(s);
+    ru_circuit_destroy(c);
 }
 
 /* 1-based column of the first `token` on 1-based `line` of text. */
@@ -248,6 +480,14 @@ static void test_loader_errors(void **state)
              "part Q: key out2 does not apply to law exp-stage");
     load_bad("  Q: {type: amplifier, law: diff-pair-tanh, in: a, inv: b, out: c, out2: c}\n",
              "Q:", "part Q: out2 must differ from out and ref");
+    load_bad("  Q: {type: amplifier, law: exp-stage, in: a, out: c, tf: 100p}\n", "Q:",
+             "part Q: tf needs rb > 0");
+    load_bad("  Q: {type: amplifier, law: exp-stage, in: a, out: c, rb: 50}\n", "Q:",
+             "part Q: rb needs cje or tf");
+    load_bad("  Q: {type: amplifier, law: exp-stage, in: a, out: c, cjc: -1p}\n", "Q:",
+             "part Q: cjc must not be negative");
+    load_bad("  Q: {type: amplifier, law: exp-stage, in: a, out: c, tf: 2pF, rb: 9}\n", "2pF",
+             "unit F does not fit");
     /* out2 optional: the one-output form still loads, and out2 is listed */
     ru_circuit *c = load_ok(cross_pair);
     const ru_part *p = ru_circuit_part(c, (size_t)ru_circuit_find_part(c, "Q"));
@@ -263,6 +503,9 @@ int main(void)
     const struct CMUnitTest tests[] = {
         cmocka_unit_test(test_two_collectors),
         cmocka_unit_test(test_cross_coupled),
+        cmocka_unit_test(test_early),
+        cmocka_unit_test(test_exp_derivatives),
+        cmocka_unit_test(test_hybrid_pi),
         cmocka_unit_test(test_loader_errors),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);

@@ -96,6 +96,19 @@ const char *ru_law_name(ru_law law);
  *   smooth saturation of the output only: 1 when vo is well above vsat, 0 at vo = 0. The input is not
  *   reduced by it, so in saturation the junction still clamps the input as a real
  *   base-emitter junction does.
+ *   Device keys (all 0 by default: none): va, the Early voltage, multiplies ic by
+ *   (1 + vo/va) for vo > 0 (Early 1952; the output resistance (va + vce)/ic, e.g.
+ *   Gray, Hurst, Lewis & Meyer ch. 1, from memory). cjc is a constant base-
+ *   collector capacitance (in-out). Without rb, cje is a constant base-emitter
+ *   capacitance (in-inv). With rb > 0 the junction sits behind the base
+ *   resistance: its voltage vj (state "PART.vbe", relative to inv) obeys
+ *     (cje + tf gj) dvj/dt = (vc - vj)/rb - is (exp(vj/(n vt)) - 1)/beta,
+ *   gj = d/dvj of is exp(vj/(n vt)), the base's junction and diffusion charges
+ *   (charge-control model: q = tf ic, Beaufoy & Sparkes 1957, from memory; ft =
+ *   gm/(2 pi (cje + tf gm + cjc))), the collector current follows vj (ic = is
+ *   (exp(vj/(n vt)) - 1) tanh(vo/vsat) (1 + vo/va)) and the input draws (vc - vj)/rb.
+ *   tf needs rb; rb needs cje or tf. Small signal this is the hybrid-pi model
+ *   with rbb' = rb, c_pi = cje + tf gm, c_mu = cjc, r_o from va.
  * diff-pair-tanh: the long-tailed (emitter-coupled) pair, the bases' difference vc,
  *   the tail to ref. With out2 (both collectors): out, the in side's collector,
  *   sinks itail/2 (1 + tanh(vc/(2 n vt))) and out2, the inv side's, itail/2 (1 -
@@ -185,7 +198,7 @@ typedef struct ru_amp {
     double vth_v;            /* mos-ekv: threshold voltage VT0 (V, magnitude for p) */
     double kmos_a_per_v2;    /* mos-ekv: transfer parameter beta = mu Cox W/L (A/V^2) */
     double va_v;             /* mos-ekv, cmos-inverter: channel-length modulation
-                                voltage (V, 0: none) */
+                                voltage; exp-stage: Early voltage (V, 0: none) */
     double cgs_f, cgd_f;     /* mos-ekv: gate-source and gate-drain capacitances (F);
                                 cmos-inverter: cgd is in-out (both devices) */
     double vthn_v, vthp_v;   /* cmos-inverter: thresholds of the n and p devices (V,
@@ -197,6 +210,10 @@ typedef struct ru_amp {
     double en_v_per_rthz;    /* voltage noise density in series with in (V/sqrt(Hz)) */
     double in_a_per_rthz;    /* current noise density from inv into in (A/sqrt(Hz)) */
     double fc_hz;            /* their flicker corner: density^2 (1 + fc/f) (Hz) */
+    double cje_f, cjc_f;     /* exp-stage: base-emitter (in-inv, or behind rb) and
+                                base-collector (in-out) junction capacitances (F) */
+    double tf_s;             /* exp-stage: forward transit time (s; 0: none) */
+    double rb_ohm;           /* exp-stage: base resistance (ohm; 0: none) */
 } ru_amp;
 
 /* Junction diode (two-terminal part): i(anode -> cathode) = is*(exp(vj/(n vt)) - 1)

@@ -80,7 +80,8 @@ static ru_status check(const ru_part *p, const ru_part_env *env, ru_error *err)
                     a->slew_v_per_s, a->polarity, a->vth_v,      a->kmos_a_per_v2,
                     a->va_v,     a->cgs_f,       a->cgd_f,       a->vthn_v,
                     a->vthp_v,   a->kn_a_per_v2, a->kp_a_per_v2, a->cin_f,    a->cout_f,
-                    a->en_v_per_rthz, a->in_a_per_rthz, a->fc_hz};
+                    a->en_v_per_rthz, a->in_a_per_rthz, a->fc_hz,
+                    a->cje_f,    a->cjc_f,       a->tf_s,        a->rb_ohm};
     if (!ru_part_finite(all, (int)(sizeof all / sizeof all[0])))
         return ru_part_fail(env, p, err, "amplifier values must be finite");
     if (a->en_v_per_rthz < 0)
