@@ -32,6 +32,7 @@ PUBLIC = {
     "transient.h": "engines", "smallsig.h": "engines", "descfn.h": "engines",
     "steady.h": "engines", "ppv.h": "engines", "hb.h": "engines",
     "envfollow.h": "engines", "margin.h": "engines",
+    "stray.h": "engines",
     "measure.h": "measure", "verdict.h": "measure",
     "wavefile.h": "output", "plot.h": "output", "wav.h": "output", "outfile.h": "output",
     "json.h": "output",

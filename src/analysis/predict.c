@@ -9,6 +9,7 @@
 
 #include "ringup/descfn.h"
 #include "ringup/smallsig.h"
+#include "ringup/stray.h"
 #include "engines/modes.h"
 #include "engines/startlevel.h"
 #include "parts/desc.h"
@@ -171,6 +172,23 @@ static ru_status predict_loop(const ru_circuit *c, const ru_system *s,
     return RU_OK;
 }
 
+/* The stray-capacitance check (ringup/stray.h): its warning as a note. */
+static void stray_note(const ru_circuit *c, const ru_system *s, const double *x_op,
+                       ru_run_report *rep)
+{
+    ru_stray_result r;
+    ru_error e;
+    ru_error_clear(&e);
+    if (ru_stray_check(c, s, x_op, &r, &e) != RU_OK) {
+        ru_report_note(rep, "stray capacitance not checked: %s", e.msg);
+        return;
+    }
+    char text[RU_NOTE_MAX * 2];
+    ru_stray_warning(c, &r, text, sizeof text);
+    if (text[0])
+        ru_report_note(rep, "%s", text);
+}
+
 ru_status ru_predict(const ru_circuit *c, const ru_system *s, const ru_run_request *rq,
                      int probe_pos, int probe_neg, ru_run_report *rep, ru_run_data *keep,
                      double *x_op_out, ru_error *err)
@@ -204,6 +222,8 @@ ru_status ru_predict(const ru_circuit *c, const ru_system *s, const ru_run_reque
     if (x_op_out)
         memcpy(x_op_out, x_op, n * sizeof *x_op);
     predict_poles(s, x_op, probe_pos, probe_neg, rep, keep);
+    if (pr->have_poles)
+        stray_note(c, s, x_op, rep);
     if (pr->have_poles && pr->growth_rate_per_s > 0)
         ru_predict_tone(s, x_op, probe_pos, probe_neg, rep, keep);
     st = predict_loop(c, s, rq, x_op, rep, keep, err);

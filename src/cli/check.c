@@ -3,10 +3,14 @@
 
 #include "ringup/format.h"
 #include "ringup/json.h"
+#include "ringup/measure.h"
+#include "ringup/smallsig.h"
+#include "ringup/stray.h"
 #include "ringup/system.h"
 #include "ringup/transient.h"
 
 #include <stdio.h>
+#include <stdlib.h>
 #include <string.h>
 
 /* The run and measure sections as they will be used (defaults filled in). */
@@ -191,6 +195,27 @@ static void print_json(const ru_circuit *c, const ru_system *s)
     ru_json_finish(&j);
 }
 
+/* The stray-capacitance check (ringup/stray.h) at the operating point, when there
+ * is one: its warning printed and kept with the file's warnings. */
+static void stray_warning(ru_circuit *c, const ru_system *s)
+{
+    int floating;
+    size_t n = ru_system_size(s);
+    double *x = calloc(n ? n : 1, sizeof *x);
+    ru_error e;
+    ru_error_clear(&e);
+    ru_stray_result r;
+    if (x && !ru_circuit_find_floating_node(c, &floating) &&
+        ru_oppoint_solve(s, x, 0, NULL, &e) == RU_OK &&
+        ru_stray_check(c, s, x, &r, &e) == RU_OK && r.warn) {
+        char text[RU_NOTE_MAX * 2];
+        ru_stray_warning(c, &r, text, sizeof text);
+        fprintf(stderr, "%s\n", text);
+        ru_circuit_add_warning(c, text);
+    }
+    free(x);
+}
+
 int cmd_check(int argc, char **argv)
 {
     cli_opt opts[] = {{"json", NULL, "print JSON on stdout", NULL}, {NULL, NULL, NULL, NULL}};
@@ -212,6 +237,7 @@ int cmd_check(int argc, char **argv)
         rc = cli_fail(&err);
         goto done;
     }
+    stray_warning(c, s);
     if (json)
         print_json(c, s);
     else
