@@ -257,6 +257,8 @@ static ru_status run_transient(const ru_circuit *c, const ru_system *sys,
     }
     if ((st = ru_system_initial_state(sys, x0, err)) != RU_OK)
         goto cleanup;
+    if (rep->engine.envelope && ru_run_opts_noise(ro))
+        ru_envrun_noise_start(sys, rep, probe_pos, probe_neg, x_op, x0);
     ru_transient_opts to;
     int accuracy = rq->accuracy >= 0 ? rq->accuracy : (int)ro->accuracy;
     ru_transient_opts_for((ru_accuracy)accuracy, &to);
@@ -472,8 +474,9 @@ ru_status ru_analysis_run(const ru_circuit *c, const ru_run_request *rq,
                           "resistance): this circuit has no thermal noise source");
         goto done;
     }
-    rep->noise_on = ru_run_opts_noise(ro) && has_noise_source(c);
-    if (ru_run_opts_noise(ro) && !rep->noise_on)
+    /* the envelope engine: ru_envrun_noise_start gives the noise's start instead */
+    rep->noise_on = ru_run_opts_noise(ro) && has_noise_source(c) && !rep->engine.envelope;
+    if (ru_run_opts_noise(ro) && !has_noise_source(c))
         ru_report_note(rep, "no resistor and no inductor series resistance: no thermal "
                             "noise to start from, the start is the power-on alone");
     if (rep->noise_on &&

@@ -130,6 +130,13 @@ void ru_stop_plan(const ru_circuit *c, const ru_system *sys, const ru_run_reques
 ru_status ru_runloop(const ru_run_engine *e, ru_measure *m, const ru_judge_ctx *jc,
                      ru_run_report *rep, ru_error *err);
 
+/* The envelope engine follows deterministic cycles, so it runs with the thermal
+ * noise off; where the noise sets the start level (rep->pred.start_kind noise), x0
+ * gains the dominant mode at that level on the probe instead (envrun.c). Says so
+ * in a note. */
+void ru_envrun_noise_start(const ru_system *s, ru_run_report *rep, int probe_pos,
+                           int probe_neg, const double *x_op, double *x0);
+
 /* Picks the engine (rq->engine, the prediction, what the circuit allows) into
  * rep->engine with a note; RU_EINPUT when the envelope engine was asked for and
  * cannot run this circuit (err says why). envrun.c. */

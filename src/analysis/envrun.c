@@ -9,9 +9,12 @@
  * computed cycles only (a few thousand), never with the cycles skipped. */
 #include "analysis/analysis_impl.h"
 
+#include "engines/modes.h"
+#include "engines/startlevel.h"
 #include "ringup/envfollow.h"
 #include "ringup/format.h"
 
+#include <complex.h>
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -104,6 +107,49 @@ ru_status ru_engine_choose(const ru_circuit *c, const ru_system *s,
                         "steps (--engine direct integrates every one)",
                    cyc, RU_ENGINE_AUTO_CYCLES);
     return RU_OK;
+}
+
+/* The mode's phasor at a node (0 for ground and driven nodes). */
+static double complex mode_at(const ru_system *s, const double *v, int node)
+{
+    size_t n = ru_system_size(s);
+    int k = node > 0 ? ru_system_node_state(s, node) : -1;
+    return k >= 0 ? v[k] + I * v[n + k] : 0;
+}
+
+void ru_envrun_noise_start(const ru_system *s, ru_run_report *rep, int probe_pos,
+                           int probe_neg, const double *x_op, double *x0)
+{
+    const ru_prediction *p = &rep->pred;
+    size_t n = ru_system_size(s);
+    ru_start_level sl;
+    ru_error e;
+    ru_error_clear(&e);
+    double *v = x_op && p->have_poles ? malloc(2 * n * sizeof *v) : NULL;
+    double k = 0, vp = 0;
+    ru_pole lam;
+    /* the noise's share: what the log-mean level has beyond the ramp's, added in
+     * quadrature (the noise's phase is random: the mean square matches) */
+    if (v && ru_start_level_compute(s, x_op, p->dominant, probe_pos, probe_neg, 1e6,
+                                    RU_NOISE_TEMP_C, &sl, &e) == RU_OK &&
+        sl.noise_rms_v > 0 && sl.level_v > sl.det_v)
+        k = sqrt(sl.level_v * sl.level_v - sl.det_v * sl.det_v);
+    if (k > 0 && ru_mode_near(s, x_op, p->dominant, &lam, v, v + n, NULL, NULL) == RU_OK)
+        vp = cabs(mode_at(s, v, probe_pos) - mode_at(s, v, probe_neg));
+    if (vp > 0) { /* dx = 2 Re(z v): probe amplitude 2 |z| |v_probe| */
+        double z = k / (2 * vp);
+        for (size_t i = 0; i < n; i++)
+            x0[i] += 2 * z * v[i];
+        ru_report_note(rep, "the envelope engine follows deterministic cycles, so the "
+                            "thermal noise is off; the dominant mode starts with the "
+                            "noise's share of the start level instead (%.3g V on the "
+                            "probe, beside the power-on ramp's %.3g V)",
+                       k, sl.det_v);
+    } else {
+        ru_report_note(rep, "the envelope engine follows deterministic cycles, so the "
+                            "thermal noise is off; the power-on ramp sets the start");
+    }
+    free(v);
 }
 
 /* ---- the sinks ----------------------------------------------------------------- */
