@@ -125,8 +125,8 @@ static void test_load_errors(void **state)
         "'x y'", "key control: 'x y' is not a node name");
     BAD("  G1: {type: transconductor, nodes: [o, gnd], control: [i, gnd], gm: 1mF}\n", 2,
         "1mF", "unit F does not fit, expected S");
-    BAD("  G1: {type: transconductor, nodes: [o, gnd], control: [i, gnd], gm: 1m, tol: 1%}\n",
-        2, "tol", "key tol does not apply to type transconductor");
+    BAD("  G1: {type: transconductor, nodes: [o, gnd], control: [i, gnd], gm: 1m, tol: {gain: 1%}}\n",
+        2, "gain", "tol: gain is not a value of the part (values: gm)");
     BAD("  G1: {type: transconductor, nodes: [o, gnd], control: [i, gnd], gm: 1m, gain: 2}\n",
         2, "gain", "key gain does not apply to type transconductor");
     BAD("  G1: {type: transconductor, nodes: [o, gnd], control: [i, gnd], gm: 1m, gmm: 2}\n",

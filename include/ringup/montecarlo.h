@@ -2,15 +2,19 @@
  * on every unit, and how do start-up time, growth rate, frequency, settled
  * amplitude and THD spread?
  *
- * Each sample (unit) draws, for every part with a tolerance `tol` > 0 (resistors,
- * capacitors, inductors: their `value` only), value*(1 + d) with d
+ * Each sample (unit) draws, for every toleranced quantity (the `value` of a
+ * resistor, capacitor, inductor or crystal with `tol` > 0, a crystal's esr with
+ * esr-tol, and every key tolerance of ringup/part.h: `tol: {beta: 30%}`, a
+ * supply's level), x*(1 + d) with d
  *   - uniform in [-tol, tol] (RU_MC_UNIFORM, the default: every value in the band
  *     equally likely, worst-case-like), or
  *   - normal with sigma = tol/3 truncated at +-tol (RU_MC_NORMAL: the tolerance
  *     taken as a 3-sigma bound, common practice; the truncated variance is
  *     0.97334 sigma^2).
  * Sample 0 is the nominal circuit (nothing drawn). The generator is counter-based:
- * d is a pure function of (seed, sample index, part index), splitmix64 used as a
+ * d is a pure function of (seed, sample index, stream): the stream is the part
+ * index for its value, index | 2^32 for a crystal's esr, and index | (h << 32) for a
+ * key tolerance, h the key's FNV-1a hash mod 2^31 with bit 31 set; splitmix64 used as a
  * hash as in the noise kick (src/system/noise.c), so a result does not depend on the
  * number of threads or their scheduling and any unit can be rebuilt alone.
  *
@@ -149,10 +153,14 @@ size_t ru_mc_failed_count(const ru_mc_result *r); /* runs that ended in an error
 const ru_mc_unit *ru_mc_get_unit(const ru_mc_result *r, size_t i);
 const ru_mc_stats *ru_mc_get_stats(const ru_mc_result *r, ru_mc_figure f);
 
-/* The parts with a tolerance, in circuit order: their count, the k-th's name, and
- * the value drawn for it in unit i (in the part's unit). */
+/* The quantities drawn, in circuit order (per part: its value, then its key
+ * tolerances in file order): their count, the k-th's name ("RS" for a value,
+ * "Q1.beta" for a key), its PART.KEY ("RS.value", "Q1.beta"; ringup/params.h
+ * reads its nominal value and unit), and the value drawn for it in unit i (in
+ * the key's unit). */
 size_t ru_mc_tol_count(const ru_mc_result *r);
 const char *ru_mc_tol_name(const ru_mc_result *r, size_t k);
+const char *ru_mc_tol_param(const ru_mc_result *r, size_t k);
 double ru_mc_value(const ru_mc_result *r, size_t i, size_t k);
 
 /* The indices of the started units (of those in), latest start-up first (NAN start-up times

@@ -299,6 +299,17 @@ typedef struct ru_crystal {
 } ru_crystal;
 
 
+/* A tolerance on one numeric key of a part (`tol: {beta: 30%, is: 50%}`; on a
+ * source, a plain `tol: 5%` is one on its level), drawn by Monte Carlo and taken to
+ * its ends by corners. The value of a resistor, capacitor, inductor or crystal
+ * keeps its own field (ru_part.tol). */
+#define RU_KEY_TOLS 8    /* most key tolerances of one part */
+#define RU_KEY_MAX 16    /* longest key spelling, with the NUL */
+typedef struct ru_key_tol {
+    char key[RU_KEY_MAX]; /* a numeric key of the part's type or law ("beta") */
+    double tol;           /* relative tolerance, from 0 up to 1 */
+} ru_key_tol;
+
 /* Fills a with the law's defaults (documented in README). */
 void ru_amp_defaults(ru_amp *a, ru_law law);
 
@@ -320,6 +331,8 @@ typedef struct ru_part {
     ru_thermal thermal;      /* thermal resistor */
     ru_crystal crystal;      /* crystal (fs in value, its tolerance in tol) */
     ru_coupling coupling;    /* coupling of two inductors */
+    int nkey_tols;           /* tolerances on other keys (Monte Carlo, corners) */
+    ru_key_tol key_tol[RU_KEY_TOLS];
     int line, col;           /* where the part is defined in its file (1-based; 0 none) */
 } ru_part;
 
@@ -355,6 +368,21 @@ typedef struct ru_terminal {
  * is not listed: an amplifier's inv when it is ref) into out[0..max-1]; returns
  * how many there are (may exceed max). */
 int ru_part_terminals(const ru_part *p, ru_terminal *out, int max);
+
+/* The double of p's numeric key `key` as its type (and law, wave or kind) lists
+ * it, NULL when p has no such key; *unit (when unit is not NULL) gets the unit it
+ * is written in ("" for a plain number, "%" for a fraction). */
+double *ru_part_key_ptr(ru_part *p, const char *key, const char **unit);
+const double *ru_part_key_cptr(const ru_part *p, const char *key, const char **unit);
+
+/* The key whose double is p->value ("value"; a crystal's "freq"), NULL: none. */
+const char *ru_part_value_key(const ru_part *p);
+
+/* The key a plain `tol: X` applies to on a part with no `tol` key of its own: its
+ * value key (a transconductor's gm), else a source's level (dc value, step or
+ * pulse `to`, sine amplitude); NULL: a plain tol is not taken (give the keys:
+ * `tol: {beta: 30%}`). */
+const char *ru_part_level_key(const ru_part *p);
 
 /* The value that matters of p for listings, e.g. "10 kohm", "sine 1 V at 1000 Hz",
  * "follower-tanh / soft-follower" (SI prefixes; "" for an unknown type). */

@@ -12,6 +12,7 @@
 
 #include "batch/jsonl.h"
 #include "ringup/batch.h"
+#include "ringup/params.h"
 #include "ringup/units.h"
 
 #include <math.h>
@@ -27,8 +28,8 @@ struct ru_mc_result {
     size_t settled;          /* started units that settled */
     size_t failed;           /* units whose run ended in an error */
     size_t ntol;             /* parts with a tolerance */
-    char (*tol_name)[RU_NAME_MAX]; /* their names, circuit order */
-    int *tol_part;           /* their part indices */
+    char (*tol_name)[RU_PARAM_NAME_MAX]; /* their names ("RS", "Q1.beta"), circuit order */
+    char (*tol_param)[RU_PARAM_NAME_MAX]; /* their PART.KEY ("RS.value", "Q1.beta") */
     double *values;          /* samples x ntol drawn values (part's unit) */
     ru_mc_unit *units;       /* samples records */
     unsigned char *have;     /* samples flags: 1 when the unit's record is in */
@@ -79,6 +80,62 @@ static void draw_esr(ru_part *p, uint64_t seed, size_t sample, size_t i, ru_mc_d
         p->crystal.arm_esr_ohm[k] *= f;
 }
 
+/* The stream of part i's key tolerance on `key`: FNV-1a of the spelling in the high
+ * word with its top bit set (never the value's stream i or the esr's i | 2^32), so a
+ * draw does not move when other keys get tolerances or their order changes. */
+static uint64_t key_stream(size_t i, const char *key)
+{
+    uint64_t h = 14695981039346656037ull;
+    for (const unsigned char *k = (const unsigned char *)key; *k; k++)
+        h = (h ^ *k) * 1099511628211ull;
+    return (uint64_t)i | (((h & 0x7fffffffull) | 0x80000000ull) << 32);
+}
+
+/* Whether part p has anything Monte Carlo draws. */
+static int any_drawn(const ru_part *p)
+{
+    if (value_drawn(p) || (p->type == RU_PART_CRYSTAL && p->crystal.esr_tol > 0))
+        return 1;
+    for (int k = 0; k < p->nkey_tols; k++)
+        if (p->key_tol[k].tol > 0)
+            return 1;
+    return 0;
+}
+
+/* The quantities drawn, in order: per part, its value, then its key tolerances. */
+typedef struct drawn {
+    size_t part;
+    int key; /* -1: the value; else the index in key_tol */
+} drawn;
+
+static size_t list_drawn(const ru_circuit *c, drawn *out)
+{
+    size_t n = 0;
+    for (size_t i = 0; i < ru_circuit_part_count(c); i++) {
+        const ru_part *p = ru_circuit_part(c, i);
+        if (value_drawn(p)) {
+            if (out)
+                out[n] = (drawn){i, -1};
+            n++;
+        }
+        for (int k = 0; k < p->nkey_tols; k++)
+            if (p->key_tol[k].tol > 0) {
+                if (out)
+                    out[n] = (drawn){i, k};
+                n++;
+            }
+    }
+    return n;
+}
+
+static double drawn_value(const ru_part *p, int k)
+{
+    if (k < 0)
+        return p->value;
+    const double *v = ru_part_key_cptr(p, p->key_tol[k].key, NULL);
+    return v ? *v : NAN;
+}
+
 ru_status ru_mc_sample_circuit(const ru_circuit *c, uint64_t seed, size_t sample,
                                ru_mc_dist dist, ru_circuit **out, ru_error *err)
 {
@@ -89,12 +146,17 @@ ru_status ru_mc_sample_circuit(const ru_circuit *c, uint64_t seed, size_t sample
     ru_status s = RU_OK;
     for (size_t i = 0; sample > 0 && s == RU_OK && i < ru_circuit_part_count(v); i++) {
         ru_part p = *ru_circuit_part(v, i);
-        int esr = p.type == RU_PART_CRYSTAL && p.crystal.esr_tol > 0;
-        if (!value_drawn(&p) && !esr)
+        if (!any_drawn(&p))
             continue;
         if (value_drawn(&p))
             p.value *= 1.0 + ru_mc_deviation(seed, sample, i, dist, p.tol);
         draw_esr(&p, seed, sample, i, dist);
+        for (int k = 0; k < p.nkey_tols; k++) {
+            double *slot = ru_part_key_ptr(&p, p.key_tol[k].key, NULL);
+            if (slot)
+                *slot *= 1.0 + ru_mc_deviation(seed, sample, key_stream(i, p.key_tol[k].key),
+                                               dist, p.key_tol[k].tol);
+        }
         s = ru_circuit_replace_part(v, i, &p, err);
     }
     if (s != RU_OK)
@@ -165,7 +227,7 @@ void ru_mc_result_destroy(ru_mc_result *r)
     if (!r)
         return;
     free(r->tol_name);
-    free(r->tol_part);
+    free(r->tol_param);
     free(r->values);
     free(r->units);
     free(r->have);
@@ -176,24 +238,31 @@ void ru_mc_result_destroy(ru_mc_result *r)
 static ru_status result_new(const ru_circuit *c, size_t samples, ru_mc_result **out)
 {
     ru_mc_result *r = calloc(1, sizeof *r);
-    size_t np = ru_circuit_part_count(c);
+    size_t nd = list_drawn(c, NULL);
+    drawn *d = calloc(nd ? nd : 1, sizeof *d);
     if (r) {
         r->samples = samples;
-        r->tol_name = calloc(np ? np : 1, sizeof *r->tol_name);
-        r->tol_part = calloc(np ? np : 1, sizeof *r->tol_part);
+        r->tol_name = calloc(nd ? nd : 1, sizeof *r->tol_name);
+        r->tol_param = calloc(nd ? nd : 1, sizeof *r->tol_param);
         r->units = calloc(samples, sizeof *r->units);
         r->have = calloc(samples, 1);
     }
-    for (size_t i = 0; r && r->tol_name && r->tol_part && i < np; i++) {
-        const ru_part *p = ru_circuit_part(c, i);
-        if (value_drawn(p)) {
-            snprintf(r->tol_name[r->ntol], RU_NAME_MAX, "%s", p->name);
-            r->tol_part[r->ntol++] = (int)i;
+    if (r && d && r->tol_name && r->tol_param) {
+        r->ntol = list_drawn(c, d);
+        for (size_t k = 0; k < r->ntol; k++) {
+            const ru_part *p = ru_circuit_part(c, d[k].part);
+            const char *key = d[k].key < 0 ? ru_part_value_key(p) : p->key_tol[d[k].key].key;
+            if (d[k].key < 0)
+                snprintf(r->tol_name[k], RU_PARAM_NAME_MAX, "%s", p->name);
+            else
+                snprintf(r->tol_name[k], RU_PARAM_NAME_MAX, "%s.%s", p->name, key);
+            snprintf(r->tol_param[k], RU_PARAM_NAME_MAX, "%s.%s", p->name, key ? key : "");
         }
     }
+    free(d);
     if (r && r->ntol)
         r->values = calloc(samples * r->ntol, sizeof *r->values);
-    if (!r || !r->tol_name || !r->tol_part || !r->units || !r->have ||
+    if (!r || !r->tol_name || !r->tol_param || !r->units || !r->have ||
         (r->ntol && !r->values)) {
         ru_mc_result_destroy(r);
         return RU_ENOMEM;
@@ -229,11 +298,23 @@ static ru_status unit_record(size_t index, const ru_batch_item *it, const ru_cir
     jl_num(&b, "predicted_growth_rate_per_s",
            it->report.pred.have_poles ? it->report.pred.growth_rate_per_s : NAN);
     jl_open(&b, "values", '{');
-    for (size_t i = 0; i < ru_circuit_part_count(c); i++) {
-        const ru_part *p = ru_circuit_part(c, i);
-        if (value_drawn(p))
-            jl_num(&b, p->name, cv ? ru_circuit_part(cv, i)->value : NAN);
+    size_t nd = list_drawn(c, NULL);
+    drawn *d = calloc(nd ? nd : 1, sizeof *d);
+    if (!d) {
+        free(b.s);
+        return RU_ENOMEM;
     }
+    list_drawn(c, d);
+    for (size_t k = 0; k < nd; k++) {
+        const ru_part *p = ru_circuit_part(c, d[k].part);
+        char name[RU_PARAM_NAME_MAX];
+        if (d[k].key < 0)
+            snprintf(name, sizeof name, "%s", p->name);
+        else
+            snprintf(name, sizeof name, "%s.%s", p->name, p->key_tol[d[k].key].key);
+        jl_num(&b, name, cv ? drawn_value(ru_circuit_part(cv, d[k].part), d[k].key) : NAN);
+    }
+    free(d);
     jl_close(&b, '}');
     return jl_finish(&b, line);
 }
@@ -348,15 +429,13 @@ ru_status ru_mc_check(const ru_circuit *c, const ru_mc_opts *o, ru_error *err)
     if (o->request.keep || o->request.out_dir || o->request.wav_path)
         return ru_error_set(err, RU_ERANGE, NULL, 0, 0,
                             "Monte Carlo: units write no files and keep no pictures");
-    for (size_t i = 0; i < ru_circuit_part_count(c); i++) {
-        const ru_part *p = ru_circuit_part(c, i);
-        if (p->tol > 0 || (p->type == RU_PART_CRYSTAL && p->crystal.esr_tol > 0))
+    for (size_t i = 0; i < ru_circuit_part_count(c); i++)
+        if (any_drawn(ru_circuit_part(c, i)))
             return RU_OK;
-    }
     return ru_error_set(err, RU_EINPUT, ru_circuit_file(c), 0, 0,
                         "Monte Carlo: no part has a tolerance (give resistors, capacitors "
                         "or inductors a tol, e.g. tol: 1%%, a crystal tol: 20ppm or "
-                        "esr-tol: 20%%)");
+                        "esr-tol: 20%%, a supply tol: 5%%, any part tol: {KEY: 10%%})");
 }
 
 ru_status ru_mc_result_create(const ru_circuit *c, const ru_mc_opts *o, ru_mc_result **out,
@@ -423,6 +502,11 @@ const ru_mc_unit *ru_mc_get_unit(const ru_mc_result *r, size_t i)
 const ru_mc_stats *ru_mc_get_stats(const ru_mc_result *r, ru_mc_figure f)
 {
     return (unsigned)f < RU_MC_NFIG ? &r->stats[f] : NULL;
+}
+
+const char *ru_mc_tol_param(const ru_mc_result *r, size_t k)
+{
+    return k < r->ntol ? r->tol_param[k] : NULL;
 }
 
 const char *ru_mc_tol_name(const ru_mc_result *r, size_t k)

@@ -220,6 +220,9 @@ static ru_status check_values(const ru_circuit *c, const ru_part *p, ru_error *e
                             "part %s: tol must be from 0 up to (not including) 100%% (got %g)",
                             p->name, p->tol);
     ru_part_env env = {c->file, c->nnodes, env_node_name, c};
+    ru_status s = ru_part_check_key_tols(p, &env, err);
+    if (s != RU_OK)
+        return s;
     return d->check ? d->check(p, &env, err) : RU_OK;
 }
 

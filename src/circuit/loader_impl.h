@@ -138,4 +138,9 @@ void ru_ld_variant_names(const ru_part_desc *d, char *buf, size_t size);
 /* Reads the `parts:` mapping into ctx->c. */
 ru_status ru_ld_parts(ld_ctx *ctx, const ru_ypair *parts);
 
+/* A part's `tol:` (loader_tol.c): a mapping of per-key tolerances, or a plain
+ * fraction on a source's level; a plain tol of a part with its own tol key is
+ * left to ru_ld_read_keys. */
+ru_status ru_ld_read_tol(ld_ctx *x, const ru_ynode *map, const char *who, ru_part *part);
+
 #endif

@@ -110,6 +110,9 @@ ru_status ru_ld_read_keys(const ld_doc *d, const ru_ynode *map, const ru_ynode *
 {
     for (size_t i = 0; recs[i].key; i++) {
         const ru_ypair *p = ru_ld_find(map, recs[i].key);
+        if (p && strcmp(recs[i].key, "tol") == 0 && ru_ld_val(p) &&
+            ru_ld_val(p)->type == RU_YAML_MAPPING)
+            continue; /* per-key tolerances: ru_ld_read_tol */
         if (!p) {
             if (recs[i].required)
                 return ru_ld_fail(d, place, err, "%s: missing required key %s", who,

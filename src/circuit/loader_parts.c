@@ -227,6 +227,8 @@ static ru_status read_body(ld_ctx *x, const ru_ynode *map, const ru_ynode *place
     if (d->refs)
         ru_ld_add_key(allowed, d->refs->key);
     ru_ld_add_keys(allowed, v);
+    if (!ru_part_key_ptr(part, "tol", NULL))
+        ru_ld_add_key(allowed, "tol"); /* every part may take per-key tolerances */
     char what[64];
     if (d->selector)
         snprintf(what, sizeof what, "%s %s", d->selector, v->name);
@@ -237,6 +239,8 @@ static ru_status read_body(ld_ctx *x, const ru_ynode *map, const ru_ynode *place
         s = read_terms(x, d, map, place, who, part);
     if (s == RU_OK && d->refs)
         s = read_refs(x, d->refs, map, place, who, part);
+    if (s == RU_OK)
+        s = ru_ld_read_tol(x, map, who, part);
     if (s == RU_OK)
         s = ru_ld_read_keys(x->d, map, place, who, v->keys, d->sig_unit, part, x->err);
     if (s == RU_OK)

@@ -8,6 +8,7 @@
 #include "ringup/format.h"
 #include "ringup/json.h"
 #include "ringup/montecarlo.h"
+#include "ringup/params.h"
 #include "ringup/plot.h"
 
 #include <math.h>
@@ -62,13 +63,19 @@ static void print_unit(const ru_mc_result *r, const ru_circuit *c, size_t i)
                i ? "" : " (nominal)", ru_verdict_name(u->verdict),
                u->started && !u->settled ? " (not settled)" : "", a, b, g);
     for (size_t k = 0; k < ru_mc_tol_count(r); k++) {
-        const char *name = ru_mc_tol_name(r, k);
-        int pi = ru_circuit_find_part(c, name);
-        const ru_part *p = ru_circuit_part(c, (size_t)pi);
-        static const char *const units[] = {"ohm", "F", "H"};
+        const char *unit = "";
+        double nominal = NAN, x = ru_mc_value(r, i, k);
+        ru_error err;
+        ru_circuit_get_param(c, ru_mc_tol_param(r, k), &nominal, &err);
+        ru_circuit_param_unit(c, ru_mc_tol_param(r, k), &unit, &err);
         char v[24];
-        ru_format_si(ru_mc_value(r, i, k), units[p->type], 4, v, sizeof v);
-        printf(" %s %s (%+.2f%%)", name, v, 100.0 * (ru_mc_value(r, i, k) / p->value - 1.0));
+        if (unit[0] && strcmp(unit, "%") != 0)
+            ru_format_si(x, unit, 4, v, sizeof v);
+        else
+            snprintf(v, sizeof v, "%.4g", x);
+        printf(" %s %s", ru_mc_tol_name(r, k), v);
+        if (nominal != 0 && isfinite(nominal))
+            printf(" (%+.2f%%)", 100.0 * (x / nominal - 1.0));
     }
     printf("\n");
 }

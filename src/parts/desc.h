@@ -249,6 +249,10 @@ ru_status ru_part_bad(const ru_part_env *env, const ru_part *p, ru_error *err,
 /* Whether v[0..n-1] are all finite. */
 int ru_part_finite(const double *v, int n);
 
+/* The generic check of p's key tolerances (part_keys.c): each names a numeric key
+ * of p's variant once, from 0 up to 1. */
+ru_status ru_part_check_key_tols(const ru_part *p, const ru_part_env *env, ru_error *err);
+
 /* The two-terminal check: node[0] and node[1] differ. */
 ru_status ru_part_check_two(const ru_part *p, const ru_part_env *env, ru_error *err);
 
