@@ -135,6 +135,17 @@ void ru_circuit_set_file(ru_circuit *c, const char *path);
  * capacitance at all is algebraic (its voltage follows from KCL at every instant;
  * see ringup/system.h). Setters take finite values >= 0 (RU_ERANGE otherwise; a
  * node must exist and not be ground). */
+/* The circuit's temperature (deg C; the file's `temp`, else RU_TEMP_REF_C), which
+ * every part with a temperature key (a law's or diode's `temp`, a thermal
+ * resistor's `tamb`) follows unless the part gives its own, and from which the
+ * resistors', capacitors' and inductors' `tempco` move their values (values are
+ * given at RU_TEMP_REF_C); the resistors' thermal noise is at it too. set_temp
+ * moves every such part from the present temperature to temp_c: RU_EINPUT (nothing
+ * changed) at or below absolute zero or when a tempco would take a value to 0. */
+#define RU_TEMP_REF_C 27.0
+double ru_circuit_temp_c(const ru_circuit *c);
+ru_status ru_circuit_set_temp(ru_circuit *c, double temp_c, ru_error *err);
+
 double ru_circuit_stray_f(const ru_circuit *c);
 ru_status ru_circuit_set_stray_f(ru_circuit *c, double stray_f);
 double ru_circuit_node_stray_f(const ru_circuit *c, int node);

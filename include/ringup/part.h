@@ -323,6 +323,10 @@ typedef struct ru_part {
     double value;            /* R (ohm), C (F), L (H), a transconductor's gm (S) */
     double series_ohm;       /* inductor: series resistance (ohm, >= 0) */
     double tol;              /* relative tolerance for Monte Carlo (0.01 = 1 %) */
+    double tempco;           /* resistor, capacitor, inductor: relative change of value
+                                per kelvin from RU_TEMP_REF_C (file: ppm/K, 100ppm) */
+    int temp_given;          /* 1: the part's own keys set its temperature (temp,
+                                tamb), which the circuit's temp then leaves alone */
     double coeffs[RU_POLY_MAX]; /* poly-conductance c_0.. (A/V^k) */
     int ncoeffs;             /* number of coefficients used */
     ru_wave wave;            /* supply, current */

@@ -480,7 +480,7 @@ ru_status ru_analysis_run(const ru_circuit *c, const ru_run_request *rq,
         ru_report_note(rep, "no resistor and no inductor series resistance: no thermal "
                             "noise to start from, the start is the power-on alone");
     if (rep->noise_on &&
-        (st = ru_system_set_noise(sys, ro->seed, noise_band(rep), RU_NOISE_TEMP_C)) != RU_OK) {
+        (st = ru_system_set_noise(sys, ro->seed, noise_band(rep), ru_circuit_temp_c(c))) != RU_OK) {
         ru_error_set(err, st, NULL, 0, 0, "cannot set up the noise kick");
         goto done;
     }

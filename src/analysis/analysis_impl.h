@@ -25,9 +25,6 @@ struct ru_run_data {
     size_t ndf;
 };
 
-/* Temperature of the noise kick's resistors (deg C). */
-#define RU_NOISE_TEMP_C 27.0
-
 /* Empties d for a new run (frees what the last run kept). */
 void ru_run_data_reset(ru_run_data *d);
 

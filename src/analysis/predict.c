@@ -71,7 +71,7 @@ static double noise_amplitude(const ru_system *s, const double *x_op, ru_pole do
                   (v[k] * v[k] + v[n + k] * v[n + k]) / 4;
     }
     if (p2 > 0 && e1 > 0)
-        amp = sqrt(1.380649e-23 * (RU_NOISE_TEMP_C + 273.15) / (e1 / p2));
+        amp = sqrt(1.380649e-23 * (ru_circuit_temp_c(c) + 273.15) / (e1 / p2));
 done:
     free(v);
     return amp;
@@ -118,7 +118,7 @@ static void predict_poles(const ru_system *s, const double *x_op, int pos, int n
     pr->noise_amplitude_v = noise_amplitude(s, x_op, poles[d], pos, neg);
     ru_start_level sl;
     ru_status st = ru_start_level_compute(s, x_op, poles[d], pos, neg, 1e6,
-                                          RU_NOISE_TEMP_C, &sl, &e);
+                                          ru_circuit_temp_c(ru_system_circuit(s)), &sl, &e);
     pr->start_kind = (int)sl.kind;
     if (st != RU_OK) {
         ru_report_note(rep, "no start level: %s", e.msg);

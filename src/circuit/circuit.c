@@ -29,6 +29,7 @@ struct ru_circuit {
     char title[256];
     char file[RU_ERROR_FILE];
     double stray_f;        /* capacitance from every free node to ground (F) */
+    double temp_c;         /* temperature (deg C) the parts are at */
     node_rec *nodes;       /* [0] is ground */
     size_t nnodes, cap_nodes;
     ru_part *parts;
@@ -53,6 +54,7 @@ ru_status ru_circuit_create(const char *title, ru_circuit **out)
         return RU_ENOMEM;
     snprintf(c->title, sizeof c->title, "%s", title ? title : "");
     c->stray_f = 1e-12;
+    c->temp_c = RU_TEMP_REF_C;
     c->run.stop_s = 10e-3;
     c->run.stop_auto = 1;
     c->run.noise = 1;
@@ -93,6 +95,48 @@ static void *dup_array(const void *src, size_t n, size_t size)
     if (p && n)
         memcpy(p, src, n * size);
     return p;
+}
+
+double ru_circuit_temp_c(const ru_circuit *c) { return c->temp_c; }
+
+/* The factor tempco applies at t (deg C). */
+static double tempco_factor(const ru_part *p, double t)
+{
+    return 1.0 + p->tempco * (t - RU_TEMP_REF_C);
+}
+
+ru_status ru_circuit_set_temp(ru_circuit *c, double temp_c, ru_error *err)
+{
+    if (!isfinite(temp_c) || temp_c <= -273.15)
+        return ru_error_set(err, RU_EINPUT, c->file, 0, 0,
+                            "temp %g C is not above absolute zero (-273.15 C)", temp_c);
+    for (size_t i = 0; i < c->nparts; i++) {
+        const ru_part *p = &c->parts[i];
+        if (p->tempco != 0 && !(tempco_factor(p, temp_c) > 0))
+            return ru_error_set(err, RU_EINPUT, c->file, p->line, p->col,
+                                "part %s: tempco %g ppm/K at %g C would take its value to "
+                                "0 or below", p->name, 1e6 * p->tempco, temp_c);
+    }
+    for (size_t i = 0; i < c->nparts; i++) {
+        ru_part q = c->parts[i];
+        int changed = 0;
+        if (q.tempco != 0) {
+            q.value *= tempco_factor(&q, temp_c) / tempco_factor(&q, c->temp_c);
+            changed = 1;
+        }
+        double *t = q.temp_given ? NULL : ru_part_key_ptr(&q, "temp", NULL);
+        if (!t && !q.temp_given)
+            t = ru_part_key_ptr(&q, "tamb", NULL);
+        if (t) {
+            *t = temp_c;
+            changed = 1;
+        }
+        ru_status s = changed ? ru_circuit_replace_part(c, i, &q, err) : RU_OK;
+        if (s != RU_OK)
+            return s;
+    }
+    c->temp_c = temp_c;
+    return RU_OK;
 }
 
 ru_status ru_circuit_clone(const ru_circuit *c, ru_circuit **out)
@@ -212,7 +256,8 @@ static ru_status check_values(const ru_circuit *c, const ru_part *p, ru_error *e
                                     "part %s: terminal %d names no node", p->name, k + 1);
             }
         }
-    if (!isfinite(p->value) || !isfinite(p->series_ohm) || !isfinite(p->tol))
+    if (!isfinite(p->value) || !isfinite(p->series_ohm) || !isfinite(p->tol) ||
+        !isfinite(p->tempco))
         return ru_error_set(err, RU_EINPUT, c->file, p->line, p->col,
                             "part %s: values must be finite", p->name);
     if (p->tol < 0 || p->tol >= 1)

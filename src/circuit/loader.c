@@ -144,7 +144,8 @@ static ru_status read_stray_nodes(const ld_doc *d, ru_circuit *c, const ru_ypair
 static ru_status read_top(ld_doc *d, const char *models_dir, ru_circuit **out,
                           ru_error *err)
 {
-    static const char *const keys[] = {"title", "stray", "parts", "run", "measure", NULL};
+    static const char *const keys[] = {"title", "stray", "temp", "parts", "run", "measure",
+                                       NULL};
     ru_status s = ru_ld_only_keys(d, d->root, "", keys, err);
     const char *title = "";
     const ru_ypair *p = ru_ld_find(d->root, "title");
@@ -168,6 +169,14 @@ static ru_status read_top(ld_doc *d, const char *models_dir, ru_circuit **out,
         s = ru_ld_parts(&ctx, p);
     if (s == RU_OK && sp)
         s = read_stray_nodes(d, c, sp, err);
+    const ru_ypair *tp = ru_ld_find(d->root, "temp");
+    double temp_c = RU_TEMP_REF_C;
+    if (s == RU_OK && tp && (s = ru_ld_value(d, tp, "", "C", err, &temp_c)) == RU_OK &&
+        ru_circuit_set_temp(c, temp_c, err) != RU_OK) { /* placed at the value */
+        char why[RU_ERROR_TEXT];
+        snprintf(why, sizeof why, "%s", err->msg);
+        s = ru_ld_fail(d, ru_ld_val(tp), err, "key temp: %s", why);
+    }
     if (s == RU_OK && ((s = warn_floating(c, d->file)) != RU_OK ||
                        (s = warn_single(c, d->file)) != RU_OK))
         ru_error_set(err, s, d->file, 0, 0, "out of memory adding a warning");

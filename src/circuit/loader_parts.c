@@ -245,6 +245,7 @@ static ru_status read_body(ld_ctx *x, const ru_ynode *map, const ru_ynode *place
         s = ru_ld_read_keys(x->d, map, place, who, v->keys, d->sig_unit, part, x->err);
     if (s == RU_OK)
         s = ru_ld_read_lists(x->d, map, place, who, v->lists, part, x->err);
+    part->temp_given = ru_ld_find(map, "temp") || ru_ld_find(map, "tamb");
     return s;
 }
 

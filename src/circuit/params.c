@@ -110,6 +110,8 @@ ru_status ru_circuit_set_param(ru_circuit *c, const char *part_dot_key, double v
         return ru_error_set(err, RU_EINPUT, ru_circuit_file(c), p.line, p.col,
                             "part %s: %s must be finite", p.name, ref.rec->key);
     *slot(&p, &ref) = value;
+    if (!strcmp(ref.rec->key, "temp") || !strcmp(ref.rec->key, "tamb"))
+        p.temp_given = 1; /* the part's own, as in a file: the circuit's temp leaves it */
     return ru_circuit_replace_part(c, (size_t)ref.part, &p, err);
 }
 

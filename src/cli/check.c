@@ -118,6 +118,9 @@ static void print_text(const ru_circuit *c, const ru_system *s)
                    ru_format_si(ru_circuit_node_stray_f(c, (int)i), "F", 3, sbuf, sizeof sbuf),
                    ru_circuit_node_name(c, (int)i));
     printf(" (set `stray:` to change)\n");
+    if (ru_circuit_temp_c(c) != RU_TEMP_REF_C)
+        printf("temperature: %g C (temp keys of parts that give none, tempco, thermal "
+               "noise)\n", ru_circuit_temp_c(c));
     print_algebraic(c, s);
     print_settings(c);
     if (ru_circuit_warning_count(c) == 0)

@@ -81,6 +81,13 @@ int cli_positive(const cli_opt *opts, const char *name, const char *unit, double
  * after a message. */
 int cli_stop(const cli_opt *opts, ru_run_request *rq);
 
+/* --temp T (deg C) applied to c (ringup/circuit.h, ru_circuit_set_temp); returns
+ * 0, or 1 after a message. CLI_TEMP_OPT is its line in an option table. */
+int cli_temp(const cli_opt *opts, ru_circuit *c);
+#define CLI_TEMP_OPT                                                                      \
+    {"temp", "T", "temperature of the circuit, e.g. 85C (default: the file's temp, else " \
+                  "27 C)", NULL}
+
 /* --accuracy draft|normal|precise into *accuracy (an ru_accuracy; unchanged when
  * the option is absent); returns 0, or 1 after a message. */
 int cli_accuracy(const cli_opt *opts, int *accuracy);

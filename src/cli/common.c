@@ -241,6 +241,22 @@ int cli_stop(const cli_opt *opts, ru_run_request *rq)
     return cli_positive(opts, "stop", "s", &rq->stop_s);
 }
 
+int cli_temp(const cli_opt *opts, ru_circuit *c)
+{
+    double t = 0;
+    if (!cli_get(opts, "temp"))
+        return 0;
+    if (!cli_value(opts, "temp", "C", &t))
+        return 1;
+    ru_error err;
+    ru_error_clear(&err);
+    if (ru_circuit_set_temp(c, t, &err) != RU_OK) {
+        fprintf(stderr, "ringup: --temp: %s\n", err.msg);
+        return 1;
+    }
+    return 0;
+}
+
 int cli_accuracy(const cli_opt *opts, int *accuracy)
 {
     static const char *const names[] = {"draft", "normal", "precise"};

@@ -327,6 +327,8 @@ int cmd_jitter(int argc, char **argv)
     ru_circuit *c = NULL;
     if ((rc = cli_load(file, cli_get(opts, "json") != NULL, &c)) != 0)
         return rc;
+    if (!cli_get(opts, "temp")) /* the resistors are at the circuit's temperature */
+        rq.temp_c = ru_circuit_temp_c(c);
     ru_tone *t = NULL;
     ru_error err;
     ru_error_clear(&err);

@@ -275,7 +275,7 @@ static int read_opts(const cli_opt *opts, ru_mc_opts *o)
 
 /* The options that define a study (kept in the log's header for --resume). */
 static const char *const study_names[] = {"samples", "seed", "distribution", "stop",
-                                          "accuracy", "shard", NULL};
+                                          "accuracy", "temp", "shard", NULL};
 
 typedef struct mc_ctx {
     const ru_circuit *c;
@@ -322,6 +322,7 @@ int cli_montecarlo_study(int argc, char **argv, cli_pre *pre)
                                             "truncated at tol)", NULL},
                       {"stop", "T", "run length, or auto (default: the file's)", NULL},
                       {"accuracy", "LEVEL", "draft, normal or precise", NULL},
+                      CLI_TEMP_OPT,
                       CLI_STUDY_OPTS,
                       {"json", NULL, "print JSON on stdout (keys in README)", NULL},
                       CLI_PLOT_OPTS,
@@ -345,6 +346,10 @@ int cli_montecarlo_study(int argc, char **argv, cli_pre *pre)
     ru_circuit *c = NULL;
     if ((rc = cli_load(file, json || pre->mpi_rank > 0, &c)) != 0)
         return rc;
+    if ((rc = cli_temp(opts, c)) != 0) {
+        ru_circuit_destroy(c);
+        return rc;
+    }
     m.c = c;
     m.o.request.stop = cli_study_stop_flag();
     cli_study s = {.command = "montecarlo", .file = file, .count = m.o.samples, .json = json,

@@ -202,6 +202,7 @@ int cmd_poles(int argc, char **argv)
                       {"amplitude", NULL,
                        "how the dominant pair drifts as the amplitude grows (describing "
                        "function) and the predicted settled amplitude", NULL},
+                      CLI_TEMP_OPT,
                       {"json", NULL, "print JSON on stdout (keys in README)", NULL},
                       CLI_PLOT_OPTS,
                       {NULL, NULL, NULL, NULL}};
@@ -221,6 +222,10 @@ int cmd_poles(int argc, char **argv)
     ru_circuit *c = NULL;
     if ((rc = cli_load(file, cli_get(opts, "json") != NULL, &c)) != 0)
         return rc;
+    if ((rc = cli_temp(opts, c)) != 0) {
+        ru_circuit_destroy(c);
+        return rc;
+    }
     poles_result p = {.dom = -1};
     ru_error err;
     ru_error_clear(&err);

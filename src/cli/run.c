@@ -437,6 +437,7 @@ int cmd_run(int argc, char **argv)
                       "run.stop, auto when it has none)", NULL},
         {"sample", "T", "output spacing (default: 72 samples per predicted period)", NULL},
         {"accuracy", "LEVEL", "draft, normal or precise (default: the file's)", NULL},
+        CLI_TEMP_OPT,
         {"engine", "E", "auto (default), direct (every cycle) or envelope (cycles "
                         "skipped, for slow starters)", NULL},
         {"loop", "PART", "amplifier whose loop gain is reported", NULL},
@@ -480,7 +481,7 @@ int cmd_run(int argc, char **argv)
     if ((rc = cli_load(file, 0, &c)) != 0)
         return rc;
     cli_plot_req plots; /* checked first: a refused option leaves no new folder */
-    if ((rc = cli_plot_check(opts, &plots)) != 0)
+    if ((rc = cli_temp(opts, c)) != 0 || (rc = cli_plot_check(opts, &plots)) != 0)
         goto done;
     if (rq.out_dir && (rc = cli_make_dir(rq.out_dir)) != 0)
         goto done;

@@ -360,7 +360,7 @@ static int report(const sweep_ctx *x, const cli_plot_req *plots, int json)
     return rc;
 }
 
-static const char *const study_names[] = {"log", "stop", "accuracy", "shard", NULL};
+static const char *const study_names[] = {"log", "stop", "accuracy", "temp", "shard", NULL};
 
 int cli_sweep_study(int argc, char **argv, cli_pre *pre)
 {
@@ -369,6 +369,7 @@ int cli_sweep_study(int argc, char **argv, cli_pre *pre)
                       {"log", NULL, "geometric spacing between LO and HI (every key)", NULL},
                       {"stop", "T", "run length, or auto (default: the file's)", NULL},
                       {"accuracy", "LEVEL", "draft, normal or precise", NULL},
+                      CLI_TEMP_OPT,
                       CLI_STUDY_OPTS,
                       {"json", NULL, "print JSON on stdout (keys in README)", NULL},
                       CLI_PLOT_OPTS,
@@ -401,6 +402,10 @@ int cli_sweep_study(int argc, char **argv, cli_pre *pre)
     ru_circuit *c = NULL;
     if ((rc = cli_load(file, json || pre->mpi_rank > 0, &c)) != 0)
         return rc;
+    if ((rc = cli_temp(opts, c)) != 0) {
+        ru_circuit_destroy(c);
+        return rc;
+    }
     x.c = c;
     x.rq.stop = cli_study_stop_flag();
     cli_study s = {.command = "sweep", .file = file, .json = json, .run = sweep_run,

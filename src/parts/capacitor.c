@@ -7,6 +7,7 @@
 #define P(f) offsetof(ru_part, f)
 static const ru_keyrec keys[] = {{"value", "F", P(value), 1, 0.0},
                                  {"tol", "%", P(tol), 0, 0.0},
+                                 {"tempco", "%", P(tempco), 0, 0.0},
                                  {NULL, NULL, 0, 0, 0.0}};
 #undef P
 static const ru_variant only = {"capacitor", keys, NULL};

@@ -12,6 +12,7 @@
 #define P(f) offsetof(ru_part, f)
 static const ru_keyrec keys[] = {{"value", "H", P(value), 1, 0.0},
                                  {"tol", "%", P(tol), 0, 0.0},
+                                 {"tempco", "%", P(tempco), 0, 0.0},
                                  {"series", "ohm", P(series_ohm), 0, 0.0},
                                  {NULL, NULL, 0, 0, 0.0}};
 #undef P

@@ -9,6 +9,7 @@
 #define P(f) offsetof(ru_part, f)
 static const ru_keyrec keys[] = {{"value", "ohm", P(value), 1, 0.0},
                                  {"tol", "%", P(tol), 0, 0.0},
+                                 {"tempco", "%", P(tempco), 0, 0.0},
                                  {NULL, NULL, 0, 0, 0.0}};
 #undef P
 static const ru_variant only = {"resistor", keys, NULL};
