@@ -38,6 +38,7 @@ PUBLIC = {
     "json.h": "output",
     "analysis.h": "analysis", "tone.h": "analysis",
     "batch.h": "batch", "montecarlo.h": "batch", "units.h": "batch",
+    "corners.h": "batch",
 }
 
 MAX_LINES = 650  # "about 600 lines" (issue 8), with a little room

@@ -156,6 +156,32 @@ int ru_circuit_node_stray_set(const ru_circuit *c, int node);
 /* 1 when the run starts from thermal noise: `kick: noise`, or power-on with noise on. */
 int ru_run_opts_noise(const ru_run_opts *ro);
 
+/* The file's `corners:` section (ringup corners): factors whose levels are
+ * combined, each the circuit's temperature, every supply's level, or one
+ * toleranced quantity (a part's value or PART.KEY). */
+#define RU_CORNER_FACTORS 16  /* most factors */
+#define RU_CORNER_LEVELS 8    /* most levels of one factor */
+typedef enum {
+    RU_CORNER_TEMP,     /* levels are temperatures (deg C) */
+    RU_CORNER_SUPPLY,   /* levels are relative deviations of every supply's level */
+    RU_CORNER_QUANTITY  /* levels are relative deviations of part.key */
+} ru_corner_kind;
+typedef struct ru_corner_factor {
+    ru_corner_kind kind;
+    char name[RU_NAME_MAX + RU_KEY_MAX]; /* "temp", "supply", "R1", "Q1.beta" */
+    int part;                  /* QUANTITY: the part's index */
+    char key[RU_KEY_MAX];      /* QUANTITY: its numeric key ("value", "beta") */
+    int nlevels;
+    double level[RU_CORNER_LEVELS]; /* deg C, or a fraction (-0.05: 5 % low) */
+    int line, col;             /* where the file names it (0 for a default) */
+} ru_corner_factor;
+
+/* The factors of the file's `corners:` (0 when it has none) and adding one (the
+ * loader; RU_ERANGE when there are RU_CORNER_FACTORS already). */
+int ru_circuit_corner_count(const ru_circuit *c);
+const ru_corner_factor *ru_circuit_corner(const ru_circuit *c, int i);
+ru_status ru_circuit_add_corner(ru_circuit *c, const ru_corner_factor *f);
+
 ru_run_opts *ru_circuit_run_opts(ru_circuit *c);
 const ru_run_opts *ru_circuit_run_opts_const(const ru_circuit *c);
 ru_measure_opts *ru_circuit_measure_opts(ru_circuit *c);

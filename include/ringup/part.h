@@ -388,6 +388,10 @@ const char *ru_part_value_key(const ru_part *p);
  * `tol: {beta: 30%}`). */
 const char *ru_part_level_key(const ru_part *p);
 
+/* Multiplies every level of a source (the keys in its unit: a dc value, a step's
+ * from and to, a sine's offset and amplitude) by f; other parts are left alone. */
+void ru_part_scale_level(ru_part *p, double f);
+
 /* The value that matters of p for listings, e.g. "10 kohm", "sine 1 V at 1000 Hz",
  * "follower-tanh / soft-follower" (SI prefixes; "" for an unknown type). */
 void ru_part_describe(const ru_part *p, char *buf, size_t size);

@@ -39,7 +39,24 @@ struct ru_circuit {
     ru_name_index node_ix, part_ix; /* names to indices (nameindex.h) */
     ru_run_opts run;
     ru_measure_opts measure;
+    int ncorners;          /* the file's corners: factors */
+    ru_corner_factor corners[RU_CORNER_FACTORS];
 };
+
+int ru_circuit_corner_count(const ru_circuit *c) { return c->ncorners; }
+
+const ru_corner_factor *ru_circuit_corner(const ru_circuit *c, int i)
+{
+    return i >= 0 && i < c->ncorners ? &c->corners[i] : NULL;
+}
+
+ru_status ru_circuit_add_corner(ru_circuit *c, const ru_corner_factor *f)
+{
+    if (c->ncorners >= RU_CORNER_FACTORS || f->nlevels < 1 || f->nlevels > RU_CORNER_LEVELS)
+        return RU_ERANGE;
+    c->corners[c->ncorners++] = *f;
+    return RU_OK;
+}
 
 int ru_run_opts_noise(const ru_run_opts *ro)
 {

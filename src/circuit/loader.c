@@ -145,7 +145,7 @@ static ru_status read_top(ld_doc *d, const char *models_dir, ru_circuit **out,
                           ru_error *err)
 {
     static const char *const keys[] = {"title", "stray", "temp", "parts", "run", "measure",
-                                       NULL};
+                                       "corners", NULL};
     ru_status s = ru_ld_only_keys(d, d->root, "", keys, err);
     const char *title = "";
     const ru_ypair *p = ru_ld_find(d->root, "title");
@@ -184,6 +184,8 @@ static ru_status read_top(ld_doc *d, const char *models_dir, ru_circuit **out,
         s = ru_ld_run(d, c, p, err);
     if (s == RU_OK && (p = ru_ld_find(d->root, "measure")) != NULL)
         s = ru_ld_measure(d, c, p, err);
+    if (s == RU_OK && (p = ru_ld_find(d->root, "corners")) != NULL)
+        s = ru_ld_corners(d, c, p, err);
     if (s != RU_OK) {
         ru_circuit_destroy(c);
         c = NULL;

@@ -87,6 +87,9 @@ ru_status ru_ld_need_mapping(const ld_doc *d, const ru_ypair *p, const char *who
 ru_status ru_ld_run(ld_doc *d, ru_circuit *c, const ru_ypair *p, ru_error *err);
 ru_status ru_ld_measure(ld_doc *d, ru_circuit *c, const ru_ypair *p, ru_error *err);
 
+/* The `corners:` section (loader_corners.c), read after the parts and temp. */
+ru_status ru_ld_corners(ld_doc *d, ru_circuit *c, const ru_ypair *p, ru_error *err);
+
 /* Reads a preset document's values into part (the record of the preset's kind,
  * its defaults first; part keeps its own type); *type gets the type the preset
  * fits, *kind the spelling of its kind (static text: a law, "diode", ...); info

@@ -30,6 +30,7 @@ int cmd_steady(int argc, char **argv);
 int cmd_margin(int argc, char **argv);
 int cmd_jitter(int argc, char **argv);
 int cmd_merge(int argc, char **argv);
+int cmd_corners(int argc, char **argv);
 
 /* One option of a command: "--name VALUE" (or --name=VALUE) or a flag. */
 typedef struct cli_opt {
@@ -374,5 +375,6 @@ int cli_mpi_work(cli_study *s);                 /* other ranks: run handed units
 /* Study commands' own parts, for merge. */
 int cli_montecarlo_study(int argc, char **argv, cli_pre *pre);
 int cli_sweep_study(int argc, char **argv, cli_pre *pre);
+int cli_corners_study(int argc, char **argv, cli_pre *pre);
 
 #endif

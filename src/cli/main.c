@@ -18,6 +18,8 @@ static const cli_command commands[] = {
     {"sweep", "one part value over a range, in parallel: one row per value", cmd_sweep},
     {"montecarlo", "part values drawn within their tolerances: does every unit start?",
      cmd_montecarlo},
+    {"corners", "every combination of temperature, supply and tolerance ends: the worst "
+                "case of each figure", cmd_corners},
     {"merge", "the report of a study run in shards (--shard K/N): exactly one run's",
      cmd_merge},
     {"models", "list the amplifier and part presets", cmd_models},

@@ -172,6 +172,8 @@ int cmd_merge(int argc, char **argv)
             rc = cli_montecarlo_study(pre.argc, pre.argv, &pre);
         else if (!strcmp(pre.header.command, "sweep"))
             rc = cli_sweep_study(pre.argc, pre.argv, &pre);
+        else if (!strcmp(pre.header.command, "corners"))
+            rc = cli_corners_study(pre.argc, pre.argv, &pre);
         else {
             fprintf(stderr, "ringup merge: %s: unknown study '%s'\n", paths[0],
                     pre.header.command);

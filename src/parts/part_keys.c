@@ -51,6 +51,14 @@ const char *ru_part_level_key(const ru_part *p)
     return NULL;
 }
 
+void ru_part_scale_level(ru_part *p, double f)
+{
+    const ru_variant *v = ru_part_variant(p);
+    for (const ru_keyrec *k = v ? v->keys : NULL; k && k->key; k++)
+        if (k->unit && strcmp(k->unit, "sig") == 0)
+            *ru_key_slot(p, k) *= f;
+}
+
 ru_status ru_part_check_key_tols(const ru_part *p, const ru_part_env *env, ru_error *err)
 {
     if (p->nkey_tols < 0 || p->nkey_tols > RU_KEY_TOLS)
