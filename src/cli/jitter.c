@@ -52,6 +52,13 @@ static void print_sources(const ru_circuit *c, const ru_tone_noise *nv)
     printf("%s (share of c)\n", shown ? "" : "none");
 }
 
+/* Leeson's far-out floor 2FkT/Ps (dBc/Hz). */
+static double leeson_floor_dbc(const ru_tone_noise *nv)
+{
+    return 10 * log10(2 * nv->noise_factor * 1.380649e-23 * (nv->temp_c + 273.15) /
+                      nv->carrier_w);
+}
+
 static void print_text(const ru_circuit *c, const ru_tone *t)
 {
     ru_steady_view v;
@@ -86,7 +93,8 @@ static void print_text(const ru_circuit *c, const ru_tone *t)
     else if (fc_max > 0) /* within round-off of zero */
         printf("  flicker            no 1/f^3 region: the 1/f noise (corner %s) reaches the "
                "phase only\n                     through the PPV's mean, which vanishes "
-               "on this odd-symmetric orbit\n", ru_format_si(fc_max, "Hz", 3, a, sizeof a));
+               "here\n                     (as on any odd-symmetric orbit)\n",
+               ru_format_si(fc_max, "Hz", 3, a, sizeof a));
     printf("  period jitter      %s   (sqrt(c T))\n",
            ru_format_si(nv.period_jitter_s, "s", 4, a, sizeof a));
     printf("  RMS jitter         %s over %s .. %s\n",
@@ -102,9 +110,23 @@ static void print_text(const ru_circuit *c, const ru_tone *t)
                                             : "from the loop gain's phase slope",
                ru_format_si(nv.carrier_w, "W", 4, a, sizeof a), nv.noise_factor,
                nv.leeson_flicker_hz > 0 ? ", flicker corner of the sources" : "");
-    if (nv.have_leeson)
+    if (nv.have_leeson) {
+        printf("        regions: ");
+        if (nv.leeson_flicker_hz > 0 && nv.leeson_flicker_hz < nv.leeson_corner_hz)
+            printf("1/f^3 below %s (the sources' flicker corner), ",
+                   ru_format_si(nv.leeson_flicker_hz, "Hz", 3, a, sizeof a));
+        else if (nv.leeson_flicker_hz > 0)
+            printf("1/f^3 below %s (f0/2QL, under the flicker corner %s), 1/f above it, ",
+                   ru_format_si(nv.leeson_corner_hz, "Hz", 3, a, sizeof a),
+                   ru_format_si(nv.leeson_flicker_hz, "Hz", 3, b, sizeof b));
+        if (!(nv.leeson_flicker_hz >= nv.leeson_corner_hz))
+            printf("1/f^2 up to %s (f0/2QL), ",
+                   ru_format_si(nv.leeson_corner_hz, "Hz", 3, a, sizeof a));
+        printf("floor %.1f dBc/Hz (2FkT/Ps)%s\n", leeson_floor_dbc(&nv),
+               nv.leeson_corner_hz > 0.5 * nv.f0_hz ? " beyond f0/2" : "");
         printf("        the PPV's 1/f^2 level equals Leeson's with F = %.3g (%.1f dB)\n",
                nv.effective_noise_factor, 10 * log10(nv.effective_noise_factor));
+    }
     if (nv.note && nv.note[0])
         printf("\nnote: %s\n", nv.note);
     printf("check: v1 . x' = 1 within %.1g over the period, v1 periodic within %.1g; "
@@ -179,6 +201,7 @@ static void print_json(const ru_circuit *c, const ru_tone *t)
         ru_json_number(&j, "noise_factor", nv.noise_factor);
         ru_json_number(&j, "flicker_corner_hz", nv.leeson_flicker_hz);
         ru_json_number(&j, "resonator_corner_hz", nv.leeson_corner_hz);
+        ru_json_number(&j, "floor_dbc_per_hz", leeson_floor_dbc(&nv));
         ru_json_number(&j, "effective_noise_factor", nv.effective_noise_factor);
         json_curve(&j, "phase_noise", nv.offset_hz, nv.leeson_dbc, nv.npts);
         ru_json_end_object(&j);
