@@ -75,8 +75,9 @@ static void fill(data *d)
     d->fl = (ru_plot_floquet){6, d->re, d->im, 0.1635, 1e-3};
     d->fl0 = (ru_plot_floquet){1, d->re, d->im, NAN, 1e-3};
     d->pn = (ru_plot_phase_noise){f0, NF, d->f, d->l, d->le, c, M_PI * f0 * f0 * c, 30.0,
-                                  5.0, 1e-12};
-    d->pn0 = (ru_plot_phase_noise){f0, 2, d->f, d->lflat, NULL, c, NAN, NAN, NAN, 1e-12};
+                                  5.0, 1e-12, 100.0, -170.0};
+    d->pn0 = (ru_plot_phase_noise){f0, 2, d->f, d->lflat, NULL, c, NAN, NAN, NAN, 1e-12,
+                                   NAN, NAN};
 }
 
 static void test_figures_drawn(void **state)

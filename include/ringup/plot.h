@@ -164,6 +164,8 @@ typedef struct ru_plot_phase_noise {
     double flicker_hz;         /* where the 1/f^3 part meets the 1/f^2 part (NAN none) */
     double leeson_hz;          /* Leeson's corner f0 / (2 QL) (NAN: none) */
     double period_jitter_s;    /* shown in the subtitle */
+    double leeson_fc_hz;       /* Leeson's flicker corner, marked (0 or NAN: none) */
+    double leeson_floor_dbc;   /* Leeson's floor 2FkT/Ps, labelled (0 or NAN: none) */
 } ru_plot_phase_noise;
 
 /* Negative-resistance analysis: the impedance the rest of the circuit presents to

@@ -232,7 +232,9 @@ static int plot_jitter(const cli_plot_req *pr, const ru_circuit *c, const ru_ton
         return 0;
     ru_plot_phase_noise pn = {nv.f0_hz, nv.npts, nv.offset_hz, nv.ppv_dbc, nv.leeson_dbc,
                               nv.ppv.c_s, nv.lorentz_hz, nv.flicker_hz,
-                              nv.have_leeson ? nv.leeson_corner_hz : NAN, nv.period_jitter_s};
+                              nv.have_leeson ? nv.leeson_corner_hz : NAN, nv.period_jitter_s,
+                              nv.have_leeson ? nv.leeson_flicker_hz : NAN,
+                              nv.have_leeson ? leeson_floor_dbc(&nv) : NAN};
     ru_plot_set set = {0};
     set.phase_noise = &pn;
     return cli_plot_set(pr, ru_circuit_title(c), &set, text);

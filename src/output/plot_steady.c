@@ -266,6 +266,12 @@ static void draw_phase_noise(const void *data)
         snprintf(c, sizeof c, " f0/2QL ");
         pn_mark(p->leeson_hz, ylo, yhi - 0.06 * (yhi - ylo), c, xlo, xhi);
     }
+    if (p->leeson_dbc && p->leeson_fc_hz > 0)
+        pn_mark(p->leeson_fc_hz, ylo, yhi - 0.12 * (yhi - ylo), " fc (Leeson) ", xlo, xhi);
+    if (p->leeson_dbc && p->leeson_floor_dbc < 0 && p->leeson_floor_dbc > ylo &&
+        p->leeson_floor_dbc < yhi)
+        plot_text(xhi - 0.01 * (xhi - xlo), p->leeson_floor_dbc + 0.04 * (yhi - ylo), 1.0,
+                  PC_ORANGE, 0.85, "floor 2FkT/Ps");
     pn_regions(p, xlo, xhi, ylo, yhi);
     double lx = PLOT_VX0, ly = 0.855;
     plot_legend_item(&lx, &ly, PC_BLUE, 0, 2.2, "PPV (Demir, Mehrotra, Roychowdhury)");
