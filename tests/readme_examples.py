@@ -4,7 +4,7 @@
 Every fenced block whose first line is a command (`$ build/ringup ...` or
 `$ ringup ...`) is run from the source folder with the built binary, and the rest
 of the block must be its output, line for line. Only times that depend on the
-machine are masked: the trailing CPU or wall time of the `solver:` and `Newton:`
+machine are masked: the trailing CPU or wall time of the `solver:`, `Newton:` and `check:`
 lines, and numbers below 1e-12 (round-off). A block is a promise to the reader, so a changed figure fails the test until
 the README is brought up to date (`--update` rewrites the blocks from the program's
 output; review the diff, then commit it with the change that moved the figures).
@@ -17,7 +17,7 @@ import subprocess
 import sys
 
 CMD = re.compile(r"^\$ (build/ringup|ringup) (.*)$")
-TIME = re.compile(r"^((?:solver|Newton):.*?)\d+(?:\.\d+)? s$")
+TIME = re.compile(r"^(\s*(?:solver|Newton|check):.*?)\d+(?:\.\d+)? s$")
 # Round-off: a number below 1e-12 in magnitude (a Floquet multiplier of a fast
 # mode, a residual) is the last bits of the arithmetic, not a figure.
 TINY = re.compile(r"-?\d+(?:\.\d+)?e-(?:1[2-9]|[2-9]\d|\d{3})\b")

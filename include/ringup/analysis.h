@@ -75,6 +75,8 @@ typedef struct ru_run_request {
     const volatile sig_atomic_t *stop; /* when not NULL and *stop turns non-zero (a
                               signal handler's flag), the transient ends at its next
                               sample with RU_ESTOPPED and the report is not valid */
+    int polish;            /* 1: after a settled self-sustained tone, the periodic
+                              steady state from the run's end (ru_polish; 0 default) */
 } ru_run_request;
 
 /* Which time-domain engine runs: the direct transient (every cycle integrated) or
@@ -154,6 +156,22 @@ typedef struct ru_stop_info {
 #define RU_AUTO_CAP_CYCLES 1e5    /* cap in cycles of the predicted tone */
 #define RU_AUTO_CAP_CPU_S 60.0    /* cap in CPU seconds */
 
+/* The settled figures polished by the periodic steady state (ru_run_request.polish):
+ * shooting Newton (ringup/tone.h) started from the run's last state and measured
+ * period after the verdict said started and settled. Figures NAN unless have. */
+typedef struct ru_polish {
+    int tried;                    /* 1: the run settled, so the steady state was sought */
+    int have;                     /* 1: found */
+    double frequency_hz, period_s, period_rel_error;
+    double amplitude_v;           /* (max - min)/2 of the probe over the period */
+    double fundamental_v, dc_level_v, thd_percent;
+    double harmonics_dbc[RU_HARMONICS - 1]; /* [0] is the 2nd */
+    double recovery_time_s, recovery_cycles; /* the amplitude's 1/e recovery */
+    int newton_iterations;
+    double cpu_s;                 /* processor time of the solve */
+    char note[RU_NOTE_MAX];       /* why not found, when tried */
+} ru_polish;
+
 typedef struct ru_run_report {
     double stop_s;                /* run length used (the last sample's time) */
     ru_stop_info stop;            /* the run length's plan and why it ended */
@@ -175,6 +193,7 @@ typedef struct ru_run_report {
     int have_wav;                 /* 1: the WAV file was written */
     ru_wav_info wav;              /* what the WAV export did */
     ru_engine_info engine;        /* which engine ran and what it did */
+    ru_polish polish;             /* the steady state's figures (request.polish) */
 } ru_run_report;
 
 /* Runs the analysis. Returns RU_OK, RU_EINPUT (bad probe, etc.), RU_ERANGE (WAV

@@ -346,6 +346,8 @@ closing:
         ru_measure_finish(k.meas, &rep->meas);
         jc.x_end = k.have_last ? k.x_last : NULL;
         ru_judge_final(&jc, rep);
+        if (rq->polish && st == RU_OK)
+            ru_polish_run(c, jc.x_end, rep);
         if (rq->keep && keep_envelope(rq->keep, k.meas) != RU_OK)
             st = ru_error_set(err, RU_ENOMEM, NULL, 0, 0, "out of memory");
         if (k.energy)

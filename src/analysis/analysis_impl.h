@@ -50,6 +50,10 @@ ru_status ru_predict(const ru_circuit *c, const ru_system *s, const ru_run_reque
 void ru_predict_tone(const ru_system *s, const double *x_op, int pos, int neg,
                      ru_run_report *rep, ru_run_data *keep);
 
+/* After a run that settled (verdict started): the periodic steady state from its
+ * last state x_end into rep->polish (polish.c); failures become notes. */
+void ru_polish_run(const ru_circuit *c, const double *x_end, ru_run_report *rep);
+
 /* After the transient: the comparison of measured against predicted figures. */
 void ru_selfcheck(ru_run_report *rep);
 

@@ -47,6 +47,34 @@ void cli_json_hb(ru_json *j, const ru_hb_tone *h)
     ru_json_end_object(j);
 }
 
+/* "steady": the settled figures from the periodic steady state, null when the
+ * run did not settle (or polishing was off). */
+static void json_polish(ru_json *j, const ru_polish *p)
+{
+    if (!p->tried) {
+        ru_json_null(j, "steady");
+        return;
+    }
+    ru_json_begin_object(j, "steady");
+    ru_json_bool(j, "found", p->have);
+    ru_json_number(j, "frequency_hz", p->frequency_hz);
+    ru_json_number(j, "period_s", p->period_s);
+    ru_json_number(j, "amplitude_v", p->amplitude_v);
+    ru_json_number(j, "fundamental_v", p->fundamental_v);
+    ru_json_number(j, "dc_level_v", p->dc_level_v);
+    ru_json_number(j, "thd_percent", p->thd_percent);
+    ru_json_begin_array(j, "harmonics_dbc");
+    for (int h = 0; p->have && h < RU_HARMONICS - 1; h++)
+        ru_json_number(j, NULL, p->harmonics_dbc[h]);
+    ru_json_end_array(j);
+    ru_json_number(j, "recovery_time_s", p->recovery_time_s);
+    ru_json_int(j, "newton_iterations", p->newton_iterations);
+    ru_json_number(j, "cpu_s", p->cpu_s);
+    if (!p->have)
+        ru_json_string(j, "note", p->note);
+    ru_json_end_object(j);
+}
+
 void cli_json_run_body(ru_json *j, const ru_run_report *r)
 {
     json_measured(j, r);
@@ -89,6 +117,7 @@ void cli_json_run_body(ru_json *j, const ru_run_report *r)
         ru_json_bool(j, "fell_back", r->engine.fell_back);
         ru_json_end_object(j);
     }
+    json_polish(j, &r->polish);
     ru_json_begin_object(j, "solver");
     ru_json_string(j, "engine", ru_transient_engine_name(&r->solver));
     ru_json_int(j, "steps", r->solver.steps);

@@ -92,6 +92,34 @@ static void print_predicted_harmonics(const ru_hb_tone *h)
            h->converged ? "" : ", not converged");
 }
 
+/* The settled figures from the periodic steady state (ru_polish), beside the
+ * measured ones. */
+static void print_polish(const ru_run_report *r)
+{
+    const ru_polish *p = &r->polish;
+    const ru_measure_result *m = &r->meas;
+    char a[40], b[40], d[40];
+    if (!p->have)
+        return;
+    printf("\nsettled figures polished by the periodic steady state from the run's end "
+           "(`ringup steady`\nfor the whole report):\n");
+    printf("  frequency %s (measured %s: %+.3g ppm)\n",
+           ru_format_si(p->frequency_hz, "Hz", 10, a, sizeof a),
+           ru_format_si(m->frequency_hz, "Hz", 6, b, sizeof b),
+           1e6 * (m->frequency_hz - p->frequency_hz) / p->frequency_hz);
+    printf("  amplitude %s (measured %s), fundamental %s\n",
+           ru_format_si(p->amplitude_v, "V", 7, a, sizeof a),
+           ru_format_si(m->settled_amplitude_v, "V", 4, b, sizeof b),
+           ru_format_si(p->fundamental_v, "V", 7, d, sizeof d));
+    printf("  THD %.5g %% (measured %.4g %%), DC level %s\n", p->thd_percent, m->thd_percent,
+           ru_format_si(p->dc_level_v, "V", 5, a, sizeof a));
+    if (isfinite(p->recovery_time_s))
+        printf("  amplitude recovery %s = %.4g cycles (1/e)\n",
+               ru_format_si(p->recovery_time_s, "s", 4, a, sizeof a), p->recovery_cycles);
+    printf("  Newton: %d iteration%s from the run's last state, %.3f s\n", p->newton_iterations,
+           p->newton_iterations == 1 ? "" : "s", p->cpu_s);
+}
+
 static void print_text(const ru_circuit *c, const ru_run_report *r, int auto_sample)
 {
     const ru_measure_result *m = &r->meas;
@@ -144,6 +172,7 @@ static void print_text(const ru_circuit *c, const ru_run_report *r, int auto_sam
     if (h)
         print_predicted_harmonics(h);
     row("DC level", m->dc_level_v, h ? h->dc_level_v : NAN, "V");
+    print_polish(r);
     if (isfinite(m->growth_rate_per_s))
         printf("\ngrowth fit: %d cycles from %s to %s, rms residual %.2g\n",
                m->growth_fit_points, ru_format_si(m->growth_fit_t0_s, "s", 3, a, sizeof a),
@@ -395,6 +424,7 @@ static void print_wav(const ru_run_request *rq, const ru_run_report *r)
 static int set_request(const cli_opt *opts, ru_run_request *rq)
 {
     ru_run_request_default(rq);
+    rq->polish = cli_get(opts, "no-polish") == NULL;
     rq->out_dir = cli_get(opts, "out");
     cli_loop_opts lo;
     if (cli_loop_get(opts, &lo) != 0)
@@ -443,6 +473,7 @@ int cmd_run(int argc, char **argv)
         {"loop", "PART", "amplifier whose loop gain is reported", NULL},
         CLI_LOOP_NODE_OPTS,
         {"verify", NULL, "rerun at 10x tighter tolerances and show what moved", NULL},
+        {"no-polish", NULL, "skip the periodic steady state after a settled run", NULL},
         {"wav", "FILE", "write the probe as mono audio (WAV); lower the volume before playing", NULL},
         {"wav-rate", "HZ", "audio sample rate (default 48000)", NULL},
         {"wav-float", NULL, "32-bit float samples instead of 24-bit PCM", NULL},
