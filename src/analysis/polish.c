@@ -33,16 +33,15 @@ void ru_polish_run(const ru_circuit *c, const double *x_end, ru_run_report *rep)
     ru_error_clear(&err);
     if (ru_tone_run(c, &rq, &t, &err) != RU_OK) {
         snprintf(p->note, sizeof p->note, "%.*s", (int)sizeof p->note - 1, err.msg);
-        ru_report_note(rep, "the periodic steady state from the run's end failed (%.200s): "
-                            "the settled figures are the measured ones", err.msg);
+        ru_report_note(rep, "settled figures not polished: %.200s", err.msg);
         return;
     }
     ru_steady_view v;
     ru_tone_steady(t, &v);
     if (!v.found) {
         snprintf(p->note, sizeof p->note, "%.*s", (int)sizeof p->note - 1, v.note);
-        ru_report_note(rep, "no periodic steady state from the run's end (%.200s): the "
-                            "settled figures are the measured ones", v.note);
+        ru_report_note(rep, "settled figures not polished: no periodic steady state from "
+                            "the run's end (%.200s)", v.note);
         ru_tone_destroy(t);
         return;
     }
