@@ -11,9 +11,10 @@
  *
  * Not a test (speed is never asserted). Build by hand against a built library:
  *   cc -O2 -Iinclude tests/bench_jitter.c BUILD/libringup.a $(pkg-config --libs
- *      yaml-0.1 fftw3 lapacke sndfile plplot) -lsundials_cvodes -lsundials_kinsol
- *      -lsundials_nvecserial -lsundials_sunmatrixdense -lsundials_sunlinsoldense
- *      -lm -lpthread -o /tmp/bench_jitter
+ *      yaml-0.1 fftw3 lapacke sndfile plplot) -lsundials_cvodes -lsundials_idas
+ *      -lsundials_kinsol -lsundials_nvecserial -lsundials_sunmatrixdense
+ *      -lsundials_sunlinsoldense -lsundials_sunlinsolklu -lklu -lm -lpthread
+ *      -o /tmp/bench_jitter
  * and run it from the source folder with RINGUP_MODELS=models:
  *   bench_jitter [N [PERIODS [EPS]]]      (defaults 1000, 24, 0.2)
  * Output: KEY=VALUE lines; load=L1,L5,L15 first and last. */

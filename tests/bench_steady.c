@@ -6,9 +6,10 @@
  * Not a test (not named test_*, not built by the CMake glob; speed is never
  * asserted). Build by hand against a built library, from the source folder:
  *   cc -O2 -Iinclude tests/bench_steady.c BUILD/libringup.a $(pkg-config --libs
- *      yaml-0.1 fftw3 lapacke sndfile plplot) -lsundials_cvodes -lsundials_kinsol
- *      -lsundials_nvecserial -lsundials_sunmatrixdense -lsundials_sunlinsoldense
- *      -lm -lpthread -o /tmp/bench_steady
+ *      yaml-0.1 fftw3 lapacke sndfile plplot) -lsundials_cvodes -lsundials_idas
+ *      -lsundials_kinsol -lsundials_nvecserial -lsundials_sunmatrixdense
+ *      -lsundials_sunlinsoldense -lsundials_sunlinsolklu -lklu -lm -lpthread
+ *      -o /tmp/bench_steady
  * and run it from the source folder with RINGUP_MODELS=models:
  *   bench_steady [REPEATS]
  * REPEATS (default 3) solves of each case; the CPU time printed is the smallest
@@ -16,10 +17,15 @@
  * Newton, the waveform). The load average is printed beside it: the machine is
  * shared, so compare cases within one run.
  *
+ * Then what polishing costs a run (ru_run_request.polish, `ringup run`'s default):
+ * each example run with and without it, the smallest CPU time of REPEATS each.
+ *
  * Output: one line per case, KEY=VALUE fields:
  *   case=NAME n=STATES newton=I transient_periods=P steps=S cpu_s=T freq=F amp=A
  *   mu2=|M| start=WHERE
- * and a first line load=L1,L5,L15. */
+ *   case=run-NAME cpu_plain_s=T0 cpu_polish_s=T1 ratio=T1/T0 newton=I polished=0|1
+ * and a first and last line load=L1,L5,L15. */
+#include "ringup/analysis.h"
 #include "ringup/loader.h"
 #include "ringup/tone.h"
 
@@ -72,6 +78,38 @@ static int bench(const char *name, ru_circuit *c, int repeats)
     return 0;
 }
 
+/* Smallest CPU time of `repeats` runs of c, with or without polishing. */
+static double run_cpu(const ru_circuit *c, int polish, int repeats, ru_run_report *r)
+{
+    double best = INFINITY;
+    for (int k = 0; k < repeats; k++) {
+        ru_run_request rq;
+        ru_run_request_default(&rq);
+        rq.polish = polish;
+        ru_error err;
+        double t0 = cpu_s();
+        if (ru_analysis_run(c, &rq, r, &err) != RU_OK) {
+            printf("run error=\"%s\"\n", err.msg);
+            return NAN;
+        }
+        best = fmin(best, cpu_s() - t0);
+    }
+    return best;
+}
+
+static int bench_run(const char *name, const ru_circuit *c, int repeats)
+{
+    ru_run_report *r = calloc(1, sizeof *r);
+    if (!r)
+        return 1;
+    double t0 = run_cpu(c, 0, repeats, r), t1 = run_cpu(c, 1, repeats, r);
+    printf("case=run-%s cpu_plain_s=%.4f cpu_polish_s=%.4f ratio=%.3f newton=%d polished=%d\n",
+           name, t0, t1, t1 / t0, r->polish.newton_iterations, r->polish.have);
+    int bad = !isfinite(t0) || !isfinite(t1);
+    free(r);
+    return bad;
+}
+
 int main(int argc, char **argv)
 {
     int repeats = argc > 1 ? atoi(argv[1]) : 3;
@@ -92,6 +130,7 @@ int main(int argc, char **argv)
             continue;
         }
         bad |= bench(examples[i], c, repeats);
+        bad |= bench_run(examples[i], c, repeats);
         ru_circuit_destroy(c);
     }
     static const double eps[] = {0.01, 0.1, 1.0, 3.0, 10.0};

@@ -338,8 +338,8 @@ int cmd_jitter(int argc, char **argv)
     int rc = cli_parse(argc, argv, "ringup jitter FILE [--temp C] [--band LO:HI] [--json]",
                        "Phase noise and jitter of the settled tone by the perturbation "
                        "projection vector\n(Demir, Mehrotra, Roychowdhury 2000) along the "
-                       "periodic steady state, from the\nparts' thermal and shot noise, "
-                       "with Leeson's formula beside it.",
+                       "periodic steady state, from the\nparts' thermal and shot noise and "
+                       "the amplifiers' en and inoise, with Leeson's\nformula beside it.",
                        opts, &file);
     if (rc >= 0)
         return rc;
