@@ -110,22 +110,28 @@ static void test_ramped_current(void **state)
 static void test_resistor_noise(void **state)
 {
     (void)state;
-    double re, im;
-    ru_start_level sl = level_of("parts:\n"
-                                 "  L1: {type: inductor, nodes: [t, gnd], value: 1mH}\n"
-                                 "  C1: {type: capacitor, nodes: [t, gnd], value: 100n}\n"
-                                 "  G1: {type: poly-conductance, nodes: [t, gnd], "
-                                 "coeffs: [0, -0.3m]}\n"
-                                 "  R1: {type: resistor, nodes: [t, gnd], value: 10k}\n"
-                                 "run: {kick: noise}\n",
-                                 &re, &im);
-    double kt = KB * 300.15, var = 2 * kt / 10e3 / (2 * re);
-    double rms = hypot(re, im) / (im * C) * sqrt(var);
-    assert_int_equal(sl.kind, RU_START_NOISE);
-    RU_ASSERT_REL(sl.noise_rms_v, rms, 1e-9);
-    RU_ASSERT_REL(sl.level_v, rms * exp(-0.5 * 0.5772156649015329), 1e-9);
-    RU_ASSERT_REL(sl.log_sd, 3.14159265358979323846 / sqrt(24.0), 1e-12);
-    assert_true(sl.det_v == 0);
+    /* the noise kick, and power-on with its default noise: with no supply to ramp
+     * the two starts are the same physics */
+    const char *kicks[] = {"run: {kick: noise}\n", ""};
+    for (int k = 0; k < 2; k++) {
+        char text[600];
+        snprintf(text, sizeof text, "parts:\n"
+                                     "  L1: {type: inductor, nodes: [t, gnd], value: 1mH}\n"
+                                     "  C1: {type: capacitor, nodes: [t, gnd], value: 100n}\n"
+                                     "  G1: {type: poly-conductance, nodes: [t, gnd], "
+                                     "coeffs: [0, -0.3m]}\n"
+                                     "  R1: {type: resistor, nodes: [t, gnd], value: 10k}\n"
+                                     "%s", kicks[k]);
+        double re, im;
+        ru_start_level sl = level_of(text, &re, &im);
+        double kt = KB * 300.15, var = 2 * kt / 10e3 / (2 * re);
+        double rms = hypot(re, im) / (im * C) * sqrt(var);
+        assert_int_equal(sl.kind, k == 0 ? RU_START_NOISE : RU_START_POWER_ON);
+        RU_ASSERT_REL(sl.noise_rms_v, rms, 1e-9);
+        RU_ASSERT_REL(sl.level_v, rms * exp(-0.5 * 0.5772156649015329), 1e-9);
+        RU_ASSERT_REL(sl.log_sd, 3.14159265358979323846 / sqrt(24.0), 1e-12);
+        assert_true(sl.det_v == 0);
+    }
 }
 
 /* A sine source keeps driving: there is no start level to speak of. */
