@@ -2,12 +2,18 @@
  *
  * The signal may ride on a moving DC level (a bias still settling after power-on).
  * Extrema are sought in d(t) = v(t) - slope * t, where slope is the DC slope read
- * from the midpoints of the last four confirmed extrema: the midpoint of a maximum
- * and the next minimum (and of a minimum and the next maximum) lies on the DC line
- * for a sine plus a linear ramp, wherever on the cycle the two extrema sit, so the
- * slope from two midpoints one period apart is exact for a linear ramp and constant
- * amplitude (a growing amplitude adds ~A sigma^2 T/4, negligible next to A omega).
- * Until four extrema exist the slope is 0; the points made before are dropped then
+ * from the last five confirmed extrema v0..v4 at t0..t4: the weighted mean
+ * (v0 + 2 v1 + v2)/4 of three successive extrema lies on the DC line at
+ * (t0 + 2 t1 + t2)/4 for a sine plus a linear ramp (the extrema are +-A' + s t_k + c,
+ * and the A' cancel), and so does (v2 + 2 v3 + v4)/4 a period later; the slope
+ * between the two is exact for a linear ramp and constant amplitude. A changing
+ * amplitude enters only through its second difference over half periods, which is
+ * the same for both means to first order: the slope it adds is about a''' T^2/16
+ * (a''' the amplitude's third derivative). The plain midpoint of a maximum and the
+ * next minimum, by contrast, sits a' T/4 off the DC line, so two such midpoints read
+ * a slope of a'' T/4 with no DC movement at all, and that is largest exactly where
+ * growth slows near the settled size: a symmetric start-up read 0.1-0.2 % early.
+ * Until five extrema exist the slope is 0; the points made before are dropped then
  * if the slope found says the ramp made more than 1 % of them (drop_early).
  * A candidate extremum is the most extreme d since the last confirmed opposite one;
  * it is confirmed when
@@ -173,7 +179,7 @@ ru_status ru_envelope_add_point(ru_envelope *e, double t_s, double a_v)
  * oscillation); on a level DC they stay. */
 static void drop_early(ru_envelope *e)
 {
-    double half_s = (e->ext_t[3] - e->ext_t[0]) / 3.0;
+    double half_s = (e->ext_t[RU_ENV_SLOPE_EXT - 1] - e->ext_t[0]) / (RU_ENV_SLOPE_EXT - 1);
     double share_v = 0.5 * fabs(e->slope_v_s) * half_s;
     size_t keep = e->env_from;
     for (size_t i = e->env_from; i < e->n_env; i++) {
@@ -186,15 +192,13 @@ static void drop_early(ru_envelope *e)
     e->n_env = keep;
 }
 
-/* A growing tone moves the midpoints by itself: with growth g = sigma T per period
- * the midpoint of a maximum and the next minimum sits about a g/4 off the DC line,
- * and that offset grows with a, so two midpoints a period apart read a slope of
- * about g^2 a / (4 T) with no DC movement at all. Removing it would bias every
- * envelope point by about a g^2/16 (1.9 % at g = 0.55). A slope within 3x of that
- * is taken as growth, not DC movement (0); a real ramp or a settling bias is far
- * above it once the tone is large enough to show extrema, and a settled tone
- * (g = 0) keeps any slope. g comes from the half swings of the first and the last
- * pair of the four extrema. */
+/* A slope no larger than a growing tone's own midpoint drift, g^2 a / (4 T) for a
+ * growth g = sigma T per period (the plain midpoints' reading, above), is taken as
+ * growth, not DC movement (0): removing a slope that small changes an envelope
+ * point by at most about 3 a g^2/16, while a real ramp or a settling bias is far
+ * above it once the tone is large enough to show extrema; a settled tone (g = 0)
+ * keeps any slope. g comes from the half swings of two pairs of extrema a period
+ * apart. */
 static double growth_guard(const ru_envelope *e, double slope_v_s, double period_s)
 {
     /* half swings of the first and the last pair of the four extrema, a period apart */
@@ -206,22 +210,30 @@ static double growth_guard(const ru_envelope *e, double slope_v_s, double period
     return fabs(slope_v_s) < 3.0 * spurious ? 0.0 : slope_v_s;
 }
 
-/* Keeps the last four extrema and, once there are four, re-reads the DC slope from
- * the midpoints of the first and the last pair (one period apart). */
+/* Index of the newest kept extremum (n_ext > 0). */
+static size_t last_ext(const ru_envelope *e)
+{
+    return (e->n_ext < RU_ENV_SLOPE_EXT ? e->n_ext : RU_ENV_SLOPE_EXT) - 1;
+}
+
+/* Keeps the last five extrema and, once there are five, re-reads the DC slope from
+ * the weighted means of the first three and the last three (a period apart). */
 static void ext_record(ru_envelope *e, double t_s, double v)
 {
-    if (e->n_ext >= 4) {
-        memmove(e->ext_t, e->ext_t + 1, 3 * sizeof *e->ext_t);
-        memmove(e->ext_v, e->ext_v + 1, 3 * sizeof *e->ext_v);
+    enum { N = RU_ENV_SLOPE_EXT };
+    if (e->n_ext >= N) {
+        memmove(e->ext_t, e->ext_t + 1, (N - 1) * sizeof *e->ext_t);
+        memmove(e->ext_v, e->ext_v + 1, (N - 1) * sizeof *e->ext_v);
     }
-    size_t k = e->n_ext < 4 ? e->n_ext : 3;
+    size_t k = e->n_ext < N ? e->n_ext : N - 1;
     e->ext_t[k] = t_s;
     e->ext_v[k] = v;
     e->n_ext++;
-    if (e->n_ext < RU_ENV_SLOPE_EXT)
+    if (e->n_ext < N)
         return;
-    double ta = 0.5 * (e->ext_t[0] + e->ext_t[1]), va = 0.5 * (e->ext_v[0] + e->ext_v[1]);
-    double tb = 0.5 * (e->ext_t[2] + e->ext_t[3]), vb = 0.5 * (e->ext_v[2] + e->ext_v[3]);
+    const double *t = e->ext_t, *x = e->ext_v;
+    double ta = 0.25 * (t[0] + 2.0 * t[1] + t[2]), va = 0.25 * (x[0] + 2.0 * x[1] + x[2]);
+    double tb = 0.25 * (t[2] + 2.0 * t[3] + t[4]), vb = 0.25 * (x[2] + 2.0 * x[3] + x[4]);
     if (tb > ta)
         e->slope_v_s = growth_guard(e, (vb - va) / (tb - ta), tb - ta);
 }
@@ -280,7 +292,7 @@ static int stalled(const ru_envelope *e, double t_s)
 {
     if (e->n_ext == 0)
         return 0;
-    size_t k = e->n_ext < 4 ? e->n_ext - 1 : 3;
+    size_t k = last_ext(e);
     double wait = 0.0;
     if (e->period_s > 0.0)
         wait = RU_ENV_STALL * e->period_s;
@@ -310,8 +322,7 @@ ru_status ru_envelope_push(ru_envelope *e, uint64_t idx, double t_s, double v,
     if (e->mode == 1) {
         double back = seek_update(e, &e->seek, idx, t_s, v, tlast_s, vlast);
         const ru_ext *c = &e->seek.cand;
-        double last = e->n_ext ? det(e, e->ext_t[e->n_ext < 4 ? e->n_ext - 1 : 3],
-                                     e->ext_v[e->n_ext < 4 ? e->n_ext - 1 : 3])
+        double last = e->n_ext ? det(e, e->ext_t[last_ext(e)], e->ext_v[last_ext(e)])
                                : det(e, c->t_s, c->v);
         if (confirmed(e, &e->seek, t_s, back, det(e, c->t_s, c->v) - last))
             return confirm(e, &e->seek);

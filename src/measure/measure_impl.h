@@ -37,6 +37,10 @@ typedef struct ru_seek {
 /* Streaming envelope: extrema of the signal less a DC ramp estimated from the
  * midpoints of the last extrema, confirmed by hysteresis and (with a period hint) a
  * hold time, refined by a parabola. */
+/* Extrema needed before the DC slope is estimated: two weighted means of three
+ * successive extrema, a period apart (envelope.c). */
+#define RU_ENV_SLOPE_EXT 5
+
 typedef struct ru_envelope {
     int mode;            /* 0: direction unknown (hi and lo both seek), 1: tracking */
     ru_seek hi, lo;      /* mode 0: seek the first maximum / minimum */
@@ -44,8 +48,9 @@ typedef struct ru_envelope {
     double floor_v;      /* minimum hysteresis (V): noise the swing must beat */
     double period_s;     /* hinted period (s); 0: none, hysteresis rule only */
     double slope_v_s;    /* DC slope estimate (V/s), 0 until RU_ENV_SLOPE_EXT extrema */
-    double ext_t[4];     /* refined times of the last confirmed extrema (s), oldest first */
-    double ext_v[4];     /* their refined values, DC included (V) */
+    double ext_t[RU_ENV_SLOPE_EXT]; /* refined times of the last confirmed extrema
+                                       (s), oldest first */
+    double ext_v[RU_ENV_SLOPE_EXT]; /* their refined values, DC included (V) */
     size_t n_ext;        /* extrema confirmed since the last restart */
     size_t env_from;     /* first envelope point made since the last restart */
     int have_max;        /* 1: max_t_s/max_v wait for their following minimum */
@@ -66,8 +71,6 @@ typedef struct ru_envelope {
 #define RU_ENV_HYST 0.2
 /* With a period hint P: an extremum holds (is not passed) for RU_ENV_HOLD * P. */
 #define RU_ENV_HOLD 0.3
-/* Extrema needed before the DC slope is estimated (two midpoints a period apart). */
-#define RU_ENV_SLOPE_EXT 4
 /* Points made before the slope was known are dropped above this ramp share. */
 #define RU_ENV_EARLY_SHARE 0.01
 /* No extremum confirmed for this many hinted periods (or, without a hint, this many
