@@ -29,12 +29,13 @@ amplitude are checked against an independent reference built here:
 Start-up time (README "What is measured, exactly"): the first time the envelope
 reaches 90 % of the settled amplitude and stays within +-10 % of it to the end,
 interpolated between envelope points at the band edge crossed last. The reference
-envelope is measured here on its dense output at 128 samples per period: per cycle
-(between upward crossings of the probe less its DC level), (maximum - minimum)/2
-with each extremum refined by a parabola, at the midpoint time; the DC level is
-the mean of the probe over each cycle, interpolated between cycles, so a bias
-transient or a DC drift does not enter (the plain envelope without that
-correction is computed too and printed with --long). ringup's start-up time must
+envelope is measured here on its dense output at 128 samples per period, one point
+per cycle (between upward crossings of the probe less its running mean over a
+period) at the midpoint time of the cycle's maximum and minimum, each refined by a
+parabola: in a circuit with no supply, whose DC level does not move, the plain
+(maximum - minimum)/2; in a biased circuit, (U - L)/2 with U and L the cubic
+splines through the maxima and through the minima, so a bias transient or a DC
+drift moves both alike and drops out (both are printed with --long). ringup's start-up time must
 lie within 1 % of the reference wherever the start is deterministic (a preset kick
 or the bare power-on ramp) and the start-up is clean (the envelope never rises
 above the +-10 % band); where it overshoots and falls back into the band, the
@@ -59,6 +60,7 @@ import threading
 import time
 
 import numpy as np
+import scipy.interpolate
 
 HERE = os.path.dirname(os.path.abspath(__file__))
 sys.path.insert(0, HERE)
@@ -116,17 +118,17 @@ def crossings_up(q, t):
     return t[k] - q[k] * (t[k + 1] - t[k]) / (q[k + 1] - q[k]), k
 
 
-def cycle_means(p, t, ks):
-    """Mean of p over each cycle between consecutive upward crossings (sample
-    indices ks), at the cycle's mid time."""
-    mids, means = [], []
+def extrema(p, t, ks):
+    """Per cycle between the upward crossings ks: the maximum and the minimum of p,
+    each refined by a parabola through its sample and its two neighbours."""
+    out = []
     for a, b in zip(ks[:-1], ks[1:]):
         if b - a < 4:
             continue
-        seg, ts = p[a:b + 1], t[a:b + 1]
-        means.append(np.trapz(seg, ts) / (ts[-1] - ts[0]))
-        mids.append(0.5 * (ts[0] + ts[-1]))
-    return np.array(mids), np.array(means)
+        seg = p[a:b + 1]
+        out.append(parabola_peak(p, t, a + int(np.argmax(seg))) +
+                   parabola_peak(p, t, a + int(np.argmin(seg))))
+    return np.array(out).reshape(-1, 4)  # t_max, v_max, t_min, v_min
 
 
 def parabola_peak(y, t, k):
@@ -143,37 +145,28 @@ def parabola_peak(y, t, k):
 
 
 def envelope(p, t, period, correct_dc=True):
-    """Envelope points (time, amplitude) per cycle of the probe p on the uniform
-    grid t."""
+    """Envelope points (time, amplitude), one per cycle, of the probe p on the
+    uniform grid t. Cycles run between upward crossings of p less its running
+    mean over one period. Plain: (maximum - minimum)/2 of each cycle at the mid
+    time. DC-corrected: the upper and lower envelopes U(t), L(t) are the cubic
+    splines through the maxima and through the minima, and the point at the mid
+    time tm is (U(tm) - L(tm))/2; a DC level moving under the tone shifts U and L
+    alike and drops out (exact for a linear ramp), and a symmetric growing tone has
+    U = -L, so the correction changes nothing there."""
     n = int(round(period / (t[1] - t[0])))
-    kern = np.ones(n) / n
-    m0 = np.convolve(p, kern, mode="same")
+    m0 = np.convolve(p, np.ones(n) / n, mode="same")
     _, ks = crossings_up(p - m0, t)
     ks = ks[(ks > n) & (ks < len(p) - n)]  # the running mean is whole there
-    dc, mids = m0, []
-    if correct_dc and len(ks) > 3:
-        mids, means = cycle_means(p, t, ks)
-        if len(mids) > 1:
-            dc = np.interp(t, mids, means)
-        _, ks = crossings_up(p - dc, t)
-    elif not correct_dc:
-        dc = np.zeros_like(p) + (np.mean(p[-len(p) // 10:]))
-        _, ks = crossings_up(p - dc, t)
-    q = p - dc
-    env_t, env_a = [], []
-    lo_t, hi_t = (mids[0], mids[-1]) if correct_dc and len(ks) > 3 and len(mids) > 1 \
-        else (t[0], t[-1])
-    for a, b in zip(ks[:-1], ks[1:]):
-        if b - a < 4 or t[a] < lo_t or t[b] > hi_t:  # the DC is known over the cycle
-            continue
-        seg = q[a:b + 1]
-        kmax = a + int(np.argmax(seg))
-        kmin = a + int(np.argmin(seg))
-        tmax, ymax = parabola_peak(q, t, kmax)
-        tmin, ymin = parabola_peak(q, t, kmin)
-        env_t.append(0.5 * (tmax + tmin))
-        env_a.append(0.5 * (ymax - ymin))
-    return np.array(env_t), np.array(env_a), ks
+    ex = extrema(p, t, ks)
+    if len(ex) == 0:
+        return np.array([]), np.array([]), ks
+    tm = 0.5 * (ex[:, 0] + ex[:, 2])
+    if not correct_dc or len(ex) < 4:
+        return tm, 0.5 * (ex[:, 1] - ex[:, 3]), ks
+    up = scipy.interpolate.CubicSpline(ex[:, 0], ex[:, 1])
+    lo = scipy.interpolate.CubicSpline(ex[:, 2], ex[:, 3])
+    keep = (tm >= ex[0, 2]) & (tm <= ex[-1, 0])  # inside both splines' data
+    return tm[keep], 0.5 * (up(tm[keep]) - lo(tm[keep])), ks
 
 
 def startup_time(env_t, env_a, amp, level=0.9):
@@ -224,8 +217,13 @@ class Reference:
         xs = dense(t)
         p = c.probe_of(xs, t, self.probe)
         self.t_ref = t_ref
-        self.env_t, self.env_a, ks = envelope(p, t, period)
+        # a circuit with no supply has no DC level to move: its tone is measured by
+        # the plain envelope (the README's definition); a biased one by the
+        # DC-corrected one
+        self.biased = bool(c.fixed)
+        self.env_t, self.env_a, ks = envelope(p, t, period, correct_dc=self.biased)
         self.plain_t, self.plain_a, _ = envelope(p, t, period, correct_dc=False)
+        self.corr_t, self.corr_a, _ = envelope(p, t, period, correct_dc=True)
         self.dominant = dom
         self.max_re = max(z.real for z in self.poles)
         self.real_rhp = any(abs(z.imag) == 0 and z.real > 0 for z in self.poles)
@@ -250,17 +248,18 @@ class Reference:
         self.motion = float(np.max(np.abs(self.x_end - x_90) / scale))
         self.period = period
         # a preset kick's size on the probe: its first envelope point (power-on: 0)
-        self.kick_v = float(self.env_a[0]) if start and len(self.env_a) else 0.0
+        self.kick_v = float(self.plain_a[0]) if start and len(self.plain_a) else 0.0
         self.verdict = self._judge()
         # a clean start-up: the envelope never rises above the settled band
         self.clean = self.amp > 0 and float(np.max(self.env_a)) <= 1.1 * self.amp
         self.startup_s = float("nan")
-        self.startup_plain_s = float("nan")
+        self.startup_plain_s = self.startup_corr_s = float("nan")
         if self.verdict == "started":
             self.startup_s = startup_time(self.env_t, self.env_a, self.amp)
-            pw = self.plain_t >= self.t_win
-            self.startup_plain_s = startup_time(self.plain_t, self.plain_a,
-                                                float(np.mean(self.plain_a[pw])))
+            for kind in ("plain", "corr"):
+                et, ea = getattr(self, kind + "_t"), getattr(self, kind + "_a")
+                setattr(self, "startup_%s_s" % kind,
+                        startup_time(et, ea, float(np.mean(ea[et >= self.t_win]))))
 
     def _judge(self):
         c = self.circuit
@@ -404,8 +403,10 @@ def main():
             name, truth, ref.verdict[:9], poles, fmt(ref.startup_s, "s"),
             fmt(ref.amp, "V"), "%.2fs" % ref.cpu_s, "  ".join(cells)))
         if long and ref.verdict == "started":
-            print("%24s plain envelope start-up %s (DC-corrected %s); reference stop %g s"
-                  % ("", fmt(ref.startup_plain_s, "s"), fmt(ref.startup_s, "s"), t_ref))
+            print("%24s start-up by the plain envelope %s, DC-corrected %s (%s used); "
+                  "reference stop %g s" % ("", fmt(ref.startup_plain_s, "s"),
+                                           fmt(ref.startup_corr_s, "s"),
+                                           "corrected" if ref.biased else "plain", t_ref))
     if long:
         tot = {a: sum(results[(n, a)][1] for n, *_ in corpus) for a in accs}
         print("ringup CPU time over the corpus: " +

@@ -16,6 +16,7 @@ Reference: Kirchhoff's current law and the part laws as the README states them
 (Shockley's law with vt = kT/q, the long-tailed pair's tanh, the opamp macro model
 with softplus rails and anti-windup, the lamp's first-order heat balance)."""
 import math
+import os
 
 import numpy as np
 import scipy.integrate
@@ -24,6 +25,8 @@ import yaml
 
 from refutil import si
 
+MODELS = os.environ.get("RINGUP_MODELS",
+                        os.path.join(os.path.dirname(__file__), "..", "..", "models"))
 K_B = 1.380649e-23      # J/K, exact SI (2019)
 Q_E = 1.602176634e-19   # C, exact SI (2019)
 U_MAX = 40.0            # README: exponents above 40 continue linearly
@@ -134,7 +137,7 @@ class Circuit:
         for name, p in self.parts.items():
             if p["type"] == "inductor":
                 self.extra.append(("iL", name))
-            elif p["type"] == "amplifier" and p["law"] == "opamp":
+            elif p["type"] == "amplifier" and self._law_name(p) == "opamp":
                 self.extra.append(("vint", name))
             elif p["type"] == "thermal-resistor":
                 self.extra.append(("rise", name))
@@ -143,6 +146,13 @@ class Circuit:
         self._laws()
         self._mass()
         self.drives = [w.drive_hz() for w in self._waves() if w.drive_hz()]
+
+    @staticmethod
+    def _law_name(p):
+        if "law" in p:
+            return p["law"]
+        with open(os.path.join(MODELS, p["model"] + ".yaml")) as f:
+            return yaml.safe_load(f)["law"]
 
     def _waves(self):
         out = list(self.fixed.values())
@@ -157,6 +167,12 @@ class Circuit:
             if p["type"] in ("resistor", "inductor"):
                 p["_value"] = num(p["value"])
                 p["_series"] = num(p.get("series", 0))
+            if p["type"] == "amplifier" and "model" in p:  # a preset, then the part's keys
+                with open(os.path.join(MODELS, p["model"] + ".yaml")) as f:
+                    preset = yaml.safe_load(f)
+                for k, v in preset.items():
+                    if k != "description":
+                        p.setdefault(k, v)
             if p["type"] == "amplifier":
                 law = dict(LAW_DEFAULTS[p["law"]])
                 for k in law:
