@@ -163,6 +163,8 @@ def envelope(p, t, period, correct_dc=True):
     tm = 0.5 * (ex[:, 0] + ex[:, 2])
     if not correct_dc or len(ex) < 4:
         return tm, 0.5 * (ex[:, 1] - ex[:, 3]), ks
+    if not (np.all(np.diff(ex[:, 0]) > 0) and np.all(np.diff(ex[:, 2]) > 0)):
+        return tm, 0.5 * (ex[:, 1] - ex[:, 3]), ks  # no tone: noise, no order to follow
     up = scipy.interpolate.CubicSpline(ex[:, 0], ex[:, 1])
     lo = scipy.interpolate.CubicSpline(ex[:, 2], ex[:, 3])
     keep = (tm >= ex[0, 2]) & (tm <= ex[-1, 0])  # inside both splines' data
