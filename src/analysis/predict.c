@@ -272,7 +272,9 @@ void ru_selfcheck(ru_run_report *rep)
                             "a large kick can start a hard-excited oscillator");
     /* the balances predict the fundamental: compare like with like */
     const ru_hb_tone *h = pr->have_hb && pr->hb.converged ? &pr->hb : NULL;
-    if (h && isfinite(m->fundamental_v) &&
+    /* (only a settled tone is compared: a figure of a tone still moving is not its
+     * settled size, and the not-settled note says so already) */
+    if (h && m->settled && isfinite(m->fundamental_v) &&
         (fabs(m->fundamental_v / h->fundamental_v - 1) > 0.02 ||
          fabs(m->frequency_hz / h->frequency_hz - 1) > 0.005))
         ru_report_note(rep, "the measured tone differs from the harmonic balance's (%d "
@@ -281,7 +283,8 @@ void ru_selfcheck(ru_run_report *rep)
                             "periodic tone",
                        h->harmonics, 100 * (m->fundamental_v / h->fundamental_v - 1),
                        100 * (m->frequency_hz / h->frequency_hz - 1));
-    if (!h && isfinite(pr->settled_amplitude_v) && isfinite(m->fundamental_v) &&
+    if (!h && m->settled && isfinite(pr->settled_amplitude_v) &&
+        isfinite(m->fundamental_v) &&
         fabs(m->fundamental_v / pr->settled_amplitude_v - 1) > 0.05)
         ru_report_note(rep, "measured fundamental differs from the describing-function "
                             "prediction by %+.1f %%: that method keeps only the "
@@ -289,7 +292,7 @@ void ru_selfcheck(ru_run_report *rep)
                             "(THD on the probe: %.2g %%) make it approximate",
                        100 * (m->fundamental_v / pr->settled_amplitude_v - 1),
                        m->thd_percent);
-    if (m->started && m->peak_envelope_v > 1.2 * m->settled_amplitude_v)
+    if (m->started && m->settled && m->peak_envelope_v > 1.2 * m->settled_amplitude_v)
         ru_report_note(rep, "the envelope overshoots to %.3g V, %.2gx the settled "
                             "amplitude, before it settles (an amplitude control with "
                             "memory, such as a lamp or thermistor, or a loop that "

@@ -154,7 +154,9 @@ static void print_text(const ru_circuit *c, const ru_run_report *r, int auto_sam
     const ru_hb_tone *h = p->have_hb ? &p->hb : NULL;
     if (h || isfinite(p->df_frequency_hz))
         row("  at settled size", NAN, h ? h->frequency_hz : p->df_frequency_hz, "Hz");
-    row("settled amplitude", m->settled_amplitude_v, h ? h->amplitude_v : NAN, "V");
+    /* a tone still moving at the end: its size then, not a settled amplitude */
+    row(m->settled ? "settled amplitude" : "amplitude at end", m->settled_amplitude_v,
+        h ? h->amplitude_v : NAN, "V");
     row("  fundamental", m->fundamental_v, h ? h->fundamental_v : p->settled_amplitude_v,
         "V");
     printf("  %-20s %s\n", "settled", isfinite(m->settled_amplitude_v) ? yes_no(m->settled) : "-");
