@@ -56,10 +56,11 @@ def softplus(z):
 
 
 def num(v):
-    if isinstance(v, str) and v.endswith("V/s"):
-        return si(v[:-3])
-    if isinstance(v, str) and v.endswith("C") and not v.endswith("F"):
-        return si(v[:-1])
+    """A value with its SI prefix and unit (the units of the corpus and the presets)."""
+    if isinstance(v, str):
+        for unit in ("V/s", "K/W", "J/K", "C"):
+            if v.endswith(unit):
+                return si(v[:-len(unit)])
     return si(v)
 
 
@@ -167,7 +168,8 @@ class Circuit:
             if p["type"] in ("resistor", "inductor"):
                 p["_value"] = num(p["value"])
                 p["_series"] = num(p.get("series", 0))
-            if p["type"] == "amplifier" and "model" in p:  # a preset, then the part's keys
+            if p["type"] in ("amplifier", "thermal-resistor") and "model" in p:
+                # a preset, then the part's keys
                 with open(os.path.join(MODELS, p["model"] + ".yaml")) as f:
                     preset = yaml.safe_load(f)
                 for k, v in preset.items():
@@ -189,8 +191,9 @@ class Circuit:
             elif p["type"] == "thermal-resistor":
                 if p.get("kind", "lamp") != "lamp":
                     raise ValueError("only lamps are modelled")
-                p["_law"] = {k: num(p[k]) for k in ("r0", "alpha", "t0", "tamb", "rth",
-                                                     "cth")}
+                lamp = {"r0": 50.0, "alpha": 4.5e-3, "t0": 25.0, "tamb": 25.0,
+                        "rth": 20e3, "cth": 5e-6}  # README, thermal-resistor table
+                p["_law"] = {k: num(p.get(k, d)) for k, d in lamp.items()}
             elif p["type"] == "poly-conductance":
                 p["_law"] = [num(c) for c in p["coeffs"]]
 
