@@ -100,7 +100,7 @@ CORPUS = [
     ("colpitts-exp", "started", 0.006, {}, "LSODA", False),
     ("lc-pair", "started", 0.006, None, "LSODA", False),
     ("lc-pair-below", "no-start", 0.006, {"t": 1e-3}, "LSODA", False),
-    ("crystal-like", "started", 0.05, None, "LSODA", False),
+    ("crystal-like", "started", 0.07, None, "LSODA", False),
     ("crystal-like-latch", "latched", 0.01, None, "LSODA", False),
     ("rc-ladder-exp", "started", 0.04, None, "LSODA", False),
     ("rc-ladder-exp-below", "no-start", 0.08, {}, "LSODA", False),
