@@ -13,6 +13,7 @@
  * and run it from the source folder (it reads examples/) with RINGUP_MODELS=models:
  *   bench_run [REPEATS [CASE...]]
  *   bench_run scale [MAX_STATES [CVODE_MAX_STATES [REPEATS]]]
+ *   bench_run stald [REPEATS [CASE...]]
  * REPEATS (default 3) runs of each case; the wall time printed is the fastest.
  * Cases (our own bench values):
  *   the examples by file stem (vdp-tank, follower-colpitts, ...);
@@ -43,7 +44,14 @@
  * 1), peak RSS; then the exponent p of
  * CPU per simulated cycle ~ n^p fitted by least squares in log-log over the runs
  * with 50 states or more, and the load average before and after (the machine is
- * shared: read ratios within one run). */
+ * shared: read ratios within one run). CVODE runs without its stability-limit
+ * detection, as a run chooses for these chains (no stiff mode near the jw axis);
+ * with BENCH_STALD set in the environment, with it.
+ *
+ * stald: each case (default: the examples, ladder-10, tanks-3, tanks-4) as a whole
+ * run with CVODE's stability-limit detection on and off: CPU seconds (least of
+ * REPEATS, default 3), steps, settled amplitude, growth rate and frequency of
+ * each, the ratio of the CPU times, and what `auto` (the default) chose. */
 #define _DEFAULT_SOURCE /* wait4, getloadavg */
 
 #include "ringup/analysis.h"
@@ -267,6 +275,7 @@ static void scale_child(int m, ru_integrator integ, ru_linsol ls, scale_fig *f)
     o.sample_s = 20e-3 / 20000;
     o.integrator = integ;
     o.linsol = ls;
+    o.stab_lim_det = getenv("BENCH_STALD") != NULL; /* what a run's auto takes here */
     cross_sink k = {s, ru_circuit_find_node(c, "t1"), 0, 0};
     ru_solver_stats st;
     if (x0 && ru_system_initial_state(s, x0, &err) == RU_OK) {
@@ -388,8 +397,68 @@ static int run_scale(int max_states, int cvode_max, int repeats)
     return 0;
 }
 
+/* ---- stald: stability-limit detection on against off -------------------------- */
+
+/* One whole run with detection st (RU_STAB_*): the least CPU time of `repeats`. */
+static double stald_run(const ru_circuit *c, int st, int repeats, ru_run_report *rep)
+{
+    double best = 1e300;
+    for (int r = 0; r < repeats; r++) {
+        ru_run_request rq;
+        ru_run_request_default(&rq);
+        rq.stab_limit = st;
+        ru_error err;
+        double t0 = cpu_s();
+        if (ru_analysis_run(c, &rq, rep, &err) != RU_OK)
+            return NAN;
+        double t = cpu_s() - t0;
+        best = t < best ? t : best;
+    }
+    return best;
+}
+
+static int run_stald(int repeats, int ncases, char **cases)
+{
+    static const char *const dflt[] = {"vdp-tank", "follower-colpitts", "rc-ladder-npn",
+                                       "wien-lamp", "tickler-pair", "ladder-10",
+                                       "tanks-3", "tanks-4"};
+    print_load("before");
+    printf("whole runs (ru_analysis_run), CPU s (least of %d) and steps with CVODE's "
+           "stability-limit detection on and off, what auto chose, and the results\n",
+           repeats);
+    int n = ncases > 0 ? ncases : (int)(sizeof dflt / sizeof dflt[0]);
+    for (int i = 0; i < n; i++) {
+        const char *name = ncases > 0 ? cases[i] : dflt[i];
+        ru_circuit *c = NULL;
+        ru_error err;
+        if (load_case(name, &c, &err) != RU_OK) {
+            printf("case=%s error=\"%s\"\n", name, err.msg);
+            continue;
+        }
+        ru_run_report on, off, au;
+        double t_on = stald_run(c, RU_STAB_ON, repeats, &on);
+        double t_off = stald_run(c, RU_STAB_OFF, repeats, &off);
+        stald_run(c, RU_STAB_AUTO, 1, &au);
+        printf("case=%s on: cpu_s=%.4f steps=%ld amp=%.10g growth=%.10g freq=%.10g | "
+               "off: cpu_s=%.4f steps=%ld amp=%.10g growth=%.10g freq=%.10g | on/off %.3f "
+               "auto=%s engine=\"%s\"\n",
+               name, t_on, on.solver.steps, on.meas.settled_amplitude_v,
+               on.meas.growth_rate_per_s, on.meas.frequency_hz, t_off, off.solver.steps,
+               off.meas.settled_amplitude_v, off.meas.growth_rate_per_s,
+               off.meas.frequency_hz, t_on / t_off, au.solver.stab_lim_det ? "on" : "off",
+               ru_transient_engine_name(&au.solver));
+        fflush(stdout);
+        ru_circuit_destroy(c);
+    }
+    print_load("after");
+    return 0;
+}
+
 int main(int argc, char **argv)
 {
+    if (argc > 1 && !strcmp(argv[1], "stald"))
+        return run_stald(argc > 2 && atoi(argv[2]) > 0 ? atoi(argv[2]) : 3,
+                         argc > 3 ? argc - 3 : 0, argv + 3);
     if (argc > 1 && !strcmp(argv[1], "scale"))
         return run_scale(argc > 2 ? atoi(argv[2]) : 400, argc > 3 ? atoi(argv[3]) : 400,
                          argc > 4 && atoi(argv[4]) > 0 ? atoi(argv[4]) : 1);

@@ -77,7 +77,16 @@ typedef struct ru_run_request {
                               sample with RU_ESTOPPED and the report is not valid */
     int polish;            /* 1: after a settled self-sustained tone, the periodic
                               steady state from the run's end (ru_polish; 0 default) */
+    int stab_limit;        /* CVODE's stability-limit detection: an ru_stab_limit */
+    int integrator;        /* an ru_integrator (ringup/transient.h): AUTO (0, by size
+                              and form), CVODE (refused for a DAE) or IDA */
 } ru_run_request;
+
+/* CVODE's stability-limit detection (BDF orders 3-5 are unstable for stiff modes
+ * near the imaginary axis; the detection lowers the order there). AUTO turns it on
+ * only when the poles at the operating point show such a mode
+ * (ru_prediction.stiff_oscillatory) or none were computed. */
+typedef enum { RU_STAB_AUTO, RU_STAB_ON, RU_STAB_OFF } ru_stab_limit;
 
 /* Which time-domain engine runs: the direct transient (every cycle integrated) or
  * the envelope engine (ringup/envfollow.h: cycles skipped by envelope steps, for
@@ -119,6 +128,9 @@ typedef struct ru_prediction {
     double slowest_decay_per_s;   /* smallest |real part| of the decaying poles other
                                      than the dominant pair (a bias or thermal time
                                      constant's inverse), NAN when none */
+    int stiff_oscillatory;        /* a pole at least RU_STIFF_RATIO times the
+                                     dominant pair's magnitude, outside BDF5's
+                                     stability sector (|im| > tan(51.84 deg) |re|) */
     int start_kind;               /* what sets it: 0 preset, 1 power-on, 2 noise */
     int start_driven;             /* 1: a periodic source drives: no start level */
     double start_rms_v;           /* noise: rms of the accumulated noise (else NAN) */

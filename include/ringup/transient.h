@@ -109,13 +109,15 @@ typedef struct ru_solver_stats {
     double wall_s;       /* wall-clock time of the run */
     ru_integrator integrator; /* the integrator that ran (CVODE or IDA) */
     ru_linsol linsol;    /* its linear solver (DENSE or KLU) */
+    int stab_lim_det;    /* CVODE ran with stability-limit detection */
 } ru_solver_stats;
 
 /* Which integrator and linear solver a run with options o would take on s. */
 void ru_transient_plan(const ru_system *s, const ru_transient_opts *o,
                        ru_integrator *integrator, ru_linsol *linsol);
 
-/* "CVODE, dense", "IDA, KLU sparse" or "IDA, dense" for the stats of a run. */
+/* "CVODE, dense", "CVODE, dense, stability limit" (detection on), "IDA, KLU
+ * sparse" or "IDA, dense" for the stats of a run. */
 const char *ru_transient_engine_name(const ru_solver_stats *st);
 
 /* Runs from t = 0 with initial state x0 (n = ru_system_size entries) to o->stop_s.

@@ -275,6 +275,19 @@ static ru_status run_transient(const ru_circuit *c, const ru_system *sys,
                       ? rep->pred.noise_amplitude_v
                       : 0;
     choose_tolerances(c, sys, rep, probe_pos, probe_neg, x_op, accuracy, &to);
+    to.integrator = (ru_integrator)rq->integrator;
+    for (size_t i = 0; to.integrator == RU_INTEGRATOR_CVODE && i < n; i++)
+        if (ru_system_state_kind(sys, i) != RU_STATE_DIFFERENTIAL) {
+            st = ru_error_set(err, RU_EINPUT, ru_circuit_file(c), 0, 0,
+                              "the CVODE integrator needs capacitance at every node, and "
+                              "node %s has none to ground (stray 0): use IDA (the "
+                              "default here)", ru_system_state_name(sys, i));
+            goto cleanup;
+        }
+    to.stab_lim_det = rq->stab_limit == RU_STAB_ON    ? 1
+                      : rq->stab_limit == RU_STAB_OFF ? 0
+                                                      : !rep->pred.have_poles ||
+                                                            rep->pred.stiff_oscillatory;
     ru_measure_cfg mc;
     ru_measure_cfg_default(&mc, rep->stop_s, rep->sample_s);
     const ru_measure_opts *mo = ru_circuit_measure_opts_const(c);

@@ -86,6 +86,26 @@ static void keep_poles(ru_run_data *keep, const ru_pole *poles, size_t n, int d)
     keep->dominant = d;
 }
 
+/* Whether a pole is a stiff mode near the imaginary axis, where BDF of order 3 to
+ * 5 loses stability: at least RU_STIFF_RATIO times the dominant pair's magnitude
+ * (so a step that resolves the tone, ~1/100 of its period, puts h lambda beyond
+ * 0.3) and at an angle from the negative real axis beyond BDF5's A(alpha)
+ * stability angle, 51.84 degrees (Hairer and Wanner, Solving ODEs II, table
+ * V.2.1; from memory). The dominant pair itself is resolved by the error control. */
+#define RU_STIFF_RATIO 5.0
+#define RU_BDF5_TAN_ALPHA 1.2723 /* tan(51.84 deg) */
+static int stiff_oscillatory(const ru_pole *p, size_t np, ru_pole dom)
+{
+    double wd = hypot(dom.re_per_s, dom.im_rad_per_s);
+    for (size_t i = 0; i < np; i++) {
+        double w = hypot(p[i].re_per_s, p[i].im_rad_per_s);
+        if (w >= RU_STIFF_RATIO * wd &&
+            fabs(p[i].im_rad_per_s) > RU_BDF5_TAN_ALPHA * fabs(p[i].re_per_s))
+            return 1;
+    }
+    return 0;
+}
+
 static void predict_poles(const ru_system *s, const double *x_op, int pos, int neg,
                           ru_run_report *rep, ru_run_data *keep)
 {
@@ -107,10 +127,12 @@ static void predict_poles(const ru_system *s, const double *x_op, int pos, int n
                             "small-signal model has no oscillation to predict");
         goto done;
     }
-    for (size_t i = 0; i < n; i++)
+    size_t np = ru_poles_count(s); /* below n for a DAE */
+    for (size_t i = 0; i < np; i++)
         if (poles[i].re_per_s < 0 && (int)i != d && poles[i].im_rad_per_s != -poles[d].im_rad_per_s &&
             !(fabs(poles[i].re_per_s) >= pr->slowest_decay_per_s))
             pr->slowest_decay_per_s = fabs(poles[i].re_per_s);
+    pr->stiff_oscillatory = stiff_oscillatory(poles, np, poles[d]);
     pr->have_poles = 1;
     pr->dominant = poles[d];
     pr->growth_rate_per_s = poles[d].re_per_s;

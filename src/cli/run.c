@@ -448,6 +448,26 @@ static int set_request(const cli_opt *opts, ru_run_request *rq)
                 eng);
         return 0;
     }
+    const char *in = cli_get(opts, "integrator");
+    if (in && !strcmp(in, "cvode"))
+        rq->integrator = RU_INTEGRATOR_CVODE;
+    else if (in && !strcmp(in, "ida"))
+        rq->integrator = RU_INTEGRATOR_IDA;
+    else if (in && strcmp(in, "auto")) {
+        fprintf(stderr, "ringup run: --integrator takes auto, cvode or ida (got '%s')\n",
+                in);
+        return 0;
+    }
+    const char *sl = cli_get(opts, "stability-limit");
+    if (sl && !strcmp(sl, "on"))
+        rq->stab_limit = RU_STAB_ON;
+    else if (sl && !strcmp(sl, "off"))
+        rq->stab_limit = RU_STAB_OFF;
+    else if (sl && strcmp(sl, "auto")) {
+        fprintf(stderr, "ringup run: --stability-limit takes auto, on or off (got '%s')\n",
+                sl);
+        return 0;
+    }
     return cli_accuracy(opts, &rq->accuracy) == 0;
 }
 
@@ -472,6 +492,11 @@ int cmd_run(int argc, char **argv)
         CLI_TEMP_OPT,
         {"engine", "E", "auto (default), direct (every cycle) or envelope (cycles "
                         "skipped, for slow starters)", NULL},
+        {"integrator", "I", "auto (default: CVODE for a small ODE, IDA for a large "
+                            "circuit or ideal nodes), cvode or ida", NULL},
+        {"stability-limit", "S", "CVODE's stability-limit detection: auto (default: on "
+                                 "when the poles show a stiff mode near the jw axis), on "
+                                 "or off", NULL},
         {"loop", "PART", "amplifier whose loop gain is reported", NULL},
         CLI_LOOP_NODE_OPTS,
         {"verify", NULL, "rerun at 10x tighter tolerances and show what moved", NULL},

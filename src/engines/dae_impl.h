@@ -34,7 +34,8 @@ struct ru_dae {
     size_t nmem;
     double *x, *xp, *r;        /* n each: states, their rates, residual (callbacks) */
     double *xs;                /* n: a sample as node voltages */
-    double *yref;              /* n: the options' x_ref as variables (when given) */
+    double *yref;              /* n: the options' x_ref as variables (0 without) */
+    int in_ic;                 /* 1 while IDACalcIC runs (dae_setup.c's weights) */
     double *drv;               /* nnz: dr/dx over the pattern */
     long jnnz;                 /* entries of the Newton matrix (C S pattern) */
     sunindextype *jcol, *jrow; /* its compressed columns (n + 1, jnnz) */

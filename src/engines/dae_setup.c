@@ -14,6 +14,8 @@
 #include <stdlib.h>
 #include <string.h>
 
+#define RU_DAE_IC_ATOL 1e-10 /* of each state's scale, for IDACalcIC (below) */
+
 /* ---- variables <-> states ---------------------------------------------------- */
 
 void ru_dae_y_to_x(const dae_run *r, const double *y, double *x)
@@ -110,15 +112,19 @@ static int dae_jac(realtype t, realtype cj, N_Vector yy, N_Vector yp, N_Vector r
     return 0;
 }
 
-/* Error weights relative to the reference state (the options' x_ref, as variables):
- * 1/(rtol |y - y_ref| + atol), as transient.c does for CVODE. */
+/* Error weights relative to the reference state (the options' x_ref as variables,
+ * else 0: IDA's own rule): 1/(rtol |y - y_ref| + atol), as transient.c does for
+ * CVODE. While IDACalcIC runs (r->in_ic) atol is at least RU_DAE_IC_ATOL of each
+ * state's scale: its Newton iteration stalls on rounding below that (a start from
+ * the thermal level puts atol near 1e-14 of the scale). */
 static int dae_ewt(N_Vector y, N_Vector ewt, void *user)
 {
     dae_run *r = user;
     const double *v = N_VGetArrayPointer(y), *at = N_VGetArrayPointer(r->atol);
     double *w = N_VGetArrayPointer(ewt);
     for (size_t i = 0; i < r->n; i++) {
-        double d = r->rtol * fabs(v[i] - r->yref[i]) + at[i];
+        double a = r->in_ic ? fmax(at[i], RU_DAE_IC_ATOL * at[i] / r->atol_rel) : at[i];
+        double d = r->rtol * fabs(v[i] - r->yref[i]) + a;
         if (!(d > 0) || !isfinite(d))
             return -1;
         w[i] = 1.0 / d;
@@ -271,15 +277,14 @@ ru_status ru_dae_setup_solver(dae_run *r, const double *x0, ru_error *err)
     fill_tolerances(r);
     if (r->o->x_ref)
         x_to_y(r, r->o->x_ref, r->yref);
+    else
+        memset(r->yref, 0, r->n * sizeof *r->yref);
     x_to_y(r, x0, N_VGetArrayPointer(r->yy));
     N_VConst(0.0, r->yp);
     int f = IDASetErrHandlerFn(r->ida, dae_errh, r);
     if (!f) f = IDAInit(r->ida, dae_res, 0.0, r->yy, r->yp);
     if (!f) f = IDASetUserData(r->ida, r); /* before the weight function takes it */
-    if (!f && r->o->x_ref)
-        f = IDAWFtolerances(r->ida, dae_ewt);
-    else if (!f)
-        f = IDASVtolerances(r->ida, r->rtol, r->atol);
+    if (!f) f = IDAWFtolerances(r->ida, dae_ewt);
     if (!f && r->o->max_step_s > 0)
         f = IDASetMaxStep(r->ida, r->o->max_step_s);
     if (!f) f = IDASetId(r->ida, r->id);
@@ -325,18 +330,24 @@ ru_status ru_dae_consistent_start(dae_run *r, double t, const double *x, double 
 {
     double *y = N_VGetArrayPointer(r->yy), *yp = N_VGetArrayPointer(r->yp);
     x_to_y(r, x, y);
-    ru_status st = ru_system_storage_rates(r->sys, t, x, r->xp); /* guess for y' */
+    int dae = ru_system_algebraic_count(r->sys) > 0;
+    ru_status st = ru_system_storage_rates(r->sys, t, x, r->xp); /* y' (a DAE: a guess) */
+    if (st != RU_OK && !dae)
+        return ru_error_set(err, st, NULL, 0, 0, "the rates at the start are not finite");
     if (st != RU_OK)
         memset(r->xp, 0, r->n * sizeof *r->xp);
     for (size_t i = 0; i < r->n; i++)
         yp[i] = isfinite(r->xp[i]) ? r->xp[i] : 0.0; /* members' rates are relative */
     for (size_t q = 0; q < r->nmem; q++)
         yp[r->members[q]] -= yp[r->ref[r->members[q]]];
-    int f = reinit ? IDAReInit(r->ida, t, r->yy, r->yp) : 0;
-    if (!f)
+    int f = reinit || !dae ? IDAReInit(r->ida, t, r->yy, r->yp) : 0;
+    if (!f && dae) { /* an ODE needs no IDACalcIC: the storage rates are its exact y' */
+        r->in_ic = 1;
         f = IDACalcIC(r->ida, IDA_YA_YDP_INIT, t + fmax(tnext - t, r->eps_t));
-    if (!f)
-        f = IDAGetConsistentIC(r->ida, r->yy, r->yp);
+        r->in_ic = 0;
+        if (!f)
+            f = IDAGetConsistentIC(r->ida, r->yy, r->yp);
+    }
     if (f) {
         char tb[48];
         ru_tr_fmt_time(t, tb, sizeof tb);

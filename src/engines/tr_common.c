@@ -98,5 +98,5 @@ const char *ru_transient_engine_name(const ru_solver_stats *st)
 {
     if (st->integrator == RU_INTEGRATOR_IDA)
         return st->linsol == RU_LINSOL_KLU ? "IDA, KLU sparse" : "IDA, dense";
-    return "CVODE, dense";
+    return st->stab_lim_det ? "CVODE, dense, stability limit" : "CVODE, dense";
 }

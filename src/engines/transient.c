@@ -567,6 +567,7 @@ void ru_transient_stats(const ru_transient *r, ru_solver_stats *stats)
     stats->wall_s = r->busy_s;
     stats->integrator = RU_INTEGRATOR_CVODE;
     stats->linsol = RU_LINSOL_DENSE;
+    stats->stab_lim_det = r->o->stab_lim_det != 0;
 }
 
 ru_status ru_transient_run(const ru_system *s, const ru_transient_opts *o,
