@@ -78,6 +78,10 @@ int cli_range(const cli_opt *opts, const char *name, const char *unit, double lo
 /* As cli_value, and the value (when given) must be positive. */
 int cli_positive(const cli_opt *opts, const char *name, const char *unit, double *out);
 
+/* Option `name` as one of three words: *out = the word's index (left alone when the
+ * option is absent); 0, with a message, for any other word. */
+int cli_word3(const cli_opt *opts, const char *name, const char *const words[3], int *out);
+
 /* --stop T or --stop auto into the request (stop_s or stop_auto); returns 1, or 0
  * after a message. */
 int cli_stop(const cli_opt *opts, ru_run_request *rq);

@@ -272,6 +272,20 @@ int cli_accuracy(const cli_opt *opts, int *accuracy)
     return 1;
 }
 
+int cli_word3(const cli_opt *opts, const char *name, const char *const words[3], int *out)
+{
+    const char *w = cli_get(opts, name);
+    for (int i = 0; w && i < 3; i++)
+        if (!strcmp(w, words[i])) {
+            *out = i;
+            return 1;
+        }
+    if (w)
+        fprintf(stderr, "ringup: option --%s takes %s, %s or %s (got '%s')\n", name, words[0],
+                words[1], words[2], w);
+    return !w;
+}
+
 int cli_positive(const cli_opt *opts, const char *name, const char *unit, double *out)
 {
     if (!cli_value(opts, name, unit, out))

@@ -438,36 +438,13 @@ static int set_request(const cli_opt *opts, ru_run_request *rq)
         return 0;
     if (!set_wav(opts, rq))
         return 0;
-    const char *eng = cli_get(opts, "engine");
-    if (eng && !strcmp(eng, "direct"))
-        rq->engine = RU_ENGINE_DIRECT;
-    else if (eng && !strcmp(eng, "envelope"))
-        rq->engine = RU_ENGINE_ENVELOPE;
-    else if (eng && strcmp(eng, "auto")) {
-        fprintf(stderr, "ringup run: --engine takes auto, direct or envelope (got '%s')\n",
-                eng);
+    static const char *const eng[3] = {"auto", "direct", "envelope"}, /* ru_engine */
+        *integ[3] = {"auto", "cvode", "ida"},                           /* ru_integrator */
+        *stab[3] = {"auto", "on", "off"};                               /* ru_stab_limit */
+    if (!cli_word3(opts, "engine", eng, &rq->engine) ||
+        !cli_word3(opts, "integrator", integ, &rq->integrator) ||
+        !cli_word3(opts, "stability-limit", stab, &rq->stab_limit))
         return 0;
-    }
-    const char *in = cli_get(opts, "integrator");
-    if (in && !strcmp(in, "cvode"))
-        rq->integrator = RU_INTEGRATOR_CVODE;
-    else if (in && !strcmp(in, "ida"))
-        rq->integrator = RU_INTEGRATOR_IDA;
-    else if (in && strcmp(in, "auto")) {
-        fprintf(stderr, "ringup run: --integrator takes auto, cvode or ida (got '%s')\n",
-                in);
-        return 0;
-    }
-    const char *sl = cli_get(opts, "stability-limit");
-    if (sl && !strcmp(sl, "on"))
-        rq->stab_limit = RU_STAB_ON;
-    else if (sl && !strcmp(sl, "off"))
-        rq->stab_limit = RU_STAB_OFF;
-    else if (sl && strcmp(sl, "auto")) {
-        fprintf(stderr, "ringup run: --stability-limit takes auto, on or off (got '%s')\n",
-                sl);
-        return 0;
-    }
     return cli_accuracy(opts, &rq->accuracy) == 0;
 }
 

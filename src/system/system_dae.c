@@ -248,7 +248,8 @@ static int pair_cmp(const void *pa, const void *pb)
 /* Compressed columns from the sorted pairs (duplicates merged). */
 static ru_status pairs_to_csc(ru_system *s, ru_sys_pairs *pr)
 {
-    qsort(pr->rc, pr->n, 2 * sizeof *pr->rc, pair_cmp);
+    if (pr->n > 0) /* no pairs (no states): rc is NULL */
+        qsort(pr->rc, pr->n, 2 * sizeof *pr->rc, pair_cmp);
     s->pat_colptr = calloc(s->n + 1, sizeof *s->pat_colptr);
     s->pat_rowind = malloc((pr->n ? pr->n : 1) * sizeof *s->pat_rowind);
     if (!s->pat_colptr || !s->pat_rowind)
