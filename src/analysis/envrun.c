@@ -131,7 +131,7 @@ void ru_envrun_noise_start(const ru_system *s, ru_run_report *rep, int probe_pos
     /* the noise's share: what the log-mean level has beyond the ramp's, added in
      * quadrature (the noise's phase is random: the mean square matches) */
     if (v && ru_start_level_compute(s, x_op, p->dominant, probe_pos, probe_neg, 1e6,
-                                    RU_NOISE_TEMP_C, &sl, &e) == RU_OK &&
+                                    ru_circuit_temp_c(ru_system_circuit(s)), &sl, &e) == RU_OK &&
         sl.noise_rms_v > 0 && sl.level_v > sl.det_v)
         k = sqrt(sl.level_v * sl.level_v - sl.det_v * sl.det_v);
     if (k > 0 && ru_mode_near(s, x_op, p->dominant, &lam, v, v + n, NULL, NULL) == RU_OK)
