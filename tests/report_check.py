@@ -42,12 +42,13 @@ def run(args, env=None):
     return p.returncode, p.stdout, p.stderr
 
 
-WALL = re.compile(r"(rtol \S+|steps), [0-9.]+ s\b")
+WALL = re.compile(r"(rtol \S+|steps|last state), [0-9.]+ s\b")
 
 
 def words(text):
-    """The words of a text, the solver's wall-clock time masked (it differs
-    between the plain run and the run that writes the report)."""
+    """The words of a text, the solver's and the polishing Newton's wall-clock
+    times masked (they differ between the plain run and the run that writes the
+    report)."""
     return WALL.sub(r"\1, WALL s", text).split()
 
 
