@@ -25,6 +25,12 @@ ru_status ru_circuit_load_string(const char *text, const char *name,
                                  const char *models_dir, ru_circuit **out,
                                  ru_error *err);
 
+/* Same, from len bytes that need not end in NUL (a NUL inside is refused at its
+ * place, as in a file). */
+ru_status ru_circuit_load_buffer(const char *text, size_t len, const char *name,
+                                 const char *models_dir, ru_circuit **out,
+                                 ru_error *err);
+
 /* $RINGUP_MODELS when set, else the folder the build was configured with. */
 const char *ru_loader_default_models_dir(void);
 

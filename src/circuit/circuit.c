@@ -359,6 +359,8 @@ ru_part *ru_circuit_part_mut(ru_circuit *c, size_t i)
 
 int ru_circuit_find_part(const ru_circuit *c, const char *name)
 {
+    if (!c->parts)
+        return -1; /* no part yet (and no pointer to offset from) */
     return (int)ru_name_index_find(&c->part_ix, PART_NAMES(c), name);
 }
 

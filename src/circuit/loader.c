@@ -221,6 +221,19 @@ ru_status ru_circuit_load_string(const char *text, const char *name,
     return load_text(text, strlen(text), name, models_dir, out, err);
 }
 
+ru_status ru_circuit_load_buffer(const char *text, size_t len, const char *name,
+                                 const char *models_dir, ru_circuit **out,
+                                 ru_error *err)
+{
+    *out = NULL;
+    ru_error_clear(err);
+    if (!name)
+        name = "<buffer>";
+    if (!text && len)
+        return ru_error_set(err, RU_EINPUT, name, 0, 0, "no text to load");
+    return load_text(text ? text : "", len, name, models_dir, out, err);
+}
+
 ru_status ru_circuit_load(const char *path, const char *models_dir, ru_circuit **out,
                           ru_error *err)
 {

@@ -271,7 +271,7 @@ static ru_status on_end(builder *b)
     open_coll *oc = &b->open[--b->depth];
     ru_ynode *n = oc->node;
     size_t count = b->nkids - oc->first;
-    ru_ynode **kids = b->kids + oc->first;
+    ru_ynode **kids = b->kids ? b->kids + oc->first : NULL; /* none made yet */
     ru_status s = RU_OK;
     if (n->type == RU_YAML_MAPPING) {
         n->n = count / 2; /* libyaml always pairs a key with a value */
