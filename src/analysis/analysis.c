@@ -361,6 +361,7 @@ closing:
         ru_judge_final(&jc, rep);
         if (rq->polish && st == RU_OK)
             ru_polish_run(c, jc.x_end, rep);
+        ru_crystal_notes(c, sys, x_op, jc.x_end, rep);
         if (rq->keep && keep_envelope(rq->keep, k.meas) != RU_OK)
             st = ru_error_set(err, RU_ENOMEM, NULL, 0, 0, "out of memory");
         if (k.energy)

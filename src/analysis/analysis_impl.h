@@ -131,6 +131,13 @@ void ru_stop_plan(const ru_circuit *c, const ru_system *sys, const ru_run_reques
 ru_status ru_runloop(const ru_run_engine *e, ru_measure *m, const ru_judge_ctx *jc,
                      ru_run_report *rep, ru_error *err);
 
+/* For each crystal part once the run measured a frequency: a note with that
+ * frequency in ppm from fs and from the load frequency, the motional current and
+ * the drive power from the last state x_end (a warning above drive-limit).
+ * crystal_notes.c. */
+void ru_crystal_notes(const ru_circuit *c, const ru_system *s, const double *x_op,
+                      const double *x_end, ru_run_report *rep);
+
 /* The envelope engine follows deterministic cycles, so it runs with the thermal
  * noise off; where the noise sets the start level (rep->pred.start_kind noise), x0
  * gains the dominant mode at that level on the probe instead (envrun.c). Says so
