@@ -36,7 +36,6 @@ check "run" 0 $?
 if [ -x "$py" ]; then
     "$py" - "$tmp/json" <<'PY' >"$tmp/pyout" 2>&1
 import json, math, re, sys
-from scipy.optimize import brentq
 d = json.load(open(sys.argv[1]))
 assert d["settled"], d["verdict"]
 fs, q, cm, c0 = 1e6, 1000.0, 10e-12, 101e-12
@@ -45,7 +44,15 @@ yb = lambda w: 1 / complex(rb, w * lb)
 L = 1 / ((2 * math.pi * fs) ** 2 * cm)
 R = 2 * math.pi * fs * L / q
 X = lambda w: w * L - 1 / (w * cm)
-w = brentq(lambda w: w * c0 - X(w) / (R * R + X(w) ** 2) + yb(w).imag,
+def bisect(fn, lo, hi):
+    for _ in range(200):
+        mid = 0.5 * (lo + hi)
+        if (fn(lo) < 0) == (fn(mid) < 0):
+            lo = mid
+        else:
+            hi = mid
+    return 0.5 * (lo + hi)
+w = bisect(lambda w: w * c0 - X(w) / (R * R + X(w) ** 2) + yb(w).imag,
            2 * math.pi * fs * 1.001, 2 * math.pi * fs * 1.2)
 gx = R / (R * R + X(w) ** 2) + yb(w).real
 V = math.sqrt(4 * (g1 - gx) / (3 * g3))
