@@ -43,16 +43,8 @@ static ru_status fail_numeric(dae_run *r, int flag, const char *why, ru_error *e
     double t = 0;
     if (r->ida)
         IDAGetCurrentTime(r->ida, &t);
-    char tb[48];
-    ru_tr_fmt_time(t, tb, sizeof tb);
-    if (why)
-        return ru_error_set(err, RU_ENUMERIC, NULL, 0, 0, "solver failed at t = %s: %s",
-                            tb, why);
-    char *name = IDAGetReturnFlagName(flag);
-    ru_error_set(err, RU_ENUMERIC, NULL, 0, 0, "solver failed at t = %s: %s", tb,
-                 r->msg[0] ? r->msg : (name ? name : "unknown IDA failure"));
-    free(name);
-    return RU_ENUMERIC;
+    return ru_tr_fail_numeric(t, why, r->msg, why ? NULL : IDAGetReturnFlagName(flag),
+                              "unknown IDA failure", err);
 }
 
 static void close_segment(dae_run *r)

@@ -7,6 +7,17 @@
 #include <stdio.h>
 #include <stdlib.h>
 
+ru_status ru_tr_fail_numeric(double t, const char *why, const char *msg, char *flag_name,
+                             const char *fallback, ru_error *err)
+{
+    char tb[48];
+    ru_tr_fmt_time(t, tb, sizeof tb);
+    const char *text = why ? why : msg && msg[0] ? msg : flag_name ? flag_name : fallback;
+    ru_error_set(err, RU_ENUMERIC, NULL, 0, 0, "solver failed at t = %s: %s", tb, text);
+    free(flag_name);
+    return RU_ENUMERIC;
+}
+
 void ru_tr_fmt_time(double t, char *buf, size_t size)
 {
     double a = fabs(t);

@@ -291,16 +291,8 @@ static ru_status fail_numeric(tr_run *r, int flag, const char *why, ru_error *er
 {
     double t = 0;
     CVodeGetCurrentTime(r->cv, &t);
-    char tb[48];
-    ru_tr_fmt_time(t, tb, sizeof tb);
-    if (why)
-        return ru_error_set(err, RU_ENUMERIC, NULL, 0, 0, "solver failed at t = %s: %s",
-                            tb, why);
-    char *name = CVodeGetReturnFlagName(flag);
-    ru_error_set(err, RU_ENUMERIC, NULL, 0, 0, "solver failed at t = %s: %s", tb,
-                 r->cvmsg[0] ? r->cvmsg : (name ? name : "unknown CVODE failure"));
-    free(name);
-    return RU_ENUMERIC;
+    return ru_tr_fail_numeric(t, why, r->cvmsg, why ? NULL : CVodeGetReturnFlagName(flag),
+                              "unknown CVODE failure", err);
 }
 
 /* Adds the counters of the current segment (CVodeReInit resets them). */

@@ -17,6 +17,11 @@
 /* Writes t with an SI prefix ("1.234 ms"). */
 void ru_tr_fmt_time(double t, char *buf, size_t size);
 
+/* RU_ENUMERIC with "solver failed at t = T: " and why, else the solver's own message
+ * (msg), else its return flag's name (flag_name, freed here; NULL: fallback). */
+ru_status ru_tr_fail_numeric(double t, const char *why, const char *msg, char *flag_name,
+                             const char *fallback, ru_error *err);
+
 /* RU_ERANGE with a message for missing or out-of-range options or state. */
 ru_status ru_tr_check_opts(const ru_system *s, const ru_transient_opts *o,
                            const double *x0, ru_sample_fn fn, ru_error *err);
