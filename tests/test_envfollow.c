@@ -345,7 +345,7 @@ static void test_cost_flat_in_q(void **state)
 
 /* A run in three advances (as the automatic run length drives it, each ending with
  * cycles integrated in full) gives the figures of one advance: start-up time and
- * amplitude to the envelope steps' tolerance (rtol_env 1e-6 at normal; 1e-4 allows
+ * amplitude to the envelope steps' tolerance (rtol_env 1e-5 at normal; 1e-3 allows
  * for the different step sequences). */
 static void test_chunks_match_one_run(void **state)
 {
@@ -386,9 +386,9 @@ static void test_chunks_match_one_run(void **state)
     judge(&g, &t, &three);
     ru_measure_destroy(k3.m);
     assert_true(three.started && three.settled);
-    RU_ASSERT_REL(three.startup_time_s, one.startup_time_s, 1e-4);
-    RU_ASSERT_REL(three.settled_amplitude_v, one.settled_amplitude_v, 1e-4);
-    RU_ASSERT_REL(k3.last_a, k1.last_a, 1e-4);
+    RU_ASSERT_REL(three.startup_time_s, one.startup_time_s, 1e-3);
+    RU_ASSERT_REL(three.settled_amplitude_v, one.settled_amplitude_v, 1e-3);
+    RU_ASSERT_REL(k3.last_a, k1.last_a, 1e-3);
     rig_close(&g);
 }
 

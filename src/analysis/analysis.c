@@ -408,6 +408,12 @@ static double noise_band(const ru_run_report *rep)
  * 170 solver steps each at normal accuracy). A long study can be split into runs. */
 #define RU_MAX_SAMPLES 5e7
 #define RU_MAX_CYCLES 2e6
+/* An envelope run samples only what it integrates: about the head (at most 200
+ * cycles after the sources settle), a tail of 80 cycles per chunk and 400 cycles
+ * computed alone; its samples are bounded by RU_ENV_SAMPLED_CYCLES of them, and
+ * the span by RU_MAX_ENV_CYCLES (each envelope step covers up to thousands). */
+#define RU_ENV_SAMPLED_CYCLES 2e4
+#define RU_MAX_ENV_CYCLES 1e10
 /* wave.csv: at most RU_MAX_CSV_BYTES, estimated at 16 bytes a value (",%.10g" of a
  * value such as -0.001234567891 is 16; exponents make some longer, zeros shorter) */
 #define RU_MAX_CSV_BYTES 2e9
@@ -426,8 +432,20 @@ static ru_status check_size(const ru_circuit *c, const ru_run_request *rq,
                             "spacing or give a stop time",
                             rep->sample_s, rep->stop.first_s);
     double samples = rep->stop_s / rep->sample_s;
-    double cycles = rep->pred.have_poles && !rep->engine.envelope
-                        ? rep->stop_s * rep->pred.frequency_hz : 0;
+    double cycles = rep->pred.have_poles ? rep->stop_s * rep->pred.frequency_hz : 0;
+    if (rep->engine.envelope && cycles > 0) {
+        /* only the integrated stretches are sampled: the head, the tails, the cycles
+         * computed alone; the envelope steps span the rest at a cost that does not
+         * grow with their number */
+        samples = fmin(samples,
+                       RU_ENV_SAMPLED_CYCLES / (rep->pred.frequency_hz * rep->sample_s));
+        if (cycles > RU_MAX_ENV_CYCLES)
+            return ru_error_set(err, RU_EINPUT, ru_circuit_file(c), 0, 0,
+                                "the run spans %.3g cycles of the %.4g Hz tone, more than "
+                                "%.0e even for envelope steps: shorten the run",
+                                cycles, rep->pred.frequency_hz, RU_MAX_ENV_CYCLES);
+        cycles = 0;
+    }
     if (samples > RU_MAX_SAMPLES)
         return ru_error_set(err, RU_EINPUT, ru_circuit_file(c), 0, 0,
                             "the run would make %.3g output samples (stop %g s at a "
