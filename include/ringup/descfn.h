@@ -87,6 +87,26 @@ ru_status ru_df_zero_state(const ru_df *d, double *x0, double *x_re, double *x_i
 ru_status ru_df_startup_time(ru_df *d, double a_from_v, double a_to_v, double *t_s,
                              ru_error *err);
 
+/* A growth-rate law sigma(A) for ru_slowflow_run: sigma at amplitude amp_v (> 0)
+ * into *sigma_per_s; a status other than RU_OK stops the integration. */
+typedef ru_status (*ru_sigma_fn)(void *user, double amp_v, double *sigma_per_s,
+                                 ru_error *err);
+
+/* The method of averaging's slow flow dA/dt = sigma(A) A integrated in time from
+ * A(0) = a0_v > 0 to t_stop_s > 0: npts (>= 2) points, t_s[k] = k t_stop_s /
+ * (npts - 1), amp_v[k] = A(t_s[k]) (caller-owned arrays of npts). Classical RK4 in
+ * ln A with steps of at most 0.02 / max(|sigma|, |d sigma / d ln A|) (a local error
+ * far below 1e-6 relative). RU_ERANGE for bad arguments; the law's status when it
+ * fails (the points before it are written, *nout says how many; nout may be NULL). */
+ru_status ru_slowflow_run(ru_sigma_fn sigma, void *user, double a0_v, double t_stop_s,
+                          size_t npts, double *t_s, double *amp_v, size_t *nout,
+                          ru_error *err);
+
+/* The slow flow of the describing function's sigma(A) on a handle (below the first
+ * balance, the linear limit's sigma, as in ru_df_startup_time). */
+ru_status ru_df_slow_flow(ru_df *d, double a0_v, double t_stop_s, size_t npts,
+                          double *t_s, double *amp_v, size_t *nout, ru_error *err);
+
 /* Sweeps the probe amplitude from a small value (the linear limit) up to amp_max_v
  * (0: 100x the largest supply or 100 V), on a geometric grid of at most max_pts
  * points (curve may be NULL), stops past the zero of sigma, and refines the zero.

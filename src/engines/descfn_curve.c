@@ -143,6 +143,11 @@ void ru_df_destroy(ru_df *d)
     free(d);
 }
 
+double ru_df_min_amplitude(const ru_df *d)
+{
+    return d->a_min;
+}
+
 static ru_df_point point_of(const ru_df *d)
 {
     size_t n = d->h.n;

@@ -49,4 +49,8 @@ ru_status ru_df_hb_guess(ru_df_hb *h, const double *x_op, ru_pole dom, double *u
 /* Scales the oscillating part of u to a new amplitude (continuation predictor). */
 void ru_df_hb_rescale(ru_df_hb *h, double *u, double amp_new_v);
 
+/* The smallest amplitude a handle solved (its linear limit, V). */
+struct ru_df;
+double ru_df_min_amplitude(const struct ru_df *d);
+
 #endif
