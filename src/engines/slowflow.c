@@ -14,6 +14,9 @@
 #include <stddef.h>
 
 #define RU_SF_STEP 0.02 /* largest change of u = ln A per step, in units of 1/rate */
+#define RU_SF_MAX_STEPS 200000 /* a rate that changes faster than this can follow
+                                  (a hard limit's jump in sigma) is refused, not
+                                  stepped through forever */
 
 /* One RK4 step of du/dt = sigma(e^u) over h; *s0 is sigma at u (given). */
 static ru_status rk4(ru_sigma_fn f, void *user, double *u, double h, double s0,
@@ -42,6 +45,7 @@ ru_status ru_slowflow_run(ru_sigma_fn sigma, void *user, double a0_v, double t_s
                             "points or more (got %g V, %g s, %zu)",
                             a0_v, t_stop_s, npts);
     double u = log(a0_v), t = 0, s0, slope = 0;
+    long steps = 0;
     ru_status st = sigma(user, a0_v, &s0, err);
     if (st != RU_OK)
         return st;
@@ -56,6 +60,11 @@ ru_status ru_slowflow_run(ru_sigma_fn sigma, void *user, double a0_v, double t_s
             double h = rate > 0 ? fmin(t_end - t, RU_SF_STEP / rate) : t_end - t;
             if (t + h > t_end || t_end - (t + h) < 1e-12 * t_end)
                 h = t_end - t;
+            if (++steps > RU_SF_MAX_STEPS)
+                return ru_error_set(err, RU_ENUMERIC, NULL, 0, 0,
+                                    "slow flow: the growth rate changes too fast to "
+                                    "follow near %.4g V (more than %d steps)",
+                                    exp(u), RU_SF_MAX_STEPS);
             double u_old = u, s_old = s0;
             if ((st = rk4(sigma, user, &u, h, s0, err)) != RU_OK ||
                 (st = sigma(user, exp(u), &s0, err)) != RU_OK)
