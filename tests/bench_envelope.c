@@ -10,7 +10,7 @@
  * and run it from the source folder with RINGUP_MODELS=models:
  *   bench_envelope [SECTION...]
  * Sections (default: all):
- *   accuracy   Q = 1e3 and 1e4 tanks, the Pierce and watch-crystal examples: start-up
+ *   accuracy   Q = 1e3 and 1e4 tanks, the cmos-pierce and watch-crystal examples: start-up
  *              time, settled amplitude and frequency of an envelope run against a
  *              direct run, both at precise (the direct runs take minutes);
  *   cost       the envelope engine's right-hand-side evaluations and CPU time from
@@ -159,7 +159,7 @@ static void section_accuracy(void)
     printf("== accuracy: envelope against direct, both at precise, same run length\n");
     accuracy_case("tank Q 1e3", tank(1e3, 5));
     accuracy_case("tank Q 1e4", tank(1e4, 5));
-    accuracy_case("pierce-crystal", example("examples/pierce-crystal.yaml"));
+    accuracy_case("cmos-pierce", example("examples/cmos-pierce.yaml"));
 }
 
 static void section_cost(void)

@@ -283,7 +283,10 @@ static void test_q1e4_growth(void **state)
     /* the two last-cycle stamps differ by a fraction of a period: compare the
      * envelope engine's amplitude with the direct one carried along exp(sigma dt) */
     double adj = al * exp(t.sigma * (k.last_t - tl));
-    RU_ASSERT_REL(k.last_a, adj, 2e-4);
+    /* the envelope steps' tolerance here is 1e4 x rtol_cycle = 6e-5 per step: the
+     * amplitude after a growth of 23x (ln 23 = 3.1 time constants) within 1e-3 is a
+     * start-up time within 3e-4 */
+    RU_ASSERT_REL(k.last_a, adj, 1e-3);
     /* Averaging: a(t) grew 23x; 1e-3 covers the growth window's start (a0 is the
      * dominant mode's share of the kick, exact here) */
     RU_ASSERT_REL(k.last_a, avg_envelope(&t, k.last_t), 1e-3);

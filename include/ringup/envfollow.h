@@ -52,7 +52,7 @@ typedef struct ru_envf_opts {
                              integration's own damping may cause (sets rtol_cycle) */
     double rtol_cycle_max;/* loosest tolerance of the cycle integrations */
     double rtol_env;      /* relative tolerance of the envelope steps (raised to at
-                             least 1e3 times the cycle integrations' tolerance) */
+                             least 1e4 times the cycle integrations' tolerance) */
     const double *x_op;   /* operating point (n entries) */
     ru_pole pole;         /* dominant pair (im > 0): the section, the first period */
     int probe_pos;        /* probe node: v(pos) - v(neg) */

@@ -60,7 +60,7 @@ void ru_envf_opts_for(ru_accuracy acc, ru_envf_opts *o)
 
 #define ENVF_DAMP_PER_RTOL 200.0 /* damping per cycle over rtol, with a margin */
 #define ENVF_RTOL_FLOOR 1e-13     /* below this the damping stops falling */
-#define ENVF_ENV_OVER_CYCLE 1e3   /* envelope tolerance at least this times the cycles' */
+#define ENVF_ENV_OVER_CYCLE 1e4   /* envelope tolerance at least this times the cycles' */
 
 double ru_envf_rtol_cycle(const ru_envf_opts *o)
 {
@@ -335,9 +335,12 @@ ru_status ru_envf_create(const ru_system *s, const ru_envf_opts *o, const double
     /* The cycle map is known only to the cycle integrations' own error, which does
      * not vary smoothly with the section point (the step sequence changes): asking
      * the envelope steps for less than a few hundred times that makes them resolve
-     * that noise, and they shrink to a few cycles (measured on a 32.768 kHz crystal
-     * around an inverter at normal: rtol_env 1e-6 took 7 cycles a step and 18 s,
-     * 1e-5 took 96 and 1.4 s, for the same envelope within 0.15 %). */
+     * that noise, and they shrink to a few cycles. Measured on a 32.768 kHz crystal
+     * around an inverter at normal (rtol_cycle 2.9e-9): the first 0.4 s with
+     * rtol_env 1e-6 took 7 cycles a step and 18 s CPU, with 1e-5 96 cycles and 1.4 s
+     * (the same envelope within 0.15 %); the whole start-up to settled needed more
+     * than 120 s at 3e3 rtol_cycle and 16 s at 1e4 (2.9e-5). On a Q = 1e4 tank the
+     * amplitude after 3000 cycles of growth moves by 9e-4 (3e-4 of the start-up). */
     r->o.rtol_env = fmax(r->o.rtol_env, ENVF_ENV_OVER_CYCLE * r->rtol_cycle);
     r->delta_rel = sqrt(r->rtol_cycle);
     r->head_tlast = NAN;
